@@ -1,0 +1,1 @@
+"""Physics: standard atmosphere and profiles, ray tracing, ground signature."""

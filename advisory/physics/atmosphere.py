@@ -469,7 +469,9 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
                         f"atmosphere file {path}: row {i + 1}: {k.strip()} = {v!r} is not a number"
                     ) from exc
             rows.append(row)
-    levels = [_level_from_row(r, f"atmosphere file {path}: row {i + 1}") for i, r in enumerate(rows)]
+    levels = [
+        _level_from_row(r, f"atmosphere file {path}: row {i + 1}") for i, r in enumerate(rows)
+    ]
     try:
         return atmosphere_from_levels(levels, temp_offset_k, source=str(path))
     except AtmosphereError as exc:

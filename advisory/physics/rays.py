@@ -413,7 +413,8 @@ class FlightCondition:
         lo, hi = float(atm.z_m[0]), float(atm.z_m[-1])
         if not (lo <= self.ground_elevation_m <= hi):
             raise FlightConditionError(
-                f"ground_elevation: {self.ground_elevation_m:.0f} m is outside [{lo:.0f}, {hi:.0f}] m"
+                f"ground_elevation: {self.ground_elevation_m:.0f} m is outside "
+                f"[{lo:.0f}, {hi:.0f}] m"
             )
         if not (self.ground_elevation_m < self.altitude_m <= hi):
             raise FlightConditionError(

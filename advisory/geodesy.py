@@ -6,21 +6,19 @@ are metres along the geodesic on the ellipsoid surface.
 
 Methods
 -------
-* Inverse and direct problems: Vincenty's formulae (T. Vincenty, "Direct and inverse
-  solutions of geodesics on the ellipsoid with application of nested equations",
-  Survey Review 23(176), 88-93, 1975), accurate to about 0.1 mm. Where Vincenty's
-  inverse iteration does not converge (near-antipodal points) the solution falls back
-  to bisection on the azimuth at the first point, using the canonical configuration
-  and the monotonicity of the longitude difference in that azimuth described by
-  C. F. F. Karney, "Algorithms for geodesics", J. Geodesy 87, 43-55 (2013), sec. 4,
-  with Vincenty's series for the longitude and distance integrals.
-* :class:`LocalFrame`: azimuthal equidistant projection about an origin on the
-  ellipsoid (J. P. Snyder, *Map Projections: A Working Manual*, USGS Professional
-  Paper 1395, 1987, sec. 25), built on the geodesic problems above: the east/north
-  coordinates of a point are its geodesic distance from the origin times the sine and
-  cosine of the azimuth at the origin. Distances and azimuths from the origin are exact;
-  the scale across the radial direction is ``rho / (R sin(rho / R))``, about
-  ``1 + rho**2 / (6 R**2)`` (Snyder, eq. 25-2 on the sphere), i.e. +0.10 % at 500 km.
+* Inverse and direct problems: Vincenty's formulae ("Direct and inverse solutions of
+  geodesics on the ellipsoid with application of nested equations", Survey Review
+  23(176), 88-93, 1975), accurate to about 0.1 mm. Where the inverse iteration does not
+  converge (near-antipodal points) the solution falls back to bisection on the azimuth
+  at the first point, in the canonical configuration of Karney's algorithm, where the
+  longitude difference grows monotonically with that azimuth ("Algorithms for
+  geodesics", J. Geodesy 87, 43-55, 2013, sec. 4), with Vincenty's series for the
+  longitude and distance integrals.
+* :class:`LocalFrame`: an azimuthal projection about an origin, built on the geodesic
+  problems above (exact geodesic distance and azimuth from the origin) with Lambert's
+  equal-area radial law on the Gaussian sphere at the origin (*Map Projections: A
+  Working Manual*, USGS Professional Paper 1395, 1987, sec. 24; "PP 1395" below), which
+  splits the scale error evenly between the radial and transverse directions.
 
 The numeric cores are numba ``njit(cache=True)`` kernels over plain float64 arrays.
 Their twins are the same source run as plain Python (:func:`python_twin` rebinds every
@@ -36,6 +34,8 @@ WGS 84 defining parameters a = 6378137 m, 1/f = 298.257223563: NIMA TR8350.2,
 from __future__ import annotations
 
 import math
+import types
+from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
@@ -48,11 +48,16 @@ __all__ = [
     "WGS84_E2",
     "GeodesicInverse",
     "GeodesicDirect",
+    "GeodesicInverseDeg",
+    "GeodesicDirectDeg",
     "inverse",
     "direct",
     "inverse_deg",
     "direct_deg",
     "LocalFrame",
+    "FramePoints",
+    "gaussian_radius",
+    "python_twin",
 ]
 
 WGS84_A = 6378137.0  #: semi-major axis, m (NIMA TR8350.2, table 3.1)
@@ -78,8 +83,15 @@ def _wrap_pi_point(x: float) -> float:
 
 
 @njit(cache=True)
+def _wrap_2pi_point(x: float) -> float:
+    """Wrap an angle to [0, 2 pi)."""
+    r = x % _TWO_PI
+    return 0.0 if r >= _TWO_PI else r
+
+
+@njit(cache=True)
 def _vincenty_ab_point(cos2_alpha: float) -> tuple[float, float]:
-    """Vincenty's A and B distance-series coefficients (Survey Review 1975, eqs. 3, 4)."""
+    """Vincenty's A and B distance-series coefficients (Survey Review 1975)."""
     u2 = cos2_alpha * _EP2
     big_a = 1.0 + u2 / 16384.0 * (4096.0 + u2 * (-768.0 + u2 * (320.0 - 175.0 * u2)))
     big_b = u2 / 1024.0 * (256.0 + u2 * (-128.0 + u2 * (74.0 - 47.0 * u2)))
@@ -88,7 +100,7 @@ def _vincenty_ab_point(cos2_alpha: float) -> tuple[float, float]:
 
 @njit(cache=True)
 def _delta_sigma_point(big_b: float, sin_s: float, cos_s: float, cos_2sm: float) -> float:
-    """Vincenty's delta-sigma (Survey Review 1975, eq. 6)."""
+    """Vincenty's delta-sigma (Survey Review 1975)."""
     c2 = cos_2sm * cos_2sm
     return big_b * sin_s * (
         cos_2sm
@@ -104,7 +116,7 @@ def _delta_sigma_point(big_b: float, sin_s: float, cos_s: float, cos_2sm: float)
 @njit(cache=True)
 def _lon_series_point(sin_alpha0: float, cos2_alpha: float, sigma: float, sin_s: float,
                       cos_s: float, cos_2sm: float) -> float:
-    """Auxiliary-sphere minus ellipsoid longitude difference (Vincenty 1975, eqs. 10, 11)."""
+    """Auxiliary-sphere minus ellipsoid longitude difference (Vincenty, Survey Review 1975)."""
     f = WGS84_F
     c = f / 16.0 * cos2_alpha * (4.0 + f * (4.0 - 3.0 * cos2_alpha))
     return (1.0 - c) * f * sin_alpha0 * (
@@ -130,7 +142,7 @@ def _lambda12_point(alpha1: float, sb1: float, cb1: float, sb2: float, cb2: floa
     ca1 = math.cos(alpha1)
     sin_alpha0 = sa1 * cb1
     cos2_alpha = 1.0 - sin_alpha0 * sin_alpha0
-    # azimuth at beta2 (Karney 2013, eqs. 5, 45, heading north there)
+    # azimuth at beta2 from Clairaut's relation, heading north there (Karney 2013, sec. 4)
     ca2 = math.sqrt(max(0.0, ca1 * ca1 * cb1 * cb1 + (cb2 * cb2 - cb1 * cb1))) / cb2
     sa2 = sin_alpha0 / cb2
     alpha2 = math.atan2(sa2, ca2)
@@ -164,8 +176,9 @@ def _inverse_bisect_point(lat1: float, lon1: float, lat2: float, lon2: float
     lon_sign = 1.0 if lon12 >= 0.0 else -1.0
     lon12 = abs(lon12)
     swapped = abs(lat1) < abs(lat2)
-    if swapped:
+    if swapped:  # solve from point 2 to point 1: the longitude difference changes sign
         lat1, lat2 = lat2, lat1
+        lon_sign = -lon_sign
     lat_sign = 1.0
     if lat1 > 0.0:
         lat_sign = -1.0
@@ -201,7 +214,7 @@ def _inverse_bisect_point(lat1: float, lon1: float, lat2: float, lon2: float
     sa2 *= lon_sign
     ca1 *= lat_sign
     ca2 *= lat_sign
-    return s12, math.atan2(sa1, ca1) % _TWO_PI, math.atan2(sa2, ca2) % _TWO_PI
+    return s12, _wrap_2pi_point(math.atan2(sa1, ca1)), _wrap_2pi_point(math.atan2(sa2, ca2))
 
 
 @njit(cache=True)
@@ -256,13 +269,13 @@ def _inverse_point(lat1: float, lon1: float, lat2: float, lon2: float
     s12 = WGS84_B * big_a * (sigma - _delta_sigma_point(big_b, sin_s, cos_s, cos_2sm))
     azi1 = math.atan2(cu2 * sin_lam, cu1 * su2 - su1 * cu2 * cos_lam)
     azi2 = math.atan2(cu1 * sin_lam, -su1 * cu2 + cu1 * su2 * cos_lam)
-    return s12, azi1 % _TWO_PI, azi2 % _TWO_PI
+    return s12, _wrap_2pi_point(azi1), _wrap_2pi_point(azi2)
 
 
 @njit(cache=True)
 def _direct_point(lat1: float, lon1: float, azi1: float, s12: float
                   ) -> tuple[float, float, float]:
-    """Geodesic direct problem for one point (Vincenty 1975, eqs. 1-9 and 10-12).
+    """Geodesic direct problem for one point (Vincenty, Survey Review 1975).
 
     Returns
     -------
@@ -302,6 +315,496 @@ def _direct_point(lat1: float, lon1: float, azi1: float, s12: float
     big_l = lam - _lon_series_point(sin_alpha0, cos2_alpha, sigma, sin_s, cos_s, cos_2sm)
     lon2 = _wrap_pi_point(lon1 + big_l)
     azi2 = math.atan2(sin_alpha0, -tmp)
-    return lat2, lon2, azi2 % _TWO_PI
+    return lat2, lon2, _wrap_2pi_point(azi2)
 
 
+# --------------------------------------------------------------------------------------
+# Array kernels (plain 1-D float64 arrays in and out)
+# --------------------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def inverse_kernel(lat1: np.ndarray, lon1: np.ndarray, lat2: np.ndarray, lon2: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Inverse problem over equal-length 1-D arrays (rad in; m, rad, rad out)."""
+    n = lat1.shape[0]
+    s12 = np.empty(n)
+    azi1 = np.empty(n)
+    azi2 = np.empty(n)
+    for i in range(n):
+        s12[i], azi1[i], azi2[i] = _inverse_point(lat1[i], lon1[i], lat2[i], lon2[i])
+    return s12, azi1, azi2
+
+
+@njit(cache=True)
+def direct_kernel(lat1: np.ndarray, lon1: np.ndarray, azi1: np.ndarray, s12: np.ndarray
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Direct problem over equal-length 1-D arrays (rad, rad, rad, m in; rad out)."""
+    n = lat1.shape[0]
+    lat2 = np.empty(n)
+    lon2 = np.empty(n)
+    azi2 = np.empty(n)
+    for i in range(n):
+        lat2[i], lon2[i], azi2[i] = _direct_point(lat1[i], lon1[i], azi1[i], s12[i])
+    return lat2, lon2, azi2
+
+
+@njit(cache=True)
+def _radial_law_point(s: float, radius: float) -> float:
+    """Plane distance from the origin of a point at geodesic distance ``s``, m.
+
+    Lambert's azimuthal equal-area radial law on a sphere of radius ``radius``:
+    ``r = 2 R sin(s / (2 R))`` (PP 1395, sec. 24).
+    """
+    return 2.0 * radius * math.sin(0.5 * s / radius)
+
+
+@njit(cache=True)
+def _radial_law_inv_point(r: float, radius: float) -> float:
+    """Geodesic distance from the origin of a plane point at distance ``r`` (NaN past 2R)."""
+    x = 0.5 * r / radius
+    if x > 1.0:
+        return math.nan
+    return 2.0 * radius * math.asin(x)
+
+
+@njit(cache=True)
+def frame_forward_kernel(lat0: float, lon0: float, radius: float, lat: np.ndarray,
+                         lon: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Frame coordinates (east, north in m) of geodetic points (rad) about an origin,
+    and the outward radial azimuth at each point (rad)."""
+    n = lat.shape[0]
+    east = np.empty(n)
+    north = np.empty(n)
+    azi = np.empty(n)
+    for i in range(n):
+        s, a1, a2 = _inverse_point(lat0, lon0, lat[i], lon[i])
+        r = _radial_law_point(s, radius)
+        east[i] = r * math.sin(a1)
+        north[i] = r * math.cos(a1)
+        azi[i] = a2
+    return east, north, azi
+
+
+@njit(cache=True)
+def frame_inverse_kernel(lat0: float, lon0: float, radius: float, east: np.ndarray,
+                         north: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Latitude, longitude (rad) and outward radial azimuth there (rad) of frame points."""
+    n = east.shape[0]
+    lat = np.empty(n)
+    lon = np.empty(n)
+    azi = np.empty(n)
+    for i in range(n):
+        s = _radial_law_inv_point(math.hypot(east[i], north[i]), radius)
+        lat[i], lon[i], azi[i] = _direct_point(lat0, lon0, math.atan2(east[i], north[i]), s)
+    return lat, lon, azi
+
+
+# --------------------------------------------------------------------------------------
+# Plain-Python twins
+# --------------------------------------------------------------------------------------
+
+
+def python_twin(kernel):
+    """Plain-Python twin of a numba kernel: the same source, run by the interpreter.
+
+    Every numba function the kernel calls (found among its global names) is replaced by
+    its own plain-Python twin, recursively, so no compiled code runs. Used by the parity
+    tests; slow.
+
+    Parameters
+    ----------
+    kernel : numba dispatcher
+        A function decorated with ``numba.njit``.
+
+    Returns
+    -------
+    callable
+        A plain-Python function with the same signature and results.
+    """
+    memo: dict[int, types.FunctionType] = {}
+
+    def build(disp):
+        key = id(disp)
+        if key in memo:
+            return memo[key]
+        fn = disp.py_func
+        g = dict(fn.__globals__)
+        twin = types.FunctionType(fn.__code__, g, fn.__name__, fn.__defaults__, fn.__closure__)
+        memo[key] = twin
+        for name in fn.__code__.co_names:
+            val = g.get(name)
+            if hasattr(val, "py_func") and hasattr(val, "signatures"):
+                g[name] = build(val)
+        return twin
+
+    return build(kernel)
+
+
+# --------------------------------------------------------------------------------------
+# Public API
+# --------------------------------------------------------------------------------------
+
+
+class GeodesicInverse(NamedTuple):
+    """Solution of the inverse problem (floats for scalar input, arrays otherwise).
+
+    Attributes
+    ----------
+    distance_m : float or ndarray
+        Geodesic distance, m.
+    azimuth1_rad : float or ndarray
+        Forward azimuth at point 1 (toward point 2), rad clockwise from north, [0, 2 pi).
+    azimuth2_rad : float or ndarray
+        Forward azimuth at point 2 (direction of travel arriving there), rad, [0, 2 pi).
+    """
+
+    distance_m: float | np.ndarray
+    azimuth1_rad: float | np.ndarray
+    azimuth2_rad: float | np.ndarray
+
+    @property
+    def back_azimuth_rad(self) -> float | np.ndarray:
+        """Azimuth at point 2 toward point 1 (``azimuth2_rad + pi``), rad, [0, 2 pi)."""
+        r = np.mod(np.asarray(self.azimuth2_rad) + math.pi, _TWO_PI)
+        r = np.where(r >= _TWO_PI, 0.0, r)
+        return float(r) if r.ndim == 0 else r
+
+
+class GeodesicDirect(NamedTuple):
+    """Solution of the direct problem (floats for scalar input, arrays otherwise).
+
+    Attributes
+    ----------
+    lat_rad, lon_rad : float or ndarray
+        End point, rad (longitude in [-pi, pi)).
+    azimuth_rad : float or ndarray
+        Forward azimuth at the end point, rad clockwise from north, [0, 2 pi).
+    """
+
+    lat_rad: float | np.ndarray
+    lon_rad: float | np.ndarray
+    azimuth_rad: float | np.ndarray
+
+
+class GeodesicInverseDeg(NamedTuple):
+    """:class:`GeodesicInverse` in degrees: distance (m) and azimuths (deg, [0, 360))."""
+
+    distance_m: float | np.ndarray
+    azimuth1_deg: float | np.ndarray
+    azimuth2_deg: float | np.ndarray
+
+    @property
+    def back_azimuth_deg(self) -> float | np.ndarray:
+        """Azimuth at point 2 toward point 1, deg, [0, 360)."""
+        r = np.mod(np.asarray(self.azimuth2_deg) + 180.0, 360.0)
+        r = np.where(r >= 360.0, 0.0, r)
+        return float(r) if r.ndim == 0 else r
+
+
+class GeodesicDirectDeg(NamedTuple):
+    """:class:`GeodesicDirect` in degrees: end point and azimuth there (deg)."""
+
+    lat_deg: float | np.ndarray
+    lon_deg: float | np.ndarray
+    azimuth_deg: float | np.ndarray
+
+
+def _flat(*args) -> tuple[tuple[int, ...], list[np.ndarray]]:
+    arrays = np.broadcast_arrays(*[np.asarray(a, dtype=np.float64) for a in args])
+    shape = arrays[0].shape
+    return shape, [np.ascontiguousarray(a).reshape(-1) for a in arrays]
+
+
+def _shaped(shape: tuple[int, ...], arr: np.ndarray) -> float | np.ndarray:
+    return float(arr[0]) if shape == () else arr.reshape(shape)
+
+
+def inverse(lat1, lon1, lat2, lon2) -> GeodesicInverse:
+    """Solve the geodesic inverse problem on WGS 84 (Vincenty 1975; see module notes).
+
+    Parameters
+    ----------
+    lat1, lon1, lat2, lon2 : float or array_like
+        Geodetic latitude and longitude of the two points, rad (broadcast together).
+
+    Returns
+    -------
+    GeodesicInverse
+        ``(distance_m, azimuth1_rad, azimuth2_rad)``; for coincident points the
+        distance is 0 and both azimuths are 0.
+    """
+    shape, (a, b, c, d) = _flat(lat1, lon1, lat2, lon2)
+    s, z1, z2 = inverse_kernel(a, b, c, d)
+    return GeodesicInverse(_shaped(shape, s), _shaped(shape, z1), _shaped(shape, z2))
+
+
+def direct(lat1, lon1, azimuth1, distance_m) -> GeodesicDirect:
+    """Solve the geodesic direct problem on WGS 84 (Vincenty 1975).
+
+    Parameters
+    ----------
+    lat1, lon1 : float or array_like
+        Start point, rad.
+    azimuth1 : float or array_like
+        Azimuth at the start point, rad clockwise from true north.
+    distance_m : float or array_like
+        Distance along the geodesic, m (negative goes backwards).
+
+    Returns
+    -------
+    GeodesicDirect
+        ``(lat_rad, lon_rad, azimuth_rad)`` of the end point.
+    """
+    shape, (a, b, c, d) = _flat(lat1, lon1, azimuth1, distance_m)
+    la, lo, az = direct_kernel(a, b, c, d)
+    return GeodesicDirect(_shaped(shape, la), _shaped(shape, lo), _shaped(shape, az))
+
+
+def inverse_deg(lat1_deg, lon1_deg, lat2_deg, lon2_deg) -> GeodesicInverseDeg:
+    """:func:`inverse` with degrees in and out (distance still in m)."""
+    r = inverse(*(np.radians(x) for x in (lat1_deg, lon1_deg, lat2_deg, lon2_deg)))
+    return GeodesicInverseDeg(r.distance_m, _deg(r.azimuth1_rad), _deg(r.azimuth2_rad))
+
+
+def direct_deg(lat1_deg, lon1_deg, azimuth1_deg, distance_m) -> GeodesicDirectDeg:
+    """:func:`direct` with degrees in and out (distance in m)."""
+    r = direct(np.radians(lat1_deg), np.radians(lon1_deg), np.radians(azimuth1_deg),
+               distance_m)
+    return GeodesicDirectDeg(_deg(r.lat_rad), _deg(r.lon_rad), _deg(r.azimuth_rad))
+
+
+def _deg(x: float | np.ndarray) -> float | np.ndarray:
+    return float(np.degrees(x)) if np.ndim(x) == 0 else np.degrees(x)
+
+
+def gaussian_radius(lat_rad: float) -> float:
+    """Gaussian mean radius of curvature ``sqrt(M N)`` of WGS 84 at a latitude, m.
+
+    ``M = a (1 - e2) / W**3`` and ``N = a / W`` with ``W = sqrt(1 - e2 sin**2 lat)``
+    (radii of curvature in the meridian and the prime vertical, PP 1395, sec. 4).
+    """
+    w2 = 1.0 - WGS84_E2 * math.sin(lat_rad) ** 2
+    return WGS84_A * math.sqrt(1.0 - WGS84_E2) / w2
+
+
+@dataclass(frozen=True)
+class LocalFrame:
+    """East-north plane frame about an origin on WGS 84, for zones, carpets and paths.
+
+    An azimuthal projection: a point at geodesic distance ``s`` and azimuth ``a`` (at the
+    origin) from the origin, both exact on the ellipsoid through the geodesic problems of
+    this module, sits at ``r (sin a, cos a)`` with Lambert's equal-area radial law
+    ``r = 2 R sin(s / 2R)`` (PP 1395, sec. 24), ``R`` the Gaussian radius at the
+    origin. Geodesics through the origin are straight lines. The radial scale is
+    ``cos(s/2R)`` and the transverse scale its inverse, so planar distances and
+    directions are off by at most ``s**2 / (8 R**2)``: 0.08 % at 500 km from the origin
+    (an azimuthal equidistant frame would reach 0.10 %). Round trips are good to well
+    under a millimetre.
+
+    Grid bearings in this plane (clockwise from the frame's north axis) differ from true
+    azimuths away from the origin by the meridian convergence (degrees at a few hundred
+    km); convert with :meth:`azimuth_to_grid` and :meth:`grid_to_azimuth`.
+
+    Parameters
+    ----------
+    lat0_rad, lon0_rad : float
+        Origin, rad.
+    """
+
+    lat0_rad: float
+    lon0_rad: float
+    radius_m: float = field(init=False, repr=False, compare=False)
+
+    def __post_init__(self) -> None:
+        for name in ("lat0_rad", "lon0_rad"):
+            v = getattr(self, name)
+            if not isinstance(v, (int, float, np.floating, np.integer)) or not math.isfinite(v):
+                raise ValueError(f"LocalFrame {name} must be a finite number, got {v!r}")
+            object.__setattr__(self, name, float(v))
+        if abs(self.lat0_rad) > 0.5 * math.pi:
+            raise ValueError(f"LocalFrame lat0_rad must be in [-pi/2, pi/2], got {self.lat0_rad}")
+        # Gaussian mean radius at the origin, m (sets the radial law and the scales)
+        object.__setattr__(self, "radius_m", gaussian_radius(self.lat0_rad))
+
+    @classmethod
+    def from_deg(cls, lat0_deg: float, lon0_deg: float) -> LocalFrame:
+        """Frame about an origin given in degrees."""
+        return cls(math.radians(lat0_deg), math.radians(lon0_deg))
+
+    def to_enu(self, lat, lon) -> tuple[float | np.ndarray, float | np.ndarray]:
+        """Frame coordinates of geodetic points.
+
+        Parameters
+        ----------
+        lat, lon : float or array_like
+            Latitude and longitude, rad.
+
+        Returns
+        -------
+        east_m, north_m : float or ndarray
+            Coordinates in the frame, m.
+        """
+        shape, (la, lo) = _flat(lat, lon)
+        e, n, _ = frame_forward_kernel(self.lat0_rad, self.lon0_rad, self.radius_m, la, lo)
+        return _shaped(shape, e), _shaped(shape, n)
+
+    def from_enu(self, east, north) -> tuple[float | np.ndarray, float | np.ndarray]:
+        """Geodetic points of frame coordinates.
+
+        Parameters
+        ----------
+        east, north : float or array_like
+            Coordinates in the frame, m.
+
+        Returns
+        -------
+        lat_rad, lon_rad : float or ndarray
+            Latitude and longitude (in [-pi, pi)), rad.
+        """
+        shape, (e, n) = _flat(east, north)
+        la, lo, _ = frame_inverse_kernel(self.lat0_rad, self.lon0_rad, self.radius_m, e, n)
+        return _shaped(shape, la), _shaped(shape, lo)
+
+    def scale_factors(self, east, north) -> tuple[np.ndarray, np.ndarray]:
+        """Map scales at frame points: plane length per ground length, m/m.
+
+        Radial ``h = cos(s/2R) = sqrt(1 - rho**2 / (4 R**2))`` and transverse ``k = 1/h``
+        (PP 1395, sec. 24, on the Gaussian sphere), ``rho`` the plane distance from
+        the origin.
+
+        Parameters
+        ----------
+        east, north : float or array_like
+            Frame coordinates, m.
+
+        Returns
+        -------
+        radial, transverse : ndarray
+            Scale along and across the direction from the origin.
+        """
+        rho = np.hypot(east, north)
+        h = np.sqrt(np.maximum(1.0 - (0.5 * rho / self.radius_m) ** 2, 0.0))
+        with np.errstate(divide="ignore"):
+            return h, 1.0 / h
+
+    def locate(self, east, north) -> FramePoints:
+        """Geodetic position of frame points, ready for direction conversions.
+
+        One pass of the direct problem serves both the position and any number of
+        conversions between grid bearings and true azimuths at these points.
+
+        Parameters
+        ----------
+        east, north : array_like
+            Frame coordinates, m (broadcast together, flattened to 1-D).
+
+        Returns
+        -------
+        FramePoints
+        """
+        _, (e, n) = _flat(east, north)
+        la, lo, az = frame_inverse_kernel(self.lat0_rad, self.lon0_rad, self.radius_m, e, n)
+        return FramePoints(la, lo, e, n, np.arctan2(e, n), az, self._anisotropy(e, n))
+
+    def locate_geodetic(self, lat, lon) -> FramePoints:
+        """Like :meth:`locate`, from geodetic points (rad) instead of frame coordinates.
+
+        Parameters
+        ----------
+        lat, lon : array_like
+            Latitude and longitude, rad (broadcast together, flattened to 1-D).
+
+        Returns
+        -------
+        FramePoints
+        """
+        _, (la, lo) = _flat(lat, lon)
+        e, n, az = frame_forward_kernel(self.lat0_rad, self.lon0_rad, self.radius_m, la, lo)
+        return FramePoints(la, lo, e, n, np.arctan2(e, n), az, self._anisotropy(e, n))
+
+    def _anisotropy(self, e: np.ndarray, n: np.ndarray) -> np.ndarray:
+        return 1.0 / np.maximum(1.0 - (0.5 * np.hypot(e, n) / self.radius_m) ** 2, 1e-300)
+
+    def azimuth_to_grid(self, east, north, azimuth) -> float | np.ndarray:
+        """Grid bearing in the frame of a true azimuth taken at a frame point.
+
+        Parameters
+        ----------
+        east, north : float or array_like
+            Where the direction is taken, frame coordinates, m.
+        azimuth : float or array_like
+            Direction, rad clockwise from true north at that point.
+
+        Returns
+        -------
+        float or ndarray
+            Direction, rad clockwise from the frame's north axis, [0, 2 pi).
+        """
+        shape, (e, n, a) = _flat(east, north, azimuth)
+        return _shaped(shape, self.locate(e, n).azimuth_to_grid(a))
+
+    def grid_to_azimuth(self, east, north, bearing) -> float | np.ndarray:
+        """True azimuth of a grid bearing taken at a frame point (inverse of the above).
+
+        Parameters
+        ----------
+        east, north : float or array_like
+            Where the direction is taken, frame coordinates, m.
+        bearing : float or array_like
+            Direction, rad clockwise from the frame's north axis.
+
+        Returns
+        -------
+        float or ndarray
+            Direction, rad clockwise from true north at that point, [0, 2 pi).
+        """
+        shape, (e, n, b) = _flat(east, north, bearing)
+        return _shaped(shape, self.locate(e, n).grid_to_azimuth(b))
+
+
+class FramePoints(NamedTuple):
+    """Frame points with their geodetic position and local direction geometry.
+
+    The outward radial direction at a point has grid bearing ``radial_grid_rad`` (its
+    azimuth at the origin) and true azimuth ``radial_true_rad`` (the geodesic's forward
+    azimuth there); a direction at true angle ``theta`` from it appears in the plane at
+    ``atan2(q sin theta, cos theta)`` from it, ``q = k/h`` the ratio of transverse to
+    radial scale (Tissot's indicatrix, PP 1395, sec. 4; scales of sec. 24).
+
+    Attributes
+    ----------
+    lat_rad, lon_rad : ndarray
+        Geodetic position, rad.
+    east_m, north_m : ndarray
+        Frame coordinates, m.
+    radial_grid_rad, radial_true_rad : ndarray
+        See above, rad.
+    anisotropy : ndarray
+        ``q = k/h``, dimensionless (1 at the origin, 1.0015 at 500 km).
+    """
+
+    lat_rad: np.ndarray
+    lon_rad: np.ndarray
+    east_m: np.ndarray
+    north_m: np.ndarray
+    radial_grid_rad: np.ndarray
+    radial_true_rad: np.ndarray
+    anisotropy: np.ndarray
+
+    def grid_to_azimuth(self, bearing) -> np.ndarray:
+        """True azimuths (rad, [0, 2 pi)) of grid bearings (rad) taken at these points."""
+        th = np.asarray(bearing, dtype=np.float64) - self.radial_grid_rad
+        out = self.radial_true_rad + np.arctan2(np.sin(th) / self.anisotropy, np.cos(th))
+        return _wrap_2pi(out)
+
+    def azimuth_to_grid(self, azimuth) -> np.ndarray:
+        """Grid bearings (rad, [0, 2 pi)) of true azimuths (rad) taken at these points."""
+        th = np.asarray(azimuth, dtype=np.float64) - self.radial_true_rad
+        out = self.radial_grid_rad + np.arctan2(self.anisotropy * np.sin(th), np.cos(th))
+        return _wrap_2pi(out)
+
+
+def _wrap_2pi(x: np.ndarray) -> np.ndarray:
+    r = np.mod(x, _TWO_PI)
+    return np.where(r >= _TWO_PI, 0.0, r)

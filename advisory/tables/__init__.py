@@ -1,0 +1,1 @@
+"""Precomputed boom tables: grid, builder, file format, fast lookup, runtime rebuild."""

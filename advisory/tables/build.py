@@ -1,0 +1,215 @@
+"""Build a boom table: run the physics over a grid (offline, in parallel).
+
+For every (altitude, flight-path angle, heading) column the builder finds the cutoff
+Mach, then for every Mach excess above it the two lateral cutoff azimuths, and traces the
+rays at the normalised azimuths ``eta`` (see :mod:`advisory.tables.grid`), storing for
+each ray its ground offset, travel time, ground overpressure, signature duration and the
+azimuth derivative of the ground point (for focus detection at run time).
+
+Columns are independent, so they are shared out over worker processes (``fork`` where
+the platform has it).
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+import multiprocessing as mp
+import os
+import sys
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from advisory import __version__
+from advisory.physics.aircraft import Aircraft
+from advisory.physics.atmosphere import Atmosphere
+from advisory.physics.carpet import best_reaching_azimuth, cutoff_mach, lateral_cutoff
+from advisory.physics.rays import FlightCondition, RayTracer
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
+from advisory.tables import lookup as lk
+from advisory.tables.grid import TableGrid
+
+
+@dataclass(frozen=True)
+class BuildInputs:
+    """Everything a table is built from (stored in full in its header)."""
+
+    aircraft: Aircraft
+    atmosphere: Atmosphere
+    grid: TableGrid
+    reflection_factor: float = DEFAULT_REFLECTION_FACTOR
+
+
+def ray_signature(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition, ray):
+    """Ground overpressure (Pa), duration (s) and edge flag of one traced ray."""
+    from advisory.physics.signature import ground_signature
+
+    s0 = tracer.atmosphere.at(fc.altitude_m)
+    sig = ground_signature(
+        inputs.aircraft, ray, fc.mach, s0.sound_speed_mps, s0.pressure_pa,
+        load_factor=1.0, reflection_factor=inputs.reflection_factor,
+    )
+    edge = bool(getattr(sig, "caustic", False) or getattr(sig, "edge", False))
+    return float(sig.overpressure_pa), float(sig.duration_s), edge
+
+
+def eta_to_phi(eta: np.ndarray, phi_ref: float, phi_left: float, phi_right: float) -> np.ndarray:
+    """Ray azimuths of the normalised azimuth nodes (rad)."""
+    return np.where(eta >= 0.0, phi_ref + eta * (phi_right - phi_ref),
+                    phi_ref - eta * (phi_left - phi_ref))
+
+
+def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: int):
+    """Physics for one (altitude, flight-path angle, heading) column.
+
+    Returns
+    -------
+    (cutoff, phi_left, phi_right, cells)
+        Cutoff Mach; lateral cutoff azimuths per Mach excess (rad); rows of shape
+        (n_mach_excess, n_eta, N_QUANTITIES).
+    """
+    g = inputs.grid
+    alt = g.altitudes_m[ia]
+    fpa = g.fpa_rad[jf]
+    hdg = g.headings_rad[kh]
+    base = FlightCondition(1.5, alt, hdg, fpa, g.ground_elevation_m)
+    m_cut = cutoff_mach(tracer, base)
+    nm = len(g.mach_excess)
+    eta = g.eta
+    cells = np.zeros((nm, eta.size, lk.N_QUANTITIES))
+    phi_l = np.zeros(nm)
+    phi_r = np.zeros(nm)
+    sh, ch = math.sin(hdg), math.cos(hdg)
+    for im, dm in enumerate(g.mach_excess):
+        fc = replace(base, mach=m_cut + dm)
+        phi_ref, margin = best_reaching_azimuth(tracer, fc)
+        if margin <= 0.0:  # numerically at cutoff: nudge up until a ray reaches
+            fc = replace(fc, mach=fc.mach + 1e-4)
+            phi_ref, margin = best_reaching_azimuth(tracer, fc)
+        left = lateral_cutoff(tracer, fc, phi_ref, -1)
+        right = lateral_cutoff(tracer, fc, phi_ref, +1)
+        phi_l[im], phi_r[im] = left, right
+        for ie, phi in enumerate(eta_to_phi(eta, phi_ref, left, right)):
+            ray = tracer.trace(fc, float(phi))
+            row = cells[im, ie]
+            row[lk.Q_PHI] = phi
+            if not ray.reaches_ground:  # cannot happen inside [left, right]; be safe
+                row[lk.Q_EDGE] = 1.0
+                continue
+            x, y = ray.x_m[-1], ray.y_m[-1]
+            dx, dy = ray.dxy_dphi
+            row[lk.Q_FWD] = x * sh + y * ch
+            row[lk.Q_RIGHT] = x * ch - y * sh
+            row[lk.Q_TIME] = ray.t_s[-1]
+            if math.isfinite(dx) and math.isfinite(dy):
+                row[lk.Q_DFWD_DPHI] = dx * sh + dy * ch
+                row[lk.Q_DRIGHT_DPHI] = dx * ch - dy * sh
+            dp, dur, edge = ray_signature(inputs, tracer, fc, ray)
+            row[lk.Q_DP] = dp
+            row[lk.Q_DURATION] = dur
+            row[lk.Q_EDGE] = 1.0 if edge else 0.0
+    return m_cut, phi_l, phi_r, cells
+
+
+# ---- worker-process plumbing ---------------------------------------------------------
+_WORKER: dict = {}
+
+
+def _worker_init(inputs: BuildInputs) -> None:
+    _WORKER["inputs"] = inputs
+    _WORKER["tracer"] = RayTracer(inputs.atmosphere)
+
+
+def _worker_column(key: tuple[int, int, int]):
+    ia, jf, kh = key
+    return key, build_column(_WORKER["inputs"], _WORKER["tracer"], ia, jf, kh)
+
+
+class _Progress:
+    """A one-line progress bar on a terminal; silent otherwise."""
+
+    def __init__(self, total: int, stream=None) -> None:
+        self.total = total
+        self.done = 0
+        self.stream = stream if stream is not None else sys.stderr
+        self.enabled = hasattr(self.stream, "isatty") and self.stream.isatty()
+        self.t0 = time.monotonic()
+
+    def step(self) -> None:
+        self.done += 1
+        if self.enabled:
+            frac = self.done / self.total
+            bar = "#" * int(30 * frac)
+            el = time.monotonic() - self.t0
+            self.stream.write(f"\rbuilding table [{bar:<30}] {self.done}/{self.total} "
+                              f"{el:5.1f} s")
+            if self.done == self.total:
+                self.stream.write("\n")
+            self.stream.flush()
+
+
+def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
+                       progress_stream=None) -> dict[str, np.ndarray]:
+    """Run the physics over the grid; returns the arrays of a table.
+
+    Parameters
+    ----------
+    inputs : BuildInputs
+        Aircraft, atmosphere, grid and reflection factor.
+    workers : int, optional
+        Worker processes (default: all cores). 1 builds in this process.
+    progress_stream : file, optional
+        Where the progress bar goes when it is a terminal (default stderr).
+    """
+    inputs.grid.validate()
+    na, nm, nf, nh = inputs.grid.shape
+    neta = inputs.grid.n_eta
+    cutoff = np.zeros((na, nf, nh))
+    phi_left = np.zeros((na, nm, nf, nh))
+    phi_right = np.zeros((na, nm, nf, nh))
+    cells = np.zeros((na, nm, nf, nh, neta, lk.N_QUANTITIES))
+    keys = [(a, f, h) for a in range(na) for f in range(nf) for h in range(nh)]
+    bar = _Progress(len(keys), progress_stream)
+    workers = workers or os.cpu_count() or 1
+
+    def store(key, res) -> None:
+        a, f, h = key
+        cutoff[a, f, h], phi_left[a, :, f, h], phi_right[a, :, f, h], cells[a, :, f, h] = res
+        bar.step()
+
+    if workers <= 1:
+        tracer = RayTracer(inputs.atmosphere)
+        for key in keys:
+            store(key, build_column(inputs, tracer, *key))
+    else:
+        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
+        ctx = mp.get_context(method)
+        with ctx.Pool(workers, initializer=_worker_init, initargs=(inputs,)) as pool:
+            for key, res in pool.imap_unordered(_worker_column, keys, chunksize=2):
+                store(key, res)
+    arrays = dict(inputs.grid.axes())
+    arrays.update({"cutoff_mach": cutoff, "phi_left": phi_left, "phi_right": phi_right,
+                   "cells": cells})
+    return arrays
+
+
+def provenance(inputs: BuildInputs, build_seconds: float) -> dict:
+    """The header fields that say what a table was built from."""
+    return {
+        "kind": "boom-advisory table",
+        "package_version": __version__,
+        "build_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+        "build_seconds": round(build_seconds, 3),
+        "grid": inputs.grid.to_dict(),
+        "aircraft": inputs.aircraft.to_dict(),
+        "atmosphere": inputs.atmosphere.description,
+        "reflection_factor": inputs.reflection_factor,
+        "quantities": ["fwd_m", "right_m", "time_s", "overpressure_pa", "duration_s",
+                       "dfwd_dphi_m_per_rad", "dright_dphi_m_per_rad", "phi_rad", "edge_flag"],
+    }
+
+
+SignatureFn = Callable[..., tuple[float, float, bool]]

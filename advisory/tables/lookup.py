@@ -1,0 +1,197 @@
+"""Fast multilinear lookup in a boom table (numba kernel and its numpy twin).
+
+The table stores, per (altitude, Mach excess, flight-path angle, heading) cell and per
+normalised azimuth ``eta``, a row of :data:`N_QUANTITIES` numbers (indices ``Q_*``).
+A lookup interpolates the cutoff Mach over (altitude, flight-path angle, heading),
+returns "no boom" below it, and otherwise interpolates every row multilinearly in
+(altitude, Mach excess, flight-path angle, heading), heading periodic. Outside the
+altitude, Mach-excess and flight-path-angle ranges the nearest edge value is used and
+the returned code says so.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+# Per-ray quantities stored in the table (last axis of ``cells``).
+Q_FWD = 0  #: ground offset along the true heading from the emission point's nadir, m
+Q_RIGHT = 1  #: ground offset to the right of the true heading, m
+Q_TIME = 2  #: travel time from emission to the ground, s
+Q_DP = 3  #: ground overpressure (reflection included), Pa
+Q_DURATION = 4  #: time between bow and tail shocks on the ground, s
+Q_DFWD_DPHI = 5  #: d(fwd)/d(phi), m/rad
+Q_DRIGHT_DPHI = 6  #: d(right)/d(phi), m/rad
+Q_PHI = 7  #: ray azimuth of this eta node, rad
+Q_EDGE = 8  #: 1 where the signature was flagged (caustic at the carpet edge), else 0
+N_QUANTITIES = 9
+
+#: Lookup result codes.
+NO_BOOM = 0
+OK = 1
+CLAMPED = 2  #: inside the carpet but the condition lies outside the grid; edge values used
+
+
+@njit(cache=True)
+def _locate(axis, x):
+    """Index ``i`` and weight ``w`` with x ~ axis[i] (1-w) + axis[i+1] w; clamped flag."""
+    n = axis.size
+    if n == 1:
+        return 0, 0.0, False
+    if x <= axis[0]:
+        return 0, 0.0, x < axis[0]
+    if x >= axis[n - 1]:
+        return n - 2, 1.0, x > axis[n - 1]
+    lo = 0
+    hi = n - 1
+    while hi - lo > 1:
+        mid = (lo + hi) >> 1
+        if axis[mid] <= x:
+            lo = mid
+        else:
+            hi = mid
+    return lo, (x - axis[lo]) / (axis[lo + 1] - axis[lo]), False
+
+
+@njit(cache=True)
+def _locate_periodic(axis, x):
+    """Like :func:`_locate` for a heading axis on [0, 2 pi); returns (i, j, w)."""
+    n = axis.size
+    if n == 1:
+        return 0, 0, 0.0
+    two_pi = 2.0 * math.pi
+    x = x % two_pi
+    for i in range(n):
+        j = (i + 1) % n
+        a = axis[i]
+        b = axis[j] if j > 0 else axis[0] + two_pi
+        if a <= x < b:
+            return i, j, (x - a) / (b - a)
+        if i == n - 1 and x < axis[0]:
+            return n - 1, 0, (x + two_pi - a) / (axis[0] + two_pi - a)
+    return n - 1, 0, 0.0
+
+
+@njit(cache=True)
+def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells, out):
+    """Interpolate one footprint.
+
+    Parameters
+    ----------
+    alt, mach, fpa, heading : float
+        Aircraft altitude (m), Mach, flight-path angle (rad), true heading (rad).
+    ax_alt, ax_mex, ax_fpa, ax_hdg : ndarray
+        Table axes.
+    cutoff : ndarray, shape (n_alt, n_fpa, n_hdg)
+        Cutoff Mach per cell.
+    cells : ndarray, shape (n_alt, n_mex, n_fpa, n_hdg, n_eta, N_QUANTITIES)
+        Tabulated rays.
+    out : ndarray, shape (n_eta, N_QUANTITIES)
+        Receives the interpolated rows (untouched when there is no boom).
+
+    Returns
+    -------
+    code, cutoff_mach : (int, float)
+        :data:`NO_BOOM`, :data:`OK` or :data:`CLAMPED`, and the interpolated cutoff Mach.
+    """
+    ia, wa, ca = _locate(ax_alt, alt)
+    jf, wf, cf = _locate(ax_fpa, fpa)
+    h0, h1, wh = _locate_periodic(ax_hdg, heading)
+    na = ax_alt.size
+    nf = ax_fpa.size
+    mcut = 0.0
+    for da in range(2):
+        a = min(ia + da, na - 1)
+        wa_ = wa if da == 1 else 1.0 - wa
+        for df in range(2):
+            f = min(jf + df, nf - 1)
+            wf_ = wf if df == 1 else 1.0 - wf
+            for dh in range(2):
+                h = h1 if dh == 1 else h0
+                wh_ = wh if dh == 1 else 1.0 - wh
+                w = wa_ * wf_ * wh_
+                if w != 0.0:
+                    mcut += w * cutoff[a, f, h]
+    if mach <= mcut:
+        return NO_BOOM, mcut
+    im, wm, cm = _locate(ax_mex, mach - mcut)
+    if mach - mcut < ax_mex[0]:
+        cm = False  # just above cutoff: the first node stands for it
+    nm = ax_mex.size
+    neta = cells.shape[4]
+    nq = cells.shape[5]
+    for e in range(neta):
+        for q in range(nq):
+            out[e, q] = 0.0
+    for da in range(2):
+        a = min(ia + da, na - 1)
+        wa_ = wa if da == 1 else 1.0 - wa
+        for dm in range(2):
+            m = min(im + dm, nm - 1)
+            wm_ = wm if dm == 1 else 1.0 - wm
+            for df in range(2):
+                f = min(jf + df, nf - 1)
+                wf_ = wf if df == 1 else 1.0 - wf
+                for dh in range(2):
+                    h = h1 if dh == 1 else h0
+                    wh_ = wh if dh == 1 else 1.0 - wh
+                    w = wa_ * wm_ * wf_ * wh_
+                    if w == 0.0:
+                        continue
+                    for e in range(neta):
+                        for q in range(nq):
+                            out[e, q] += w * cells[a, m, f, h, e, q]
+    code = CLAMPED if (ca or cm or cf) else OK
+    return code, mcut
+
+
+def _weights(axis: np.ndarray, x: float) -> tuple[list[int], list[float], bool]:
+    """Readable twin of :func:`_locate`: corner indices and weights."""
+    if axis.size == 1:
+        return [0], [1.0], False
+    clamped = bool(x < axis[0] or x > axis[-1])
+    xc = min(max(x, axis[0]), axis[-1])
+    i = int(np.clip(np.searchsorted(axis, xc, side="right") - 1, 0, axis.size - 2))
+    w = (xc - axis[i]) / (axis[i + 1] - axis[i])
+    return [i, i + 1], [1.0 - w, w], clamped
+
+
+def _weights_periodic(axis: np.ndarray, x: float) -> tuple[list[int], list[float]]:
+    """Readable twin of :func:`_locate_periodic`."""
+    if axis.size == 1:
+        return [0], [1.0]
+    two_pi = 2.0 * math.pi
+    ext = np.concatenate([axis, [axis[0] + two_pi]])
+    x = x % two_pi
+    if x < axis[0]:
+        x += two_pi
+    i = int(np.clip(np.searchsorted(ext, x, side="right") - 1, 0, axis.size - 1))
+    w = (x - ext[i]) / (ext[i + 1] - ext[i])
+    return [i, (i + 1) % axis.size], [1.0 - w, w]
+
+
+def lookup_numpy(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells,
+                 out) -> tuple[int, float]:
+    """Numpy twin of :func:`lookup_kernel` (same arguments and results)."""
+    ia, wa, ca = _weights(ax_alt, alt)
+    jf, wf, cf = _weights(ax_fpa, fpa)
+    hh, wh = _weights_periodic(ax_hdg, heading)
+    mcut = sum(
+        wa_ * wf_ * wh_ * cutoff[a, f, h]
+        for a, wa_ in zip(ia, wa) for f, wf_ in zip(jf, wf) for h, wh_ in zip(hh, wh)
+    )
+    if mach <= mcut:
+        return NO_BOOM, float(mcut)
+    im, wm, cm = _weights(ax_mex, mach - mcut)
+    if mach - mcut < ax_mex[0]:
+        cm = False
+    acc = np.zeros(cells.shape[4:])
+    for a, wa_ in zip(ia, wa):
+        for m, wm_ in zip(im, wm):
+            for f, wf_ in zip(jf, wf):
+                for h, wh_ in zip(hh, wh):
+                    acc += wa_ * wm_ * wf_ * wh_ * cells[a, m, f, h]
+    out[...] = acc
+    return (CLAMPED if (ca or cm or cf) else OK), float(mcut)

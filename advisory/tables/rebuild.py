@@ -1,0 +1,149 @@
+"""Rebuild tables off the hot path when a new atmosphere arrives, and swap atomically.
+
+The live loop keeps advising on the table it has. A new atmosphere (a profile file that
+changed, or a profile assembled from the air-data stream) starts a build in a separate
+process (one worker, so the loop keeps its core); the finished table is written to a
+file, and the loop swaps it in between two steps by calling :meth:`TableManager.poll`.
+From the moment a new atmosphere is submitted until the swap, :attr:`stale` is True and
+the advisory status says so.
+"""
+
+from __future__ import annotations
+
+import multiprocessing as mp
+import os
+import tempfile
+import threading
+import time
+from dataclasses import replace
+from pathlib import Path
+
+from advisory.physics.atmosphere import Atmosphere, AtmosphereError, load_profile
+from advisory.tables.build import BuildInputs, build_table_arrays, provenance
+from advisory.tables.store import write_table_file
+from advisory.tables.table import BoomTable
+
+
+def _build_to_file(inputs: BuildInputs, path: str) -> None:
+    """Child-process body: build with one worker and write the table file."""
+    t0 = time.monotonic()
+    arrays = build_table_arrays(inputs, workers=1)
+    write_table_file(path, provenance(inputs, time.monotonic() - t0), arrays)
+
+
+class TableManager:
+    """Owns the live table and its rebuilds.
+
+    Parameters
+    ----------
+    table : BoomTable
+        The table to advise on now.
+    inputs : BuildInputs
+        What ``table`` was built from; a rebuild changes only the atmosphere.
+    work_dir : str, optional
+        Where rebuilt tables are written (default: a private temporary directory).
+    """
+
+    def __init__(self, table: BoomTable, inputs: BuildInputs, work_dir: str | None = None) -> None:
+        self._table = table
+        self._inputs = inputs
+        self._lock = threading.Lock()
+        self._proc: mp.process.BaseProcess | None = None
+        self._pending_path: str | None = None
+        self._pending_atm: Atmosphere | None = None
+        self._building_atm: Atmosphere | None = None
+        self._work_dir = work_dir or tempfile.mkdtemp(prefix="boom-tables-")
+        self._watch: tuple[Path, float] | None = None
+        self.rebuilds_done = 0
+        self.rebuilds_failed = 0
+        self.last_error = ""
+
+    @property
+    def table(self) -> BoomTable:
+        """The table to use for this step (a plain reference read: atomic)."""
+        return self._table
+
+    @property
+    def stale(self) -> bool:
+        """True while a newer atmosphere is known but its table is not in use yet."""
+        return self._pending_atm is not None
+
+    @property
+    def building(self) -> bool:
+        """True while a rebuild process runs."""
+        return self._proc is not None and self._proc.is_alive()
+
+    def submit_atmosphere(self, atm: Atmosphere) -> None:
+        """Start rebuilding for ``atm``; the current table stays in use (flagged stale).
+
+        A submission while a build runs replaces the pending atmosphere; the newest one
+        is built when the running build ends.
+        """
+        with self._lock:
+            self._pending_atm = atm
+            if not self.building:
+                self._start(atm)
+
+    def _start(self, atm: Atmosphere) -> None:
+        self._inputs = replace(self._inputs, atmosphere=atm)
+        fd, path = tempfile.mkstemp(suffix=".boomtable", dir=self._work_dir)
+        os.close(fd)
+        self._pending_path = path
+        self._building_atm = atm
+        ctx = mp.get_context("spawn")
+        self._proc = ctx.Process(target=_build_to_file, args=(self._inputs, path), daemon=True)
+        self._proc.start()
+
+    def watch_profile_file(self, path: str | Path) -> None:
+        """Rebuild whenever the profile file's modification time changes (see :meth:`poll`)."""
+        p = Path(path)
+        self._watch = (p, p.stat().st_mtime if p.exists() else 0.0)
+
+    def poll(self) -> bool:
+        """Call between steps: swap in a finished table; check the watched file.
+
+        Returns True when a new table was swapped in. Never raises: a failed rebuild is
+        counted, its reason kept in :attr:`last_error`, and the old table stays.
+        """
+        swapped = False
+        if self._watch is not None:
+            p, mtime = self._watch
+            try:
+                now = p.stat().st_mtime
+                if now != mtime:
+                    self._watch = (p, now)
+                    self.submit_atmosphere(load_profile(p))
+            except (OSError, AtmosphereError) as exc:
+                self.last_error = f"profile {p}: {exc}"
+        proc = self._proc
+        if proc is not None and not proc.is_alive():
+            proc.join()
+            self._proc = None
+            path = self._pending_path
+            try:
+                if proc.exitcode != 0:
+                    raise RuntimeError(f"rebuild process exited with code {proc.exitcode}")
+                new = BoomTable.load(path)
+                with self._lock:
+                    self._table = new  # the atomic swap
+                    if self._pending_atm is self._building_atm:
+                        self._pending_atm = None
+                self.rebuilds_done += 1
+                swapped = True
+            except Exception as exc:  # noqa: BLE001 - the live loop must not die
+                # The old table stays in use and stays flagged stale; the same
+                # atmosphere is not retried (a newer submission will be).
+                self.rebuilds_failed += 1
+                self.last_error = str(exc)
+            with self._lock:
+                pending = self._pending_atm
+                if pending is not None and pending is not self._building_atm:
+                    self._start(pending)
+        return swapped
+
+    def close(self) -> None:
+        """Stop a running rebuild (safe to call twice)."""
+        proc, self._proc = self._proc, None
+        if proc is not None and proc.is_alive():
+            proc.terminate()
+            proc.join(timeout=5)

@@ -1,0 +1,147 @@
+"""The table file format (our own): a checked header with provenance, then numpy arrays.
+
+Layout (all integers little-endian)::
+
+    offset  size  content
+    0       8     magic b"BOOMTBL\\x00"
+    8       4     format version (uint32)
+    12      4     header length H in bytes (uint32)
+    16      H     header: UTF-8 JSON object (provenance, grid, array directory)
+    16+H    32    SHA-256 of the header bytes
+    48+H    ...   payload: the arrays' raw little-endian bytes, each starting on an
+                  8-byte boundary, as listed in the header's ``arrays`` directory
+
+The header holds ``format_version``, ``package_version``, ``build_utc``, the grid, the
+aircraft and atmosphere inputs in full, and ``payload_sha256`` / ``payload_nbytes``.
+Loading refuses, each with its own message: a file that does not start with the magic
+(foreign file), another format version, a header whose digest does not match, a payload
+shorter or longer than declared (truncated or padded), and a payload whose SHA-256 does not
+match (a flipped byte).
+
+References
+----------
+FIPS PUB 180-4, Secure Hash Standard (SHA-256), NIST 2015.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import struct
+from pathlib import Path
+
+import numpy as np
+
+MAGIC = b"BOOMTBL\x00"
+FORMAT_VERSION = 1
+_PREFIX = struct.Struct("<8sII")
+_ALIGN = 8
+
+
+class TableFileError(ValueError):
+    """A table file that is refused; the message says which check failed."""
+
+
+def _pad(n: int) -> int:
+    return (-n) % _ALIGN
+
+
+def write_table_file(path: str | Path, header: dict, arrays: dict[str, np.ndarray]) -> str:
+    """Write ``arrays`` with ``header`` to ``path`` atomically; returns the payload digest.
+
+    The file is written to a temporary name beside ``path`` and renamed into place, so a
+    reader never sees a half-written table.
+    """
+    directory = []
+    chunks = []
+    offset = 0
+    for name, arr in arrays.items():
+        a = np.ascontiguousarray(arr)
+        if a.dtype.byteorder == ">":
+            a = a.astype(a.dtype.newbyteorder("<"))
+        raw = a.tobytes()
+        directory.append({"name": name, "dtype": a.dtype.str, "shape": list(a.shape),
+                          "offset": offset, "nbytes": len(raw)})
+        chunks.append(raw + b"\x00" * _pad(len(raw)))
+        offset += len(raw) + _pad(len(raw))
+    payload = b"".join(chunks)
+    digest = hashlib.sha256(payload).hexdigest()
+    full = dict(header)
+    full.update({"format_version": FORMAT_VERSION, "arrays": directory,
+                 "payload_sha256": digest, "payload_nbytes": len(payload)})
+    hbytes = json.dumps(full, sort_keys=True, separators=(",", ":")).encode("utf-8")
+    path = Path(path)
+    tmp = path.with_name(path.name + f".tmp{os.getpid()}")
+    with open(tmp, "wb") as fh:
+        fh.write(_PREFIX.pack(MAGIC, FORMAT_VERSION, len(hbytes)))
+        fh.write(hbytes)
+        fh.write(hashlib.sha256(hbytes).digest())
+        fh.write(payload)
+        fh.flush()
+        os.fsync(fh.fileno())
+    os.replace(tmp, path)
+    return digest
+
+
+def read_table_header(path: str | Path) -> tuple[dict, bytes]:
+    """Read and check the prefix and header; returns ``(header, rest_of_file)``."""
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise TableFileError(f"table file {path}: cannot read ({exc.strerror})") from exc
+    if len(data) < _PREFIX.size or data[:8] != MAGIC:
+        raise TableFileError(f"table file {path}: not a boom-advisory table (bad magic)")
+    _, version, hlen = _PREFIX.unpack_from(data)
+    if version != FORMAT_VERSION:
+        raise TableFileError(
+            f"table file {path}: format version {version} is not supported "
+            f"(this build reads version {FORMAT_VERSION}); rebuild the table"
+        )
+    end = _PREFIX.size + hlen
+    if len(data) < end + 32:
+        raise TableFileError(f"table file {path}: truncated inside the header")
+    hbytes = data[_PREFIX.size:end]
+    if hashlib.sha256(hbytes).digest() != data[end:end + 32]:
+        raise TableFileError(f"table file {path}: header digest mismatch (header corrupted)")
+    try:
+        header = json.loads(hbytes.decode("utf-8"))
+    except (UnicodeDecodeError, json.JSONDecodeError) as exc:  # pragma: no cover
+        raise TableFileError(f"table file {path}: header is not valid JSON") from exc
+    return header, data[end + 32:]
+
+
+def read_table_file(path: str | Path) -> tuple[dict, dict[str, np.ndarray]]:
+    """Load a table file, checking magic, version, header digest, size and payload digest.
+
+    Returns
+    -------
+    (header, arrays)
+        The provenance header and the arrays by name (read-only views).
+
+    Raises
+    ------
+    TableFileError
+        With a message naming the failed check.
+    """
+    header, payload = read_table_header(path)
+    declared = int(header.get("payload_nbytes", -1))
+    if len(payload) < declared:
+        raise TableFileError(
+            f"table file {path}: truncated payload ({len(payload)} of {declared} bytes)"
+        )
+    if len(payload) > declared:
+        raise TableFileError(
+            f"table file {path}: {len(payload) - declared} unexpected bytes after the payload"
+        )
+    if hashlib.sha256(payload).hexdigest() != header.get("payload_sha256"):
+        raise TableFileError(
+            f"table file {path}: payload SHA-256 mismatch (file corrupted or altered)"
+        )
+    arrays = {}
+    for entry in header["arrays"]:
+        a = np.frombuffer(payload, dtype=np.dtype(entry["dtype"]), count=int(np.prod(
+            entry["shape"], dtype=np.int64)), offset=entry["offset"])
+        arrays[entry["name"]] = a.reshape(entry["shape"])
+    return header, arrays

@@ -43,6 +43,12 @@ def _add_predict(sub: argparse._SubParsersAction) -> None:
                    help="atmosphere profile (CSV or TOML) instead of the standard atmosphere")
     p.add_argument("--ground-elevation-ft", type=float, default=0.0,
                    help="ground elevation above mean sea level, ft (0)")
+    p.add_argument("--aircraft", metavar="FILE",
+                   help="aircraft description (TOML); default: the bundled demo aircraft")
+    p.add_argument("--load-factor", type=float, default=1.0,
+                   help="lift over weight (1 in steady flight)")
+    p.add_argument("--table", metavar="TABLE",
+                   help="answer from a precomputed table instead of direct tracing")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(func=_run_predict)
 
@@ -58,7 +64,20 @@ def _run_predict(args: argparse.Namespace) -> int:
         temp_offset_c=_finite("--temp-offset-c", args.temp_offset_c),
         ground_elevation_ft=_finite("--ground-elevation-ft", args.ground_elevation_ft),
         atmosphere_file=args.atmosphere,
+        aircraft_file=args.aircraft,
+        load_factor=_finite("--load-factor", args.load_factor),
+        table_file=args.table,
     )
+    if args.table:
+        for flag, given in (("--aircraft", args.aircraft), ("--atmosphere", args.atmosphere),
+                            ("--temp-offset-c", args.temp_offset_c != 0.0),
+                            ("--load-factor", args.load_factor != 1.0)):
+            if given:
+                raise UsageError(f"{flag}: cannot be combined with --table (the table fixes "
+                                 "aircraft, atmosphere and load factor 1); omit --table to "
+                                 "trace directly")
+    if not (0.0 < inputs.load_factor <= 9.0):
+        raise UsageError(f"--load-factor: {args.load_factor} must be in (0, 9]")
     if inputs.mach <= 0.0:
         raise UsageError(f"--mach: {args.mach} must be greater than 0")
     if inputs.altitude_ft <= inputs.ground_elevation_ft:
@@ -82,6 +101,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sub = parser.add_subparsers(dest="command", required=True)
     _add_predict(sub)
+    from advisory.tables.commands import add_parser as add_tables
+
+    add_tables(sub)
     return parser
 
 

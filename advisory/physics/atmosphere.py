@@ -476,3 +476,21 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
         return atmosphere_from_levels(levels, temp_offset_k, source=str(path))
     except AtmosphereError as exc:
         raise AtmosphereError(f"atmosphere file {path}: {exc}") from exc
+
+
+def atmosphere_from_description(desc: dict) -> Atmosphere:
+    """Rebuild an :class:`Atmosphere` from its ``description`` (e.g. a table header).
+
+    Raises
+    ------
+    AtmosphereError
+        For a description of unknown kind.
+    """
+    kind = desc.get("kind")
+    if kind == "ussa1976":
+        return standard_atmosphere(float(desc.get("temp_offset_k", 0.0)))
+    if kind == "profile":
+        levels = [ProfileLevel(*map(float, lv)) for lv in desc["levels"]]
+        return atmosphere_from_levels(levels, float(desc.get("temp_offset_k", 0.0)),
+                                      source=str(desc.get("source", "levels")))
+    raise AtmosphereError(f"atmosphere description: unknown kind {kind!r}")

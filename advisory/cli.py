@@ -104,6 +104,9 @@ def build_parser() -> argparse.ArgumentParser:
     from advisory.tables.commands import add_parser as add_tables
 
     add_tables(sub)
+    from advisory.check import add_parser as add_check
+
+    add_check(sub)
     return parser
 
 

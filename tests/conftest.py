@@ -35,3 +35,46 @@ def make_atmosphere(z, c, wind_east=None, wind_north=None, p=None, rho=None) -> 
         wind_north_mps=zeros.copy() if wind_north is None else np.asarray(wind_north, dtype=float),
         description={"kind": "test"},
     )
+
+
+def small_grid(with_wind: bool = False):
+    """A small table grid around 45,000 ft, level flight (keeps the advisor tests fast)."""
+    import math
+
+    from advisory import units
+    from advisory.tables.grid import DEFAULT_MACH_EXCESS, TableGrid
+
+    return TableGrid(
+        altitudes_m=tuple(units.ft_to_m(a) for a in range(42000, 48001, 500)),
+        mach_excess=DEFAULT_MACH_EXCESS,
+        fpa_rad=(0.0,),
+        headings_rad=tuple(math.radians(h) for h in range(0, 360, 45)) if with_wind else (0.0,),
+    )
+
+
+def build_small_table(path, atmosphere=None, with_wind: bool = False):
+    """Build and save a small table; returns the loaded table."""
+    from advisory.physics.aircraft import default_aircraft
+    from advisory.tables.build import BuildInputs, build_table_arrays, provenance
+    from advisory.tables.store import write_table_file
+    from advisory.tables.table import BoomTable
+
+    inputs = BuildInputs(default_aircraft(), atmosphere or standard_atmosphere(),
+                         small_grid(with_wind))
+    write_table_file(path, provenance(inputs, 0.0), build_table_arrays(inputs, workers=2))
+    return BoomTable.load(path)
+
+
+@pytest.fixture(scope="session")
+def small_table_path(tmp_path_factory):
+    """Path of a small standard-atmosphere table (built once per test session)."""
+    path = tmp_path_factory.mktemp("tables") / "small.boomtable"
+    build_small_table(path)
+    return path
+
+
+@pytest.fixture(scope="session")
+def small_table(small_table_path):
+    from advisory.tables.table import BoomTable
+
+    return BoomTable.load(small_table_path)

@@ -1,0 +1,128 @@
+"""Advisor thresholds and settings, with documented defaults and a TOML loader.
+
+Every default is a project choice (common practice, no source) unless said otherwise;
+operators tune them in a config file::
+
+    [prediction]
+    look_ahead_s = 300      # how far ahead the trajectory and carpet are predicted
+    step_s = 3              # emission spacing along the predicted trajectory
+
+    [levels]
+    caution_lead_s = 120    # contact sooner than this -> caution
+    warning_lead_s = 60     # contact sooner than this -> warning
+                            # any contact within the look-ahead -> advisory
+
+    [hysteresis]
+    band_s = 10             # a level is left only when contact is this much later
+    release_s = 8           # ... and the lower level has held this long
+    warning_hold_s = 20     # a warning is held until clear for this long
+
+    [resolution]
+    cutoff_margin_mach = 0.02   # "Mach to stay under" is cutoff minus this
+    turn_bank_deg = 25          # bank assumed for the resolution turn
+    max_turn_deg = 90           # largest heading change searched
+    turn_step_deg = 5           # resolution of the heading-change answer
+
+    [focus]
+    threshold = 1.25        # amplification above which a focus boom is flagged
+
+    [input]
+    stale_after_s = 1.0     # no valid air data for this long -> unavailable
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from dataclasses import dataclass, fields
+from pathlib import Path
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+
+class ConfigError(ValueError):
+    """A bad advisor config; the message names the key and the value."""
+
+
+@dataclass(frozen=True)
+class AdvisorConfig:
+    """Advisor settings (SI; see the module notes for the defaults and their meaning)."""
+
+    look_ahead_s: float = 300.0
+    step_s: float = 3.0
+    caution_lead_s: float = 120.0
+    warning_lead_s: float = 60.0
+    band_s: float = 10.0
+    release_s: float = 8.0
+    warning_hold_s: float = 20.0
+    cutoff_margin_mach: float = 0.02
+    turn_bank_deg: float = 25.0
+    max_turn_deg: float = 90.0
+    turn_step_deg: float = 5.0
+    focus_threshold: float = 1.25
+    stale_after_s: float = 1.0
+    strips: int = 6
+    reproject_km: float = 150.0
+
+    def validate(self) -> None:
+        """Raise :class:`ConfigError` naming the first bad value."""
+        limits = {
+            "look_ahead_s": (10.0, 1800.0), "step_s": (0.5, 30.0),
+            "caution_lead_s": (1.0, 1800.0), "warning_lead_s": (1.0, 1800.0),
+            "band_s": (0.0, 120.0), "release_s": (0.0, 300.0), "warning_hold_s": (0.0, 600.0),
+            "cutoff_margin_mach": (0.0, 0.5), "turn_bank_deg": (5.0, 60.0),
+            "max_turn_deg": (5.0, 180.0), "turn_step_deg": (1.0, 45.0),
+            "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
+            "strips": (2, 30), "reproject_km": (10.0, 400.0),
+        }
+        for f in fields(self):
+            v = getattr(self, f.name)
+            lo, hi = limits[f.name]
+            if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v) \
+                    or not (lo <= v <= hi):
+                raise ConfigError(f"advisor config: {f.name} = {v!r} is outside [{lo}, {hi}]")
+        if self.warning_lead_s > self.caution_lead_s:
+            raise ConfigError("advisor config: warning_lead_s must not exceed caution_lead_s")
+        if self.caution_lead_s > self.look_ahead_s:
+            raise ConfigError("advisor config: caution_lead_s must not exceed look_ahead_s")
+
+
+_SECTIONS = {
+    "prediction": ("look_ahead_s", "step_s", "strips", "reproject_km"),
+    "levels": ("caution_lead_s", "warning_lead_s"),
+    "hysteresis": ("band_s", "release_s", "warning_hold_s"),
+    "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg"),
+    "focus": ("threshold",),
+    "input": ("stale_after_s",),
+}
+
+
+def load_config(path: str | Path | None) -> AdvisorConfig:
+    """Read an advisor config file (TOML); missing keys keep their defaults."""
+    if path is None:
+        return AdvisorConfig()
+    path = Path(path)
+    try:
+        doc = tomllib.loads(path.read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise ConfigError(f"advisor config {path}: cannot read ({exc.strerror})") from exc
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(f"advisor config {path}: not valid TOML ({exc})") from exc
+    values: dict[str, float] = {}
+    for section, table in doc.items():
+        if section not in _SECTIONS or not isinstance(table, dict):
+            raise ConfigError(f"advisor config {path}: unknown section [{section}]")
+        for key, value in table.items():
+            if key not in _SECTIONS[section]:
+                raise ConfigError(f"advisor config {path}: unknown key {section}.{key}")
+            name = "focus_threshold" if section == "focus" else key
+            values[name] = value
+    cfg = AdvisorConfig(**values)
+    try:
+        cfg.validate()
+    except ConfigError as exc:
+        raise ConfigError(f"{exc} (file {path})") from exc
+    return cfg

@@ -1,0 +1,112 @@
+"""The ``check`` job: one air-data state and a zone file in, one advisory out."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from pathlib import Path
+
+from advisory import SAFETY_CAUTION, units
+
+
+class StateFileError(ValueError):
+    """A state file that cannot be used; the message names the field."""
+
+
+def load_state_fields(path: str | Path) -> dict:
+    """Read a state file: one JSON object with the air-data field names."""
+    try:
+        obj = json.loads(Path(path).read_text(encoding="utf-8"))
+    except OSError as exc:
+        raise StateFileError(f"state file {path}: cannot read ({exc.strerror})") from exc
+    except json.JSONDecodeError as exc:
+        raise StateFileError(f"state file {path}: not valid JSON ({exc})") from exc
+    if not isinstance(obj, dict):
+        raise StateFileError(f"state file {path}: expected one JSON object")
+    return obj
+
+
+def add_parser(sub: argparse._SubParsersAction) -> None:
+    """Register ``boom-advisory check``."""
+    p = sub.add_parser("check", help="advise on one air-data state against a zone file")
+    p.add_argument("--state", required=True, metavar="FILE",
+                   help="JSON object with lat_deg, lon_deg, alt_ft, mach, heading_deg, gs_kt, "
+                        "bank_deg, fpa_deg (optional mach_rate_per_s, sat_c, wind_from_deg, "
+                        "wind_kt, track_deg)")
+    p.add_argument("--zones", required=True, metavar="FILE", help="no-boom zones (GeoJSON)")
+    p.add_argument("--aircraft", metavar="FILE", help="aircraft file (default: bundled demo)")
+    p.add_argument("--table", metavar="TABLE",
+                   help="boom table (default: built once for the aircraft and cached)")
+    p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.set_defaults(func=run_check)
+
+
+def run_check(args: argparse.Namespace) -> int:
+    """``check``: exit 0 with the advisory printed."""
+    from advisory.advisor import Advisor
+    from advisory.advisor_config import load_config
+    from advisory.state import AirDataState, StateValidator
+    from advisory.tables.table import BoomTable
+    from advisory.zones import ZoneSet
+
+    fields = load_state_fields(args.state)
+    validator = StateValidator()
+    state = validator.validate(fields, rx_monotonic=0.0, now_monotonic=0.0)
+    if not isinstance(state, AirDataState):
+        raise StateFileError(f"state file {args.state}: {state.detail}")
+    zones = ZoneSet.from_file(args.zones)
+    config = load_config(args.config)
+    if args.table:
+        if args.aircraft:
+            raise StateFileError("--aircraft: cannot be combined with --table (the table "
+                                 "fixes the aircraft)")
+        table = BoomTable.load(args.table)
+    else:
+        table = default_table(args.aircraft)
+    advisor = Advisor(table, zones, config)
+    adv = advisor.step(state, now_monotonic=0.0)
+    if args.json:
+        print(json.dumps(adv.to_record(), indent=2))
+    else:
+        print(advisory_text(adv, state))
+    return 0
+
+
+def default_table(aircraft_file: str | None):
+    """The default-grid table for the aircraft in the standard atmosphere (cached)."""
+    from advisory.physics.aircraft import default_aircraft, load_aircraft
+    from advisory.physics.atmosphere import standard_atmosphere
+    from advisory.tables.build import BuildInputs
+    from advisory.tables.cache import cached_table
+    from advisory.tables.grid import default_grid
+
+    aircraft = load_aircraft(aircraft_file) if aircraft_file else default_aircraft()
+    return cached_table(BuildInputs(aircraft, standard_atmosphere(), default_grid()))
+
+
+def advisory_text(adv, state) -> str:
+    """Readable advisory for a person."""
+    lines = [adv.cue]
+    lines.append(f"status: {adv.status}" + (f" ({adv.reason})" if adv.reason else ""))
+    if adv.cutoff_mach is not None:
+        lines.append(f"present: Mach {state.mach:.2f} at {units.m_to_ft(state.alt_m):,.0f} ft; "
+                     f"cutoff Mach {adv.cutoff_mach:.3f}; boom "
+                     f"{'reaches' if adv.reaches_ground else 'does not reach'} the ground")
+    for c in adv.conflicts:
+        lines.append(f"  zone {c.zone_id} ({c.zone_name}): contact in {c.time_to_contact_s:.0f} s,"
+                     f" {units.pa_to_psf(c.overpressure_pa):.2f} psf"
+                     + (" focus boom" if c.focus else ""))
+    if adv.status in ("advisory", "caution", "warning"):
+        res = []
+        if adv.max_mach_off_ground is not None:
+            res.append(f"Mach {adv.max_mach_off_ground:.2f} or less keeps the boom off the "
+                       "ground")
+        for side, v in (("left", adv.turn_left_deg), ("right", adv.turn_right_deg)):
+            res.append(f"turn {side} {v:.0f} deg clears all zones" if v is not None
+                       else f"no {side} turn up to the search limit clears")
+        lines.append("resolutions: " + "; ".join(res))
+    if adv.tables_stale:
+        lines.append("note: tables stale (a newer atmosphere is being processed)")
+    lines.append(SAFETY_CAUTION)
+    return "\n".join(lines)

@@ -1,0 +1,257 @@
+"""Boom footprint along a predicted trajectory: carpet on the ground, arrivals, focus.
+
+For every emission point of a :class:`~advisory.trajectory.Trajectory` the table gives
+the ground rays across the carpet (one per normalised azimuth); they are placed in the
+trajectory's local frame by the emission point's position and grid heading. The result
+holds, per emission point ``k`` and azimuth node ``j``: ground position (m), arrival
+time (s after the state), overpressure (Pa), duration (s) and a focus amplification.
+
+Focus
+-----
+The map from (emission time, azimuth) to the ground folds where the ray tubes of
+successive emissions cross (acceleration through cutoff, turns, push-overs). With
+``X(t, phi)`` the ground point, the tube area per unit emission time and azimuth is the
+Jacobian ``J = dX/dt x dX/dphi``. For steady flight ``dX/dt`` is the ground velocity;
+along the actual trajectory it is the finite difference of successive footprints. Linear
+acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoustics*,
+1989, ch. 8, ray-tube area); a sign change of ``J`` between successive emissions is a
+fold (a caustic on the ground). The amplification is bounded by
+:data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from numba import njit
+
+from advisory.physics.signature import FOCUS_AMPLIFICATION_CAP
+from advisory.tables import lookup as lk
+from advisory.tables.table import BoomTable
+from advisory.trajectory import Trajectory
+
+
+@njit(cache=True)
+def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
+                       cells, rows, codes, cutoffs):
+    """Table rows for every emission point (``rows``: (K, n_eta, N_QUANTITIES))."""
+    for k in range(alt.size):
+        code, mcut = lk.lookup_kernel(alt[k], mach[k], fpa[k], heading_true[k], ax_alt, ax_mex,
+                                      ax_fpa, ax_hdg, cutoff, cells, rows[k])
+        codes[k] = code
+        cutoffs[k] = mcut
+
+
+@njit(cache=True)
+def place_kernel(t, east, north, heading_grid, rows, codes, out_e, out_n, out_t, out_de,
+                 out_dn):
+    """Place table rows on the ground in the frame plane.
+
+    ``out_de``/``out_dn`` receive d(east, north)/d(phi), m/rad. Rows of emission points
+    without a boom are set to NaN.
+    """
+    nk = t.size
+    nj = rows.shape[1]
+    for k in range(nk):
+        s = math.sin(heading_grid[k])
+        c = math.cos(heading_grid[k])
+        for j in range(nj):
+            if codes[k] == lk.NO_BOOM:
+                out_e[k, j] = np.nan
+                out_n[k, j] = np.nan
+                out_t[k, j] = np.nan
+                out_de[k, j] = np.nan
+                out_dn[k, j] = np.nan
+                continue
+            f = rows[k, j, lk.Q_FWD]
+            r = rows[k, j, lk.Q_RIGHT]
+            out_e[k, j] = east[k] + f * s + r * c
+            out_n[k, j] = north[k] + f * c - r * s
+            out_t[k, j] = t[k] + rows[k, j, lk.Q_TIME]
+            df = rows[k, j, lk.Q_DFWD_DPHI]
+            dr = rows[k, j, lk.Q_DRIGHT_DPHI]
+            out_de[k, j] = df * s + dr * c
+            out_dn[k, j] = df * c - dr * s
+
+
+@njit(cache=True)
+def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, out):
+    """Focus amplification per (k, j); see the module notes. Never NaN."""
+    nk, nj = ground_e.shape
+    for k in range(nk):
+        for j in range(nj):
+            out[k, j] = 1.0
+    if nk < 2:
+        return
+    prev_sign = np.zeros(nj)
+    for k in range(nk):
+        if codes[k] == lk.NO_BOOM:
+            for j in range(nj):
+                prev_sign[j] = 0.0
+            continue
+        k0 = k - 1 if k > 0 and codes[k - 1] != lk.NO_BOOM else k
+        k1 = k + 1 if k < nk - 1 and codes[k + 1] != lk.NO_BOOM else k
+        if k1 == k0:
+            continue
+        dt = t[k1] - t[k0]
+        for j in range(nj):
+            de = dphi_e[k, j]
+            dn = dphi_n[k, j]
+            if not (math.isfinite(de) and math.isfinite(dn)):
+                continue
+            te = (ground_e[k1, j] - ground_e[k0, j]) / dt
+            tn = (ground_n[k1, j] - ground_n[k0, j]) / dt
+            j_act = te * dn - tn * de
+            j_std = vg_e[k] * dn - vg_n[k] * de
+            if j_std == 0.0:
+                continue
+            ratio = j_std / j_act if j_act != 0.0 else math.inf
+            sign = 1.0 if ratio > 0.0 else -1.0
+            if ratio <= 0.0 or (prev_sign[j] != 0.0 and sign != prev_sign[j]):
+                amp = cap  # a fold: the ray map turns over between emissions
+            elif ratio > 1.0:
+                amp = min(math.sqrt(ratio), cap)
+            else:
+                amp = 1.0
+            prev_sign[j] = sign
+            out[k, j] = amp
+
+
+def place_numpy(t, east, north, heading_grid, rows, codes):
+    """Numpy twin of :func:`place_kernel`; returns (e, n, t, de, dn)."""
+    s = np.sin(heading_grid)[:, None]
+    c = np.cos(heading_grid)[:, None]
+    f, r = rows[:, :, lk.Q_FWD], rows[:, :, lk.Q_RIGHT]
+    df, dr = rows[:, :, lk.Q_DFWD_DPHI], rows[:, :, lk.Q_DRIGHT_DPHI]
+    e = east[:, None] + f * s + r * c
+    n = north[:, None] + f * c - r * s
+    tt = t[:, None] + rows[:, :, lk.Q_TIME]
+    de = df * s + dr * c
+    dn = df * c - dr * s
+    dead = (codes == lk.NO_BOOM)[:, None]
+    return tuple(np.where(dead, np.nan, a) for a in (e, n, tt, de, dn))
+
+
+@dataclass
+class CarpetPrediction:
+    """Predicted carpet over the look-ahead (arrays over emission ``k`` and azimuth ``j``).
+
+    Attributes
+    ----------
+    t_emit_s : ndarray (K,)
+        Emission times after the state, s.
+    codes : ndarray (K,)
+        Table lookup code per emission (0 = no boom on the ground).
+    cutoff_mach : ndarray (K,)
+        Cutoff Mach at each emission point.
+    east_m, north_m : ndarray (K, J)
+        Ground points in the trajectory's frame, m (NaN where no boom).
+    arrival_s : ndarray (K, J)
+        Boom arrival after the state, s.
+    overpressure_pa, duration_s : ndarray (K, J)
+        Steady-flight ground overpressure and N-wave duration.
+    focus_factor : ndarray (K, J)
+        Focus amplification (1 where none).
+    """
+
+    t_emit_s: np.ndarray
+    codes: np.ndarray
+    cutoff_mach: np.ndarray
+    east_m: np.ndarray
+    north_m: np.ndarray
+    arrival_s: np.ndarray
+    overpressure_pa: np.ndarray
+    duration_s: np.ndarray
+    focus_factor: np.ndarray
+    edge_flag: np.ndarray
+
+    @property
+    def on_ground(self) -> np.ndarray:
+        """(K,) True where the boom of emission ``k`` reaches the ground."""
+        return self.codes != lk.NO_BOOM
+
+    @property
+    def effective_overpressure_pa(self) -> np.ndarray:
+        """Overpressure with focus amplification applied, Pa (0 where no boom)."""
+        return np.where(self.on_ground[:, None], self.overpressure_pa * self.focus_factor, 0.0)
+
+    def edges(self) -> tuple[np.ndarray, np.ndarray]:
+        """Left and right carpet edges as (K, 2) polylines (east, north), m."""
+        left = np.stack([self.east_m[:, 0], self.north_m[:, 0]], axis=1)
+        right = np.stack([self.east_m[:, -1], self.north_m[:, -1]], axis=1)
+        return left, right
+
+
+class FootprintPredictor:
+    """Computes :class:`CarpetPrediction` from a trajectory and a table (hot path).
+
+    Buffers are reused between calls of the same length.
+    """
+
+    def __init__(self, table: BoomTable, focus_cap: float = FOCUS_AMPLIFICATION_CAP) -> None:
+        self.table = table
+        self.focus_cap = float(focus_cap)
+        self._n = -1
+
+    def _buffers(self, nk: int) -> None:
+        if nk == self._n:
+            return
+        nj = self.table.eta.size
+        self._rows = np.zeros((nk, nj, lk.N_QUANTITIES))
+        self._codes = np.zeros(nk, dtype=np.int64)
+        self._cut = np.zeros(nk)
+        self._n = nk
+
+    def lookup(self, traj: Trajectory) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Table rows, codes and cutoff Mach for every emission point (owned buffers)."""
+        nk = traj.t_s.size
+        self._buffers(nk)
+        heading_true = traj.heading_rad if self.table.has_wind else np.zeros(nk)
+        lookup_rows_kernel(traj.alt_m, traj.mach, traj.fpa_rad, heading_true,
+                           self.table.ax_alt, self.table.ax_mex, self.table.ax_fpa,
+                           self.table.ax_hdg, self.table.cutoff, self.table.cells,
+                           self._rows, self._codes, self._cut)
+        return self._rows, self._codes, self._cut
+
+    def predict(self, traj: Trajectory, rows=None, codes=None, cutoffs=None) -> CarpetPrediction:
+        """Carpet for ``traj``; pass ``rows``/``codes``/``cutoffs`` to reuse a lookup."""
+        if rows is None:
+            rows, codes, cutoffs = self.lookup(traj)
+            rows, codes, cutoffs = rows.copy(), codes.copy(), cutoffs.copy()
+        nk, nj = rows.shape[0], rows.shape[1]
+        e = np.empty((nk, nj))
+        n = np.empty((nk, nj))
+        ta = np.empty((nk, nj))
+        de = np.empty((nk, nj))
+        dn = np.empty((nk, nj))
+        place_kernel(traj.t_s, traj.east_m, traj.north_m, traj.heading_grid_rad, rows, codes,
+                     e, n, ta, de, dn)
+        amp = np.ones((nk, nj))
+        vg_e = traj.ground_speed_mps * np.sin(traj.track_grid_rad)
+        vg_n = traj.ground_speed_mps * np.cos(traj.track_grid_rad)
+        focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, self.focus_cap, amp)
+        return CarpetPrediction(
+            t_emit_s=traj.t_s, codes=codes, cutoff_mach=cutoffs, east_m=e, north_m=n,
+            arrival_s=ta, overpressure_pa=rows[:, :, lk.Q_DP].copy(),
+            duration_s=rows[:, :, lk.Q_DURATION].copy(), focus_factor=amp,
+            edge_flag=rows[:, :, lk.Q_EDGE] > 0.5,
+        )
+
+
+def swath_polygon(pred: CarpetPrediction, t0: float, t1: float) -> np.ndarray | None:
+    """The carpet swept by emissions in ``[t0, t1]`` as a closed (N, 2) ring, or None."""
+    sel = (pred.t_emit_s >= t0) & (pred.t_emit_s <= t1) & pred.on_ground
+    if np.count_nonzero(sel) < 2:
+        return None
+    left, right = pred.edges()
+    ring = np.concatenate([left[sel], right[sel][::-1], left[sel][:1]])
+    return ring if np.all(np.isfinite(ring)) else None
+
+
+def strip_indices(n_eta: int, strips: int) -> np.ndarray:
+    """Azimuth nodes bounding ``strips`` strips across the carpet (edges included)."""
+    return np.unique(np.round(np.linspace(0, n_eta - 1, strips + 1)).astype(np.int64))
+
+

@@ -1,0 +1,59 @@
+"""A local cache of built tables, so commands without ``--table`` build once, then reuse.
+
+The cache key is the SHA-256 of everything a table is built from (aircraft, atmosphere,
+grid, reflection factor, package version); a changed input is a new entry. Location:
+``$BOOM_ADVISORY_CACHE`` or ``~/.cache/boom-advisory``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import sys
+import time
+from pathlib import Path
+
+from advisory import __version__
+from advisory.tables.build import BuildInputs, aircraft_document, build_table_arrays, provenance
+from advisory.tables.store import TableFileError, write_table_file
+from advisory.tables.table import BoomTable
+
+
+def cache_dir() -> Path:
+    """The cache directory (created on demand)."""
+    env = os.environ.get("BOOM_ADVISORY_CACHE")
+    path = Path(env) if env else Path.home() / ".cache" / "boom-advisory"
+    path.mkdir(parents=True, exist_ok=True)
+    return path
+
+
+def table_key(inputs: BuildInputs) -> str:
+    """SHA-256 (hex) of the build inputs."""
+    doc = {
+        "package_version": __version__,
+        "aircraft": aircraft_document(inputs.aircraft),
+        "atmosphere": inputs.atmosphere.description,
+        "grid": inputs.grid.to_dict(),
+        "reflection_factor": inputs.reflection_factor,
+    }
+    return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()
+
+
+def cached_table(inputs: BuildInputs, quiet: bool = False) -> BoomTable:
+    """Load the table for ``inputs`` from the cache, building it first if needed."""
+    path = cache_dir() / f"table-{table_key(inputs)[:24]}.boomtable"
+    if path.exists():
+        try:
+            return BoomTable.load(path)
+        except TableFileError as exc:
+            if not quiet:
+                print(f"boom-advisory: cached table refused ({exc}); rebuilding",
+                      file=sys.stderr)
+    if not quiet:
+        print(f"boom-advisory: building the boom table for {inputs.aircraft.name} "
+              f"(once; cached in {path.parent})", file=sys.stderr)
+    t0 = time.monotonic()
+    arrays = build_table_arrays(inputs)
+    write_table_file(path, provenance(inputs, time.monotonic() - t0), arrays)
+    return BoomTable.load(path)

@@ -31,7 +31,7 @@ from advisory import geometry_kernels as gk
 from advisory.advisor_config import AdvisorConfig
 from advisory.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.geodesy import LocalFrame, inverse
-from advisory.physics.atmosphere import Atmosphere, atmosphere_from_description
+from advisory.physics.atmosphere import Atmosphere
 from advisory.state import AirDataState
 from advisory.tables.table import BoomTable
 from advisory.trajectory import Trajectory, predict_trajectory, propagate_kernel
@@ -123,7 +123,7 @@ class Advisory:
 
         return {
             "status": self.status,
-            "zone_id": self.zone_id,
+            "zone_id": _clip_utf8(self.zone_id, 63),
             "time_to_contact_s": r(self.time_to_contact_s, 1),
             "overpressure_psf": r(self.overpressure_psf, 3),
             "focus": bool(self.focus),
@@ -131,7 +131,7 @@ class Advisory:
             "turn_left_deg": r(self.turn_left_deg, 0),
             "turn_right_deg": r(self.turn_right_deg, 0),
             "tables_stale": bool(self.tables_stale),
-            "cue": self.cue,
+            "cue": _clip_utf8(self.cue, 127),
         }
 
     def to_record(self) -> dict:
@@ -153,6 +153,14 @@ class Advisory:
             "caution": SAFETY_CAUTION,
         })
         return d
+
+
+def _clip_utf8(text: str | None, limit: int) -> str | None:
+    """``text`` cut to at most ``limit`` UTF-8 bytes (the wire format's string limits)."""
+    if text is None:
+        return None
+    raw = text.encode("utf-8")
+    return text if len(raw) <= limit else raw[:limit].decode("utf-8", "ignore")
 
 
 def crew_cue(a: Advisory) -> str:
@@ -262,7 +270,7 @@ class Advisor:
     def _use_table(self, table: BoomTable) -> None:
         self._table = table
         self._predictor = FootprintPredictor(table)
-        self._atm = atmosphere_from_description(table.header["atmosphere"])
+        self._atm = table.atmosphere()
         self._sound = _speed_of_sound_fn(self._atm)
         self._strips = strip_indices(table.eta.size, self.config.strips)
 
@@ -336,15 +344,17 @@ class Advisor:
         cfg = self.config
         table = self._table
         pz = self._zones_for(s.lat_rad, s.lon_rad)
-        traj = self._trajectory(s, pz)
+        ahead = self._trajectory(s, pz)
+        self._past = past_trajectory(ahead, cfg.in_air_s, cfg.step_s)
+        traj = join_trajectories(self._past, ahead)
         pred = self._predictor.predict(traj)
-        self.last_prediction, self.last_trajectory = pred, traj
+        self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
         conflicts = find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold)
         first = conflicts[0] if conflicts else None
         level = self._levels.update(first.time_to_contact_s if first else None, now)
         cut_now = table.cutoff_mach(s.alt_m, s.fpa_rad, s.heading_rad)
         max_mach = math.floor(100.0 * (cut_now - cfg.cutoff_margin_mach)) / 100.0
-        reaches_now = bool(pred.on_ground[0])
+        reaches_now = bool(pred.on_ground[self._past.t_s.size])
         if level == 0:
             status = "clear" if pred.on_ground.any() else "no_boom"
         else:
@@ -387,10 +397,11 @@ class Advisor:
             rows, codes, cut = self._predictor.lookup(self.last_trajectory)
             rows, codes, cut = rows.copy(), codes.copy(), cut.copy()
 
-        base_traj = self.last_trajectory
+        ahead, past = self._ahead, self._past
 
         def clears(delta_deg: float, side: int) -> bool:
-            traj = turned_trajectory(base_traj, side * bank, math.radians(delta_deg) * side)
+            traj = join_trajectories(
+                past, turned_trajectory(ahead, side * bank, math.radians(delta_deg) * side))
             pred = (self._predictor.predict(traj, rows, codes, cut) if reuse
                     else self._predictor.predict(traj))
             return not find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold,
@@ -420,32 +431,81 @@ class Advisor:
         return out[0], out[1]
 
 
-def turned_trajectory(base: Trajectory, bank_rad: float, heading_change_rad: float
-                      ) -> Trajectory:
-    """``base`` flown with a turn at ``bank_rad`` that rolls out after the heading change.
-
-    Same start point, Mach and climb schedule and wind as ``base``; only the lateral
-    path differs (a resolution trial). Uses the trajectory kernel directly.
-    """
-    t = base.t_s
-    a = base.tas_mps / base.mach
-    fpa = float(base.fpa_rad[0])
+def _propagate_like(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
+                    ) -> Trajectory:
+    """Run the trajectory kernel over times ``t`` from ``base``'s start state."""
+    i0 = int(np.argmin(np.abs(base.t_s)))
+    mdot = 0.0
+    if base.t_s.size > 1:
+        mdot = float((base.mach[-1] - base.mach[0]) / (base.t_s[-1] - base.t_s[0]))
+    mach = np.maximum(base.mach[i0] + mdot * t, 0.1)
+    a = np.full_like(t, float(base.tas_mps[i0] / base.mach[i0]))
+    fpa = float(base.fpa_rad[i0])
     cos_g = math.cos(fpa)
-    psi0 = float(base.heading_grid_rad[0])
-    ge = base.ground_speed_mps[0] * math.sin(base.track_grid_rad[0])
-    gn = base.ground_speed_mps[0] * math.cos(base.track_grid_rad[0])
-    vh = base.tas_mps[0] * cos_g
-    params = np.array([base.alt_m[0], math.sin(fpa), cos_g, bank_rad, heading_change_rad,
-                       psi0, ge - vh * math.sin(psi0), gn - vh * math.cos(psi0),
-                       base.east_m[0], base.north_m[0], base.frame.radius_m, units.G0])
-    out = propagate_kernel(t, base.mach, a, params)
+    psi0 = float(base.heading_grid_rad[i0])
+    ge = base.ground_speed_mps[i0] * math.sin(base.track_grid_rad[i0])
+    gn = base.ground_speed_mps[i0] * math.cos(base.track_grid_rad[i0])
+    vh = base.tas_mps[i0] * cos_g
+    params = np.array([base.alt_m[i0], math.sin(fpa), cos_g, bank_rad, turn_limit, psi0,
+                       ge - vh * math.sin(psi0), gn - vh * math.cos(psi0), base.east_m[i0],
+                       base.north_m[i0], base.frame.radius_m, units.G0])
+    out = propagate_kernel(t, mach, a, params)
     return Trajectory(
-        t_s=t, alt_m=out[2], mach=base.mach, tas_mps=out[3], heading_grid_rad=out[4],
+        t_s=t, alt_m=out[2], mach=mach, tas_mps=out[3], heading_grid_rad=out[4],
         track_grid_rad=out[7], ground_speed_mps=out[8], bank_rad=out[6],
-        fpa_rad=base.fpa_rad, turn_rate_rad_s=out[5], east_m=out[0], north_m=out[1],
+        fpa_rad=np.full_like(t, fpa), turn_rate_rad_s=out[5], east_m=out[0], north_m=out[1],
         frame=base.frame, wind_east_mps=base.wind_east_mps,
         wind_north_mps=base.wind_north_mps, wind_inferred=base.wind_inferred,
     )
+
+
+def past_trajectory(ahead: Trajectory, back_s: float, step_s: float) -> Trajectory:
+    """The recent past, extrapolated back from the present manoeuvre (time-ascending,
+    ending just before t = 0): the emission points whose booms may still be in the air.
+
+    Assumes the aircraft flew the present manoeuvre (bank, Mach rate, climb) for the
+    last ``back_s`` seconds.
+    """
+    n = max(int(math.ceil(back_s / step_s - 1e-9)), 0)
+    t = -np.arange(n + 1, dtype=np.float64) * step_s
+    if n:
+        t[-1] = -back_s
+    back = _propagate_like(ahead, t, float(ahead.bank_rad[0]), math.nan)
+    sel = slice(n, 0, -1)  # reversed, t = 0 dropped
+
+    def rev(a: np.ndarray) -> np.ndarray:
+        return np.ascontiguousarray(a[sel])
+
+    return Trajectory(
+        t_s=rev(back.t_s), alt_m=rev(back.alt_m), mach=rev(back.mach),
+        tas_mps=rev(back.tas_mps), heading_grid_rad=rev(back.heading_grid_rad),
+        track_grid_rad=rev(back.track_grid_rad), ground_speed_mps=rev(back.ground_speed_mps),
+        bank_rad=rev(back.bank_rad), fpa_rad=rev(back.fpa_rad),
+        turn_rate_rad_s=rev(back.turn_rate_rad_s), east_m=rev(back.east_m),
+        north_m=rev(back.north_m), frame=ahead.frame, wind_east_mps=ahead.wind_east_mps,
+        wind_north_mps=ahead.wind_north_mps, wind_inferred=ahead.wind_inferred,
+    )
+
+
+_TRAJ_ARRAYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
+                "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m",
+                "north_m")
+
+
+def join_trajectories(past: Trajectory, ahead: Trajectory) -> Trajectory:
+    """``past`` followed by ``ahead`` (one time-ascending trajectory)."""
+    arrays = {k: np.concatenate([getattr(past, k), getattr(ahead, k)]) for k in _TRAJ_ARRAYS}
+    return Trajectory(**arrays, frame=ahead.frame, wind_east_mps=ahead.wind_east_mps,
+                      wind_north_mps=ahead.wind_north_mps, wind_inferred=ahead.wind_inferred)
+
+
+def turned_trajectory(base: Trajectory, bank_rad: float, heading_change_rad: float
+                      ) -> Trajectory:
+    """``base`` (starting at t = 0) flown with a turn at ``bank_rad`` that rolls out after
+    ``heading_change_rad``: same Mach and climb schedule and wind, a different lateral
+    path (a resolution trial). Uses the trajectory kernel directly.
+    """
+    return _propagate_like(base, base.t_s, bank_rad, heading_change_rad)
 
 
 def _state_problem(s: AirDataState) -> str:
@@ -544,11 +604,13 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
             j1 = strip_nodes[s + 1]
             k = 0
             while k < nk:
-                if not (on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim):
+                if not (on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                        and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
                     k += 1
                     continue
                 start = k
-                while k < nk and on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim:
+                while (k < nk and on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                       and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
                     k += 1
                 stop = k
                 ax = e[start:stop, j0].copy()
@@ -561,8 +623,8 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
                     if hits[z] < 0:
                         continue
                     kk = start + hits[z]
-                    t = _kernel_contact_time(e, n, arrival, kk, start, j0, j1, m[z], x, y,
-                                             ring_start, part_start, zone_start, z)
+                    t = max(_kernel_contact_time(e, n, arrival, kk, start, j0, j1, m[z], x, y,
+                                                 ring_start, part_start, zone_start, z), 0.0)
                     if t < best_t[z]:
                         k0 = kk - 1 if kk > start else kk
                         big = 0.0
@@ -602,7 +664,8 @@ def find_conflicts_numpy(pred: CarpetPrediction, pz: ProjectedZones, zones: Zone
         margin = np.where(limits == lim, pz.margin_m, _EXCLUDE)
         for j0, j1 in zip(strip_nodes[:-1], strip_nodes[1:]):
             seg_dp = np.maximum(dp[:, j0], dp[:, j1])
-            valid = pred.on_ground & (seg_dp > lim)
+            still_arriving = np.maximum(pred.arrival_s[:, j0], pred.arrival_s[:, j1]) >= 0.0
+            valid = pred.on_ground & (seg_dp > lim) & still_arriving
             if not valid.any():
                 continue
             for start, stop in _runs(valid):
@@ -614,7 +677,7 @@ def find_conflicts_numpy(pred: CarpetPrediction, pz: ProjectedZones, zones: Zone
                 for z in np.nonzero(hits >= 0)[0]:
                     k = start + int(hits[z])
                     ks = [k - 1, k] if k > start else [k]
-                    t = _contact_time(pred, pz, int(z), k, start, j0, j1, margin[z])
+                    t = max(_contact_time(pred, pz, int(z), k, start, j0, j1, margin[z]), 0.0)
                     if t < best_t[z]:
                         best_t[z] = t
                         best_dp[z] = float(np.max(dp[ks][:, [j0, j1]]))

@@ -6,6 +6,7 @@ operators tune them in a config file::
     [prediction]
     look_ahead_s = 300      # how far ahead the trajectory and carpet are predicted
     step_s = 3              # emission spacing along the predicted trajectory
+    in_air_s = 150          # booms emitted this long ago may still be on their way down
 
     [levels]
     caution_lead_s = 120    # contact sooner than this -> caution
@@ -53,6 +54,7 @@ class AdvisorConfig:
 
     look_ahead_s: float = 300.0
     step_s: float = 3.0
+    in_air_s: float = 150.0
     caution_lead_s: float = 120.0
     warning_lead_s: float = 60.0
     band_s: float = 10.0
@@ -70,7 +72,7 @@ class AdvisorConfig:
     def validate(self) -> None:
         """Raise :class:`ConfigError` naming the first bad value."""
         limits = {
-            "look_ahead_s": (10.0, 1800.0), "step_s": (0.5, 30.0),
+            "look_ahead_s": (10.0, 1800.0), "step_s": (0.5, 30.0), "in_air_s": (0.0, 600.0),
             "caution_lead_s": (1.0, 1800.0), "warning_lead_s": (1.0, 1800.0),
             "band_s": (0.0, 120.0), "release_s": (0.0, 300.0), "warning_hold_s": (0.0, 600.0),
             "cutoff_margin_mach": (0.0, 0.5), "turn_bank_deg": (5.0, 60.0),
@@ -91,7 +93,7 @@ class AdvisorConfig:
 
 
 _SECTIONS = {
-    "prediction": ("look_ahead_s", "step_s", "strips", "reproject_km"),
+    "prediction": ("look_ahead_s", "step_s", "in_air_s", "strips", "reproject_km"),
     "levels": ("caution_lead_s", "warning_lead_s"),
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg"),

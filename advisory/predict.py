@@ -145,13 +145,12 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
 
 def predict_from_table(inputs: PredictInputs) -> PredictResult:
     """Answer from a precomputed table (its aircraft and atmosphere)."""
-    from advisory.physics.atmosphere import atmosphere_from_description
     from advisory.tables import lookup as lk
     from advisory.tables.table import BoomTable
     from advisory.tables.verify import half_widths
 
     table = BoomTable.load(inputs.table_file)
-    atm = atmosphere_from_description(table.header["atmosphere"])
+    atm = table.atmosphere()
     tracer = RayTracer(atm)
     fc = flight_condition(inputs)
     fc.validate(atm)

@@ -64,6 +64,47 @@ def eta_to_phi(eta: np.ndarray, phi_ref: float, phi_left: float, phi_right: floa
 def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: int):
     """Physics for one (altitude, flight-path angle, heading) column.
 
+    Runs the compiled kernels of :mod:`advisory.physics.fastpath` (same scheme as
+    :func:`build_column_reference`, equal to rounding); falls back to the reference when
+    the fast path declines the column (a condition the reference refuses with an error).
+
+    Returns
+    -------
+    (cutoff, phi_left, phi_right, cells)
+        Cutoff Mach; lateral cutoff azimuths per Mach excess (rad); rows of shape
+        (n_mach_excess, n_eta, N_QUANTITIES).
+    """
+    from advisory.physics import fastpath as fp
+
+    g = inputs.grid
+    hdg = g.headings_rad[kh]
+    col = fp.trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], hdg, g.fpa_rad[jf],
+                          g.ground_elevation_m, np.asarray(g.mach_excess, dtype=np.float64),
+                          g.eta, inputs.reflection_factor)
+    if col is None:
+        return build_column_reference(inputs, tracer, ia, jf, kh)
+    r = col.rays
+    cells = np.zeros(r.shape[:2] + (lk.N_QUANTITIES,))
+    sh, ch = math.sin(hdg), math.cos(hdg)
+    reached = r[..., fp.R_REACHED] > 0.0
+    x, y = r[..., fp.R_X], r[..., fp.R_Y]
+    dx, dy = r[..., fp.R_DX_DPHI], r[..., fp.R_DY_DPHI]
+    slope_ok = reached & np.isfinite(dx) & np.isfinite(dy)
+    cells[..., lk.Q_PHI] = r[..., fp.R_PHI]
+    cells[..., lk.Q_FWD] = np.where(reached, x * sh + y * ch, 0.0)
+    cells[..., lk.Q_RIGHT] = np.where(reached, x * ch - y * sh, 0.0)
+    cells[..., lk.Q_TIME] = np.where(reached, r[..., fp.R_TIME], 0.0)
+    cells[..., lk.Q_DFWD_DPHI] = np.where(slope_ok, dx * sh + dy * ch, 0.0)
+    cells[..., lk.Q_DRIGHT_DPHI] = np.where(slope_ok, dx * ch - dy * sh, 0.0)
+    cells[..., lk.Q_DP] = np.where(reached, r[..., fp.R_DP], 0.0)
+    cells[..., lk.Q_DURATION] = np.where(reached, r[..., fp.R_DURATION], 0.0)
+    cells[..., lk.Q_EDGE] = r[..., fp.R_EDGE]
+    return col.cutoff_mach, col.phi_left, col.phi_right, cells
+
+
+def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: int):
+    """Physics for one column through the readable path (reference for the fast path).
+
     Returns
     -------
     (cutoff, phi_left, phi_right, cells)
@@ -192,7 +233,24 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
     arrays = dict(inputs.grid.axes())
     arrays.update({"cutoff_mach": cutoff, "phi_left": phi_left, "phi_right": phi_right,
                    "cells": cells})
+    arrays.update(atmosphere_arrays(inputs.atmosphere))
     return arrays
+
+
+_ATM_FIELDS = ("z_m", "temperature_k", "pressure_pa", "density_kgm3", "sound_speed_mps",
+               "wind_east_mps", "wind_north_mps")
+
+
+def atmosphere_arrays(atm: Atmosphere) -> dict[str, np.ndarray]:
+    """The atmosphere in full, as payload arrays (``atm_<field>``)."""
+    return {f"atm_{name}": np.asarray(getattr(atm, name), dtype=np.float64)
+            for name in _ATM_FIELDS}
+
+
+def atmosphere_from_arrays(arrays: dict[str, np.ndarray], description: dict) -> Atmosphere:
+    """Inverse of :func:`atmosphere_arrays`."""
+    return Atmosphere(**{name: np.array(arrays[f"atm_{name}"]) for name in _ATM_FIELDS},
+                      description=dict(description))
 
 
 def aircraft_document(aircraft: Aircraft) -> dict:

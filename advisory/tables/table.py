@@ -82,6 +82,16 @@ class BoomTable:
         self.header["payload_sha256"] = digest
         return digest
 
+    def atmosphere(self):
+        """The atmosphere the table was built from (from the payload, in full)."""
+        from advisory.tables.build import atmosphere_from_arrays
+
+        if "atm_z_m" in self.arrays:
+            return atmosphere_from_arrays(self.arrays, self.header.get("atmosphere", {}))
+        from advisory.physics.atmosphere import atmosphere_from_description
+
+        return atmosphere_from_description(self.header["atmosphere"])
+
     @property
     def digest(self) -> str:
         """Payload SHA-256 (hex), or '' for a table not yet saved."""

@@ -12,7 +12,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from advisory.physics.aircraft import aircraft_from_dict
-from advisory.physics.atmosphere import atmosphere_from_description
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.tables import lookup as lk
@@ -83,7 +82,7 @@ def inputs_from_table(table: BoomTable) -> BuildInputs:
     h = table.header
     return BuildInputs(
         aircraft=aircraft_from_dict(h["aircraft"]),
-        atmosphere=atmosphere_from_description(h["atmosphere"]),
+        atmosphere=table.atmosphere(),
         grid=table.grid,
         reflection_factor=float(h["reflection_factor"]),
     )

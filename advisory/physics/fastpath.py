@@ -1,0 +1,534 @@
+"""Fast path for the table builder: one (altitude, flight-path angle, heading) column in numba.
+
+The table builder needs, for every column, the cutoff Mach, and for every Mach excess
+above it the two lateral cutoff azimuths and the ground end of each tabulated ray with
+its signature. The readable path does this through :mod:`advisory.physics.carpet`,
+:meth:`advisory.physics.rays.RayTracer.trace` and
+:func:`advisory.physics.signature.ground_signature`, one Python call per ray or per
+bisection step. This module runs the *same scheme* as compiled kernels over plain
+arrays; it adds no physics of its own:
+
+* :func:`min_q2_kernel` is :meth:`RayTracer.min_q2` (emission slowness, then the
+  smallest ``q^2`` over the levels);
+* :func:`best_reaching_azimuth_kernel`, :func:`cutoff_mach_kernel` and
+  :func:`lateral_cutoff_kernel` are :func:`advisory.physics.carpet.best_reaching_azimuth`,
+  :func:`~advisory.physics.carpet.cutoff_mach` and
+  :func:`~advisory.physics.carpet.lateral_cutoff` (same bisections, same tolerances,
+  same azimuth scan);
+* :func:`ray_ground_kernel` is ``RayTracer.trace`` (level integration, ray-tube area
+  from the translation of the ray pattern, amplitude factor ``G`` matched to Whitham's
+  near field on a one-metre uniform segment, as in ``RayTracer._amplitude``) followed
+  by ``ground_signature`` (lift-equivalent area, ageing, equal-area shocks via
+  :func:`advisory.physics.signature.signature_kernel`, edge and caustic flags);
+* :func:`column_kernel` strings them together as ``build_column`` does.
+
+Operations are written in the order the readable path evaluates them, so the two agree
+to rounding (the parity test in ``tests/test_fastpath.py`` holds them to 1e-9 relative
+for geometry and 1e-6 for overpressure and duration). The readable path stays the
+reference: the builder falls back to it whenever :func:`trace_column` declines a column
+(a condition the readable path would refuse with an error, such as no cutoff Mach up
+to Mach 5).
+
+References
+----------
+.. [1] A. D. Pierce, *Acoustics: An Introduction to Its Physical Principles and
+   Applications*, Acoustical Society of America, 1989, ch. 8 (rays in moving media,
+   Blokhintsev invariant).
+.. [2] G. B. Whitham, "The flow pattern of a supersonic projectile", Comm. Pure Appl.
+   Math. 5, 1952, pp. 301-348 (near-field amplitude, F-function).
+.. [3] G. B. Whitham, "On the propagation of weak shock waves", J. Fluid Mech. 1, 1956,
+   pp. 290-318 (ageing, equal-area rule).
+"""
+
+from __future__ import annotations
+
+import math
+from typing import NamedTuple
+
+import numpy as np
+from numba import njit
+
+from advisory.physics import carpet as _carpet
+from advisory.physics.aircraft import Aircraft
+from advisory.physics.atmosphere import GAMMA
+from advisory.physics.rays import (
+    FlightCondition,
+    FlightConditionError,
+    RayTracer,
+    emission_slowness,
+    reaches_ground_kernel,
+    trace_levels_kernel,
+)
+from advisory.physics.signature import (
+    EDGE_GRAZING_SINE,
+    REFLECTION_FACTOR_RANGE,
+    f_function_parts,
+    signature_kernel,
+)
+
+# Per-ray result columns written by :func:`ray_ground_kernel` / :func:`column_kernel`.
+R_X = 0  #: ground offset east of the emission point, m
+R_Y = 1  #: ground offset north of the emission point, m
+R_TIME = 2  #: travel time from emission to the ground, s
+R_DX_DPHI = 3  #: d(east offset)/d(azimuth), m/rad
+R_DY_DPHI = 4  #: d(north offset)/d(azimuth), m/rad
+R_DP = 5  #: ground overpressure, reflection included, Pa
+R_DURATION = 6  #: time between bow and tail shocks, s
+R_EDGE = 7  #: 1 when the signature is flagged (caustic or grazing) or the ray misses
+R_PHI = 8  #: ray azimuth, rad
+R_REACHED = 9  #: 1 when the ray reaches the ground
+N_RAY_RESULTS = 10
+
+#: Column status codes returned by :func:`column_kernel`.
+STATUS_OK = 0
+STATUS_NO_CUTOFF = 1  #: no Mach up to the search limit reaches the ground
+STATUS_MACH_RANGE = 2  #: a tabulated Mach lies above the supported 5.0
+
+#: Nudge applied when a Mach just above cutoff has no reaching ray (as ``build_column``).
+CUTOFF_NUDGE = 1e-4
+#: Highest Mach the ray tracer accepts (``FlightCondition.validate``).
+MACH_LIMIT = 5.0
+
+_PHI_SCAN = np.array(_carpet._PHI_SCAN, dtype=np.float64)
+
+
+# --------------------------------------------------------------------------------------
+# Carpet geometry (bisections)
+# --------------------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def min_q2_kernel(mach, heading, fpa, phi, c0, w0x, w0y, lc, lwx, lwy, m):
+    """Smallest ``q^2`` (s^2/m^2) along one ray; -1 for subsonic or up-going rays.
+
+    Same as :meth:`advisory.physics.rays.RayTracer.min_q2`; ``lc, lwx, lwy`` are the
+    first ``m`` integration levels (sound speed, wind east/north, m/s) and ``c0, w0x,
+    w0y`` the sound speed and wind at the aircraft (m/s).
+    """
+    if mach <= 1.0:
+        return -1.0
+    sx, sy, nz, _, _ = emission_slowness(mach, heading, fpa, phi, c0, w0x, w0y)
+    if nz >= 0.0:
+        return -1.0
+    return reaches_ground_kernel(lc, lwx, lwy, m, sx, sy)
+
+
+@njit(cache=True)
+def best_reaching_azimuth_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m,
+                                 phi_scan):
+    """Azimuth (rad) whose ray clears the ground by the widest margin, and the margin.
+
+    Same as :func:`advisory.physics.carpet.best_reaching_azimuth`: the centre ray when
+    it reaches, else the best of ``phi_scan`` (first of equals).
+    """
+    m0 = min_q2_kernel(mach, heading, fpa, 0.0, c0, w0x, w0y, lc, lwx, lwy, m)
+    if m0 > 0.0:
+        return 0.0, m0
+    best_phi = 0.0
+    best = m0
+    for k in range(phi_scan.size):
+        v = min_q2_kernel(mach, heading, fpa, phi_scan[k], c0, w0x, w0y, lc, lwx, lwy, m)
+        if v > best:
+            best_phi = phi_scan[k]
+            best = v
+    return best_phi, best
+
+
+@njit(cache=True)
+def _reaches(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan):
+    _, margin = best_reaching_azimuth_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy,
+                                             m, phi_scan)
+    return margin > 0.0
+
+
+@njit(cache=True)
+def cutoff_mach_kernel(heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan, mach_tol,
+                       mach_max):
+    """Lowest Mach whose boom reaches the ground (``inf`` when none up to ``mach_max``).
+
+    Same bisection as :func:`advisory.physics.carpet.cutoff_mach` (tolerance
+    ``mach_tol``).
+    """
+    lo = 1.0
+    hi = mach_max
+    if not _reaches(hi, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan):
+        return math.inf
+    if _reaches(lo + 1e-9, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan):
+        return lo
+    while hi - lo > mach_tol:
+        mid = 0.5 * (lo + hi)
+        if _reaches(mid, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan):
+            hi = mid
+        else:
+            lo = mid
+    return hi
+
+
+@njit(cache=True)
+def lateral_cutoff_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_in, side,
+                          phi_limit, phi_tol):
+    """Largest azimuth (rad) on ``side`` (+1 right, -1 left) of ``phi_in`` that reaches.
+
+    Same bisection as :func:`advisory.physics.carpet.lateral_cutoff`.
+    """
+    lo = phi_in
+    hi = side * phi_limit
+    if min_q2_kernel(mach, heading, fpa, hi, c0, w0x, w0y, lc, lwx, lwy, m) > 0.0:
+        return hi
+    while abs(hi - lo) > phi_tol:
+        mid = 0.5 * (lo + hi)
+        if min_q2_kernel(mach, heading, fpa, mid, c0, w0x, w0y, lc, lwx, lwy, m) > 0.0:
+            lo = mid
+        else:
+            hi = mid
+    return lo
+
+
+# --------------------------------------------------------------------------------------
+# One ray: trace, amplitude, signature
+# --------------------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def _py_max(a, b):
+    """Python's ``max(a, b)`` for floats (keeps ``a`` unless ``b > a``; NaN-faithful)."""
+    if b > a:
+        return b
+    return a
+
+
+@njit(cache=True)
+def _finite(v):
+    return v == v and abs(v) < math.inf
+
+
+@njit(cache=True)
+def near_field_constant(c0, mach, beta, lc0, lwx0, lwy0, rho0, alt, sx, sy, dsx, dsy,
+                        trans_x, trans_y):
+    """``K0 = lim B / r`` near the aircraft (see ``RayTracer._amplitude``).
+
+    ``B = q A_h / (rho Omega^2)`` on a one-metre drop through a uniform layer with the
+    aircraft-level state (Pierce [1]_ sec. 8-6), divided by the distance from the flight
+    axis ``r = c0 t beta / M``. Written in the evaluation order of
+    ``trace_levels_numpy`` on that two-level segment.
+    """
+    h = alt - (alt - 1.0)
+    c2 = lc0 * lc0
+    om = 1.0 - lwx0 * sx - lwy0 * sy
+    q = math.sqrt(om * om / c2 - sx * sx - sy * sy)
+    dqq_sx = -2.0 * om * lwx0 / c2 - 2.0 * sx
+    dqq_sy = -2.0 * om * lwy0 / c2 - 2.0 * sy
+    cm = 0.5 * (lc0 + lc0)
+    c2m = cm * cm
+    wxm = 0.5 * (lwx0 + lwx0)
+    wym = 0.5 * (lwy0 + lwy0)
+    omm = 1.0 - wxm * sx - wym * sy
+    gx = sx + wxm * omm / c2m
+    gy = sy + wym * omm / c2m
+    gt = omm / c2m
+    ssum = q + q
+    integral = 2.0 * h / ssum
+    f = -2.0 * h / (ssum * ssum)
+    di_sx = f * (0.5 * dqq_sx / q + 0.5 * dqq_sx / q)
+    di_sy = f * (0.5 * dqq_sy / q + 0.5 * dqq_sy / q)
+    jxx = (1.0 - wxm * wxm / c2m) * integral + gx * di_sx
+    jxy = (-wxm * wym / c2m) * integral + gx * di_sy
+    jyx = (-wxm * wym / c2m) * integral + gy * di_sx
+    jyy = (1.0 - wym * wym / c2m) * integral + gy * di_sy
+    t = gt * integral
+    dx = jxx * dsx + jxy * dsy
+    dy = jyx * dsx + jyy * dsy
+    area = abs(trans_x * dy - trans_y * dx)
+    b_near = q * area / (rho0 * (om * om))
+    r_near = c0 * t * beta / mach
+    return b_near / r_near
+
+
+@njit(cache=True)
+def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, m,
+                      fy, fv, av, fl, al, lift_n, reflection_factor, work, t_buf, g_buf,
+                      shocks, res):
+    """Trace one ray to the ground and compute its boom (``RayTracer.trace`` +
+    ``ground_signature`` in one kernel).
+
+    Parameters
+    ----------
+    mach, heading, fpa, phi : float
+        Mach number, heading (rad from north), flight-path angle (rad), ray azimuth (rad).
+    c0, w0x, w0y, p0 : float
+        Sound speed (m/s), wind east/north (m/s) and pressure (Pa) at the aircraft.
+    lz, lc, lwx, lwy, rho : ndarray
+        Integration levels from the aircraft down to the ground: altitude (m), sound
+        speed (m/s), wind east/north (m/s), density (kg/m^3); first ``m`` used.
+    fy, fv, av, fl, al : ndarray
+        F-function parts of the aircraft (:class:`~advisory.physics.signature.FFunctionParts`).
+    lift_n : float
+        Lift ``n m g0 cos(fpa)``, N.
+    reflection_factor : float
+        Ground reflection factor.
+    work : ndarray, shape (>= m, 9)
+        Scratch for the per-level trace.
+    t_buf, g_buf : ndarray, shape (>= m,)
+        Scratch for travel time and amplitude factor per level.
+    shocks : ndarray, shape (fy.size + 2, 3)
+        Scratch for the shock fit.
+    res : ndarray, shape (N_RAY_RESULTS,)
+        Output, indexed by the ``R_*`` constants; zero (and ``R_EDGE`` = 1) when the ray
+        does not reach the ground.
+
+    Returns
+    -------
+    bool
+        True when the ray reaches the ground.
+    """
+    for k in range(res.size):
+        res[k] = 0.0
+    res[R_PHI] = phi
+    res[R_EDGE] = 1.0
+    if mach <= 1.0:
+        return False
+    sx, sy, nz, dsx, dsy = emission_slowness(mach, heading, fpa, phi, c0, w0x, w0y)
+    if nz >= 0.0:
+        return False
+    count = trace_levels_kernel(lz, lc, lwx, lwy, m, sx, sy, work)
+    if count < m:
+        return False
+    # Translation of the ray pattern per unit emission time (steady flight).
+    u = mach * c0
+    cg = math.cos(fpa)
+    vgx = u * cg * math.sin(heading) + w0x
+    vgy = u * cg * math.cos(heading) + w0y
+    vgz = u * math.sin(fpa)
+    q0 = work[0, 3]
+    om0 = work[0, 8]
+    c20 = lc[0] * lc[0]
+    trans_x = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
+    trans_y = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
+    beta = math.sqrt(mach * mach - 1.0)
+    k0 = near_field_constant(c0, mach, beta, lc[0], lwx[0], lwy[0], rho[0], lz[0], sx, sy,
+                             dsx, dsy, trans_x, trans_y)
+    coef = p0 * GAMMA * (mach * mach) / math.sqrt(2.0 * beta)
+    dx = 0.0
+    dy = 0.0
+    for k in range(m):
+        dx = work[k, 4] * dsx + work[k, 5] * dsy
+        dy = work[k, 6] * dsx + work[k, 7] * dsy
+        area = abs(trans_x * dy - trans_y * dx)
+        om = work[k, 8]
+        b = work[k, 3] * area / (rho[k] * (om * om))
+        if b > 0.0:
+            g_buf[k] = coef * math.sqrt(k0 / b)
+        elif k0 > 0.0:
+            g_buf[k] = math.inf
+        else:
+            g_buf[k] = math.nan
+        t_buf[k] = work[k, 2]
+    res[R_REACHED] = 1.0
+    res[R_X] = work[m - 1, 0]
+    res[R_Y] = work[m - 1, 1]
+    res[R_TIME] = work[m - 1, 2]
+    res[R_DX_DPHI] = dx
+    res[R_DY_DPHI] = dy
+    # Ground signature (ground_signature with load factor 1).
+    beta_l = math.sqrt(max(mach * mach - 1.0, 0.0))
+    lift_area = beta_l * math.cos(phi) * lift_n / (GAMMA * p0 * mach * mach)
+    age_scale = mach * c0 / om0
+    rows, f_max, f_min, age, last = signature_kernel(fy, fv, av, fl, al, lift_area, t_buf[:m],
+                                                     g_buf[:m], rho[:m], lc[:m], m, age_scale,
+                                                     shocks)
+    if last < 1:
+        return True  # no boom: zeros, edge flagged
+    caustic = last < m - 1
+    g_ground = g_buf[last]
+    gq = work[m - 1, 3] * lc[m - 1] / work[m - 1, 8]
+    edge = caustic or not (gq >= EDGE_GRAZING_SINE)
+    kk = reflection_factor * g_ground
+    to_time = om0 / (mach * c0)
+    bow_y = shocks[0, 0]
+    tail_y = shocks[rows - 1, 0]
+    v_peak = kk * _py_max(f_max, 0.0)
+    v_bow = kk * _py_max(shocks[0, 2] - shocks[0, 1], 0.0)
+    v_tail = kk * _py_max(shocks[rows - 1, 2] - shocks[rows - 1, 1], 0.0)
+    v_dur = _py_max(tail_y - bow_y, 0.0) * to_time
+    v_arr = t_buf[last] + bow_y * to_time
+    if not (_finite(v_peak) and _finite(v_bow) and _finite(v_tail) and _finite(v_dur)
+            and _finite(v_arr)):
+        return True  # non-finite signature: zeros, edge flagged
+    res[R_DP] = v_peak
+    res[R_DURATION] = v_dur
+    res[R_EDGE] = 1.0 if edge else 0.0
+    return True
+
+
+# --------------------------------------------------------------------------------------
+# One table column
+# --------------------------------------------------------------------------------------
+
+
+@njit(cache=True)
+def column_kernel(heading, fpa, c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, mach_excess, eta,
+                  phi_scan, mach_tol, mach_search_max, phi_limit, phi_tol, fy, fv, av, fl, al,
+                  lift_n, reflection_factor, phi_left, phi_right, phi_ref, mach_used, rays):
+    """Cutoff Mach, lateral cutoffs and every tabulated ray of one column.
+
+    Parameters
+    ----------
+    heading, fpa : float
+        Heading (rad from north) and flight-path angle (rad) of the column.
+    c0, w0x, w0y, p0 : float
+        Sound speed, wind east/north (m/s) and pressure (Pa) at the aircraft.
+    lz, lc, lwx, lwy, rho : ndarray
+        Integration levels aircraft to ground (see :func:`ray_ground_kernel`).
+    mach_excess : ndarray
+        Mach numbers above cutoff to tabulate.
+    eta : ndarray
+        Normalised azimuths, -1 (left cutoff) .. 0 (reference ray) .. +1 (right cutoff).
+    phi_scan : ndarray
+        Azimuths scanned for the best reaching ray, rad.
+    mach_tol, mach_search_max, phi_limit, phi_tol : float
+        Bisection settings of :mod:`advisory.physics.carpet`.
+    fy, fv, av, fl, al : ndarray
+        F-function parts of the aircraft.
+    lift_n, reflection_factor : float
+        Lift (N) and ground reflection factor.
+    phi_left, phi_right, phi_ref, mach_used : ndarray, shape (n_mach_excess,)
+        Output: lateral cutoff azimuths and reference azimuth (rad), and the Mach traced
+        (cutoff plus excess, nudged up when no ray reached there).
+    rays : ndarray, shape (n_mach_excess, n_eta, N_RAY_RESULTS)
+        Output per ray, indexed by the ``R_*`` constants.
+
+    Returns
+    -------
+    (cutoff_mach, status) : (float, int)
+        ``status`` is :data:`STATUS_OK` or the reason the column was not traced.
+    """
+    m = lz.size
+    m_cut = cutoff_mach_kernel(heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, phi_scan,
+                               mach_tol, mach_search_max)
+    if not m_cut < math.inf:
+        return m_cut, STATUS_NO_CUTOFF
+    work = np.empty((m, 9))
+    t_buf = np.empty(m)
+    g_buf = np.empty(m)
+    shocks = np.empty((fy.size + 2, 3))
+    for im in range(mach_excess.size):
+        mach = m_cut + mach_excess[im]
+        ref, margin = best_reaching_azimuth_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx,
+                                                   lwy, m, phi_scan)
+        if margin <= 0.0:
+            mach = mach + CUTOFF_NUDGE
+            ref, margin = best_reaching_azimuth_kernel(mach, heading, fpa, c0, w0x, w0y, lc,
+                                                       lwx, lwy, m, phi_scan)
+        if mach > MACH_LIMIT:
+            return m_cut, STATUS_MACH_RANGE
+        left = lateral_cutoff_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, ref,
+                                     -1, phi_limit, phi_tol)
+        right = lateral_cutoff_kernel(mach, heading, fpa, c0, w0x, w0y, lc, lwx, lwy, m, ref,
+                                      1, phi_limit, phi_tol)
+        phi_left[im] = left
+        phi_right[im] = right
+        phi_ref[im] = ref
+        mach_used[im] = mach
+        for ie in range(eta.size):
+            e = eta[ie]
+            if e >= 0.0:
+                phi = ref + e * (right - ref)
+            else:
+                phi = ref - e * (left - ref)
+            ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lwy,
+                              rho, m, fy, fv, av, fl, al, lift_n, reflection_factor, work,
+                              t_buf, g_buf, shocks, rays[im, ie])
+    return m_cut, STATUS_OK
+
+
+# --------------------------------------------------------------------------------------
+# Python entry point
+# --------------------------------------------------------------------------------------
+
+
+class ColumnRays(NamedTuple):
+    """Result of :func:`trace_column` (SI).
+
+    Attributes
+    ----------
+    cutoff_mach : float
+        Cutoff Mach of the column.
+    phi_left, phi_right : ndarray, shape (n_mach_excess,)
+        Lateral cutoff azimuths, rad (left negative).
+    phi_ref : ndarray, shape (n_mach_excess,)
+        Reference azimuth (eta = 0), rad.
+    mach : ndarray, shape (n_mach_excess,)
+        Mach number traced for each Mach excess.
+    rays : ndarray, shape (n_mach_excess, n_eta, N_RAY_RESULTS)
+        Per-ray results, indexed by the ``R_*`` constants.
+    """
+
+    cutoff_mach: float
+    phi_left: np.ndarray
+    phi_right: np.ndarray
+    phi_ref: np.ndarray
+    mach: np.ndarray
+    rays: np.ndarray
+
+
+def trace_column(tracer: RayTracer, aircraft: Aircraft, altitude_m: float, heading_rad: float,
+                 fpa_rad: float, ground_elevation_m: float, mach_excess: np.ndarray,
+                 eta: np.ndarray, reflection_factor: float) -> ColumnRays | None:
+    """Physics of one table column through the compiled kernels.
+
+    Parameters
+    ----------
+    tracer : RayTracer
+        Ray tracer of the atmosphere (its integration levels are reused).
+    aircraft : Aircraft
+        The aircraft (its F-function parts are computed once and cached).
+    altitude_m, heading_rad, fpa_rad, ground_elevation_m : float
+        The column's flight condition (m, rad, rad, m).
+    mach_excess : ndarray
+        Mach numbers above cutoff to tabulate (> 0).
+    eta : ndarray
+        Normalised azimuth nodes, -1 .. 1.
+    reflection_factor : float
+        Ground reflection factor.
+
+    Returns
+    -------
+    ColumnRays or None
+        ``None`` when the column is one the readable path refuses (flight condition
+        out of range, no cutoff Mach up to Mach 5, a Mach above 5, aircraft state out of
+        the signature's range): the caller then runs the readable path, which raises
+        the error that names the field.
+    """
+    atm = tracer.atmosphere
+    try:
+        FlightCondition(1.5, altitude_m, heading_rad, fpa_rad, ground_elevation_m).validate(atm)
+    except FlightConditionError:
+        return None
+    s0 = atm.at(altitude_m)
+    c0, w0x, w0y, p0 = s0.sound_speed_mps, s0.wind_east_mps, s0.wind_north_mps, s0.pressure_pa
+    lo_r, hi_r = REFLECTION_FACTOR_RANGE
+    if not (150.0 <= c0 <= 450.0 and 1.0 <= p0 <= 2.0e5 and lo_r <= reflection_factor <= hi_r):
+        return None
+    lz, lc, lwx, lwy = tracer.levels(altitude_m, ground_elevation_m)
+    lz, lc, lwx, lwy = (np.ascontiguousarray(a) for a in (lz, lc, lwx, lwy))
+    z, _, _, _, rho_nodes, _ = atm.arrays()
+    rho = np.exp(np.interp(lz, z, np.log(rho_nodes)))
+    parts = f_function_parts(aircraft)
+    mex = np.ascontiguousarray(mach_excess, dtype=np.float64)
+    eta = np.ascontiguousarray(eta, dtype=np.float64)
+    nm = mex.size
+    phi_l = np.zeros(nm)
+    phi_r = np.zeros(nm)
+    phi_ref = np.zeros(nm)
+    mach = np.zeros(nm)
+    rays = np.zeros((nm, eta.size, N_RAY_RESULTS))
+    m_cut, status = column_kernel(
+        float(heading_rad), float(fpa_rad), c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, mex, eta,
+        _PHI_SCAN, _carpet.MACH_TOL, _carpet.MACH_SEARCH_MAX, _carpet.PHI_LIMIT_RAD,
+        _carpet.PHI_TOL_RAD, parts.y_m, parts.f_volume, parts.area_volume, parts.f_lift_unit,
+        parts.area_lift_unit, aircraft.lift_n(1.0, fpa_rad), float(reflection_factor),
+        phi_l, phi_r, phi_ref, mach, rays,
+    )
+    if status != STATUS_OK:
+        return None
+    return ColumnRays(float(m_cut), phi_l, phi_r, phi_ref, mach, rays)

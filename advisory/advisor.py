@@ -261,6 +261,10 @@ class Advisor:
         self.last_prediction: CarpetPrediction | None = None
         self.last_trajectory: Trajectory | None = None
         self.steps = 0
+        from advisory.tables.rebuild import StreamProfile
+
+        #: Profile assembled from the stream; proposed to a table manager for rebuilds.
+        self.stream_profile = StreamProfile()
         self._use_table(self._current_table())
 
     # ---- tables --------------------------------------------------------------------
@@ -323,11 +327,22 @@ class Advisor:
         if state.rx_monotonic is not None and now - state.rx_monotonic > self.config.stale_after_s:
             return self.unavailable(
                 f"air data stale ({now - state.rx_monotonic:.1f} s old)", state.utc_s)
+        self._learn_atmosphere(state, now)
         try:
             return self._step(state, now)
         except Exception as exc:  # noqa: BLE001 - the loop must never die on one state
             return self.unavailable(f"prediction failed: {type(exc).__name__}: {exc}",
                                     state.utc_s)
+
+    def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
+        """Feed the stream profile; hand a disagreeing profile to the table manager."""
+        submit = getattr(self._tables, "submit_atmosphere", None)
+        if submit is None:
+            return
+        self.stream_profile.add(s.alt_m, s.sat_k, s.wind_east_mps, s.wind_north_mps)
+        atm = self.stream_profile.proposal(self._atm, now)
+        if atm is not None:
+            submit(atm)
 
     def _trajectory(self, s: AirDataState, pz: ProjectedZones, bank: float | None = None,
                     roll_out: float | None = None) -> Trajectory:

@@ -1,0 +1,62 @@
+"""`tables build|info|verify` and `predict --table` as a user runs them."""
+
+from __future__ import annotations
+
+import json
+
+import pytest
+
+from advisory.cli import main
+
+
+@pytest.fixture(scope="module")
+def tiny_table(tmp_path_factory):
+    d = tmp_path_factory.mktemp("cli")
+    grid = d / "grid.toml"
+    grid.write_text("altitudes_ft = [44000, 44500, 45000, 45500, 46000]\nfpa_deg = [0]\n")
+    out = d / "tiny.boomtable"
+    assert main(["tables", "build", "--grid", str(grid), "--workers", "2", "-o", str(out)]) == 0
+    return out
+
+
+def test_build_info(tiny_table, capsys) -> None:
+    assert main(["tables", "info", str(tiny_table)]) == 0
+    text = capsys.readouterr().out
+    assert "payload SHA-256" in text and "Kestrel" in text and "ussa1976" in text
+    assert "advisory aid" in text
+
+
+def test_verify_prints_every_budget(tiny_table, capsys) -> None:
+    code = main(["tables", "verify", str(tiny_table), "--samples", "4"])
+    text = capsys.readouterr().out
+    assert code in (0, 1)
+    for name in ("carpet half-width", "centerline overpressure", "cutoff Mach"):
+        assert name in text
+
+
+def test_predict_from_table_agrees_with_direct_tracing(tiny_table, capsys) -> None:
+    # The table answers for the same condition as direct tracing (tables issue budgets:
+    # half-width 0.5 %, centerline overpressure 1 %, cutoff 0.002).
+    args = ["predict", "--mach", "1.7", "--altitude-ft", "45250", "--json"]
+    assert main(args) == 0
+    direct = json.loads(capsys.readouterr().out)
+    assert main([*args, "--table", str(tiny_table)]) == 0
+    table = json.loads(capsys.readouterr().out)
+    assert table["source"].startswith("table")
+    assert table["cutoff_mach"] == pytest.approx(direct["cutoff_mach"], abs=0.002)
+    assert table["carpet_width_km"] == pytest.approx(direct["carpet_width_km"], rel=0.005)
+    assert table["centerline_overpressure_psf"] == pytest.approx(
+        direct["centerline_overpressure_psf"], rel=0.01)
+    assert len(table["lateral_profile"]) == 31
+
+
+def test_table_refusals_are_clear(tiny_table, tmp_path, capsys) -> None:
+    bad = tmp_path / "bad.boomtable"
+    data = bytearray(tiny_table.read_bytes())
+    data[-7] ^= 0x10
+    bad.write_bytes(bytes(data))
+    assert main(["tables", "info", str(bad)]) == 2
+    assert "SHA-256 mismatch" in capsys.readouterr().err
+    assert main(["predict", "--mach", "2", "--altitude-ft", "45000", "--table",
+                 str(tiny_table), "--load-factor", "1.5"]) == 2
+    assert "--load-factor" in capsys.readouterr().err

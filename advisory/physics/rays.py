@@ -605,7 +605,7 @@ class RayTracer:
         q = out[:, 3]
         omega = out[:, 8]
         jac = out[:, 4:8].reshape(-1, 2, 2)
-        dxy = jac @ np.array([dsx, sy * 0.0 + dsy])
+        dxy = jac @ np.array([dsx, dsy])
         # Translation of the ray pattern per unit emission time (steady flight):
         # horizontal ground speed plus the top-of-ray slope times the climb rate.
         q0 = q[0]

@@ -29,10 +29,17 @@ from numba import njit
 from advisory import SAFETY_CAUTION, units
 from advisory import geometry_kernels as gk
 from advisory.advisor_config import AdvisorConfig
-from advisory.footprint import CarpetPrediction, FootprintPredictor, strip_indices
+from advisory.footprint import (
+    CarpetPrediction,
+    FootprintPredictor,
+    focus_kernel,
+    place_kernel,
+    strip_indices,
+)
 from advisory.geodesy import LocalFrame, inverse
 from advisory.physics.atmosphere import Atmosphere
 from advisory.state import AirDataState
+from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
 from advisory.trajectory import Trajectory, predict_trajectory, propagate_kernel
 from advisory.zones import ProjectedZones, ZoneSet
@@ -403,22 +410,40 @@ class Advisor:
 
     def _turn_resolutions(self, s: AirDataState, pz: ProjectedZones,
                           base: CarpetPrediction) -> tuple[float | None, float | None]:
-        """Smallest left and right heading changes (deg) that clear every zone."""
+        """Smallest left and right heading changes (deg) that clear every zone.
+
+        Booms already emitted (the extrapolated past, up to now) cannot be moved: when
+        they alone reach a zone no turn clears, and the search is skipped. Otherwise each
+        trial turns the trajectory ahead only.
+        """
         cfg = self.config
+        n_past = self._past.t_s.size
+        if n_past and find_conflicts(_head(base, n_past + 1), pz, self.zones, self._strips,
+                                     cfg.focus_threshold, first_only=True):
+            return None, None
         bank = math.radians(cfg.turn_bank_deg)
+        ahead = self._ahead
         reuse = not self._table.has_wind
         rows = codes = cut = None
-        if reuse:
-            rows, codes, cut = self._predictor.lookup(self.last_trajectory)
+        if reuse:  # the trials share the altitude and Mach schedule, hence the table rows
+            rows, codes, cut = self._predictor.lookup(ahead)
             rows, codes, cut = rows.copy(), codes.copy(), cut.copy()
 
-        ahead, past = self._ahead, self._past
+        if reuse:
+            t, mach, sound, params = _kernel_inputs(ahead, ahead.t_s, 0.0, math.nan)
+            dp = np.ascontiguousarray(rows[:, :, lk.Q_DP])
 
         def clears(delta_deg: float, side: int) -> bool:
-            traj = join_trajectories(
-                past, turned_trajectory(ahead, side * bank, math.radians(delta_deg) * side))
-            pred = (self._predictor.predict(traj, rows, codes, cut) if reuse
-                    else self._predictor.predict(traj))
+            if reuse:  # one compiled call per trial
+                params[3] = side * bank
+                params[4] = math.radians(delta_deg) * side
+                return bool(trial_clears_kernel(
+                    t, mach, sound, params, rows, codes, dp, self._strips, pz.x, pz.y,
+                    pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
+                    pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa,
+                    self._predictor.focus_cap, cfg.focus_threshold))
+            traj = turned_trajectory(ahead, side * bank, math.radians(delta_deg) * side)
+            pred = self._predictor.predict(traj)
             return not find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold,
                                       first_only=True)
 
@@ -446,9 +471,65 @@ class Advisor:
         return out[0], out[1]
 
 
-def _propagate_like(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
-                    ) -> Trajectory:
-    """Run the trajectory kernel over times ``t`` from ``base``'s start state."""
+def _head(pred: CarpetPrediction, stop: int) -> CarpetPrediction:
+    """The first ``stop`` emissions of a prediction."""
+    return CarpetPrediction(
+        t_emit_s=pred.t_emit_s[:stop], codes=pred.codes[:stop],
+        cutoff_mach=pred.cutoff_mach[:stop], east_m=pred.east_m[:stop],
+        north_m=pred.north_m[:stop], arrival_s=pred.arrival_s[:stop],
+        overpressure_pa=pred.overpressure_pa[:stop], duration_s=pred.duration_s[:stop],
+        focus_factor=pred.focus_factor[:stop], edge_flag=pred.edge_flag[:stop],
+    )
+
+
+@njit(cache=True)
+def trial_clears_kernel(t, mach, a, params, rows, codes, dp, strip_nodes, x, y, ring_start,
+                        part_start, zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox,
+                        margins, limits, focus_cap, focus_threshold):
+    """One resolution trial in compiled code: trajectory, carpet, focus, zone contact.
+
+    Same steps as :func:`turned_trajectory`, :meth:`FootprintPredictor.predict` and
+    :func:`find_conflicts` (their composition is the readable twin, checked in a parity
+    test). Returns True when no zone is reached.
+    """
+    out = propagate_kernel(t, mach, a, params)
+    nk = t.size
+    nj = rows.shape[1]
+    e = np.empty((nk, nj))
+    n = np.empty((nk, nj))
+    ta = np.empty((nk, nj))
+    de = np.empty((nk, nj))
+    dn = np.empty((nk, nj))
+    place_kernel(t, out[0], out[1], out[4], rows, codes, e, n, ta, de, dn)
+    vg_e = np.empty(nk)
+    vg_n = np.empty(nk)
+    for k in range(nk):
+        vg_e[k] = out[8, k] * math.sin(out[7, k])
+        vg_n[k] = out[8, k] * math.cos(out[7, k])
+    amp = np.ones((nk, nj))
+    focus_kernel(t, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp)
+    on_ground = np.empty(nk, dtype=np.bool_)
+    eff = np.empty((nk, nj))
+    for k in range(nk):
+        on_ground[k] = codes[k] != lk.NO_BOOM
+        for j in range(nj):
+            eff[k, j] = dp[k, j] * amp[k, j] if on_ground[k] else 0.0
+    nz = limits.size
+    best_t = np.full(nz, np.inf)
+    best_dp = np.zeros(nz)
+    best_focus = np.zeros(nz, dtype=np.bool_)
+    conflict_kernel(e, n, ta, eff, amp, on_ground, strip_nodes, x, y, ring_start, part_start,
+                    zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
+                    focus_threshold, True, best_t, best_dp, best_focus)
+    for z in range(nz):
+        if best_t[z] < np.inf:
+            return False
+    return True
+
+
+def _kernel_inputs(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Inputs of :func:`propagate_kernel` that re-fly ``base``'s start state over ``t``."""
     i0 = int(np.argmin(np.abs(base.t_s)))
     mdot = 0.0
     if base.t_s.size > 1:
@@ -464,6 +545,14 @@ def _propagate_like(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit
     params = np.array([base.alt_m[i0], math.sin(fpa), cos_g, bank_rad, turn_limit, psi0,
                        ge - vh * math.sin(psi0), gn - vh * math.cos(psi0), base.east_m[i0],
                        base.north_m[i0], base.frame.radius_m, units.G0])
+    return np.ascontiguousarray(t, dtype=np.float64), mach, a, params
+
+
+def _propagate_like(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
+                    ) -> Trajectory:
+    """Run the trajectory kernel over times ``t`` from ``base``'s start state."""
+    t, mach, a, params = _kernel_inputs(base, t, bank_rad, turn_limit)
+    fpa = math.asin(float(params[1]))
     out = propagate_kernel(t, mach, a, params)
     return Trajectory(
         t_s=t, alt_m=out[2], mach=mach, tas_mps=out[3], heading_grid_rad=out[4],

@@ -264,3 +264,35 @@ def test_check_command_json_and_text(small_table_path, tmp_path, capsys) -> None
     sfile.write_text(json.dumps(bad))
     assert main(argv) == 2
     assert "mach" in capsys.readouterr().err
+
+
+def test_trial_kernel_matches_readable_composition(small_table) -> None:
+    # Parity: the compiled resolution trial equals turned_trajectory + predict +
+    # find_conflicts (its readable twin) for a range of turns.
+    from advisory.advisor import _kernel_inputs, trial_clears_kernel, turned_trajectory
+    from advisory.tables import lookup as lk
+
+    feats = [square(f"z{i}", *point_along(70e3 + 20e3 * i, 90.0 + 4.0 * (i - 2)),
+                    half_km=2.0, margin_km=1.0) for i in range(5)]
+    zones = zoneset(*feats)
+    adv = Advisor(small_table, zones)
+    adv.step(state(), 0.0)
+    ahead, pz = adv._ahead, adv._projected
+    rows, codes, cut = (x.copy() for x in adv._predictor.lookup(ahead))
+    t, mach, a, params = _kernel_inputs(ahead, ahead.t_s, 0.0, math.nan)
+    dp = np.ascontiguousarray(rows[:, :, lk.Q_DP])
+    outcomes = set()
+    for side in (-1, 1):
+        for deg in (5.0, 10.0, 20.0, 30.0, 45.0, 90.0):
+            bank = side * math.radians(25.0)
+            turn = side * math.radians(deg)
+            params[3], params[4] = bank, turn
+            fast = trial_clears_kernel(t, mach, a, params, rows, codes, dp, adv._strips, pz.x,
+                                       pz.y, pz.ring_start, pz.part_start, pz.zone_start,
+                                       pz.zone_bbox, pz.ring_chunk, pz.chunk_edges,
+                                       pz.chunk_bbox, pz.margin_m, pz.limit_pa, 5.0, 1.25)
+            pred = adv._predictor.predict(turned_trajectory(ahead, bank, turn), rows, codes, cut)
+            slow = not find_conflicts(pred, pz, zones, adv._strips, 1.25, first_only=True)
+            assert bool(fast) == slow, (side, deg)
+            outcomes.add(slow)
+    assert outcomes == {True, False}  # both kinds of trial were exercised

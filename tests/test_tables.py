@@ -97,3 +97,21 @@ def test_grid_file(tmp_path) -> None:
     f.write_text("bogus = 1\n")
     with pytest.raises(GridError, match="unknown key"):
         load_grid(f)
+
+
+def test_table_edge_never_puts_boom_where_direct_trace_has_none(built) -> None:
+    # Tables issue: the interpolated cutoff must not put a boom on the ground where the
+    # direct trace says there is none, beyond the stated tolerance (0.002 in Mach).
+    from advisory.physics.carpet import cutoff_mach
+    from advisory.physics.rays import FlightCondition, RayTracer
+
+    path, _ = built
+    table = BoomTable.load(path)
+    tracer = RayTracer(standard_atmosphere())
+    rng = np.random.default_rng(9)
+    for _ in range(10):
+        alt = rng.uniform(REDUCED.altitudes_m[0], REDUCED.altitudes_m[-1])
+        fpa = rng.uniform(REDUCED.fpa_rad[0], REDUCED.fpa_rad[-1])
+        direct = cutoff_mach(tracer, FlightCondition(1.5, alt, 0.0, fpa))
+        assert not table.footprint(alt, direct - BUDGET_CUTOFF_MACH, fpa).reaches_ground
+        assert table.footprint(alt, direct + BUDGET_CUTOFF_MACH, fpa).reaches_ground

@@ -383,7 +383,7 @@ class Advisor:
             status = ("advisory", "caution", "warning")[level - 1]
         left = right = None
         if level > 0 and first is not None:
-            left, right = self._turn_resolutions(s, pz, pred)
+            left, right = self._cached_resolutions(s, pz, pred, first.zone_id, level, now)
         if level > 0 and first is None:
             # held level (hysteresis) with no present conflict: keep the cue informative
             return Advisory(status, max_mach_off_ground=max_mach, reaches_ground=reaches_now,
@@ -407,6 +407,21 @@ class Advisor:
 
     _held_zone: str | None = None
     _held_name: str | None = None
+    _resolution_cache: tuple | None = None
+
+    def _cached_resolutions(self, s: AirDataState, pz: ProjectedZones, pred: CarpetPrediction,
+                            zone_id: str, level: int, now: float
+                            ) -> tuple[float | None, float | None]:
+        """Turn resolutions, searched again after ``refresh_s`` or when the zone in
+        conflict or the level changes (they change slowly; the search is the costly
+        part of a step)."""
+        c = self._resolution_cache
+        if (c is not None and c[0] == zone_id and c[1] == level
+                and 0.0 <= now - c[2] < self.config.refresh_s):
+            return c[3]
+        res = self._turn_resolutions(s, pz, pred)
+        self._resolution_cache = (zone_id, level, now, res)
+        return res
 
     def _turn_resolutions(self, s: AirDataState, pz: ProjectedZones,
                           base: CarpetPrediction) -> tuple[float | None, float | None]:

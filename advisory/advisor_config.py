@@ -23,6 +23,8 @@ operators tune them in a config file::
     turn_bank_deg = 25          # bank assumed for the resolution turn
     max_turn_deg = 90           # largest heading change searched
     turn_step_deg = 5           # resolution of the heading-change answer
+    refresh_s = 1.0             # resolutions are searched again after this long, or at
+                                # once when the zone in conflict or the level changes
 
     [focus]
     threshold = 1.25        # amplification above which a focus boom is flagged
@@ -64,6 +66,7 @@ class AdvisorConfig:
     turn_bank_deg: float = 25.0
     max_turn_deg: float = 90.0
     turn_step_deg: float = 5.0
+    refresh_s: float = 1.0
     focus_threshold: float = 1.25
     stale_after_s: float = 1.0
     strips: int = 6
@@ -77,6 +80,7 @@ class AdvisorConfig:
             "band_s": (0.0, 120.0), "release_s": (0.0, 300.0), "warning_hold_s": (0.0, 600.0),
             "cutoff_margin_mach": (0.0, 0.5), "turn_bank_deg": (5.0, 60.0),
             "max_turn_deg": (5.0, 180.0), "turn_step_deg": (1.0, 45.0),
+            "refresh_s": (0.0, 30.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
         }
@@ -96,7 +100,8 @@ _SECTIONS = {
     "prediction": ("look_ahead_s", "step_s", "in_air_s", "strips", "reproject_km"),
     "levels": ("caution_lead_s", "warning_lead_s"),
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
-    "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg"),
+    "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
+                   "refresh_s"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),
 }

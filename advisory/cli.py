@@ -93,12 +93,6 @@ def _run_predict(args: argparse.Namespace) -> int:
     return 0
 
 
-def _run_bench(args: argparse.Namespace) -> int:
-    from advisory.bench import main as bench_main
-
-    return int(bench_main(args.bench_args))
-
-
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser with every sub-command."""
     parser = argparse.ArgumentParser(
@@ -113,10 +107,21 @@ def build_parser() -> argparse.ArgumentParser:
     from advisory.check import add_parser as add_check
 
     add_check(sub)
+    from advisory.service import add_parser as add_run
+
+    add_run(sub)
+    from advisory import bench
+
     b = sub.add_parser("bench", help="measure every budget against its figure",
-                       add_help=False)
-    b.add_argument("bench_args", nargs=argparse.REMAINDER)
-    b.set_defaults(func=_run_bench)
+                       description=bench.DESCRIPTION)
+    bench.add_arguments(b)
+    b.set_defaults(func=bench.run)
+    from advisory.replay import add_parser as add_replay
+
+    add_replay(sub)
+    from advisory.demo import add_parser as add_demo
+
+    add_demo(sub)
     return parser
 
 

@@ -1,0 +1,137 @@
+"""``boom-advisory demo`` and the bundled demo flights of ``replay_logs/``.
+
+Every demo flight must give its expected advisories (``expected.json`` beside it, with
+time tolerances; each entry's note derives its times from the scenario: distances and
+speeds, the advisor's documented lead times and hysteresis, the validator's 0.5 s
+freshness limit of the ICD section 4). The demo is invented data over invented
+geography, so the checks here are about the scenarios telling their story.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from advisory import SAFETY_CAUTION
+from advisory.cli import main
+from advisory.demo import demo_flights
+from advisory.replay import load_scenario, prepare, replay_log
+from advisory.wire.recorder import KIND_RAW_INPUT, read_records
+from advisory.zones import ZoneSet
+from tests.test_replay import MAKER, table_cache  # noqa: F401  (session table cache)
+
+DEMO = Path(__file__).resolve().parent.parent / "replay_logs"
+NAMES = ["coastal_approach", "turn_onto_park", "crosswind_day", "below_cutoff",
+         "dropouts_and_garbage"]
+
+
+@pytest.fixture(scope="module")
+def demo_json(tmp_path_factory):
+    out = tmp_path_factory.mktemp("demo_report")
+    code, text = _run_demo(["demo", "--out", str(out), "--json"])
+    return code, json.loads(text), out
+
+
+def _run_demo(argv: list[str]) -> tuple[int, str]:
+    import contextlib
+    import io
+
+    buf = io.StringIO()
+    with contextlib.redirect_stdout(buf):
+        code = main(argv)
+    return code, buf.getvalue()
+
+
+def test_every_demo_flight_matches_its_expected_advisories(demo_json) -> None:
+    code, doc, out = demo_json
+    results = {r["name"]: r for r in doc["results"]}
+    assert list(results) == NAMES  # the story order of scenario.toml
+    for name, r in results.items():
+        assert r["differences"] == [], (name, r["differences"])
+    assert code == 0 and doc["all_expected"] is True
+    assert doc["caution"] == SAFETY_CAUTION
+    assert (out / "report.html").is_file()
+
+
+def test_the_scenarios_tell_their_story(demo_json) -> None:
+    _, doc, _ = demo_json
+    r = {x["name"]: x for x in doc["results"]}
+    seg = {k: [s["status"] for s in v["segments"]] for k, v in r.items()}
+    # slowing below cutoff takes the boom off the ground before it reaches the town
+    assert seg["coastal_approach"][-1] == "no_boom" and "caution" in seg["coastal_approach"]
+    # the turn swings the carpet onto the park, the roll-out clears it
+    assert seg["turn_onto_park"][0] == "clear" and seg["turn_onto_park"][-1] == "clear"
+    assert "caution" in seg["turn_onto_park"]
+    assert r["turn_onto_park"]["segments"][-2]["zone_id"] == "kelvane-wilds"
+    # below cutoff: no boom at all
+    assert seg["below_cutoff"] == ["no_boom"] and r["below_cutoff"]["conflicts"] == 0
+    # bad feed: never clear while out, errors counted, the torn record reported
+    d = r["dropouts_and_garbage"]
+    assert seg["dropouts_and_garbage"] == ["clear", "unavailable"] * 4 + ["clear"]
+    assert d["read"]["torn_tail"] and d["error_counts"]["torn_record"] == 1
+    for k in ("bad_crc", "rejected"):
+        assert d["error_counts"].get(k, 0) > 0, k
+
+
+def test_crosswind_is_what_puts_the_carpet_on_the_town(tmp_path) -> None:
+    # The same crosswind flight in calm air (standard-atmosphere table, same grid) stays
+    # clear: the conflict comes from the wind profile.
+    windy = replay_log(prepare(DEMO / "crosswind_day"))
+    calm_dir = tmp_path / "calm"
+    calm_dir.mkdir()
+    src = DEMO / "crosswind_day"
+    for f in ("flight.rec", "zones.geojson", "grid.toml"):
+        (calm_dir / f).write_bytes((src / f).read_bytes())
+    doc, _ = load_scenario(src / "flight.rec")
+    text = (src / "scenario.toml").read_text()
+    (calm_dir / "scenario.toml").write_text(text.replace('atmosphere = "atmosphere.csv"',
+                                                         "# calm air"))
+    assert doc.get("atmosphere") == "atmosphere.csv"
+    calm = replay_log(prepare(calm_dir))
+    assert {s.status for s in windy.segments} >= {"advisory", "caution"}
+    assert [s.status for s in calm.segments] == ["clear"]
+
+
+def test_demo_prints_cues_summary_and_caution(tmp_path) -> None:
+    code, text = _run_demo(["demo", "--out", str(tmp_path / "rep"), "--only", "below_cutoff",
+                            "turn_onto_park"])
+    assert code == 0
+    assert text.count(SAFETY_CAUTION) == 2
+    assert "BOOM CAUTION: Kelvane Wilds Park" in text
+    assert "Boom not reaching the ground" in text
+    assert "first warning" in text and "match" in text
+    assert (tmp_path / "rep" / "report.html").is_file()
+    code, _ = _run_demo(["demo", "--only", "nowhere"])
+    assert code == 2
+
+
+def test_demo_logs_are_invented_20hz_feeds_over_open_sea() -> None:
+    flights = demo_flights(DEMO)
+    assert [d.name for d in flights] == NAMES
+    for d in flights:
+        records, report = read_records(d / "flight.rec")
+        raw = [r for r in records if r.kind == KIND_RAW_INPUT]
+        gaps = sorted(b.mono_s - a.mono_s for a, b in zip(raw, raw[1:]))
+        assert gaps[len(gaps) // 2] == pytest.approx(0.05, abs=0.004), d.name  # 20 Hz
+        assert raw[-1].mono_s - raw[0].mono_s <= 300.0  # a few minutes at most
+        assert report.torn_tail == (d.name == "dropouts_and_garbage")
+        for z in ZoneSet.from_file(d / "zones.geojson"):
+            for ring in z.polygons[0]:
+                # open ocean around 30 N 140 W (invented places)
+                assert 28.0 < ring[:, 1].min() * 57.29578 < ring[:, 1].max() * 57.29578 < 32.0
+                assert -144.0 < ring[:, 0].min() * 57.29578 < ring[:, 0].max() * 57.29578 < -136.0
+        doc, _ = load_scenario(d / "flight.rec")
+        assert doc["title"] and doc["description"] and (d / doc["expected"]).is_file()
+
+
+def test_generator_reproduces_the_committed_records(tmp_path) -> None:
+    # The committed logs are the generator's output (apart from the file header's
+    # creation time): regenerate one and compare the records.
+    sc = next(s for s in MAKER.scenarios() if s.name == "turn_onto_park")
+    MAKER.make(sc, tmp_path)
+    new, _ = read_records(tmp_path / sc.name / "flight.rec")
+    old, _ = read_records(DEMO / sc.name / "flight.rec")
+    assert [(r.kind, r.mono_s, r.utc_s, bytes(r.data)) for r in new] == \
+        [(r.kind, r.mono_s, r.utc_s, bytes(r.data)) for r in old]

@@ -1,0 +1,170 @@
+"""The bench report, looked at in a real headless Chromium (Debian package ``chromium``).
+
+Checks: the page renders to a non-blank screenshot (decoded here with a small PNG
+reader following the PNG specification, W3C Recommendation / ISO/IEC 15948: chunk layout
+section 5, IHDR 11.2.2, filter types section 9), the caution banner is on screen, the DOM
+holds the map and the timeline with their parts, and the file asks for nothing from the
+network.
+"""
+
+from __future__ import annotations
+
+import re
+import shutil
+import struct
+import subprocess
+import zlib
+from pathlib import Path
+
+import pytest
+
+from advisory import SAFETY_CAUTION
+from advisory.replay import prepare, replay_log
+from advisory.report import REPORT_NAME, have_matplotlib, write_report
+from advisory.wire.frames import decode_frame
+from tests.test_replay import short_flight, table_cache  # noqa: F401
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+BROWSER_TIMEOUT_S = 120.0
+needs_chromium = pytest.mark.skipif(
+    CHROMIUM is None, reason="chromium is not installed (Debian: apt-get install -y chromium)")
+
+
+def chromium(args: list[str], profile: Path) -> subprocess.CompletedProcess:
+    return subprocess.run(
+        [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
+         "--no-first-run", "--disable-background-networking", "--disable-component-update",
+         "--disable-sync", f"--user-data-dir={profile}", *args],
+        capture_output=True, timeout=BROWSER_TIMEOUT_S, check=False)
+
+
+def read_png(data: bytes) -> tuple[int, int, list[list[tuple[int, ...]]]]:
+    """(width, height, pixel rows) of an 8-bit RGB or RGBA PNG (pixels as RGB tuples)."""
+    assert data[:8] == b"\x89PNG\r\n\x1a\n", "not a PNG"
+    pos, idat, width, height, bpp = 8, b"", 0, 0, 3
+    while pos < len(data):
+        n, kind = struct.unpack(">I4s", data[pos:pos + 8])
+        body = data[pos + 8:pos + 8 + n]
+        if kind == b"IHDR":
+            width, height, depth, colour = struct.unpack(">IIBB", body[:10])
+            assert depth == 8 and colour in (2, 6), (depth, colour)
+            bpp = 3 if colour == 2 else 4
+        elif kind == b"IDAT":
+            idat += body
+        pos += 12 + n
+    raw = zlib.decompress(idat)
+    stride = width * bpp
+    rows, prev = [], bytearray(stride)
+    for y in range(height):
+        f = raw[y * (stride + 1)]
+        line = bytearray(raw[y * (stride + 1) + 1:(y + 1) * (stride + 1)])
+        for i in range(stride):
+            a = line[i - bpp] if i >= bpp else 0
+            b = prev[i]
+            c = prev[i - bpp] if i >= bpp else 0
+            if f == 1:
+                line[i] = (line[i] + a) & 0xFF
+            elif f == 2:
+                line[i] = (line[i] + b) & 0xFF
+            elif f == 3:
+                line[i] = (line[i] + (a + b) // 2) & 0xFF
+            elif f == 4:
+                p = a + b - c
+                pa, pb, pc = abs(p - a), abs(p - b), abs(p - c)
+                pred = a if pa <= pb and pa <= pc else (b if pb <= pc else c)
+                line[i] = (line[i] + pred) & 0xFF
+        rows.append([tuple(line[i:i + 3]) for i in range(0, stride, bpp)])
+        prev = line
+    return width, height, rows
+
+
+@pytest.fixture(scope="module")
+def report(tmp_path_factory):
+    """A report of two short invented flights, one with a turn (carpet swings)."""
+    root = tmp_path_factory.mktemp("flights")
+    a = short_flight(root, "straight", duration_s=6.0)
+    b = short_flight(root, "turning", duration_s=8.0, faults=(),
+                     bank_schedule=((1.0, 30.0),))
+    results = [replay_log(prepare(p, collect=True)) for p in (a, b)]
+    out = tmp_path_factory.mktemp("report")
+    return write_report(results, out), results
+
+
+@needs_chromium
+def test_report_renders_in_headless_chromium(report, tmp_path) -> None:
+    html_path, _ = report
+    shot = tmp_path / "shot.png"
+    proc = chromium([f"--screenshot={shot}", "--window-size=1280,900",
+                     html_path.resolve().as_uri()], tmp_path / "profile")
+    assert shot.is_file(), proc.stderr.decode(errors="replace")[-2000:]
+    width, height, rows = read_png(shot.read_bytes())
+    assert (width, height) == (1280, 900)
+    colours = {px for row in rows[::4] for px in row[::4]}
+    assert len(colours) > 50  # text, table, map: far from a blank page
+    # the caution banner (background #fff4d6 in the report's style sheet) is on screen
+    assert (0xFF, 0xF4, 0xD6) in colours
+    # the map's sea colour (#eef4f8) is on screen too
+    assert any(px == (0xEE, 0xF4, 0xF8) for row in rows for px in row[::2])
+
+
+@needs_chromium
+def test_report_dom_has_map_and_timeline(report, tmp_path) -> None:
+    html_path, results = report
+    proc = chromium(["--dump-dom", html_path.resolve().as_uri()], tmp_path / "profile")
+    dom = proc.stdout.decode("utf-8", errors="replace")
+    assert proc.returncode == 0 and "<body" in dom, proc.stderr.decode(errors="replace")[-2000:]
+    for r in results:
+        assert f'id="map-{r.name}"' in dom and f'id="timeline-{r.name}"' in dom
+        assert f'id="flight-{r.name}"' in dom
+    assert dom.count('class="map"') == 2 and dom.count('class="timeline"') == 2
+    assert dom.count('class="zone"') == 2  # one invented town per flight
+    assert dom.count('class="fire"') >= 2  # where the advisories fired
+    assert 'data-series="cutoff Mach"' in dom and 'data-series="Mach"' in dom
+    assert 'data-series="altitude"' in dom and 'class="level"' in dom
+    carpet = re.findall(r'<g class="carpet"[^>]*>(.*?)</g>', dom, re.S)
+    assert carpet and all(c.count("<polygon") > 20 for c in carpet)
+    assert SAFETY_CAUTION in dom
+    assert 'id="summary"' in dom
+
+
+def test_report_is_self_contained(report) -> None:
+    html_path, results = report
+    text = html_path.read_text(encoding="utf-8")
+    # nothing fetched: no external src/href/url(); the only "http" is the SVG namespace
+    assert not re.search(r'(src|href)\s*=\s*"(https?:)?//', text)
+    assert "url(" not in text
+    assert set(re.findall(r"https?://[^\s\"'<>]+", text)) <= {"http://www.w3.org/2000/svg"}
+    if have_matplotlib():
+        assert text.count("data:image/png;base64,") == 2 * len(results)
+        for r in results:
+            for kind in ("map", "timeline"):
+                head = (html_path.parent / f"{r.name}_{kind}.png").read_bytes()[:24]
+                assert head[:8] == b"\x89PNG\r\n\x1a\n" and head[12:16] == b"IHDR"
+                assert struct.unpack(">II", head[16:24])[0] > 300  # width, px
+
+
+def test_report_without_matplotlib_is_svg_only(tmp_path) -> None:
+    d = short_flight(tmp_path, "svgonly", duration_s=3.0, faults=())
+    res = replay_log(prepare(d, collect=True))
+    path = write_report([res], tmp_path / "rep", pngs=False)
+    assert path.name == REPORT_NAME
+    text = path.read_text(encoding="utf-8")
+    assert 'class="map"' in text and 'class="timeline"' in text
+    assert "data:image/png" not in text and "SVG figures only" in text
+    assert not list((tmp_path / "rep").glob("*.png"))
+
+
+def test_collected_flight_data(report) -> None:
+    _, results = report
+    turning = next(r for r in results if r.name == "turning")
+    f = turning.flight
+    steps = sum(decode_frame(p).type == "adv" for _m, _u, p in turning.outputs)
+    assert len(f["track"]) == steps  # one track point per advisor step
+    assert len(f["rows"]) >= 7  # one carpet row a second
+    assert all(len(r["lat"]) == len(r["psf"]) for r in f["rows"])
+    assert max(max(r["psf"]) for r in f["rows"]) > 0.3
+    # the carpet row turns with the aircraft: its edge-to-edge bearing changes
+    def bearing(r):
+        return (r["lon"][-1] - r["lon"][0], r["lat"][-1] - r["lat"][0])
+    (x0, y0), (x1, y1) = bearing(f["rows"][0]), bearing(f["rows"][-1])
+    assert abs(x0 * y1 - y0 * x1) > 1e-3

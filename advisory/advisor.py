@@ -338,7 +338,8 @@ class Advisor:
         try:
             return self._step(state, now)
         except Exception as exc:  # noqa: BLE001 - the loop must never die on one state
-            return self.unavailable(f"prediction failed: {type(exc).__name__}: {exc}",
+            first_line = (str(exc).strip().splitlines() or [""])[0][:80]
+            return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
                                     state.utc_s)
 
     def _learn_atmosphere(self, s: AirDataState, now: float) -> None:

@@ -92,7 +92,7 @@ _COUNTER_TEXT = {
     "internal_errors": "internal errors", "record_errors": "record writes failed",
     "input_lost": "input link lost", "input_reopened": "input link reopened",
     "output_dropped": "outputs dropped",
-    "output_errors": "output link errors",
+    "output_errors": "output link errors", "service_errors": "service errors",
 }
 
 

@@ -441,42 +441,55 @@ class AdvisoryService:
 
     def run(self) -> int:
         """Run until stopped; returns the exit code."""
-        loop, inp = self.loop, self.inp
-        mono, wall = time.monotonic, time.time
-        start = mono()
+        loop = self.loop
+        start = time.monotonic()
         end = math.inf if self.duration_s is None else start + self.duration_s
         next_stats = start + STATS_INTERVAL_S
         link_up = None
         while not self._stop:
-            now = mono()
+            now = time.monotonic()
             if now >= end:
                 self.request_stop(f"duration {self.duration_s:g} s reached")
                 break
-            if not inp.up:
-                inp.try_open(now)
-            if inp.up != link_up:
-                link_up = inp.up
-                loop.set_input_link(link_up, inp.reason)
-            wait_until = min(loop.next_due(), now + MAX_WAIT_S, end)
-            if inp.up:
-                data = inp.receive(wait_until)
-                if data:
-                    loop.feed(data, mono(), wall())
-                elif not inp.up:
-                    loop.set_input_link(False, inp.reason)
-                    link_up = False
-                elif inp.at_eof:
-                    self.request_stop("input file ended")
-            else:
-                if inp.next_try < wait_until:
-                    wait_until = max(inp.next_try, now)
-                time.sleep(max(0.0, wait_until - mono()))
-            self._sync_counters()
-            self._publish(loop.poll(mono(), wall()))
-            if now >= next_stats:
-                next_stats = now + STATS_INTERVAL_S
-                self._stats_event("stats")
+            try:
+                link_up, next_stats = self._iterate(now, end, link_up, next_stats)
+            except Exception as exc:  # noqa: BLE001 - the service never dies on one iteration
+                ext = loop.external_counters
+                ext["service_errors"] = ext.get("service_errors", 0) + 1
+                self._event(f"internal error (going on): {type(exc).__name__}: {exc}")
+                time.sleep(0.05)
         return self._shutdown()
+
+    def _iterate(self, now: float, end: float, link_up: bool | None,
+                 next_stats: float) -> tuple[bool | None, float]:
+        """One pass: (re)open, receive until the next step or a short deadline, poll."""
+        loop, inp = self.loop, self.inp
+        mono, wall = time.monotonic, time.time
+        if not inp.up:
+            inp.try_open(now)
+        if inp.up != link_up:
+            link_up = inp.up
+            loop.set_input_link(link_up, inp.reason)
+        wait_until = min(loop.next_due(), now + MAX_WAIT_S, end)
+        if inp.up:
+            data = inp.receive(wait_until)
+            if data:
+                loop.feed(data, mono(), wall())
+            elif not inp.up:
+                loop.set_input_link(False, inp.reason)
+                link_up = False
+            elif inp.at_eof:
+                self.request_stop("input file ended")
+        else:
+            if inp.next_try < wait_until:
+                wait_until = max(inp.next_try, now)
+            time.sleep(max(0.0, wait_until - mono()))
+        self._sync_counters()
+        self._publish(loop.poll(mono(), wall()))
+        if now >= next_stats:
+            next_stats = now + STATS_INTERVAL_S
+            self._stats_event("stats")
+        return link_up, next_stats
 
     def _shutdown(self) -> int:
         self._event(f"stopping: {self.stop_reason or 'stop requested'}")
@@ -493,7 +506,6 @@ class AdvisoryService:
         if self.recorder is not None:
             self.recorder.record_event("shutdown")
             self.recorder.close()
-            self.recorder.close()  # twice-safe by design
         return EXIT_OK
 
 
@@ -554,19 +566,22 @@ def _load_tables(s: RunSettings):
 
 def _warm_up(table, zones, config) -> None:
     """One throw-away step so the first real step does not load compiled kernels."""
+    from advisory import units
     from advisory.advisor import Advisor
+    from advisory.physics.atmosphere import standard_atmosphere
     from advisory.state import AirDataState
 
     try:
         alt = float(table.ax_alt[len(table.ax_alt) // 2])
         mach = table.cutoff_mach(alt) + 0.3
+        sound = float(standard_atmosphere().at(alt).sound_speed_mps)
         lat, lon = 0.0, 0.0
-        if len(zones):
+        if len(zones):  # a degree south of the first zone, heading for it
             ring = zones[0].polygons[0][0]
-            lon, lat = math.degrees(float(ring[0, 0])), math.degrees(float(ring[0, 1]))
+            lon, lat = float(ring[0, 0]) / units.DEG, float(ring[0, 1]) / units.DEG
         fields = {"lat_deg": max(min(lat - 1.0, 89.0), -89.0), "lon_deg": lon,
-                  "alt_ft": alt / 0.3048, "mach": mach, "heading_deg": 0.0,
-                  "gs_kt": mach * 295.0 / 0.514444, "bank_deg": 0.0, "fpa_deg": 0.0}
+                  "alt_ft": units.m_to_ft(alt), "mach": mach, "heading_deg": 0.0,
+                  "gs_kt": mach * sound / units.KT, "bank_deg": 0.0, "fpa_deg": 0.0}
         st = AirDataState.from_fields(fields, rx_monotonic=0.0)
         Advisor(table, zones, config).step(st, 0.0)
     except Exception:  # noqa: BLE001, S110 - warm-up is best effort

@@ -184,6 +184,7 @@ def test_zone_ahead_gives_an_advisory_with_resolutions(small_table) -> None:
 
 
 def test_schedule_next_due_and_missed_steps(small_table) -> None:
+    # ICD section 17.1: fixed-rate schedule; late steps are skipped and counted.
     loop, _, sim = make(small_table, rate_hz=20.0)
     assert loop.next_due() == math.inf  # nothing seen yet
     sim.poll(10.0)
@@ -195,7 +196,7 @@ def test_schedule_next_due_and_missed_steps(small_table) -> None:
 
 
 def test_identical_input_gives_identical_output(small_table) -> None:
-    # Replays depend on it: the loop uses only the times passed in (no clock reads).
+    # ICD section 17.4: replays depend on it; the loop uses only the times passed in.
     def run() -> list[bytes]:
         loop = AdvisoryLoop(Advisor(small_table, AHEAD), rate_hz=10.0)
         out = []
@@ -256,6 +257,7 @@ def test_torn_frame_loses_only_itself(small_table) -> None:
 
 
 def test_bad_crc_is_counted_once(small_table) -> None:
+    # ICD section 9: a CRC-32C mismatch (RFC 3720 CRC) loses that frame only, counted.
     loop, _, sim = make(small_table)
     sim.fly(0.3)
     payload = air(500, sim.t)
@@ -288,6 +290,7 @@ def test_stale_feed_says_unavailable_never_clear(small_table) -> None:
 
 
 def test_no_input_at_all_is_unavailable(small_table) -> None:
+    # ICD section 17.2: no input yet -> "unavailable" with its reason, status still 1 Hz.
     loop, seen, sim = make(small_table)
     sim.silence(2.0)
     assert {f.fields["status"] for f in sim.frames("adv")} == {"unavailable"}
@@ -418,6 +421,7 @@ def test_arinc429_words(small_table) -> None:
 
 
 def test_link_down_says_unavailable(small_table) -> None:
+    # ICD sections 12 and 17.2: a lost link makes every advisory "unavailable" at once.
     loop, _, sim = make(small_table)
     sim.fly(0.5)
     loop.set_input_link(False, "serial port /dev/ttyX: device disconnected")
@@ -432,6 +436,7 @@ def test_link_down_says_unavailable(small_table) -> None:
 
 
 def test_never_raises_on_nonsense_arguments(small_table) -> None:
+    # Design brief, "Errors": the live loop never dies on bad input; it counts it.
     loop, _, sim = make(small_table)
     loop.feed(None, 0.0, U0)  # type: ignore[arg-type]
     loop.feed(b"\x00\x00", math.nan, U0)
@@ -464,6 +469,7 @@ def test_status_counters_fit_the_frame(small_table) -> None:
 
 
 def test_final_frames_say_unavailable(small_table) -> None:
+    # ICD section 17.1: the last frames of a stopping service say "unavailable".
     loop, _, sim = make(small_table)
     sim.fly(0.3)
     adv, st = (decode_frame(p) for p in loop.final_frames(sim.t, U0 + sim.t))
@@ -497,6 +503,7 @@ def test_recorded_data_is_complete(small_table, tmp_path) -> None:
 
 
 def test_duration_histogram_quantiles() -> None:
+    # Nearest-rank quantiles of 0.1 .. 10 ms by counting (common practice, no source).
     h = DurationHistogram()
     for k in range(1, 101):
         h.add(k * 1e-4)  # 0.1 .. 10 ms
@@ -509,6 +516,7 @@ def test_duration_histogram_quantiles() -> None:
 
 
 def test_bad_settings_are_refused(small_table) -> None:
+    # Design brief, "Errors": bad settings get a clear ValueError.
     adv = Advisor(small_table, FAR)
     for kw in ({"input_format": "csv"}, {"rate_hz": 0.0}, {"heartbeat_s": -1.0},
                {"input_format": "stream", "framing": "datagram"},

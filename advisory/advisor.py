@@ -342,6 +342,15 @@ class Advisor:
             return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
                                     state.utc_s)
 
+    def _in_air_s(self, s: AirDataState, cfg: AdvisorConfig) -> float:
+        """How far back booms may still be on their way down: the longest travel time of
+        the present footprint plus one step (at most ``in_air_s``)."""
+        fp = self._table.footprint(s.alt_m, s.mach, s.fpa_rad, s.heading_rad)
+        if not fp.reaches_ground:
+            return cfg.in_air_s
+        longest = float(np.max(fp.rows[:, lk.Q_TIME])) + cfg.step_s
+        return min(cfg.in_air_s, longest)
+
     def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
         """Feed the stream profile; hand a disagreeing profile to the table manager."""
         submit = getattr(self._tables, "submit_atmosphere", None)
@@ -354,9 +363,12 @@ class Advisor:
 
     def _trajectory(self, s: AirDataState, pz: ProjectedZones, bank: float | None = None,
                     roll_out: float | None = None) -> Trajectory:
+        # Level flight keeps the altitude, hence the sound speed: pass the value.
+        sound = (float(np.interp(s.alt_m, self._atm.z_m, self._atm.sound_speed_mps))
+                 if s.fpa_rad == 0.0 else self._sound)
         return predict_trajectory(
             s.lat_rad, s.lon_rad, s.alt_m, s.mach, s.heading_rad, s.gs_mps,
-            speed_of_sound=self._sound, track_rad=s.track_rad,
+            speed_of_sound=sound, track_rad=s.track_rad,
             bank_rad=s.bank_rad if bank is None else bank, fpa_rad=s.fpa_rad,
             mach_rate_per_s=s.mach_rate_per_s or 0.0, wind_east_mps=s.wind_east_mps,
             wind_north_mps=s.wind_north_mps, lookahead_s=self.config.look_ahead_s,
@@ -368,7 +380,7 @@ class Advisor:
         table = self._table
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
-        self._past = past_trajectory(ahead, cfg.in_air_s, cfg.step_s)
+        self._past = past_trajectory(ahead, self._in_air_s(s, cfg), cfg.step_s)
         traj = join_trajectories(self._past, ahead)
         pred = self._predictor.predict(traj)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead

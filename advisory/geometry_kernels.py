@@ -443,35 +443,6 @@ def _near_zone_chunked(ax: float, ay: float, bx: float, by: float, margin: float
 
 
 @njit(cache=True)
-def _circle_near_segment(bbox: np.ndarray, c: int, ax: float, ay: float, bx: float,
-                         by: float, margin: float) -> bool:
-    """Whether segment ab comes within ``margin`` of the circle around box ``c``."""
-    hx = 0.5 * (bbox[c, 2] - bbox[c, 0])
-    hy = 0.5 * (bbox[c, 3] - bbox[c, 1])
-    d2, _ = _point_segment_dist2(bbox[c, 0] + hx, bbox[c, 1] + hy, ax, ay, bx, by)
-    reach = margin + math.sqrt(hx * hx + hy * hy)
-    return d2 <= reach * reach
-
-
-@njit(cache=True)
-def _boxes_overlap(x0: float, y0: float, x1: float, y1: float, bbox: np.ndarray, k: int,
-                   margin: float) -> bool:
-    return not (x1 + margin < bbox[k, 0] or x0 - margin > bbox[k, 2]
-                or y1 + margin < bbox[k, 1] or y0 - margin > bbox[k, 3])
-
-
-@njit(cache=True)
-def _point_in_quad(px: float, py: float, qx: np.ndarray, qy: np.ndarray) -> bool:
-    inside = False
-    for j in range(4):
-        i2 = (j + 1) % 4
-        if (qy[j] > py) != (qy[i2] > py):
-            if px < qx[j] + (qx[i2] - qx[j]) * (py - qy[j]) / (qy[i2] - qy[j]):
-                inside = not inside
-    return inside
-
-
-@njit(cache=True)
 def first_contact(ax: np.ndarray, ay: np.ndarray, bx: np.ndarray, by: np.ndarray,
                   x: np.ndarray, y: np.ndarray, part_start: np.ndarray, zone_start: np.ndarray,
                   zone_bbox: np.ndarray, ring_chunk: np.ndarray, chunk_edges: np.ndarray,

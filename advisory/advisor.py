@@ -268,6 +268,8 @@ class Advisor:
         self.last_prediction: CarpetPrediction | None = None
         self.last_trajectory: Trajectory | None = None
         self.steps = 0
+        #: Steps on which the turn-resolution search ran (for the benchmark).
+        self.resolution_searches = 0
         from advisory.tables.rebuild import StreamProfile
 
         #: Profile assembled from the stream; proposed to a table manager for rebuilds.
@@ -445,6 +447,7 @@ class Advisor:
         trial turns the trajectory ahead only.
         """
         cfg = self.config
+        self.resolution_searches += 1
         n_past = self._past.t_s.size
         if n_past and find_conflicts(_head(base, n_past + 1), pz, self.zones, self._strips,
                                      cfg.focus_threshold, first_only=True):

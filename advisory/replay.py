@@ -269,6 +269,22 @@ def _find_settings(doc: dict) -> dict:
     return {}
 
 
+_TABLES: dict[tuple, object] = {}
+
+
+def _load_table(path: str | Path):
+    """Load (and check) a table once per process; a changed file is loaded again."""
+    from advisory.tables.table import BoomTable
+
+    st = os.stat(path)
+    key = (str(Path(path).resolve()), st.st_mtime_ns, st.st_size)
+    table = _TABLES.get(key)
+    if table is None:
+        _TABLES.clear()
+        table = _TABLES[key] = BoomTable.load(path)
+    return table
+
+
 def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None = None,
             tables: str | None = None, config: str | None = None, expect: str | None = None,
             speed: str | float = "max", send: str | None = None, collect: bool = False,
@@ -318,9 +334,8 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
             raise ReplayError("--aircraft: cannot be combined with --tables (the table fixes "
                               "the aircraft)")
         table_path = str(tables)
-        from advisory.tables.table import BoomTable
 
-        BoomTable.load(table_path)  # refuse a bad table here, with its own message
+        _load_table(table_path)  # refuse a bad table here, with its own message
     else:
         table = scenario_table(scenario, spath, aircraft, quiet=quiet)
         table_path = table.path
@@ -732,10 +747,9 @@ def make_loop(setup: ReplaySetup, recorder=None):
     from advisory.advisor_config import load_config
     from advisory.loop import AdvisoryLoop
     from advisory.state import StateValidator
-    from advisory.tables.table import BoomTable
     from advisory.zones import ZoneSet
 
-    advisor = Advisor(BoomTable.load(setup.table), ZoneSet.from_file(setup.zones),
+    advisor = Advisor(_load_table(setup.table), ZoneSet.from_file(setup.zones),
                       load_config(setup.config))
     return AdvisoryLoop(advisor, input_format=setup.input_format, rate_hz=setup.rate_hz,
                         heartbeat_s=setup.heartbeat_s, recorder=recorder,

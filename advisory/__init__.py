@@ -12,4 +12,17 @@ SAFETY_CAUTION = (
     "Local regulations and licensed practice govern supersonic flight."
 )
 
-__all__ = ["SAFETY_CAUTION", "__version__"]
+__all__ = ["SAFETY_CAUTION", "Advisor", "Advisory", "__version__"]
+
+
+def __getattr__(name: str):
+    """Lazy top-level API: ``advisory.Advisor`` without importing numba at package import."""
+    if name == "Advisor":
+        from advisory.advisor import Advisor
+
+        return Advisor
+    if name == "Advisory":
+        from advisory.advisor import Advisory
+
+        return Advisory
+    raise AttributeError(f"module 'advisory' has no attribute {name!r}")

@@ -296,3 +296,9 @@ def test_trial_kernel_matches_readable_composition(small_table) -> None:
             assert bool(fast) == slow, (side, deg)
             outcomes.add(slow)
     assert outcomes == {True, False}  # both kinds of trial were exercised
+
+
+def test_top_level_api() -> None:
+    import advisory
+
+    assert advisory.Advisor is Advisor

@@ -28,7 +28,7 @@ def _write(tmp_path, text: str):
 def test_demo_aircraft_loads_from_package_data():
     ac = default_aircraft()
     assert isinstance(ac, Aircraft)
-    assert ac.name == "Kestrel S-12 demonstrator"
+    assert ac.name == "Tarnwick SX-9 demonstrator"
     assert ac.aircraft_class == "small_supersonic_jet"
     assert ac.length_m > 0 and ac.mass_kg > 0
     assert ac.source.endswith("demo_aircraft.toml")

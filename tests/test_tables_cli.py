@@ -22,7 +22,7 @@ def tiny_table(tmp_path_factory):
 def test_build_info(tiny_table, capsys) -> None:
     assert main(["tables", "info", str(tiny_table)]) == 0
     text = capsys.readouterr().out
-    assert "payload SHA-256" in text and "Kestrel" in text and "ussa1976" in text
+    assert "payload SHA-256" in text and "Tarnwick" in text and "ussa1976" in text
     assert "advisory aid" in text
 
 

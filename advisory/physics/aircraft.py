@@ -2,7 +2,7 @@
 
 An aircraft file is TOML. Two keys are required, everything else refines the picture::
 
-    name = "Kestrel S-12 demonstrator"     # free text
+    name = "Tarnwick SX-9 demonstrator"     # free text
     class = "small_supersonic_jet"         # preset for the defaults below (optional)
     length_m = 36.0                        # required, reference length, m
     mass_kg = 38000.0                      # required, m

@@ -36,7 +36,7 @@ from advisory.footprint import (
     place_kernel,
     strip_indices,
 )
-from advisory.geodesy import LocalFrame, inverse
+from advisory.geodesy import LocalFrame
 from advisory.physics.atmosphere import Atmosphere
 from advisory.state import AirDataState
 from advisory.tables import lookup as lk
@@ -47,6 +47,7 @@ from advisory.zones import ProjectedZones, ZoneSet
 STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavailable")
 _RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3}
 _EXCLUDE = -1.0e12  # margin that takes a zone out of a contact search
+_MEAN_EARTH_RADIUS_M = 6371008.8  # IUGG mean radius R1 of WGS 84 (NIMA TR8350.2)
 
 
 @dataclass(frozen=True)
@@ -294,8 +295,16 @@ class Advisor:
 
     # ---- zones ---------------------------------------------------------------------
     def _zones_for(self, lat: float, lon: float) -> ProjectedZones:
+        """Zones projected about a nearby origin; re-projected past ``reproject_km``.
+
+        The distance test is a haversine on the mean Earth radius (good to 0.5 %, plenty
+        for a re-projection threshold); geodesics proper are for the projection itself.
+        """
         if self._frame_origin is not None:
-            d = float(inverse(self._frame_origin[0], self._frame_origin[1], lat, lon).distance_m)
+            lat0, lon0 = self._frame_origin
+            h = (math.sin(0.5 * (lat - lat0)) ** 2
+                 + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
+            d = 2.0 * _MEAN_EARTH_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
             if d < self.config.reproject_km * 1e3:
                 return self._projected
         frame = LocalFrame(lat, lon)

@@ -388,7 +388,6 @@ class Advisor:
 
     def _step(self, s: AirDataState, now: float) -> Advisory:
         cfg = self.config
-        table = self._table
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
         self._past = past_trajectory(ahead, self._in_air_s(s, cfg), cfg.step_s)
@@ -398,9 +397,10 @@ class Advisor:
         conflicts = find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold)
         first = conflicts[0] if conflicts else None
         level = self._levels.update(first.time_to_contact_s if first else None, now)
-        cut_now = table.cutoff_mach(s.alt_m, s.fpa_rad, s.heading_rad)
+        now_k = self._past.t_s.size  # the present emission point in the prediction
+        cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
         max_mach = math.floor(100.0 * (cut_now - cfg.cutoff_margin_mach)) / 100.0
-        reaches_now = bool(pred.on_ground[self._past.t_s.size])
+        reaches_now = bool(pred.on_ground[now_k])
         if level == 0:
             status = "clear" if pred.on_ground.any() else "no_boom"
         else:

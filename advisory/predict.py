@@ -91,11 +91,6 @@ def flight_condition(inputs: PredictInputs) -> FlightCondition:
     )
 
 
-def _track_frame(vg: np.ndarray) -> tuple[float, float]:
-    speed = math.hypot(vg[0], vg[1])
-    return vg[0] / speed, vg[1] / speed
-
-
 def predict_direct(inputs: PredictInputs) -> PredictResult:
     """Trace the carpet and the ground boom for one condition."""
     atm = make_atmosphere(inputs)
@@ -108,7 +103,6 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
     if not carpet.reaches_ground:
         return base
     s0 = atm.at(fc.altitude_m)
-    tx, ty = _track_frame(tracer.ground_velocity(fc))
     phi_ref, _ = best_reaching_azimuth(tracer, fc)
     eta = np.linspace(-1.0, 1.0, PROFILE_RAYS)
     phis = np.where(eta >= 0.0, phi_ref + eta * (carpet.lateral_cutoff_right_rad - phi_ref),
@@ -121,8 +115,7 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
             continue
         sig = ground_signature(aircraft, ray, fc.mach, s0.sound_speed_mps, s0.pressure_pa,
                                load_factor=inputs.load_factor, fpa_rad=fc.fpa_rad)
-        cross = ray.x_m[-1] * ty - ray.y_m[-1] * tx
-        profile.append(ProfilePoint(cross, sig.overpressure_pa, sig.duration_s, sig.arrival_s,
+        profile.append(ProfilePoint(ray.cross_m, sig.overpressure_pa, sig.duration_s, sig.arrival_s,
                                     sig.edge))
         if phi == phi_ref:
             centre = sig
@@ -147,7 +140,7 @@ def predict_from_table(inputs: PredictInputs) -> PredictResult:
     """Answer from a precomputed table (its aircraft and atmosphere)."""
     from advisory.tables import lookup as lk
     from advisory.tables.table import BoomTable
-    from advisory.tables.verify import half_widths
+    from advisory.tables.verify import drift_angle, half_widths
 
     table = BoomTable.load(inputs.table_file)
     atm = table.atmosphere()
@@ -155,9 +148,7 @@ def predict_from_table(inputs: PredictInputs) -> PredictResult:
     fc = flight_condition(inputs)
     fc.validate(atm)
     fp = table.footprint(fc.altitude_m, fc.mach, fc.fpa_rad, fc.heading_rad)
-    vg = tracer.ground_velocity(fc)
-    track = math.atan2(vg[0], vg[1])
-    drift = (track - fc.heading_rad + math.pi) % (2 * math.pi) - math.pi
+    drift = drift_angle(tracer, fc)
     nan = math.nan
     src = f"table {inputs.table_file}"
     atm_name = atm.description.get("source", "ussa1976")

@@ -221,10 +221,10 @@ class StreamProfile:
         lv = self.levels()
         if len(lv) < self.min_bins:
             return None
-        worst_t = max(abs(x.temperature_k - current.at(x.altitude_m).temperature_k) for x in lv)
-        worst_w = max(
-            math.hypot(x.wind_east_mps - current.at(x.altitude_m).wind_east_mps,
-                       x.wind_north_mps - current.at(x.altitude_m).wind_north_mps) for x in lv)
+        here = [current.at(x.altitude_m) for x in lv]
+        worst_t = max(abs(x.temperature_k - c.temperature_k) for x, c in zip(lv, here))
+        worst_w = max(math.hypot(x.wind_east_mps - c.wind_east_mps,
+                                 x.wind_north_mps - c.wind_north_mps) for x, c in zip(lv, here))
         if worst_t < self.temp_threshold_k and worst_w < self.wind_threshold_mps:
             return None
         self._last_proposal = now_monotonic

@@ -1,0 +1,103 @@
+"""Replays stay byte-identical across refactors (a golden-master check, issue 11).
+
+``tests/data/records_v1/digests.json`` holds, for every bundled demo flight and for
+four service records made by this suite's end-to-end tests, the SHA-256 of every
+output frame a replay produces (its monotonic time and its payload). The digests were
+taken once from the code as it stood before the package was reshaped (commit 4709280),
+so they are an outside check on the move: the reshaped code must reproduce them bit
+for bit. The service records are record format 1 (events written as text lines), so
+the same test shows old records still replay after the record format changed.
+
+When a later change alters the advice on purpose (new physics, new levels), the
+digests are regenerated with ``python tests/test_replay_golden.py --write`` and the
+commit says why; a refactor must never need that.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import struct
+import sys
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+DATA = ROOT / "tests" / "data" / "records_v1"
+DIGESTS = DATA / "digests.json"
+
+#: Service records made by the end-to-end tests (UDP run stopped by SIGTERM, a serial run
+#: whose pty vanished and came back, a stuck serial output, a live run replayed), with
+#: the zone file and table each was recorded with.
+SERVICE_RECORDS = {
+    "udp_sigterm": "small.boomtable",
+    "serial_unplugged": "small.boomtable",
+    "full_output": "small.boomtable",
+    "live": "live.boomtable",
+}
+
+
+def _replay_api():
+    try:
+        from advisory.bench.replay import prepare, replay_log
+    except ImportError:  # the layout before the reshaping (used once, to take the digests)
+        from advisory.replay import prepare, replay_log
+    return prepare, replay_log
+
+
+def _digest(res) -> dict:
+    h = hashlib.sha256()
+    for mono, _utc, payload in res.outputs:
+        h.update(struct.pack(">dI", mono, len(payload)))
+        h.update(payload)
+    return {"outputs": len(res.outputs), "sha256": h.hexdigest(),
+            "recorded_match": res.recorded_match}
+
+
+def replay_digest(name: str) -> dict:
+    """Replay one bundled flight (``demo/<flight>``) or service record and digest it."""
+    prepare, replay_log = _replay_api()
+    if name.startswith("demo/"):
+        setup = prepare(str(_demo_dir() / name.split("/", 1)[1]), quiet=True)
+    else:
+        setup = prepare(str(DATA / f"{name}.boomrec"), zones=str(DATA / f"{name}.zones.geojson"),
+                        table=str(DATA / SERVICE_RECORDS[name]), quiet=True) \
+            if _takes_table(prepare) else \
+            prepare(str(DATA / f"{name}.boomrec"), zones=str(DATA / f"{name}.zones.geojson"),
+                    tables=str(DATA / SERVICE_RECORDS[name]), quiet=True)
+    return _digest(replay_log(setup))
+
+
+def _takes_table(prepare) -> bool:
+    import inspect
+
+    return "table" in inspect.signature(prepare).parameters
+
+
+def _demo_dir() -> Path:
+    try:
+        from advisory.bench.demo import demo_flights_dir
+    except ImportError:
+        return ROOT / "replay_logs"
+    return demo_flights_dir()
+
+
+def _names() -> list[str]:
+    flights = sorted(p.parent.name for p in (ROOT / "replay_logs").glob("*/flight.rec"))
+    return [f"demo/{f}" for f in flights] + sorted(SERVICE_RECORDS)
+
+
+@pytest.mark.parametrize("name", _names())
+def test_replay_is_byte_identical_to_before_the_reshaping(name):
+    # Source: digests taken from the pre-reshaping code (commit 4709280), see module notes.
+    expected = json.loads(DIGESTS.read_text())[name]
+    assert replay_digest(name) == expected
+
+
+if __name__ == "__main__":
+    if sys.argv[1:] != ["--write"]:
+        sys.exit("usage: python tests/test_replay_golden.py --write")
+    DIGESTS.write_text(json.dumps({n: replay_digest(n) for n in _names()}, indent=2,
+                                  sort_keys=True) + "\n")
+    print(f"wrote {DIGESTS}")

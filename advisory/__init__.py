@@ -18,11 +18,11 @@ __all__ = ["SAFETY_CAUTION", "Advisor", "Advisory", "__version__"]
 def __getattr__(name: str):
     """Lazy top-level API: ``advisory.Advisor`` without importing numba at package import."""
     if name == "Advisor":
-        from advisory.advisor import Advisor
+        from advisory.pipeline.advisor import Advisor
 
         return Advisor
     if name == "Advisory":
-        from advisory.advisor import Advisory
+        from advisory.pipeline.advisor import Advisory
 
         return Advisory
     raise AttributeError(f"module 'advisory' has no attribute {name!r}")

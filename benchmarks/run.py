@@ -1,6 +1,6 @@
 """Benchmark every budget of the issues: ``python benchmarks/run.py [--quick] [--json]``.
 
-A thin launcher for :func:`advisory.bench.main` (also ``boom-advisory bench``); works
+A thin launcher for :func:`advisory.bench.benchmark.main` (also ``boom-advisory bench``); works
 from a fresh clone without installing the package. See ``--help`` for the options.
 """
 
@@ -13,6 +13,6 @@ if __name__ == "__main__":
     root = Path(__file__).resolve().parent.parent
     if str(root) not in sys.path:
         sys.path.insert(0, str(root))
-    from advisory.bench import main
+    from advisory.bench.benchmark import main
 
     sys.exit(main(sys.argv[1:]))

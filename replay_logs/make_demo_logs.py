@@ -27,7 +27,7 @@ The aircraft model is a point mass: Mach changes at a set rate toward a target, 
 rolls at a limited rate toward a target, turns are coordinated (heading rate
 ``g tan(bank) / TAS``), the ground velocity is the air velocity plus the wind of the
 atmosphere at the aircraft, and positions advance along geodesics (WGS 84,
-``advisory.geodesy.direct``).
+``advisory.geo.geodesy.direct``).
 
 Run from the repository root::
 
@@ -55,14 +55,14 @@ if str(HERE.parent) not in sys.path:  # run from a checkout without installing
     sys.path.insert(0, str(HERE.parent))
 
 from advisory import units  # noqa: E402
-from advisory.geodesy import direct_deg  # noqa: E402
+from advisory.geo.geodesy import direct_deg  # noqa: E402
+from advisory.io.messages import encode_air, frame_stream  # noqa: E402
+from advisory.io.records import KIND_EVENT, KIND_RAW_INPUT, Recorder, encode_event  # noqa: E402
 from advisory.physics.atmosphere import (  # noqa: E402
     Atmosphere,
     load_profile,
     standard_atmosphere,
 )
-from advisory.wire.frames import encode_air, frame_stream  # noqa: E402
-from advisory.wire.recorder import KIND_EVENT, KIND_RAW_INPUT, Recorder  # noqa: E402
 
 RATE_HZ = 20.0  #: air-data frame rate of the synthesized feeds, Hz
 ROLL_RATE_DEG_S = 5.0  #: roll rate toward a new bank target, deg/s (invented, gentle)
@@ -359,8 +359,9 @@ def write_record(sc: Scenario, samples: list[dict], path: Path) -> dict:
               "torn": 0}
     rx_prev = -math.inf
     with Recorder(path, fsync_interval_s=3600.0) as rec:
-        rec.write(KIND_EVENT, f"demo flight {sc.name}: synthesized by make_demo_logs.py "
-                  "(invented scenario)".encode(), START_UTC, sc.mono_start_s)
+        rec.write(KIND_EVENT, encode_event("note", text=f"demo flight {sc.name}: synthesized "
+                                           "by make_demo_logs.py (invented scenario)"),
+                  START_UTC, sc.mono_start_s)
         for seq, s in enumerate(samples):
             t = s["t_s"]
             fields = {k: v for k, v in s.items() if k != "t_s"}
@@ -394,7 +395,7 @@ def write_record(sc: Scenario, samples: list[dict], path: Path) -> dict:
             counts["frames"] += 1
     if any(f.kind == "torn_tail" for f in sc.faults):
         # a power cut in the middle of writing the next record: only its first bytes
-        from advisory.wire.recorder import encode_record
+        from advisory.io.records import encode_record
 
         last = samples[-1]
         fields = {k: v for k, v in last.items() if k != "t_s"}

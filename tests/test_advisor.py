@@ -12,14 +12,14 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from advisory import units
-from advisory.advisor import Advisor, find_conflicts, find_conflicts_numpy
-from advisory.advisor_config import AdvisorConfig, ConfigError, load_config
 from advisory.cli import main
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
-from advisory.state import AirDataState
-from advisory.zones import ZoneSet
+from advisory.pipeline.advisor import Advisor, find_conflicts, find_conflicts_numpy
+from advisory.pipeline.config import AdvisorConfig, ConfigError, load_config
+from advisory.pipeline.state import AirDataState
+from advisory.pipeline.zones import ZoneSet
 from tests.conftest import build_small_table, make_atmosphere
 
 GEOD = Geodesic.WGS84
@@ -269,7 +269,7 @@ def test_check_command_json_and_text(small_table_path, tmp_path, capsys) -> None
 def test_trial_kernel_matches_readable_composition(small_table) -> None:
     # Parity: the compiled resolution trial equals turned_trajectory + predict +
     # find_conflicts (its readable twin) for a range of turns.
-    from advisory.advisor import _kernel_inputs, trial_clears_kernel, turned_trajectory
+    from advisory.pipeline.advisor import _kernel_inputs, trial_clears_kernel, turned_trajectory
     from advisory.tables import lookup as lk
 
     feats = [square(f"z{i}", *point_along(90e3 + 20e3 * i, 90.0 + 2.0 * (i - 1)),

@@ -13,9 +13,9 @@ import pytest
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
-from advisory.state import AirDataState, StateValidator
-from advisory.wire import arinc429 as a429
-from advisory.wire.frames import StreamDeframer, frame_stream
+from advisory.io import arinc429 as a429
+from advisory.io.messages import StreamDeframer, frame_stream
+from advisory.pipeline.state import AirDataState, StateValidator
 
 
 def _word_by_hand(label_octal: str, sdi: int, data19: int, ssm: int) -> int:

@@ -1,4 +1,4 @@
-"""Smoke test of the benchmark script (``advisory.bench``, ``benchmarks/run.py``).
+"""Smoke test of the benchmark script (``advisory.bench.benchmark``, ``benchmarks/run.py``).
 
 ``--quick`` runs every section with tiny sizes on a tiny table grid; the tests check the
 shape of the output (one line per budget, the machine, the caution), never a timing:
@@ -15,7 +15,8 @@ from pathlib import Path
 
 import pytest
 
-from advisory import SAFETY_CAUTION, bench
+from advisory import SAFETY_CAUTION
+from advisory.bench import benchmark as bench
 
 ROOT = Path(__file__).resolve().parent.parent
 STATUS_PREFIXES = ("pass", "short", "not measured (")

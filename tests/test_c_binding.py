@@ -19,7 +19,7 @@ from pathlib import Path
 import msgpack
 import pytest
 
-from advisory.wire.frames import (
+from advisory.io.messages import (
     ADV_STATUSES,
     AIR_FIELDS,
     AIR_OPTIONAL,
@@ -33,7 +33,7 @@ from advisory.wire.frames import (
     frame_stream,
     parse_datagram,
 )
-from advisory.wire.transports import FramedLink, open_transport
+from advisory.io.transports import FramedLink, open_transport
 
 ROOT = Path(__file__).resolve().parent.parent
 C_DIR = ROOT / "bindings" / "c"

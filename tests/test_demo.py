@@ -15,11 +15,11 @@ from pathlib import Path
 import pytest
 
 from advisory import SAFETY_CAUTION
+from advisory.bench.demo import demo_flights
+from advisory.bench.replay import load_scenario, prepare, replay_log
 from advisory.cli import main
-from advisory.demo import demo_flights
-from advisory.replay import load_scenario, prepare, replay_log
-from advisory.wire.recorder import KIND_RAW_INPUT, read_records
-from advisory.zones import ZoneSet
+from advisory.io.records import KIND_RAW_INPUT, read_records
+from advisory.pipeline.zones import ZoneSet
 from tests.test_replay import MAKER, table_cache  # noqa: F401  (session table cache)
 
 DEMO = Path(__file__).resolve().parent.parent / "replay_logs"

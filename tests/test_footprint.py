@@ -8,16 +8,16 @@ import numpy as np
 import pytest
 
 from advisory import units
-from advisory.footprint import (
+from advisory.geo.geodesy import LocalFrame
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.pipeline.footprint import (
     FootprintPredictor,
     focus_kernel,
     focus_numpy,
     place_kernel,
     place_numpy,
 )
-from advisory.geodesy import LocalFrame
-from advisory.physics.atmosphere import standard_atmosphere
-from advisory.trajectory import predict_trajectory
+from advisory.pipeline.trajectory import predict_trajectory
 
 C45 = float(standard_atmosphere().at(units.ft_to_m(45000.0)).sound_speed_mps)
 

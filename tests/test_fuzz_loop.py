@@ -14,11 +14,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from advisory.advisor import Advisor
-from advisory.loop import AdvisoryLoop
-from advisory.state import REQUIRED_FIELDS, ValidatorLimits
-from advisory.wire.frames import encode_air, frame_stream
-from advisory.zones import ZoneSet
+from advisory.io.messages import encode_air, frame_stream
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.state import REQUIRED_FIELDS, ValidatorLimits
+from advisory.pipeline.zones import ZoneSet
+from advisory.service.loop import AdvisoryLoop
 
 LIMITS = ValidatorLimits().ranges
 FRAMES_PER_EXAMPLE = 200

@@ -15,8 +15,8 @@ import numpy as np
 import pytest
 from geographiclib.geodesic import Geodesic
 
-from advisory import geodesy as gd
-from advisory.geodesy import LocalFrame
+from advisory.geo import geodesy as gd
+from advisory.geo.geodesy import LocalFrame
 
 GEOD = Geodesic.WGS84
 

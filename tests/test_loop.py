@@ -14,14 +14,10 @@ import random
 import pytest
 
 from advisory import units
-from advisory.advisor import Advisor
-from advisory.loop import STARTUP_REASON, AdvisoryLoop, DurationHistogram
-from advisory.physics.atmosphere import standard_atmosphere
-from advisory.state import AirDataState
-from advisory.wire.arinc429 import DEFAULT_LABELS, encode_bnr, payload_from_words
-from advisory.wire.cobs import cobs_encode
-from advisory.wire.crc32c import crc32c
-from advisory.wire.frames import (
+from advisory.io.arinc429 import DEFAULT_LABELS, encode_bnr, payload_from_words
+from advisory.io.cobs import cobs_encode
+from advisory.io.crc32c import crc32c
+from advisory.io.messages import (
     MAX_COUNTERS,
     datagram,
     decode_frame,
@@ -29,14 +25,18 @@ from advisory.wire.frames import (
     encode_air,
     frame_stream,
 )
-from advisory.wire.recorder import (
+from advisory.io.records import (
     KIND_INPUT,
     KIND_OUTPUT,
     KIND_RAW_INPUT,
     Recorder,
     read_records,
 )
-from advisory.zones import ZoneSet
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.state import AirDataState
+from advisory.pipeline.zones import ZoneSet
+from advisory.service.loop import STARTUP_REASON, AdvisoryLoop, DurationHistogram
 
 LAT0, LON0 = 40.0, -100.0
 ALT_FT = 45000.0

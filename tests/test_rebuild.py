@@ -12,7 +12,7 @@ from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import TableGrid
-from advisory.tables.rebuild import StreamProfile, TableManager
+from advisory.tables.manager import StreamProfile, TableManager
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable
 
@@ -42,9 +42,9 @@ def test_rebuild_swaps_and_flags_stale_meanwhile(tmp_path) -> None:
         old = manager.table
         alt = units.ft_to_m(45000.0)
         cut_old = old.cutoff_mach(alt)
-        from advisory.advisor import Advisor
-        from advisory.state import AirDataState
-        from advisory.zones import ZoneSet
+        from advisory.pipeline.advisor import Advisor
+        from advisory.pipeline.state import AirDataState
+        from advisory.pipeline.zones import ZoneSet
 
         advisor = Advisor(manager, ZoneSet.from_geojson({"type": "FeatureCollection",
                                                          "features": []}))

@@ -7,19 +7,21 @@ import signal
 import subprocess
 import sys
 import time
+from pathlib import Path
 
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from advisory.wire import recorder as rec_mod
-from advisory.wire.recorder import (
+from advisory.io import records as rec_mod
+from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,
     KIND_OUTPUT,
     Recorder,
     RecordFormatError,
     RecordReader,
+    decode_event,
     read_records,
 )
 
@@ -44,7 +46,7 @@ def test_round_trip(tmp_path):
     assert records[0].kind == KIND_INPUT and records[0].data == b"\x00"
     assert records[0].mono_s == 100.0 and records[0].utc_s == 1893456000.0
     assert records[1].kind == KIND_OUTPUT and records[1].data == b"out0"
-    assert records[-1].kind == KIND_EVENT and records[-1].data == b"shutdown"
+    assert records[-1].kind == KIND_EVENT and decode_event(records[-1].data).code == "shutdown"
     # monotonic times never go backwards in the order written
     monos = [r.mono_s for r in records if r.kind != KIND_EVENT]
     assert monos == sorted(monos)
@@ -55,7 +57,7 @@ def test_header_layout(tmp_path):
     Recorder(p).close()
     head = p.read_bytes()
     assert len(head) == rec_mod.HEADER_LEN == 24
-    assert head[:8] == b"\x8bBOOMREC" and head[8:10] == b"\x00\x01"
+    assert head[:8] == b"\x8bBOOMREC" and head[8:10] == b"\x00\x02"
 
 
 def test_every_torn_tail_is_reported_and_skipped(tmp_path):
@@ -110,7 +112,7 @@ def test_bad_files_are_refused(tmp_path):
     p = tmp_path / "v.rec"
     Recorder(p).close()
     data = bytearray(p.read_bytes())
-    data[9] = 2  # version 2
+    data[9] = 9  # version 9
     p.write_bytes(bytes(data))
     with pytest.raises(RecordFormatError, match="CRC|version"):
         RecordReader(p)
@@ -122,8 +124,8 @@ def test_torn_header(tmp_path):
     records, rep = read_records(p)
     assert records == [] and rep.torn_tail
     with Recorder(p) as rec:  # starts the file again: nothing was recorded
-        rec.record_event("hello")
-    assert [r.data for r in read_records(p)[0]] == [b"hello"]
+        rec.record_event("note", text="hello")
+    assert [decode_event(r.data) for r in read_records(p)[0]] == [("note", {"text": "hello"})]
 
 
 def test_write_errors_are_counted_not_raised(tmp_path):
@@ -138,7 +140,7 @@ def test_write_errors_are_counted_not_raised(tmp_path):
 
 _WRITER = r"""
 import sys, time
-from advisory.wire.recorder import Recorder
+from advisory.io.records import Recorder
 rec = Recorder(sys.argv[1], fsync_interval_s=0.0)
 i = 0
 print("ready", flush=True)
@@ -181,3 +183,43 @@ def test_reader_never_raises_on_garbage_after_header(tmp_path, garbage):
         f.write(garbage)
     records, rep = read_records(p)
     assert rep.records == len(records)
+
+
+def test_events_are_typed_maps_and_old_text_events_still_read(tmp_path):
+    # Record format 2 (ICD section 13): an event is a MessagePack map with a code and the
+    # fields advisory.schema.EVENT_FIELDS lists; a replay acts on the code, never on text.
+    p = tmp_path / "ev.rec"
+    with Recorder(p) as rec:
+        rec.record_event("input_lost", reason="serial port gone")
+        rec.record_event("stopping", reason="SIGTERM")
+        with pytest.raises(ValueError, match="bogus"):
+            rec.record_event("bogus")
+        with pytest.raises(ValueError, match="fields"):
+            rec.record_event("input_lost", why="x")
+    records, rep = read_records(p)
+    assert rep.version == 2
+    assert [decode_event(r.data, rep.version) for r in records] == [
+        ("input_lost", {"reason": "serial port gone"}), ("stopping", {"reason": "SIGTERM"})]
+    assert decode_event(b"\xc1 not msgpack").code == "unknown"
+    # a format-1 record's text lines (what the service wrote before) map to the same codes
+    assert decode_event(b"input lost: serial port gone", 1) == ("input_lost",
+                                                                 {"reason": "serial port gone"})
+    assert decode_event(b"input open failed: no port; retrying with backoff", 1) == (
+        "input_open_failed", {"reason": "no port"})
+    assert decode_event(b'start {"rate_hz": 10.0}', 1) == ("start",
+                                                         {"settings": {"rate_hz": 10.0}})
+    assert decode_event(b"something else", 1) == ("note", {"text": "something else"})
+
+
+def test_old_records_are_read_but_never_appended_to(tmp_path):
+    # A format-1 record from before typed events (a live UDP run recorded by this suite,
+    # kept in tests/data/records_v1) reads; appending to it is refused with one line.
+    old = Path(__file__).parent / "data" / "records_v1" / "udp_sigterm.boomrec"
+    records, rep = read_records(old)
+    assert rep.version == 1 and not rep.torn_tail
+    codes = [decode_event(r.data, 1).code for r in records if r.kind == KIND_EVENT]
+    assert codes[:2] == ["input_open", "start"] and codes[-1] == "shutdown"
+    copy = tmp_path / "old.boomrec"
+    copy.write_bytes(old.read_bytes())
+    with pytest.raises(RecordFormatError, match="version 1 can be read but not appended"):
+        Recorder(copy)

@@ -26,8 +26,7 @@ from pathlib import Path
 
 import pytest
 
-from advisory.cli import main
-from advisory.replay import (
+from advisory.bench.replay import (
     Expectation,
     ExpectFileError,
     ReplayError,
@@ -38,11 +37,14 @@ from advisory.replay import (
     replay_log,
     replay_many,
 )
-from advisory.wire.frames import StreamDeframer, decode_frame, parse_datagram
-from advisory.wire.recorder import (
+from advisory.cli import main
+from advisory.io.messages import StreamDeframer, decode_frame, parse_datagram
+from advisory.io.records import (
+    KIND_EVENT,
     KIND_INPUT,
     KIND_RAW_INPUT,
     Recorder,
+    encode_event,
     read_records,
 )
 
@@ -417,14 +419,15 @@ def test_several_runs_in_one_record_replay_the_last(tmp_path) -> None:
     a = short_flight(tmp_path, "first", duration_s=2.0, faults=())
     b = short_flight(tmp_path, "second", duration_s=3.0, faults=(),
                      mono_start_s=50.0)  # a reboot: the monotonic clock starts low again
-    start = 'start {"input_format": "stream", "rate_hz": 10.0, "heartbeat_s": 1.0}'
+    start = encode_event("start", settings={"input_format": "stream", "rate_hz": 10.0,
+                                            "heartbeat_s": 1.0})
     both = tmp_path / "both"
     shutil.copytree(b, both)
     (both / "flight.rec").unlink()
     with Recorder(both / "flight.rec") as rec:
         for src in (a, b):
             records, _ = read_records(src / "flight.rec")
-            rec.write(4, start.encode(), records[0].utc_s, records[0].mono_s)
+            rec.write(KIND_EVENT, start, records[0].utc_s, records[0].mono_s)
             for r in records:
                 rec.write(r.kind, bytes(r.data), r.utc_s, r.mono_s, r.channel)
     res = replay_log(prepare(both))

@@ -19,9 +19,9 @@ from pathlib import Path
 import pytest
 
 from advisory import SAFETY_CAUTION
-from advisory.replay import prepare, replay_log
-from advisory.report import REPORT_NAME, have_matplotlib, write_report
-from advisory.wire.frames import decode_frame
+from advisory.bench.replay import prepare, replay_log
+from advisory.bench.report import REPORT_NAME, have_matplotlib, write_report
+from advisory.io.messages import decode_frame
 from tests.test_replay import short_flight, table_cache  # noqa: F401
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")

@@ -24,11 +24,7 @@ from pathlib import Path
 import pytest
 
 from advisory import units
-from advisory.advisor import Advisor
-from advisory.loop import AdvisoryLoop
-from advisory.physics.atmosphere import standard_atmosphere
-from advisory.tables.table import BoomTable
-from advisory.wire.frames import (
+from advisory.io.messages import (
     StreamDeframer,
     datagram,
     decode_frame,
@@ -36,14 +32,19 @@ from advisory.wire.frames import (
     frame_stream,
     parse_datagram,
 )
-from advisory.wire.recorder import (
+from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,
     KIND_OUTPUT,
     KIND_RAW_INPUT,
+    decode_event,
     read_records,
 )
-from advisory.zones import ZoneSet
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.zones import ZoneSet
+from advisory.service.loop import AdvisoryLoop
+from advisory.tables.table import BoomTable
 
 RUN = [sys.executable, "-m", "advisory.cli", "run"]
 READY_TIMEOUT_S = 120.0  # a fresh clone compiles the numba kernels on first start
@@ -277,11 +278,11 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
     recorded = [decode_frame(r.data) for r in records if r.kind == KIND_OUTPUT]
     received = [f for _, f in listener.frames]
     assert recorded == received  # nothing lost on loopback, nothing reordered
-    events = [r.data.decode() for r in records if r.kind == KIND_EVENT]
-    assert events[0].startswith("input open") and events[1].startswith("start {")
-    assert json.loads(events[1][6:])["input_format"] == "datagram"
-    assert any(e.startswith("stats {") and '"final"' in e for e in events)
-    assert events[-1] == "shutdown"
+    events = [decode_event(r.data) for r in records if r.kind == KIND_EVENT]
+    assert events[0].code == "input_open" and events[1].code == "start"
+    assert events[1].fields["settings"]["input_format"] == "datagram"
+    assert any(e.code == "stats" and e.fields["kind"] == "final" for e in events)
+    assert events[-1].code == "shutdown"
     # ICD section 17.4: the raw input records fed to a fresh loop, polled at the recorded
     # output times, give the recorded outputs byte for byte (the two frames published at
     # shutdown come from the service, not from a poll)
@@ -385,10 +386,10 @@ def test_serial_end_to_end_with_pulled_cable(tmp_path, small_table_path, zones_f
     assert t_back - t_plug < 5.0  # backoff is capped at 2 s
     c = last_status(listener.since(0.0))["counters"]
     assert c["input_lost"] >= 1 and c["input_reopened"] >= 1
-    events = [r.data.decode() for r in read_records(record)[0] if r.kind == KIND_EVENT]
-    assert any(e.startswith("input lost") for e in events)
-    assert sum(e.startswith("input open:") for e in events) >= 2
-    assert events[-1] == "shutdown"
+    events = [decode_event(r.data) for r in read_records(record)[0] if r.kind == KIND_EVENT]
+    assert any(e.code == "input_lost" for e in events)
+    assert sum(e.code == "input_open" for e in events) >= 2
+    assert events[-1].code == "shutdown"
 
 
 def test_full_output_drops_and_counts_without_blocking(tmp_path, small_table_path,

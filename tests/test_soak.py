@@ -10,7 +10,6 @@ compressed, the frame count is not: every frame is decoded, validated and record
 
 from __future__ import annotations
 
-import json
 import os
 import signal
 import socket
@@ -23,13 +22,14 @@ import warnings
 
 import pytest
 
-from advisory.wire.frames import datagram, decode_frame
-from advisory.wire.recorder import (
+from advisory.io.messages import datagram, decode_frame
+from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,
     KIND_OUTPUT,
     KIND_RAW_INPUT,
     RecordReader,
+    decode_event,
 )
 from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
     RUN,
@@ -117,10 +117,10 @@ def test_soak_one_hour_of_50hz_input(tmp_path, small_table_path, zones_file) -> 
                 raw += 1
             elif r.kind == KIND_OUTPUT:
                 outputs += 1
-            elif r.kind == KIND_EVENT and bytes(r.data).startswith(b"stats "):
-                doc = json.loads(bytes(r.data)[6:])
-                if doc["event"] == "final":
-                    final = doc
+            elif r.kind == KIND_EVENT:
+                ev = decode_event(r.data, reader.report.version)
+                if ev.code == "stats" and ev.fields["kind"] == "final":
+                    final = ev.fields["stats"]
         report = reader.report
     assert not report.torn_tail and report.corrupt_regions == 0
     assert raw == N_FRAMES

@@ -8,8 +8,8 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from advisory.state import AirDataState, Rejection, StateValidator, ValidatorLimits
-from advisory.wire.frames import decode_frame, encode_air
+from advisory.io.messages import decode_frame, encode_air
+from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
 
 BASE = {"lat_deg": 40.0, "lon_deg": -100.0, "alt_ft": 45000.0, "mach": 1.4,
         "heading_deg": 90.0, "gs_kt": 740.0, "bank_deg": 0.0, "fpa_deg": 0.0}

@@ -19,8 +19,8 @@ import pytest
 from geographiclib.geodesic import Geodesic
 from scipy.integrate import solve_ivp
 
-from advisory.geodesy import LocalFrame, python_twin
-from advisory.trajectory import predict_trajectory, propagate_kernel, propagate_np
+from advisory.geo.geodesy import LocalFrame, python_twin
+from advisory.pipeline.trajectory import predict_trajectory, propagate_kernel, propagate_np
 
 GEOD = Geodesic.WGS84
 G = 9.80665  # standard gravity, U.S. Standard Atmosphere 1976

@@ -9,7 +9,7 @@ import time
 
 import pytest
 
-from advisory.wire.frames import (
+from advisory.io.messages import (
     DatagramReader,
     StreamDeframer,
     datagram,
@@ -18,7 +18,7 @@ from advisory.wire.frames import (
     encode_status,
     frame_stream,
 )
-from advisory.wire.transports import (
+from advisory.io.transports import (
     FileTransport,
     FramedLink,
     SerialTransport,

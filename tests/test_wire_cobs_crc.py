@@ -7,7 +7,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from advisory.wire.cobs import (
+from advisory.io.cobs import (
     CobsError,
     cobs_decode,
     cobs_decode_kernel,
@@ -15,7 +15,7 @@ from advisory.wire.cobs import (
     cobs_encode,
     cobs_max_encoded_len,
 )
-from advisory.wire.crc32c import CHECK_VALUE, crc32c, crc32c_kernel, crc32c_py
+from advisory.io.crc32c import CHECK_VALUE, crc32c, crc32c_kernel, crc32c_py
 
 # ----------------------------------------------------------------------------- CRC-32C
 

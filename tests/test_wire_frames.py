@@ -14,8 +14,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from advisory.wire import frames as fr
-from advisory.wire.frames import (
+from advisory.io import messages as fr
+from advisory.io.messages import (
     ADV_FIELDS,
     AIR_FIELDS,
     HEADER_KEYS,

@@ -21,10 +21,10 @@ import shapely
 from geographiclib.geodesic import Geodesic
 from shapely.geometry import LinearRing, LineString, MultiPolygon, Point, Polygon
 
-from advisory import geometry_kernels as gk
-from advisory.geodesy import LocalFrame
+from advisory.geo import polygons as gk
+from advisory.geo.geodesy import LocalFrame
+from advisory.pipeline.zones import DEFAULT_MARGIN_KM, ZoneFileError, ZoneSet
 from advisory.units import FT, PSF
-from advisory.zones import DEFAULT_MARGIN_KM, ZoneFileError, ZoneSet
 
 DATA = Path(__file__).parent / "data"
 GEOD = Geodesic.WGS84
@@ -63,7 +63,7 @@ def random_zone(rng, cx, cy, size, multipart=False):
 
 
 def pack(zones):
-    """Flat arrays in the layout of advisory.geometry_kernels (as ZoneSet.project does)."""
+    """Flat arrays in the layout of advisory.geo.polygons (as ZoneSet.project does)."""
     xs, ys = [], []
     ring_start, part_start, zone_start = [0], [0], [0]
     n_rings = 0

@@ -46,8 +46,8 @@ import math
 from typing import NamedTuple
 
 import numpy as np
-from numba import njit
 
+from advisory.jit import njit
 from advisory.physics import carpet as _carpet
 from advisory.physics.aircraft import Aircraft
 from advisory.physics.atmosphere import GAMMA

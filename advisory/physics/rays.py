@@ -45,8 +45,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from numba import njit
 
+from advisory.jit import njit
 from advisory.physics.atmosphere import GAMMA, Atmosphere
 
 # --------------------------------------------------------------------------------------

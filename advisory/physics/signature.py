@@ -83,8 +83,8 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from numba import njit
 
+from advisory.jit import njit
 from advisory.physics.aircraft import Aircraft
 from advisory.physics.atmosphere import GAMMA
 from advisory.physics.rays import RayPath

@@ -15,7 +15,10 @@ import time
 from pathlib import Path
 
 from advisory import __version__
+from advisory.physics.aircraft import default_aircraft, load_aircraft
+from advisory.physics.atmosphere import standard_atmosphere
 from advisory.tables.build import BuildInputs, aircraft_document, build_table_arrays, provenance
+from advisory.tables.grid import default_grid
 from advisory.tables.store import TableFileError, write_table_file
 from advisory.tables.table import BoomTable
 
@@ -57,3 +60,10 @@ def cached_table(inputs: BuildInputs, quiet: bool = False) -> BoomTable:
     arrays = build_table_arrays(inputs)
     write_table_file(path, provenance(inputs, time.monotonic() - t0), arrays)
     return BoomTable.load(path)
+
+
+def default_table(aircraft_file: str | None = None) -> BoomTable:
+    """The default-grid table for the aircraft (the bundled demo aircraft when None) in
+    the standard atmosphere, built once and cached."""
+    aircraft = load_aircraft(aircraft_file) if aircraft_file else default_aircraft()
+    return cached_table(BuildInputs(aircraft, standard_atmosphere(), default_grid()))

@@ -14,7 +14,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
+
+from advisory.jit import njit
 
 # Per-ray quantities stored in the table (last axis of ``cells``).
 Q_FWD = 0  #: ground offset along the true heading from the emission point's nadir, m

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import msgpack
 
-from advisory.wire.frames import datagram, encode_adv, encode_air, encode_status, frame_stream
+from advisory.io.messages import datagram, encode_adv, encode_air, encode_status, frame_stream
 
 OUT = Path(__file__).with_name("wire_vectors.json")
 

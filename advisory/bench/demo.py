@@ -33,7 +33,7 @@ DEFAULT_OUT = "demo_report"
 
 def demo_root() -> Path:
     """The bundled ``replay_logs`` directory (beside the package in a checkout)."""
-    return Path(__file__).resolve().parent.parent / "replay_logs"
+    return Path(__file__).resolve().parents[2] / "replay_logs"
 
 
 def demo_flights(root: str | Path | None = None) -> list[Path]:
@@ -84,14 +84,14 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run_demo(args: argparse.Namespace) -> int:
     """``demo``: exit 0 when every flight matches its expected advisories, else 1."""
-    from advisory.replay import (
+    from advisory.bench.replay import (
         cue_lines,
         prepare,
         read_notes,
         replay_many,
         summary_table,
     )
-    from advisory.report import write_report
+    from advisory.bench.report import write_report
 
     human = not args.json
     say = print if human else (lambda *a, **k: None)

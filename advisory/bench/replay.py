@@ -1,10 +1,10 @@
 """Replay recorded flights through the live loop, on a clock the replay controls.
 
-A record file (:mod:`advisory.wire.recorder`) holds every chunk of bytes a service
+A record file (:mod:`advisory.io.records`) holds every chunk of bytes a service
 received, with its receive times. :func:`replay_log` feeds those bytes, in order and with
-their recorded receive times, to the same :class:`advisory.loop.AdvisoryLoop` (deframer,
+their recorded receive times, to the same :class:`advisory.service.loop.AdvisoryLoop` (deframer,
 decoder, validator, advisor) that ``boom-advisory run`` uses, and calls
-:meth:`~advisory.loop.AdvisoryLoop.poll` at times taken from the recording. The loop
+:meth:`~advisory.service.loop.AdvisoryLoop.poll` at times taken from the recording. The loop
 reads no clock for anything it publishes, so the advisory and status frames of a replay
 are byte-identical at any speed and on every run; ``--speed`` only decides how long the
 replay sleeps between events.
@@ -21,7 +21,7 @@ The clock
   the final frames at shutdown (the ``stopping`` event). A file that several runs were
   appended to is replayed from its last ``start`` event.
 * A log with inputs only (a synthesized feed, a capture) is polled on the loop's own
-  fixed-rate schedule (:meth:`~advisory.loop.AdvisoryLoop.next_due`) up to the last
+  fixed-rate schedule (:meth:`~advisory.service.loop.AdvisoryLoop.next_due`) up to the last
   input.
 
 In both cases a frame received at the same instant as a poll is fed first.
@@ -230,28 +230,22 @@ def _speed(text: str | float) -> float:
 
 
 def _loop_settings(log: Path) -> dict:
-    """Settings a service wrote into the record as a JSON event, if any.
+    """Settings a service wrote into the record's ``start`` event, if any.
 
-    Looks for an event whose text is (or ends with) a JSON object holding
-    ``input_format`` (the loop's :meth:`~advisory.loop.AdvisoryLoop.describe`, in the
-    start event of ``run``, which also names its ``zones`` and ``tables`` files); the
-    last such event counts (a record file appended to by several runs).
+    The start event of ``run`` holds the loop's
+    :meth:`~advisory.service.loop.AdvisoryLoop.describe` (input format, framing, rate,
+    heartbeat) and its ``zones`` and ``tables`` files; the last such event counts (a
+    record file appended to by several runs).
     """
-    from advisory.wire.recorder import KIND_EVENT, RecordReader
+    from advisory.io.records import KIND_EVENT, RecordReader, decode_event
 
     found: dict = {}
     with RecordReader(log) as reader:
         for rec in reader:
             if rec.kind != KIND_EVENT:
                 continue
-            text = bytes(rec.data).decode("utf-8", "replace")
-            start = text.find("{")
-            if start < 0:
-                continue
-            try:
-                doc = json.loads(text[start:])
-            except ValueError:
-                continue
+            ev = decode_event(rec.data, reader.report.version)
+            doc = ev.fields.get("settings") if ev.code == "start" else None
             if isinstance(doc, dict):
                 found = _find_settings(doc) or found
     return found
@@ -303,7 +297,7 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
     ReplayError
         Missing log or zones, bad option; the message names it.
     """
-    from advisory.loop import INPUT_FORMATS
+    from advisory.service.loop import INPUT_FORMATS
 
     path = find_log(log)
     scenario, spath = load_scenario(path)
@@ -391,7 +385,7 @@ def load_expected(path: str | Path) -> list[Expectation]:
     ExpectFileError
         Unreadable, not JSON, or an entry with a bad or missing field (named).
     """
-    from advisory.wire.frames import ADV_STATUSES
+    from advisory.io.messages import ADV_STATUSES
 
     path = Path(path)
     try:
@@ -590,7 +584,7 @@ class ReplayResult:
     @property
     def advisory_payloads(self) -> list[bytes]:
         """The advisory frame payloads, in order."""
-        from advisory.wire.frames import decode_frame
+        from advisory.io.messages import decode_frame
 
         return [p for _, _, p in self.outputs if decode_frame(p).type == "adv"]
 
@@ -696,8 +690,8 @@ class _Sender:
     """Sends the recorded input to a transport, framed for it (``--send``)."""
 
     def __init__(self, url: str, framing: str) -> None:
-        from advisory.wire.frames import DatagramReader, StreamDeframer
-        from advisory.wire.transports import TransportError, open_transport
+        from advisory.io.messages import DatagramReader, StreamDeframer
+        from advisory.io.transports import TransportError, open_transport
 
         try:
             self.transport = open_transport(url, "output")
@@ -709,8 +703,8 @@ class _Sender:
         self.errors = 0
 
     def send(self, data: bytes) -> None:
-        from advisory.wire.frames import datagram, frame_stream
-        from advisory.wire.transports import TransportError
+        from advisory.io.messages import datagram, frame_stream
+        from advisory.io.transports import TransportError
 
         if self.transport.is_stream == (self.framing == "stream"):
             chunks = [data]  # same kind of link: the bytes exactly as received
@@ -731,8 +725,8 @@ class _Sender:
 
 def _inputs(records: list, framing: str) -> list[tuple[float, float, bytes]]:
     """(mono, utc, bytes) to feed: raw input records, else re-framed payload records."""
-    from advisory.wire.frames import datagram, frame_stream
-    from advisory.wire.recorder import KIND_INPUT, KIND_RAW_INPUT
+    from advisory.io.messages import datagram, frame_stream
+    from advisory.io.records import KIND_INPUT, KIND_RAW_INPUT
 
     raw = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_RAW_INPUT]
     if raw:
@@ -743,11 +737,11 @@ def _inputs(records: list, framing: str) -> list[tuple[float, float, bytes]]:
 
 def make_loop(setup: ReplaySetup, recorder=None):
     """The advisor and loop exactly as ``run`` would build them for this set-up."""
-    from advisory.advisor import Advisor
-    from advisory.advisor_config import load_config
-    from advisory.loop import AdvisoryLoop
-    from advisory.state import StateValidator
-    from advisory.zones import ZoneSet
+    from advisory.pipeline.advisor import Advisor
+    from advisory.pipeline.config import load_config
+    from advisory.pipeline.state import StateValidator
+    from advisory.pipeline.zones import ZoneSet
+    from advisory.service.loop import AdvisoryLoop
 
     advisor = Advisor(_load_table(setup.table), ZoneSet.from_file(setup.zones),
                       load_config(setup.config))
@@ -758,37 +752,36 @@ def make_loop(setup: ReplaySetup, recorder=None):
 
 
 #: Counters the ``run`` driver keeps and hands to the loop before every poll
-#: (:attr:`advisory.loop.AdvisoryLoop.external_counters`); a replay of a service log
+#: (:attr:`advisory.service.loop.AdvisoryLoop.external_counters`); a replay of a service log
 #: restores them from the record (link events, recorded status frames).
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors")
 
-_LOST, _OPEN, _OPEN_FAILED, _STOPPING = ("input lost: ", "input open: ",
-                                         "input open failed: ", "stopping: ")
+def _controls(records: list, version: int) -> tuple[bool, list[tuple[float, str, str]]]:
+    """(recorded by a ``run`` service, link and stop events as (mono, kind, text)).
 
-
-def _controls(records: list) -> tuple[bool, list[tuple[float, str, str]]]:
-    """(recorded by a ``run`` service, link and stop events as (mono, kind, text))."""
-    from advisory.wire.recorder import KIND_EVENT
+    Read from the typed events' codes and fields (record format 2), or from the text
+    lines of format-1 records through :func:`~advisory.io.records.decode_event`.
+    """
+    from advisory.io.records import KIND_EVENT, decode_event
 
     service = False
     out = []
     for r in records:
         if r.kind != KIND_EVENT:
             continue
-        text = bytes(r.data).decode("utf-8", "replace")
-        if text.startswith("start {"):
+        ev = decode_event(r.data, version)
+        reason = ev.fields.get("reason")
+        if ev.code == "start":
             service = True
-        elif text.startswith(_LOST):
-            out.append((r.mono_s, "lost", text[len(_LOST):]))
-        elif text.startswith(_OPEN_FAILED):
-            out.append((r.mono_s, "open_failed",
-                        text[len(_OPEN_FAILED):].removesuffix("; retrying with backoff")))
-        elif text.startswith(_OPEN):
-            out.append((r.mono_s, "open", text[len(_OPEN):]))
-        elif text.startswith(_STOPPING):
-            why = text[len(_STOPPING):]
-            out.append((r.mono_s, "stop", "service stopped" if why == "stop requested"
-                        else f"service stopped ({why})"))
+        elif ev.code == "input_lost":
+            out.append((r.mono_s, "lost", str(reason)))
+        elif ev.code == "input_open_failed":
+            out.append((r.mono_s, "open_failed", str(reason)))
+        elif ev.code == "input_open":
+            out.append((r.mono_s, "open", str(ev.fields.get("url"))))
+        elif ev.code == "stopping":
+            out.append((r.mono_s, "stop", "service stopped" if reason == "stop requested"
+                        else f"service stopped ({reason})"))
     return service, out
 
 
@@ -843,14 +836,14 @@ def replay_log(setup: ReplaySetup, loop=None) -> ReplayResult:
     -------
     ReplayResult
     """
-    from advisory.wire.frames import decode_frame
-    from advisory.wire.recorder import KIND_EVENT, KIND_OUTPUT, read_records
+    from advisory.io.messages import decode_frame
+    from advisory.io.records import KIND_EVENT, KIND_OUTPUT, decode_event, read_records
 
     wall0 = time.perf_counter()
     records, report = read_records(setup.log)
     notes = []
     starts = [i for i, r in enumerate(records)
-              if r.kind == KIND_EVENT and bytes(r.data[:7]) == b"start {"]
+              if r.kind == KIND_EVENT and decode_event(r.data, report.version).code == "start"]
     if len(starts) > 1:  # several runs appended to one file: each has its own clock
         notes.append(f"{len(starts)} runs recorded in this file; replaying the last one "
                      f"(record {starts[-1]} on)")
@@ -858,7 +851,7 @@ def replay_log(setup: ReplaySetup, loop=None) -> ReplayResult:
     loop = loop or make_loop(setup)
     inputs = _inputs(records, loop.framing)
     recorded = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_OUTPUT]
-    service, controls = _controls(records)
+    service, controls = _controls(records, report.version)
     del records
     res = ReplayResult(setup=setup, read=asdict(report), recorded_outputs=len(recorded),
                        notes=notes)
@@ -872,7 +865,7 @@ def replay_log(setup: ReplaySetup, loop=None) -> ReplayResult:
         raise ReplayError(f"--clock recorded: {setup.log} holds no recorded outputs")
     collector = None
     if setup.collect:
-        from advisory.report import FlightCollector
+        from advisory.bench.report import FlightCollector
 
         collector = FlightCollector(loop, res.t0_monotonic)
     driver = _Driver(loop, service)
@@ -966,7 +959,7 @@ def replay_log(setup: ReplaySetup, loop=None) -> ReplayResult:
 
 def segments_of(outputs: list, t0: float) -> list[Segment]:
     """Cut the advisory frames of ``outputs`` into segments (see :class:`Segment`)."""
-    from advisory.wire.frames import decode_frame
+    from advisory.io.messages import decode_frame
 
     segs: list[Segment] = []
     t_last = None
@@ -1162,7 +1155,7 @@ def run_replay(args: argparse.Namespace) -> int:
                 print("note: " + note, file=sys.stderr)
     report_path = None
     if args.report:
-        from advisory.report import write_report
+        from advisory.bench.report import write_report
 
         report_path = write_report(results, args.report)
     if args.json:

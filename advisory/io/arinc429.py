@@ -507,7 +507,7 @@ class Arinc429Assembler:
         return sum(self.feed_word(w, rx_monotonic) is not None for w in words)
 
     def fields(self, now_monotonic: float | None = None) -> dict[str, float]:
-        """The fresh fields (wire names), ready for :class:`advisory.state.StateValidator`.
+        """The fresh fields (wire names), ready for :class:`advisory.pipeline.state.StateValidator`.
 
         Fields older than ``max_age_s`` are left out, so a silent source shows up as a
         missing field rather than as an old value.

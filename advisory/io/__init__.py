@@ -11,9 +11,9 @@ not notice when a kernel's callee in another file changes, so after editing
 has no cache).
 """
 
-from advisory.wire.cobs import CobsError, cobs_decode, cobs_encode
-from advisory.wire.crc32c import crc32c
-from advisory.wire.frames import (
+from advisory.io.cobs import CobsError, cobs_decode, cobs_encode
+from advisory.io.crc32c import crc32c
+from advisory.io.messages import (
     FORMAT_VERSION,
     MAX_PAYLOAD,
     DatagramReader,
@@ -30,8 +30,8 @@ from advisory.wire.frames import (
     next_seq,
     parse_datagram,
 )
-from advisory.wire.recorder import Recorder, RecordReader, read_records
-from advisory.wire.transports import (
+from advisory.io.records import Recorder, RecordReader, read_records
+from advisory.io.transports import (
     FramedLink,
     SendBufferFullError,
     TransportError,

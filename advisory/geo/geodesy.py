@@ -39,7 +39,8 @@ from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
-from numba import njit
+
+from advisory.jit import njit
 
 __all__ = [
     "WGS84_A",

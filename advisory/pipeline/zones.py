@@ -45,8 +45,8 @@ from typing import Any
 
 import numpy as np
 
-from advisory import geometry_kernels as gk
-from advisory.geodesy import LocalFrame
+from advisory.geo import polygons as gk
+from advisory.geo.geodesy import LocalFrame
 from advisory.units import ft_to_m, psf_to_pa
 
 __all__ = [
@@ -136,9 +136,9 @@ class Zone:
 
 @dataclass(frozen=True, eq=False)
 class ProjectedZones:
-    """A zone set projected into one :class:`~advisory.geodesy.LocalFrame`.
+    """A zone set projected into one :class:`~advisory.geo.geodesy.LocalFrame`.
 
-    The flat arrays follow the layout of :mod:`advisory.geometry_kernels` and can be
+    The flat arrays follow the layout of :mod:`advisory.geo.polygons` and can be
     passed to its kernels directly; the methods below are thin wrappers.
 
     Attributes
@@ -150,7 +150,7 @@ class ProjectedZones:
     x, y : ndarray
         float64 (V,) vertex coordinates, m (rings closed).
     ring_start, part_start, zone_start : ndarray
-        int64 offsets (see :mod:`advisory.geometry_kernels`).
+        int64 offsets (see :mod:`advisory.geo.polygons`).
     zone_bbox : ndarray
         float64 (Z, 4) ``xmin, ymin, xmax, ymax`` per zone, m.
     margin_m, limit_pa : ndarray
@@ -161,7 +161,7 @@ class ProjectedZones:
         Largest distance of any vertex from the frame origin, m (0 for no zones);
         reproject about a nearer origin when this grows past a few hundred km.
     ring_chunk, chunk_edges, chunk_bbox : ndarray
-        Edge chunks for :func:`advisory.geometry_kernels.first_contact`.
+        Edge chunks for :func:`advisory.geo.polygons.first_contact`.
     """
 
     frame: LocalFrame
@@ -187,7 +187,7 @@ class ProjectedZones:
                       margin_m: np.ndarray | None = None) -> np.ndarray:
         """Index of the first time-ordered segment to touch each zone (-1 for none).
 
-        See :func:`advisory.geometry_kernels.first_contact`.
+        See :func:`advisory.geo.polygons.first_contact`.
 
         Parameters
         ----------
@@ -217,7 +217,7 @@ class ProjectedZones:
     def segment_distance(self, k: int, ax: float, ay: float, bx: float, by: float
                          ) -> tuple[float, float]:
         """Distance (m) from segment ab to zone ``k`` and where along ab (0..1) it is
-        closest; see :func:`advisory.geometry_kernels.segment_zone_distance`."""
+        closest; see :func:`advisory.geo.polygons.segment_zone_distance`."""
         return gk.segment_zone_distance(float(ax), float(ay), float(bx), float(by), self.x,
                                         self.y, self.ring_start, self.part_start,
                                         self.zone_start, int(k))

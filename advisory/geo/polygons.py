@@ -1,7 +1,7 @@
 """Planar polygon kernels for no-boom zones: containment, intersection, distance, contact.
 
-All coordinates are metres in a :class:`advisory.geodesy.LocalFrame` plane. Zones come
-as flat arrays (built by :meth:`advisory.zones.ZoneSet.project`):
+All coordinates are metres in a :class:`advisory.geo.geodesy.LocalFrame` plane. Zones come
+as flat arrays (built by :meth:`advisory.pipeline.zones.ZoneSet.project`):
 
 ``x, y`` : float64 (V,)
     Vertex coordinates, m. Every ring is stored closed (its last vertex repeats the
@@ -38,7 +38,8 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit
+
+from advisory.jit import njit
 
 __all__ = [
     "segments_intersect",

@@ -321,7 +321,7 @@ class StateValidator:
 
     def validate_frame(self, frame: Any, rx_monotonic: float,
                        now_monotonic: float | None = None) -> AirDataState | Rejection:
-        """:meth:`validate` for a decoded :class:`advisory.wire.frames.Frame` of type air."""
+        """:meth:`validate` for a decoded :class:`advisory.io.messages.Frame` of type air."""
         if getattr(frame, "type", None) != "air":
             return self._reject("not_a_mapping", f"frame type {getattr(frame, 'type', None)!r}"
                                                  " is not 'air'")

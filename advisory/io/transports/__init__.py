@@ -3,8 +3,8 @@
 Every transport has ``open()``, ``receive(deadline_monotonic) -> bytes | None``,
 ``send(data)`` and ``close()`` (safe to call twice), and the attribute ``is_stream``:
 stream transports (serial, file) return arbitrary chunks of a byte stream, to be split
-by :class:`advisory.wire.frames.StreamDeframer`; datagram transports (UDP) return one
-datagram per call, to be checked by :func:`advisory.wire.frames.parse_datagram`.
+by :class:`advisory.io.messages.StreamDeframer`; datagram transports (UDP) return one
+datagram per call, to be checked by :func:`advisory.io.messages.parse_datagram`.
 :class:`FramedLink` does that split and the matching framing on send.
 
 URLs (chosen on the command line, see :func:`open_transport`):
@@ -36,7 +36,7 @@ import time
 from typing import Protocol
 from urllib.parse import parse_qs, unquote, urlsplit
 
-from advisory.wire.frames import (
+from advisory.io.messages import (
     MAX_DATAGRAM,
     DatagramReader,
     StreamDeframer,

@@ -1,4 +1,4 @@
-"""``boom-advisory run``: the real-time service around :class:`advisory.loop.AdvisoryLoop`.
+"""``boom-advisory run``: the real-time service around :class:`advisory.service.loop.AdvisoryLoop`.
 
 The driver owns the clocks and the links; the loop owns everything between bytes in and
 frames out (so ``replay`` runs the very same code). One thread reads the input with
@@ -17,7 +17,7 @@ the loop (when the queue is full the oldest frame is dropped, counted as
   every output, and events (start, link lost/reopened, statistics, shutdown).
 * Tables: ``--tables FILE``, or the default table for the aircraft (built once, cached).
   ``--profile FILE`` rebuilds the table for that atmosphere profile off the hot path
-  (:class:`advisory.tables.rebuild.TableManager`), at start when the profile differs
+  (:class:`advisory.tables.manager.TableManager`), at start when the profile differs
   from the table's atmosphere and again whenever the file changes; the advisories say
   ``tables_stale`` meanwhile.
 * Stops on SIGINT/SIGTERM, after ``--duration-s``, or when a file input ends: publishes
@@ -45,8 +45,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from advisory import SAFETY_CAUTION, __version__
-from advisory.loop import INPUT_FORMATS, AdvisoryLoop
-from advisory.wire.transports import (
+from advisory.io.transports import (
     FramedLink,
     SendBufferFullError,
     SerialTransport,
@@ -54,6 +53,7 @@ from advisory.wire.transports import (
     UdpTransport,
     make_transport,
 )
+from advisory.service.loop import INPUT_FORMATS, AdvisoryLoop
 
 EXIT_OK = 0
 EXIT_RUNTIME = 1
@@ -88,6 +88,38 @@ class RunSettings:
     duration_s: float | None = None
     label_map: str | None = None
     heartbeat_s: float = 1.0
+
+
+#: How each record event reads for a person (stderr, journal); the record keeps the code
+#: and fields, so rewording a line here never changes what a replay does.
+_EVENT_TEXT = {
+    "start": "start {settings}",
+    "start_failed": "start failed: {reason}",
+    "first_advisory": "first advisory out {after_s:.2f} s after start",
+    "input_open": "input open: {url}",
+    "input_open_failed": "input open failed: {reason}; retrying with backoff",
+    "input_lost": "input lost: {reason}",
+    "output_open": "output open: {url}",
+    "output_open_failed": "output open failed: {reason}; retrying with backoff",
+    "output_lost": "output lost: {reason}",
+    "output_error": "output error: {reason}",
+    "output_blocked": "output writer still blocked at shutdown",
+    "internal_error": "internal error (going on): {reason}",
+    "stopping": "stopping: {reason}",
+    "stats": "{kind}",
+    "shutdown": "shutdown",
+    "note": "{text}",
+}
+
+
+def event_text(code: str, fields: dict) -> str:
+    """One line for a person describing a record event."""
+    if code == "start":
+        return "start " + json.dumps(fields.get("settings"), sort_keys=True)
+    try:
+        return _EVENT_TEXT[code].format(**fields)
+    except (KeyError, ValueError, IndexError):
+        return f"{code} {fields}"
 
 
 def _utc_text(utc_s: float) -> str:
@@ -153,7 +185,7 @@ class InputLink:
                 raise
             self.reason = str(exc)
             if self.reason != self._last_error:
-                self.on_event(f"input open failed: {exc}; retrying with backoff")
+                self.on_event("input_open_failed", reason=str(exc))
                 self._last_error = self.reason
             self.next_try = now + self.backoff
             self.backoff = min(self.backoff * 2.0, BACKOFF_MAX_S)
@@ -166,7 +198,7 @@ class InputLink:
         self.reason = ""
         self._last_error = ""
         self.backoff = BACKOFF_START_S
-        self.on_event(f"input open: {self.url}")
+        self.on_event("input_open", url=self.url)
         return True
 
     def receive(self, deadline: float) -> bytes | None:
@@ -185,7 +217,7 @@ class InputLink:
         self.reason = reason
         self.next_try = time.monotonic() + BACKOFF_START_S
         self.backoff = BACKOFF_START_S * 2.0
-        self.on_event(f"input lost: {reason}")
+        self.on_event("input_lost", reason=reason)
 
     @property
     def at_eof(self) -> bool:
@@ -260,7 +292,7 @@ class OutputPublisher:
         except TransportError as exc:
             if not isinstance(self.transport, SerialTransport):
                 raise
-            self.on_event(f"output open failed: {exc}; retrying with backoff")
+            self.on_event("output_open_failed", reason=str(exc))
         self._thread = threading.Thread(target=self._run, name="boom-output", daemon=True)
         self._thread.start()
 
@@ -308,11 +340,11 @@ class OutputPublisher:
                 self._up = False
                 self.transport.close()
                 self._next_try = time.monotonic() + self._backoff
-                self.on_event(f"output lost: {exc}")
+                self.on_event("output_lost", reason=str(exc))
             except Exception as exc:  # noqa: BLE001 - the writer must not die
                 self.errors += 1
                 self.dropped += 1
-                self.on_event(f"output error: {type(exc).__name__}: {exc}")
+                self.on_event("output_error", reason=f"{type(exc).__name__}: {exc}")
 
     def _reopen(self) -> bool:
         now = time.monotonic()
@@ -327,7 +359,7 @@ class OutputPublisher:
         self._up = True
         self._resync = True
         self._backoff = BACKOFF_START_S
-        self.on_event(f"output open: {self.url}")
+        self.on_event("output_open", url=self.url)
         return True
 
     def close(self, timeout_s: float = 1.0) -> None:
@@ -347,7 +379,7 @@ class OutputPublisher:
                         pass
             th.join(max(0.0, deadline - time.monotonic()) + 0.1)
             if th.is_alive():  # a blocked write; the daemon thread dies with the process
-                self.on_event("output writer still blocked at shutdown")
+                self.on_event("output_blocked")
         self.link.close()
 
 
@@ -392,10 +424,10 @@ class AdvisoryService:
             self.stop_reason = reason
         self._stop = True
 
-    def _event(self, text: str) -> None:
-        print(f"boom-advisory run: {text}", file=sys.stderr, flush=True)
+    def _event(self, code: str, **fields) -> None:
+        print(f"boom-advisory run: {event_text(code, fields)}", file=sys.stderr, flush=True)
         if self.recorder is not None:
-            self.recorder.record_event(text)
+            self.recorder.record_event(code, **fields)
 
     def _stats_event(self, kind: str) -> None:
         loop = self.loop
@@ -407,7 +439,7 @@ class AdvisoryService:
             "output_sent": self.out.sent, "counters": loop.counters,
         }
         if self.recorder is not None:
-            self.recorder.record_event("stats " + json.dumps(stats, sort_keys=True))
+            self.recorder.record_event("stats", kind=kind, stats=stats)
         if kind == "final":
             s = stats["step"]
             print(f"boom-advisory run: {s['n']} steps, step median {s['median_ms']} ms, "
@@ -420,7 +452,7 @@ class AdvisoryService:
         if payloads and self.first_advisory_monotonic is None:
             self.first_advisory_monotonic = time.monotonic()
             took = self.first_advisory_monotonic - self.started_monotonic
-            self._event(f"first advisory out {took:.2f} s after start")
+            self._event("first_advisory", after_s=round(took, 3))
         log = self.loop.cue_log
         while self._cues_shown < len(log):
             utc, cue = log[self._cues_shown]
@@ -456,7 +488,7 @@ class AdvisoryService:
             except Exception as exc:  # noqa: BLE001 - the service never dies on one iteration
                 ext = loop.external_counters
                 ext["service_errors"] = ext.get("service_errors", 0) + 1
-                self._event(f"internal error (going on): {type(exc).__name__}: {exc}")
+                self._event("internal_error", reason=f"{type(exc).__name__}: {exc}")
                 time.sleep(0.05)
         return self._shutdown()
 
@@ -492,7 +524,7 @@ class AdvisoryService:
         return link_up, next_stats
 
     def _shutdown(self) -> int:
-        self._event(f"stopping: {self.stop_reason or 'stop requested'}")
+        self._event("stopping", reason=self.stop_reason or "stop requested")
         self._sync_counters()
         self._publish(self.loop.final_frames(time.monotonic(), time.time(),
                                              f"service stopped ({self.stop_reason})"
@@ -536,7 +568,7 @@ def _load_tables(s: RunSettings):
             raise RunError(f"--tables: {s.tables}: no such file")
         table = BoomTable.load(s.tables)
     else:
-        from advisory.check import default_table
+        from advisory.tables.cache import default_table
 
         table = default_table(s.aircraft)
     if not s.profile:
@@ -546,7 +578,7 @@ def _load_tables(s: RunSettings):
     from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
     from advisory.tables.build import BuildInputs
     from advisory.tables.grid import WIND_HEADINGS_DEG
-    from advisory.tables.rebuild import TableManager
+    from advisory.tables.manager import TableManager
 
     atm = load_profile(s.profile)
     grid = table.grid
@@ -567,9 +599,9 @@ def _load_tables(s: RunSettings):
 def _warm_up(table, zones, config) -> None:
     """One throw-away step so the first real step does not load compiled kernels."""
     from advisory import units
-    from advisory.advisor import Advisor
     from advisory.physics.atmosphere import standard_atmosphere
-    from advisory.state import AirDataState
+    from advisory.pipeline.advisor import Advisor
+    from advisory.pipeline.state import AirDataState
 
     try:
         alt = float(table.ax_alt[len(table.ax_alt) // 2])
@@ -598,10 +630,10 @@ def build_service(s: RunSettings, echo: bool = True) -> AdvisoryService:
     TransportError
         An input or output that cannot be opened (exit code 1).
     """
-    from advisory.advisor import Advisor
-    from advisory.advisor_config import load_config
-    from advisory.wire.recorder import Recorder
-    from advisory.zones import ZoneSet
+    from advisory.io.records import Recorder
+    from advisory.pipeline.advisor import Advisor
+    from advisory.pipeline.config import load_config
+    from advisory.pipeline.zones import ZoneSet
 
     _check_settings(s)
     if not Path(s.zones).is_file():
@@ -633,7 +665,7 @@ def build_service(s: RunSettings, echo: bool = True) -> AdvisoryService:
     return svc
 
 
-def _no_event(text: str) -> None:
+def _no_event(code: str, **fields) -> None:
     """Event sink until the service exists."""
 
 
@@ -652,11 +684,11 @@ def run_service(s: RunSettings) -> int:
     except TransportError as exc:
         svc.out.close(0.0)
         if svc.recorder is not None:
-            svc.recorder.record_event(f"start failed: {exc}")
+            svc.recorder.record_event("start_failed", reason=str(exc))
             svc.recorder.close()
         print(f"boom-advisory run: error: {exc}", file=sys.stderr, flush=True)
         return EXIT_RUNTIME
-    svc._event("start " + json.dumps(started, sort_keys=True))
+    svc._event("start", settings=started)
     old = {}
 
     def on_signal(signum, _frame) -> None:

@@ -29,7 +29,8 @@ output rate only and is plain Python built on ``bytes.split``.
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
+
+from advisory.jit import njit
 
 #: Kernel return codes (negative); a non-negative return is the decoded length.
 ERR_EMPTY = -1

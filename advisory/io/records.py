@@ -5,7 +5,7 @@ File layout (all integers and floats big-endian; the ICD repeats it):
 File header, 24 bytes::
 
     magic        8 bytes   8B 42 4F 4F 4D 52 45 43   ("\\x8bBOOMREC")
-    version      uint16    1
+    version      uint16    2 (1: events were UTF-8 text lines; still read)
     flags        uint16    0 (reserved)
     created_utc  float64   UTC seconds since 1970 when the file was started
     header_crc   uint32    CRC-32C of the 20 bytes above
@@ -18,7 +18,9 @@ Each record, 28 bytes + data::
     channel      uint8     which link (0 unless the caller numbers them)
     utc_s        float64   UTC receive (or send) time, s since 1970
     mono_s       float64   time.monotonic() at receive (or send), s
-    data         length bytes (a frame payload without its CRC, raw bytes, or UTF-8 text)
+    data         length bytes (a frame payload without its CRC, raw bytes, or an event:
+                 a MessagePack map with ``code`` and the fields ``advisory.schema.EVENT_FIELDS``
+                 lists for it; in version 1 a UTF-8 text line)
     crc          uint32    CRC-32C of everything from sync through data
 
 Each record goes to the operating system in one ``write`` call and the file is fsync'ed
@@ -37,11 +39,16 @@ import time
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any, NamedTuple
 
-from advisory.wire.crc32c import crc32c
+import msgpack
+
+from advisory.io.crc32c import crc32c
+from advisory.schema import EVENT_FIELDS
 
 MAGIC = b"\x8bBOOMREC"
-VERSION = 1
+VERSION = 2  #: the version this code writes
+READABLE_VERSIONS = (1, 2)  #: the versions this code reads
 SYNC = b"\xa5\x5a"
 HEADER = struct.Struct(">8sHHd")  # + uint32 CRC
 HEADER_LEN = HEADER.size + 4  # 24
@@ -52,13 +59,113 @@ MAX_RECORD_DATA = 1 << 20  #: largest data field, bytes (1 MiB)
 KIND_INPUT = 1  #: one input frame payload (CRC checked and removed)
 KIND_OUTPUT = 2  #: one output frame payload
 KIND_RAW_INPUT = 3  #: raw bytes as received from a stream (garbage included)
-KIND_EVENT = 4  #: UTF-8 text: link lost, reopened, shutdown, ...
+KIND_EVENT = 4  #: a typed event (see :func:`encode_event`): link lost, reopened, shutdown
 KINDS = {KIND_INPUT: "input", KIND_OUTPUT: "output", KIND_RAW_INPUT: "raw_input",
          KIND_EVENT: "event"}
 
 
 class RecordFormatError(ValueError):
     """The file is not a record file this code can read (the message says why)."""
+
+
+class Event(NamedTuple):
+    """One record-file event: its code (a key of ``advisory.schema.EVENT_FIELDS``, or
+    ``"unknown"`` for one this code cannot read) and its fields."""
+
+    code: str
+    fields: dict[str, Any]
+
+
+def encode_event(code: str, **fields: Any) -> bytes:
+    """The data of one event record: a MessagePack map ``{"code": code, **fields}``.
+
+    Raises
+    ------
+    ValueError
+        ``code`` is not in ``EVENT_FIELDS`` or the fields are not the ones it lists.
+    """
+    want = EVENT_FIELDS.get(code)
+    if want is None:
+        raise ValueError(f"event code {code!r} is not one of {', '.join(EVENT_FIELDS)}")
+    if set(fields) != set(want):
+        raise ValueError(f"event {code!r} takes the fields {want}, got {tuple(fields)}")
+    return msgpack.packb({"code": code, **fields}, use_bin_type=True)
+
+
+#: Version-1 records held events as text lines; the prefixes that the service wrote,
+#: each mapped to its typed code and the field its remainder fills. Read-only: only
+#: old records are parsed this way.
+_V1_PREFIXES = (
+    ("input open failed: ", "input_open_failed", "reason"),
+    ("input open: ", "input_open", "url"),
+    ("input lost: ", "input_lost", "reason"),
+    ("output open failed: ", "output_open_failed", "reason"),
+    ("output open: ", "output_open", "url"),
+    ("output lost: ", "output_lost", "reason"),
+    ("output error: ", "output_error", "reason"),
+    ("internal error (going on): ", "internal_error", "reason"),
+    ("start failed: ", "start_failed", "reason"),
+    ("stopping: ", "stopping", "reason"),
+)
+
+
+def _decode_v1_event(text: str) -> Event:
+    import json
+
+    if text.startswith("start {") or text.startswith("stats {"):
+        try:
+            doc = json.loads(text[6:])
+        except ValueError:
+            return Event("note", {"text": text})
+        if text.startswith("start"):
+            return Event("start", {"settings": doc})
+        return Event("stats", {"kind": doc.get("event", "stats"), "stats": doc})
+    if text == "shutdown":
+        return Event("shutdown", {})
+    if text == "output writer still blocked at shutdown":
+        return Event("output_blocked", {})
+    if text.startswith("first advisory out ") and text.endswith(" s after start"):
+        try:
+            return Event("first_advisory", {"after_s": float(text.split()[3])})
+        except (ValueError, IndexError):
+            return Event("note", {"text": text})
+    for prefix, code, field_name in _V1_PREFIXES:
+        if text.startswith(prefix):
+            rest = text[len(prefix):]
+            if code == "input_open_failed":
+                rest = rest.removesuffix("; retrying with backoff")
+            return Event(code, {field_name: rest})
+    return Event("note", {"text": text})
+
+
+def decode_event(data: bytes, version: int = VERSION) -> Event:
+    """The event held in one event record's data (never raises).
+
+    Parameters
+    ----------
+    data : bytes
+    version : int
+        The record file's version (:attr:`ReadReport.version`): 2 reads MessagePack
+        maps, 1 the text lines older records hold.
+
+    Returns
+    -------
+    Event
+        ``Event("unknown", {"data": data})`` for data this code cannot read.
+    """
+    data = bytes(data)
+    if version == 1:
+        return _decode_v1_event(data.decode("utf-8", "replace"))
+    try:
+        doc = msgpack.unpackb(data, raw=False, strict_map_key=True)
+    except Exception:  # noqa: BLE001 - any undecodable event is reported as unknown
+        return Event("unknown", {"data": data})
+    if not isinstance(doc, dict) or not isinstance(doc.get("code"), str):
+        return Event("unknown", {"data": data})
+    code = doc.pop("code")
+    if code not in EVENT_FIELDS:
+        return Event("unknown", {"data": data})
+    return Event(code, doc)
 
 
 def _header_bytes(created_utc: float) -> bytes:
@@ -112,7 +219,11 @@ class Recorder:
         try:
             size = os.fstat(fd).st_size
             if size >= HEADER_LEN:
-                _check_header(os.pread(fd, HEADER_LEN, 0), str(self.path))
+                _created, version = _check_header(os.pread(fd, HEADER_LEN, 0), str(self.path))
+                if version != VERSION:
+                    raise RecordFormatError(
+                        f"{self.path}: record file version {version} can be read but not "
+                        f"appended to (this writes version {VERSION}); record to a new file")
             elif size > 0:
                 head = os.pread(fd, size, 0)
                 if not MAGIC.startswith(head[:8]):
@@ -165,9 +276,15 @@ class Recorder:
         """Record one sent frame payload with its send times."""
         return self.write(KIND_OUTPUT, payload, tx_utc, tx_monotonic, channel)
 
-    def record_event(self, text: str, channel: int = 0) -> bool:
-        """Record a line of text (link lost, reopened, shutdown, ...)."""
-        return self.write(KIND_EVENT, text.encode("utf-8"), channel=channel)
+    def record_event(self, code: str, channel: int = 0, **fields: Any) -> bool:
+        """Record one typed event (see :func:`encode_event`): link lost, shutdown, ...
+
+        Raises
+        ------
+        ValueError
+            An unknown code or the wrong fields (a programming error, not bad input).
+        """
+        return self.write(KIND_EVENT, encode_event(code, **fields), channel=channel)
 
     def flush(self) -> None:
         """fsync now."""
@@ -195,16 +312,17 @@ class Recorder:
         self.close()
 
 
-def _check_header(head: bytes, where: str) -> float:
+def _check_header(head: bytes, where: str) -> tuple[float, int]:
+    """(created UTC, version) of a record file header; raises if it cannot be read."""
     magic, version, _flags, created = HEADER.unpack_from(head)
     if magic != MAGIC:
         raise RecordFormatError(f"{where}: not a record file (bad magic {magic!r})")
     if crc32c(head[:HEADER.size]) != int.from_bytes(head[HEADER.size:HEADER_LEN], "big"):
         raise RecordFormatError(f"{where}: record file header is damaged (CRC mismatch)")
-    if version != VERSION:
+    if version not in READABLE_VERSIONS:
         raise RecordFormatError(f"{where}: record file version {version} is not supported "
-                                f"(this reads {VERSION})")
-    return created
+                                f"(this reads {', '.join(map(str, READABLE_VERSIONS))})")
+    return created, version
 
 
 @dataclass(frozen=True)
@@ -241,6 +359,8 @@ class ReadReport:
     ----------
     created_utc : float or None
         From the header (None for a torn header).
+    version : int
+        The file's format version (pass it to :func:`decode_event`).
     records : int
         Good records read.
     torn_tail : bool
@@ -255,6 +375,7 @@ class ReadReport:
     """
 
     created_utc: float | None = None
+    version: int = VERSION
     records: int = 0
     torn_tail: bool = False
     torn_bytes: int = 0
@@ -292,7 +413,8 @@ class RecordReader:
                 return
             self._mm = mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ)
         try:
-            self.report.created_utc = _check_header(self._mm[:HEADER_LEN], str(self.path))
+            self.report.created_utc, self.report.version = _check_header(
+                self._mm[:HEADER_LEN], str(self.path))
         except RecordFormatError:
             self.close()
             raise

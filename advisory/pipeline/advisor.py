@@ -24,25 +24,25 @@ import time
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-from numba import njit
 
 from advisory import SAFETY_CAUTION, units
-from advisory import geometry_kernels as gk
-from advisory.advisor_config import AdvisorConfig
-from advisory.footprint import (
+from advisory.geo import polygons as gk
+from advisory.geo.geodesy import LocalFrame
+from advisory.jit import njit
+from advisory.physics.atmosphere import Atmosphere
+from advisory.pipeline.config import AdvisorConfig
+from advisory.pipeline.footprint import (
     CarpetPrediction,
     FootprintPredictor,
     focus_kernel,
     place_kernel,
     strip_indices,
 )
-from advisory.geodesy import LocalFrame
-from advisory.physics.atmosphere import Atmosphere
-from advisory.state import AirDataState
+from advisory.pipeline.state import AirDataState
+from advisory.pipeline.trajectory import Trajectory, predict_trajectory, propagate_kernel
+from advisory.pipeline.zones import ProjectedZones, ZoneSet
 from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
-from advisory.trajectory import Trajectory, predict_trajectory, propagate_kernel
-from advisory.zones import ProjectedZones, ZoneSet
 
 STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavailable")
 _RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3}
@@ -254,7 +254,7 @@ class Advisor:
     zones : ZoneSet
         The no-boom zones.
     config : AdvisorConfig, optional
-        Thresholds (defaults documented in :mod:`advisory.advisor_config`).
+        Thresholds (defaults documented in :mod:`advisory.pipeline.config`).
     """
 
     def __init__(self, tables, zones: ZoneSet, config: AdvisorConfig | None = None) -> None:
@@ -271,7 +271,7 @@ class Advisor:
         self.steps = 0
         #: Steps on which the turn-resolution search ran (for the benchmark).
         self.resolution_searches = 0
-        from advisory.tables.rebuild import StreamProfile
+        from advisory.tables.manager import StreamProfile
 
         #: Profile assembled from the stream; proposed to a table manager for rebuilds.
         self.stream_profile = StreamProfile()

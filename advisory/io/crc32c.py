@@ -20,7 +20,8 @@ twin, used by the parity test and as the readable definition.
 from __future__ import annotations
 
 import numpy as np
-from numba import njit
+
+from advisory.jit import njit
 
 POLY_REFLECTED = 0x82F63B78  #: CRC-32C polynomial, bit-reflected (RFC 3720, 12.1)
 CHECK_VALUE = 0xE3069283  #: CRC-32C of b"123456789" (RFC 3720, B.4)

@@ -12,7 +12,7 @@ Both are inline SVG written here (no dependency); when matplotlib is installed (
 optional ``report`` extra) the same two figures are also drawn as PNG files beside the
 HTML and embedded in it as base64. The HTML loads nothing from the network.
 
-The data come from :class:`FlightCollector`, which a replay (:mod:`advisory.replay`)
+The data come from :class:`FlightCollector`, which a replay (:mod:`advisory.bench.replay`)
 calls after every advisor step: it reads the loop's last advisory, the validator's
 current state and the advisor's ``last_prediction`` / ``last_trajectory``.
 
@@ -58,7 +58,7 @@ class FlightCollector:
 
     Parameters
     ----------
-    loop : advisory.loop.AdvisoryLoop
+    loop : advisory.service.loop.AdvisoryLoop
         The loop being replayed (its ``advisor``, ``validator``, ``last_advisory``).
     t0_monotonic : float
         Time origin (the first input's receive time), s.
@@ -135,7 +135,7 @@ class FlightCollector:
                                round(float(np.degrees(lo[i])), 5), round(float(foc[i]), 2)])
 
     def _predicted(self, pred, traj) -> tuple[list | None, list]:
-        from advisory.footprint import swath_polygon
+        from advisory.pipeline.footprint import swath_polygon
 
         ring = swath_polygon(pred, 0.0, math.inf)
         outline = None
@@ -216,7 +216,7 @@ class _Projection:
 
 def _zone_rings(zones_file: str) -> list[dict]:
     """Zones as rings in degrees: [{'id', 'name', 'limit_psf', 'rings': [[(lat, lon)...]]}]."""
-    from advisory.zones import ZoneSet
+    from advisory.pipeline.zones import ZoneSet
 
     out = []
     for z in ZoneSet.from_file(zones_file):
@@ -702,7 +702,7 @@ def _status_badge(status: str) -> str:
 
 
 def _flight_section(res, out_dir: Path, pngs: bool) -> str:
-    from advisory.replay import read_notes
+    from advisory.bench.replay import read_notes
 
     name = res.name
     parts = [f'<section class="flight" id="flight-{_esc(name)}">',
@@ -767,7 +767,7 @@ def write_report(results: list, out_dir: str | Path, title: str = "boom-advisory
 
     Parameters
     ----------
-    results : list of advisory.replay.ReplayResult
+    results : list of advisory.bench.replay.ReplayResult
         Replays made with ``collect=True`` get a map and a timeline; the others only
         their cues.
     out_dir : str or Path

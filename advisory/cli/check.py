@@ -44,11 +44,12 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run_check(args: argparse.Namespace) -> int:
     """``check``: exit 0 with the advisory printed."""
-    from advisory.advisor import Advisor
-    from advisory.advisor_config import load_config
-    from advisory.state import AirDataState, StateValidator
+    from advisory.pipeline.advisor import Advisor
+    from advisory.pipeline.config import load_config
+    from advisory.pipeline.state import AirDataState, StateValidator
+    from advisory.pipeline.zones import ZoneSet
+    from advisory.tables.cache import default_table
     from advisory.tables.table import BoomTable
-    from advisory.zones import ZoneSet
 
     fields = load_state_fields(args.state)
     validator = StateValidator()
@@ -71,18 +72,6 @@ def run_check(args: argparse.Namespace) -> int:
     else:
         print(advisory_text(adv, state))
     return 0
-
-
-def default_table(aircraft_file: str | None):
-    """The default-grid table for the aircraft in the standard atmosphere (cached)."""
-    from advisory.physics.aircraft import default_aircraft, load_aircraft
-    from advisory.physics.atmosphere import standard_atmosphere
-    from advisory.tables.build import BuildInputs
-    from advisory.tables.cache import cached_table
-    from advisory.tables.grid import default_grid
-
-    aircraft = load_aircraft(aircraft_file) if aircraft_file else default_aircraft()
-    return cached_table(BuildInputs(aircraft, standard_atmosphere(), default_grid()))
 
 
 def advisory_text(adv, state) -> str:

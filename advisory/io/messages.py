@@ -43,10 +43,10 @@ from typing import Any, NamedTuple
 
 import msgpack
 import numpy as np
-from numba import njit
 
-from advisory.wire.cobs import cobs_encode, cobs_max_encoded_len
-from advisory.wire.crc32c import crc32c, crc32c_kernel, crc32c_py, crc32c_update
+from advisory.io.cobs import cobs_encode, cobs_max_encoded_len
+from advisory.io.crc32c import crc32c, crc32c_kernel, crc32c_py, crc32c_update
+from advisory.jit import njit
 
 # --------------------------------------------------------------------------- constants
 
@@ -195,7 +195,7 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
         ``heading_deg``, ``gs_kt``, ``bank_deg``, ``fpa_deg`` (required numbers) and
         ``track_deg``, ``mach_rate_per_s``, ``sat_c``, ``wind_from_deg``, ``wind_kt``
         (optional: missing or ``None`` is sent as nil). Ranges are not checked here
-        (the receiver's :class:`advisory.state.StateValidator` does); NaN is sendable
+        (the receiver's :class:`advisory.pipeline.state.StateValidator` does); NaN is sendable
         so that fault tests can send it.
     seq : int
         Sequence number, 0..2**32-1.

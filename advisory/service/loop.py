@@ -3,7 +3,7 @@
 :class:`AdvisoryLoop` takes the bytes a transport delivered (:meth:`AdvisoryLoop.feed`),
 records them, splits them into frames (COBS + CRC-32C on byte streams, CRC on
 datagrams), decodes them (air-data frames, or ARINC 429 words assembled into the same
-fields) and validates them (:class:`advisory.state.StateValidator`). On a fixed-rate
+fields) and validates them (:class:`advisory.pipeline.state.StateValidator`). On a fixed-rate
 schedule (:meth:`AdvisoryLoop.poll`) it steps the advisor on the latest valid, fresh
 state and returns the frames to publish: an advisory frame every step and a status frame
 at least every ``heartbeat_s`` and on every change of status state. Every output is
@@ -39,9 +39,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from advisory.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator
-from advisory.wire.arinc429 import Arinc429Assembler, LabelMap, load_label_map
-from advisory.wire.frames import (
+from advisory.io.arinc429 import Arinc429Assembler, LabelMap, load_label_map
+from advisory.io.messages import (
     DECODE_REASONS,
     LINK_COUNTERS,
     MAX_COUNTERS,
@@ -53,10 +52,11 @@ from advisory.wire.frames import (
     encode_status,
     next_seq,
 )
+from advisory.pipeline.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator
 
 if TYPE_CHECKING:  # pragma: no cover
-    from advisory.advisor import Advisory
-    from advisory.wire.recorder import Recorder
+    from advisory.io.records import Recorder
+    from advisory.pipeline.advisor import Advisory
 
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
 FRAMINGS = ("stream", "datagram")
@@ -155,7 +155,7 @@ class AdvisoryLoop:
 
     Parameters
     ----------
-    advisor : advisory.advisor.Advisor
+    advisor : advisory.pipeline.advisor.Advisor
         Stepped once per period with the latest valid state (or None).
     input_format : str
         ``"stream"`` (air-data frames, COBS + CRC-32C + 0x00), ``"datagram"`` (air-data
@@ -473,7 +473,7 @@ class AdvisoryLoop:
     _status_reason = ""
 
     def _unavailable(self, reason: str):
-        from advisory.advisor import Advisory
+        from advisory.pipeline.advisor import Advisory
 
         return Advisory("unavailable", reason=reason)
 

@@ -1,6 +1,6 @@
 """Boom footprint along a predicted trajectory: carpet on the ground, arrivals, focus.
 
-For every emission point of a :class:`~advisory.trajectory.Trajectory` the table gives
+For every emission point of a :class:`~advisory.pipeline.trajectory.Trajectory` the table gives
 the ground rays across the carpet (one per normalised azimuth); they are placed in the
 trajectory's local frame by the emission point's position and grid heading. The result
 holds, per emission point ``k`` and azimuth node ``j``: ground position (m), arrival
@@ -25,12 +25,12 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-from numba import njit
 
+from advisory.jit import njit
 from advisory.physics.signature import FOCUS_AMPLIFICATION_CAP
+from advisory.pipeline.trajectory import Trajectory
 from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
-from advisory.trajectory import Trajectory
 
 
 @njit(cache=True)

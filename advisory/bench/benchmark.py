@@ -509,7 +509,7 @@ def cruise_ground_speed_kt() -> float:
 def cruise_fields(t_s: float, gs_kt: float) -> dict:
     """Wire-named air-data fields of the bench cruise ``t_s`` seconds after the start."""
     from advisory import units
-    from advisory.geodesy import direct_deg
+    from advisory.geo.geodesy import direct_deg
 
     p = direct_deg(START_LAT_DEG, START_LON_DEG, CRUISE_HEADING_DEG,
                    units.kt_to_mps(gs_kt) * t_s)
@@ -530,7 +530,7 @@ def bench_zones(seed: int = 8) -> dict:
     """
     import numpy as np
 
-    from advisory.geodesy import direct_deg
+    from advisory.geo.geodesy import direct_deg
 
     rng = np.random.default_rng(seed)
     features = []
@@ -572,7 +572,7 @@ def _zones_file(ctx: Context) -> Path:
 
 
 def _load_zones(ctx: Context):
-    zones_mod = _import("advisory.zones")
+    zones_mod = _import("advisory.pipeline.zones")
     return zones_mod.ZoneSet.from_file(_zones_file(ctx))
 
 
@@ -836,9 +836,9 @@ def section_verify(ctx: Context) -> None:
 
 
 def advisor_class():
-    """``advisory.advisor.Advisor`` (or ``advisory.Advisor``); :class:`ModuleMissing`."""
+    """``advisory.pipeline.advisor.Advisor`` (or ``advisory.Advisor``); :class:`ModuleMissing`."""
     try:
-        mod = _import("advisory.advisor")
+        mod = _import("advisory.pipeline.advisor")
     except ModuleMissing:
         import advisory
 
@@ -848,7 +848,7 @@ def advisor_class():
         return cls
     cls = getattr(mod, "Advisor", None)
     if cls is None:
-        raise NotMeasured("advisory.advisor has no Advisor")
+        raise NotMeasured("advisory.pipeline.advisor has no Advisor")
     return cls
 
 
@@ -859,7 +859,7 @@ def make_advisor(table, zones):
     conflict changes; the budget is for a step *including* the search, so it is measured
     with the search on every step.
     """
-    from advisory.advisor_config import AdvisorConfig
+    from advisory.pipeline.config import AdvisorConfig
 
     cls = advisor_class()
     return cls(table, zones, config=AdvisorConfig(refresh_s=0.0))
@@ -879,7 +879,7 @@ def section_advisor(ctx: Context) -> None:
     s = ctx.sizes
     table = ensure_table(ctx)
     zones = _load_zones(ctx)
-    state_mod = _import("advisory.state")
+    state_mod = _import("advisory.pipeline.state")
     try:
         advisor = make_advisor(table, zones)
     except NotMeasured:
@@ -947,8 +947,8 @@ def section_decode(ctx: Context) -> None:
     """Deframe (COBS + CRC) + decode + validate, one core (>= 100,000 frames/s)."""
     r = ctx.report
     s = ctx.sizes
-    frames_mod = _import("advisory.wire.frames")
-    state_mod = _import("advisory.state")
+    frames_mod = _import("advisory.io.messages")
+    state_mod = _import("advisory.pipeline.state")
     gs = cruise_ground_speed_kt()
     utc0 = 1.9e9
     stream = b"".join(
@@ -1016,8 +1016,8 @@ def _subcommand_options(name: str) -> set[str] | None:
 
 def write_replay_log(path: Path, duration_s: float, rate_hz: float = FRAME_RATE_HZ) -> int:
     """A recorded 20 Hz cruise (record file of input frames); returns the frame count."""
-    from advisory.wire.frames import encode_air
-    from advisory.wire.recorder import Recorder
+    from advisory.io.messages import encode_air
+    from advisory.io.records import Recorder
 
     gs = cruise_ground_speed_kt()
     n = int(round(duration_s * rate_hz))
@@ -1037,7 +1037,7 @@ def section_replay(ctx: Context) -> None:
     """``replay --speed max`` of a 20 Hz log on one core (>= 200x real time)."""
     r = ctx.report
     s = ctx.sizes
-    replay_mod = _import("advisory.replay")
+    replay_mod = _import("advisory.bench.replay")
     table = ensure_table(ctx)
     del table
     zones_path = _zones_file(ctx)
@@ -1064,9 +1064,9 @@ def section_replay(ctx: Context) -> None:
 
         def run() -> int:
             return replay_mod.main(args)
-        how = "advisory.replay.main (in process)"
+        how = "advisory.bench.replay.main (in process)"
     else:
-        raise NotMeasured("no replay command in the CLI and no advisory.replay.main")
+        raise NotMeasured("no replay command in the CLI and no advisory.bench.replay.main")
 
     times = []
     with one_core() as pin:
@@ -1115,8 +1115,8 @@ def coldstart_child(argv: Sequence[str] | None = None) -> int:
         table = BoomTable.load(table_path)
         adv = None
         try:
-            from advisory.state import AirDataState
-            from advisory.zones import ZoneSet
+            from advisory.pipeline.state import AirDataState
+            from advisory.pipeline.zones import ZoneSet
 
             adv = make_advisor(table, ZoneSet.from_file(zones_path))
             gs = cruise_ground_speed_kt()
@@ -1160,7 +1160,8 @@ def _run_child(ctx: Context, cache_dir: str | None) -> dict:
     env["PYTHONPATH"] = root + (os.pathsep + env["PYTHONPATH"] if env.get("PYTHONPATH") else "")
     if cache_dir is not None:
         env["NUMBA_CACHE_DIR"] = cache_dir
-    code = "import sys; from advisory.bench import coldstart_child; sys.exit(coldstart_child())"
+    code = ("import sys; from advisory.bench.benchmark import coldstart_child; "
+            "sys.exit(coldstart_child())")
     t_spawn = time.monotonic()
     proc = subprocess.run([sys.executable, "-c", code, str(ctx.table_path),
                            str(ctx.zones_path)], env=env, capture_output=True, text=True,

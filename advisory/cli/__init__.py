@@ -54,7 +54,7 @@ def _add_predict(sub: argparse._SubParsersAction) -> None:
 
 
 def _run_predict(args: argparse.Namespace) -> int:
-    from advisory.predict import PredictInputs, predict, summary_text, to_json
+    from advisory.bench.predict import PredictInputs, predict, summary_text, to_json
 
     inputs = PredictInputs(
         mach=_finite("--mach", args.mach),
@@ -101,25 +101,24 @@ def build_parser() -> argparse.ArgumentParser:
     )
     sub = parser.add_subparsers(dest="command", required=True)
     _add_predict(sub)
-    from advisory.tables.commands import add_parser as add_tables
+    from advisory.cli.tables import add_parser as add_tables
 
     add_tables(sub)
-    from advisory.check import add_parser as add_check
+    from advisory.cli.check import add_parser as add_check
 
     add_check(sub)
-    from advisory.service import add_parser as add_run
+    from advisory.service.runner import add_parser as add_run
 
     add_run(sub)
-    from advisory import bench
-
+    from advisory.bench import benchmark as bench
     b = sub.add_parser("bench", help="measure every budget against its figure",
                        description=bench.DESCRIPTION)
     bench.add_arguments(b)
     b.set_defaults(func=bench.run)
-    from advisory.replay import add_parser as add_replay
+    from advisory.bench.replay import add_parser as add_replay
 
     add_replay(sub)
-    from advisory.demo import add_parser as add_demo
+    from advisory.bench.demo import add_parser as add_demo
 
     add_demo(sub)
     return parser

@@ -1,0 +1,3 @@
+from advisory.cli import main
+
+raise SystemExit(main())

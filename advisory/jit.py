@@ -1,0 +1,97 @@
+"""The numba cache policy, in one place: every kernel of the package is compiled with
+:func:`njit` from here.
+
+Kernels are ``numba.njit(cache=True)``: the compiled machine code is kept on disk
+(beside the sources in ``__pycache__``, or under ``NUMBA_CACHE_DIR`` when that is set),
+so only the very first start on a machine pays for compiling. numba keys each cache
+entry on its own source file only: a kernel whose callee in *another* file changed would
+load stale machine code. To close that gap this module stamps the package's cache with a
+digest of every kernel source file of the package; when the digest differs from the stamp (an
+edited kernel, an upgraded install), all of the package's cache files are deleted before
+any kernel is loaded, and the new stamp is written. Nothing else in the package touches
+numba's cache.
+
+A read-only install keeps working: when the cache cannot be written, numba compiles in
+memory (set ``NUMBA_CACHE_DIR`` to a writable directory to keep the compiled kernels).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+from collections.abc import Callable
+from pathlib import Path
+from typing import Any, TypeVar
+
+import numba
+
+F = TypeVar("F", bound=Callable[..., Any])
+
+PACKAGE_DIR = Path(__file__).resolve().parent
+STAMP_NAME = "boom-advisory-kernels.sha256"  #: the stamp file, at the top of the cache
+
+
+def source_digest(root: Path = PACKAGE_DIR) -> str:
+    """SHA-256 over the relative path and bytes of every kernel source of the package
+    (each ``.py`` file that compiles kernels through this module)."""
+    h = hashlib.sha256()
+    for path in sorted(root.rglob("*.py")):
+        data = path.read_bytes()
+        if b"from advisory.jit import" in data:
+            h.update(str(path.relative_to(root)).encode())
+            h.update(data)
+    return h.hexdigest()
+
+
+def _cache_roots() -> list[Path]:
+    """Where numba keeps this package's cache files."""
+    custom = os.environ.get("NUMBA_CACHE_DIR")
+    if custom:
+        return [Path(custom)]
+    return [p for p in PACKAGE_DIR.rglob("__pycache__") if p.is_dir()]
+
+
+def refresh_cache(root: Path = PACKAGE_DIR) -> bool:
+    """Delete the package's numba cache files when the sources changed since the stamp.
+
+    Returns
+    -------
+    bool
+        True when stale cache files were looked for and deleted (the stamp is new).
+    """
+    digest = source_digest(root)
+    custom = os.environ.get("NUMBA_CACHE_DIR")
+    stamp = (Path(custom) if custom else root / "__pycache__") / STAMP_NAME
+    try:
+        if stamp.read_text().strip() == digest:
+            return False
+    except OSError:
+        pass
+    try:
+        for cache_dir in _cache_roots():
+            for pattern in ("*.nbi", "*.nbc"):
+                for f in cache_dir.rglob(pattern):
+                    # under NUMBA_CACHE_DIR numba mirrors the source path: keep to ours
+                    if custom is None or root.name in f.parts:
+                        f.unlink(missing_ok=True)
+        stamp.parent.mkdir(parents=True, exist_ok=True)
+        tmp = stamp.with_suffix(f".{os.getpid()}.tmp")
+        tmp.write_text(digest + "\n")
+        os.replace(tmp, stamp)
+    except OSError:
+        return False  # a read-only install: numba compiles in memory
+    return True
+
+
+refresh_cache()
+
+
+def njit(*args: Any, **kwargs: Any) -> Any:
+    """``numba.njit`` with the package's cache policy (``cache=True``, see the module).
+
+    Use exactly as ``numba.njit``: ``@njit(cache=True)`` or ``@njit``.
+    """
+    kwargs["cache"] = True
+    if args and callable(args[0]) and not kwargs.keys() - {"cache"}:
+        return numba.njit(cache=True)(args[0])
+    return numba.njit(*args, **kwargs)

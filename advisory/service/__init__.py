@@ -1,0 +1,1 @@
+"""The live service: the fixed-rate advisory loop, its links and the ``run`` driver."""

@@ -96,3 +96,10 @@ EVENT_FIELDS: dict[str, tuple[str, ...]] = {
     "note": ("text",),                      # free text for people; never acted upon
 }
 EVENT_CODES = tuple(EVENT_FIELDS)
+
+# ----------------------------------------------------------------------------- counters
+#: Counters the ``run`` driver keeps and hands to the loop before every poll (they appear
+#: in its status frames); a replay restores them from the record. A replay initialises
+#: only those the recorded status frames carry, so records written before a counter was
+#: added still replay byte for byte.
+SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors")

@@ -74,3 +74,41 @@ def test_console_command_runs() -> None:
          "60000", "--json"], capture_output=True, text=True, timeout=120, check=False)
     assert proc.returncode == 0, proc.stderr
     assert json.loads(proc.stdout)["reaches_ground"] is True
+
+
+def squeezed(text: str) -> str:
+    """``text`` without white space (argparse wraps help lines, also at hyphens)."""
+    return "".join(text.split())
+
+
+def test_help_lists_every_command_with_the_caution(capsys) -> None:
+    with pytest.raises(SystemExit) as exit_info:
+        main(["--help"])
+    assert exit_info.value.code == 0
+    text = capsys.readouterr().out
+    for command in ("predict", "tables", "check", "run", "bench", "replay", "demo"):
+        assert command in text
+    assert squeezed(SAFETY_CAUTION) in squeezed(text)
+    with pytest.raises(SystemExit):
+        main(["predict", "--help"])
+    assert squeezed(SAFETY_CAUTION) in squeezed(capsys.readouterr().out)
+
+
+def test_unknown_option_exits_2(capsys) -> None:
+    # argparse's own refusals keep exit code 2 (the argparse convention, no source).
+    with pytest.raises(SystemExit) as exit_info:
+        main(["predict", "--mach", "2", "--altitude-ft", "60000", "--speed", "3"])
+    assert exit_info.value.code == 2
+    assert "--speed" in capsys.readouterr().err
+
+
+def test_computation_is_importable_without_the_cli() -> None:
+    # The computation behind `predict` is a plain function of a plain dataclass. The
+    # standard atmosphere's cutoff Mach at 60,000 ft lies well below 2 (about 1.15-1.2,
+    # value from memory), so the boom reaches the ground.
+    from advisory.bench.steady_carpet import PredictInputs, predict_direct
+
+    res = predict_direct(PredictInputs(mach=2.0, altitude_ft=60000.0))
+    assert res.carpet.reaches_ground
+    assert 1.0 < res.carpet.cutoff_mach < 2.0
+    assert res.source == "direct tracing"

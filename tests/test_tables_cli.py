@@ -2,21 +2,39 @@
 
 from __future__ import annotations
 
+import contextlib
+import io
 import json
 
 import pytest
 
+from advisory import SAFETY_CAUTION
 from advisory.cli import main
 
 
 @pytest.fixture(scope="module")
-def tiny_table(tmp_path_factory):
+def tiny_build(tmp_path_factory):
+    """A tiny table built by the command; returns its path and what the command printed."""
     d = tmp_path_factory.mktemp("cli")
     grid = d / "grid.toml"
     grid.write_text("altitudes_ft = [44000, 44500, 45000, 45500, 46000]\nfpa_deg = [0]\n")
     out = d / "tiny.boomtable"
-    assert main(["tables", "build", "--grid", str(grid), "--workers", "2", "-o", str(out)]) == 0
-    return out
+    printed = io.StringIO()
+    with contextlib.redirect_stdout(printed):
+        code = main(["tables", "build", "--grid", str(grid), "--workers", "2", "-o", str(out)])
+    assert code == 0
+    return out, printed.getvalue()
+
+
+@pytest.fixture(scope="module")
+def tiny_table(tiny_build):
+    return tiny_build[0]
+
+
+def test_build_names_the_file_and_carries_the_caution(tiny_build) -> None:
+    path, text = tiny_build
+    assert f"wrote {path}" in text
+    assert text.rstrip().endswith(SAFETY_CAUTION)
 
 
 def test_build_info(tiny_table, capsys) -> None:
@@ -60,3 +78,29 @@ def test_table_refusals_are_clear(tiny_table, tmp_path, capsys) -> None:
     assert main(["predict", "--mach", "2", "--altitude-ft", "45000", "--table",
                  str(tiny_table), "--load-factor", "1.5"]) == 2
     assert "--load-factor" in capsys.readouterr().err
+
+
+def test_hidden_tables_alias_is_the_table_option(tiny_table, capsys) -> None:
+    # One spelling per option: `--table`; the old `--tables` still works but is not shown.
+    args = ["predict", "--mach", "1.7", "--altitude-ft", "45250", "--json"]
+    assert main([*args, "--table", str(tiny_table)]) == 0
+    spelled = json.loads(capsys.readouterr().out)
+    assert main([*args, "--tables", str(tiny_table)]) == 0
+    assert json.loads(capsys.readouterr().out) == spelled
+    with pytest.raises(SystemExit) as exit_info:
+        main(["predict", "--help"])
+    assert exit_info.value.code == 0
+    help_text = capsys.readouterr().out
+    assert "--table " in help_text and "--tables" not in help_text
+
+
+@pytest.mark.parametrize("extra, needle", [
+    (["--aircraft", "any.toml"], "--aircraft"),
+    (["--temp-offset-c", "5"], "--temp-offset-c"),
+    (["--atmosphere", "any.csv"], "--atmosphere"),
+])
+def test_table_fixes_aircraft_and_atmosphere(tiny_table, capsys, extra, needle) -> None:
+    argv = ["predict", "--mach", "2", "--altitude-ft", "45000", "--table", str(tiny_table)]
+    assert main([*argv, *extra]) == 2
+    err = capsys.readouterr().err.strip()
+    assert needle in err and len(err.splitlines()) == 1

@@ -1,20 +1,40 @@
-"""The ``check`` job: one air-data state and a zone file in, one advisory out."""
+"""``boom-advisory check``: one air-data state and a zone file in, one advisory out."""
 
 from __future__ import annotations
 
 import argparse
 import json
 from pathlib import Path
+from typing import TYPE_CHECKING, Any
 
 from advisory import SAFETY_CAUTION, units
+from advisory.cli.options import (
+    UsageError,
+    add_aircraft_option,
+    add_config_option,
+    add_json_option,
+    add_table_option,
+    add_zones_option,
+)
+
+if TYPE_CHECKING:
+    from advisory.pipeline.advisor import Advisory
+    from advisory.pipeline.state import AirDataState
 
 
 class StateFileError(ValueError):
     """A state file that cannot be used; the message names the field."""
 
 
-def load_state_fields(path: str | Path) -> dict:
-    """Read a state file: one JSON object with the air-data field names."""
+def load_state_fields(path: str | Path) -> dict[str, Any]:
+    """Read a state file: one JSON object with the air-data field names.
+
+    Raises
+    ------
+    StateFileError
+        The file cannot be read, is not JSON, or is not one object; the message names
+        the file.
+    """
     try:
         obj = json.loads(Path(path).read_text(encoding="utf-8"))
     except OSError as exc:
@@ -28,22 +48,25 @@ def load_state_fields(path: str | Path) -> dict:
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
     """Register ``boom-advisory check``."""
-    p = sub.add_parser("check", help="advise on one air-data state against a zone file")
+    p = sub.add_parser("check", help="advise on one air-data state against a zone file",
+                       description="Advise on one air-data state against a zone file. "
+                                   + SAFETY_CAUTION)
     p.add_argument("--state", required=True, metavar="FILE",
                    help="JSON object with lat_deg, lon_deg, alt_ft, mach, heading_deg, gs_kt, "
                         "bank_deg, fpa_deg (optional mach_rate_per_s, sat_c, wind_from_deg, "
                         "wind_kt, track_deg)")
-    p.add_argument("--zones", required=True, metavar="FILE", help="no-boom zones (GeoJSON)")
-    p.add_argument("--aircraft", metavar="FILE", help="aircraft file (default: bundled demo)")
-    p.add_argument("--table", metavar="TABLE",
-                   help="boom table (default: built once for the aircraft and cached)")
-    p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
-    p.add_argument("--json", action="store_true", help="print one JSON object")
-    p.set_defaults(func=run_check)
+    add_zones_option(p, required=True)
+    add_aircraft_option(p)
+    add_table_option(p)
+    add_config_option(p)
+    add_json_option(p)
+    p.set_defaults(func=run)
 
 
-def run_check(args: argparse.Namespace) -> int:
+def run(args: argparse.Namespace) -> int:
     """``check``: exit 0 with the advisory printed."""
+    # Imported here, not at the top: the advisor and the tables load numba, which
+    # `boom-advisory --help` and the other commands must not pay for (CLI start-up time).
     from advisory.pipeline.advisor import Advisor
     from advisory.pipeline.config import load_config
     from advisory.pipeline.state import AirDataState, StateValidator
@@ -60,8 +83,8 @@ def run_check(args: argparse.Namespace) -> int:
     config = load_config(args.config)
     if args.table:
         if args.aircraft:
-            raise StateFileError("--aircraft: cannot be combined with --table (the table "
-                                 "fixes the aircraft)")
+            raise UsageError("--aircraft: cannot be combined with --table (the table fixes "
+                             "the aircraft)")
         table = BoomTable.load(args.table)
     else:
         table = default_table(args.aircraft)
@@ -74,8 +97,8 @@ def run_check(args: argparse.Namespace) -> int:
     return 0
 
 
-def advisory_text(adv, state) -> str:
-    """Readable advisory for a person."""
+def advisory_text(adv: Advisory, state: AirDataState) -> str:
+    """Readable advisory for a person (aviation units), ending with the caution."""
     lines = [adv.cue]
     lines.append(f"status: {adv.status}" + (f" ({adv.reason})" if adv.reason else ""))
     if adv.cutoff_mach is not None:

@@ -1,8 +1,24 @@
-"""Option definitions shared by the sub-commands: one spelling and one help text each."""
+"""What the sub-commands share: one spelling and one help text per option, and the one
+error type for bad command-line input (``main`` prints it on one line, exit code 2)."""
 
 from __future__ import annotations
 
 import argparse
+import math
+
+#: Exit code of a command given bad input (the argparse convention).
+EXIT_USAGE = 2
+
+
+class UsageError(Exception):
+    """Bad command-line input; the message names the argument and the value."""
+
+
+def finite(name: str, value: float) -> float:
+    """``value`` when it is a finite number, else :class:`UsageError` naming ``name``."""
+    if not math.isfinite(value):
+        raise UsageError(f"{name}: {value} is not a finite number")
+    return value
 
 
 def add_table_option(p: argparse.ArgumentParser, help_text: str | None = None) -> None:

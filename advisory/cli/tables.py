@@ -1,4 +1,4 @@
-"""The ``tables`` sub-commands: build, info, verify."""
+"""``boom-advisory tables build|info|verify``: precomputed boom tables off the hot path."""
 
 from __future__ import annotations
 
@@ -7,14 +7,17 @@ import sys
 import time
 
 from advisory import SAFETY_CAUTION
+from advisory.cli.options import add_aircraft_option
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
     """Register ``boom-advisory tables build|info|verify``."""
-    p = sub.add_parser("tables", help="build, inspect and verify precomputed boom tables")
+    p = sub.add_parser("tables", help="build, inspect and verify precomputed boom tables",
+                       description="Build, inspect and verify precomputed boom tables. "
+                                   + SAFETY_CAUTION)
     tsub = p.add_subparsers(dest="tables_command", required=True)
     b = tsub.add_parser("build", help="run the physics over a grid and write a table file")
-    b.add_argument("--aircraft", metavar="FILE", help="aircraft file (default: bundled demo)")
+    add_aircraft_option(b)
     g = b.add_mutually_exclusive_group()
     g.add_argument("--atmosphere", metavar="FILE", help="atmosphere profile (CSV or TOML)")
     g.add_argument("--temp-offset-c", type=float, default=0.0,
@@ -34,7 +37,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 
 def run_build(args: argparse.Namespace) -> int:
-    """``tables build``."""
+    """``tables build``: exit 0 with the table file written."""
+    # The builder imports are here, not at the top: they load numba, which
+    # `boom-advisory --help` and the other commands must not pay for (CLI start-up time).
     from advisory.physics.aircraft import default_aircraft, load_aircraft
     from advisory.physics.atmosphere import load_profile, standard_atmosphere
     from advisory.tables.build import BuildInputs, build_table_arrays, provenance
@@ -54,11 +59,13 @@ def run_build(args: argparse.Namespace) -> int:
     digest = write_table_file(args.output, provenance(inputs, seconds), arrays)
     print(f"wrote {args.output}: {arrays['cells'].shape[:4]} cells x {grid.n_eta} azimuths "
           f"in {seconds:.1f} s, payload SHA-256 {digest}")
+    print(SAFETY_CAUTION)
     return 0
 
 
 def run_info(args: argparse.Namespace) -> int:
-    """``tables info``."""
+    """``tables info``: print the table's provenance; exit 0."""
+    # Imported here for the start-up reason given in :func:`run_build`.
     from advisory.tables.table import BoomTable
 
     table = BoomTable.load(args.table)
@@ -70,6 +77,7 @@ def run_info(args: argparse.Namespace) -> int:
 
 def run_verify(args: argparse.Namespace) -> int:
     """``tables verify``: exit 0 when within budget, 1 otherwise."""
+    # Imported here for the start-up reason given in :func:`run_build`.
     from advisory.tables.table import BoomTable
     from advisory.tables.verify import verify_table
 

@@ -1,25 +1,31 @@
-"""The ``predict`` job: carpet, cutoff and ground boom for one steady flight condition.
+"""Carpet, cutoff Mach and ground boom for one steady flight condition.
 
-Inputs arrive in aviation units from the command line; everything is converted to SI
-here, computed by the physics package (direct tracing) or read from a table, and
-converted back for the output.
+The computation behind ``boom-advisory predict`` (the command line and its text/JSON
+output live in :mod:`advisory.cli.predict`). Inputs arrive in aviation units (the names
+say which); everything is converted to SI here and either traced directly by the physics
+package (rays: geometric acoustics, :mod:`advisory.physics.rays`; signature: Whitham's
+F-function, :mod:`advisory.physics.signature`; cross-check: Carlson's simplified method,
+:mod:`advisory.physics.carlson`) or read from a precomputed table
+(:mod:`advisory.tables`). The results stay in SI.
 """
 
 from __future__ import annotations
 
-import json
 import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from advisory import SAFETY_CAUTION, units
+from advisory import units
 from advisory.physics.aircraft import Aircraft, default_aircraft, load_aircraft
 from advisory.physics.atmosphere import Atmosphere, load_profile, standard_atmosphere
 from advisory.physics.carlson import carlson_overpressure
 from advisory.physics.carpet import Carpet, best_reaching_azimuth, compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.signature import ground_signature
+from advisory.tables import lookup as lk
+from advisory.tables.table import BoomTable
+from advisory.tables.verify import drift_angle, half_widths
 
 #: Rays in the lateral profile, edge to edge.
 PROFILE_RAYS = 31
@@ -27,7 +33,31 @@ PROFILE_RAYS = 31
 
 @dataclass(frozen=True)
 class PredictInputs:
-    """One flight condition in aviation units, as given on the command line."""
+    """One steady flight condition in aviation units, as given on the command line.
+
+    Attributes
+    ----------
+    mach : float
+        Flight Mach number.
+    altitude_ft : float
+        Geometric altitude above mean sea level, ft.
+    heading_deg : float
+        True heading, clockwise from true north, deg.
+    fpa_deg : float
+        Flight-path angle, deg, positive climbing.
+    temp_offset_c : float
+        Temperature offset added to the atmosphere, degC (equal to K).
+    ground_elevation_ft : float
+        Ground elevation above mean sea level, ft.
+    atmosphere_file : str or None
+        Atmosphere profile (CSV or TOML); None: U.S. Standard Atmosphere 1976.
+    aircraft_file : str or None
+        Aircraft description (TOML); None: the bundled demo aircraft.
+    load_factor : float
+        Lift over weight (1 in steady level flight).
+    table_file : str or None
+        Precomputed boom table to answer from instead of direct tracing.
+    """
 
     mach: float
     altitude_ft: float
@@ -92,7 +122,30 @@ def flight_condition(inputs: PredictInputs) -> FlightCondition:
 
 
 def predict_direct(inputs: PredictInputs) -> PredictResult:
-    """Trace the carpet and the ground boom for one condition."""
+    """Trace the carpet and the ground boom for one condition (no table).
+
+    Rays by geometric acoustics in a stratified moving atmosphere
+    (:mod:`advisory.physics.rays`), the ground N-wave from Whitham's F-function with
+    steepening along each ray (:mod:`advisory.physics.signature`), and Carlson's
+    simplified method as the cross-check (:mod:`advisory.physics.carlson`); each module
+    names its published source.
+
+    Parameters
+    ----------
+    inputs : PredictInputs
+        The condition in aviation units.
+
+    Returns
+    -------
+    PredictResult
+        Carpet, centerline overpressure (Pa) and duration (s), the Carlson cross-check,
+        and a lateral profile of ``PROFILE_RAYS`` rays; SI throughout.
+
+    Raises
+    ------
+    ValueError
+        A file cannot be read or the condition is outside the atmosphere.
+    """
     atm = make_atmosphere(inputs)
     aircraft = make_aircraft(inputs)
     tracer = RayTracer(atm)
@@ -137,11 +190,16 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
 
 
 def predict_from_table(inputs: PredictInputs) -> PredictResult:
-    """Answer from a precomputed table (its aircraft and atmosphere)."""
-    from advisory.tables import lookup as lk
-    from advisory.tables.table import BoomTable
-    from advisory.tables.verify import drift_angle, half_widths
+    """Answer from a precomputed table (its aircraft and atmosphere).
 
+    Raises
+    ------
+    ValueError
+        ``inputs.table_file`` is not set, the table cannot be read, or the condition
+        lies outside it (the message names the value).
+    """
+    if inputs.table_file is None:
+        raise ValueError("table_file: None; predict_from_table needs a table file")
     table = BoomTable.load(inputs.table_file)
     atm = table.atmosphere()
     tracer = RayTracer(atm)
@@ -178,100 +236,3 @@ def predict_from_table(inputs: PredictInputs) -> PredictResult:
 def predict(inputs: PredictInputs) -> PredictResult:
     """From the table when one is given, otherwise by direct tracing."""
     return predict_from_table(inputs) if inputs.table_file else predict_direct(inputs)
-
-
-def _num(x: float, nd: int = 4) -> float | None:
-    """JSON-safe rounding: NaN and inf become null."""
-    return round(float(x), nd) if math.isfinite(x) else None
-
-
-def result_fields(res: PredictResult) -> dict:
-    """The JSON object of a prediction (aviation units at the edge, named with units)."""
-    c = res.carpet
-    km = 1e-3
-    return {
-        "caution": SAFETY_CAUTION,
-        "source": res.source,
-        "aircraft": res.aircraft_name,
-        "mach": res.inputs.mach,
-        "altitude_ft": res.inputs.altitude_ft,
-        "heading_deg": res.inputs.heading_deg,
-        "fpa_deg": res.inputs.fpa_deg,
-        "load_factor": res.inputs.load_factor,
-        "ground_elevation_ft": res.inputs.ground_elevation_ft,
-        "atmosphere": res.atmosphere_name,
-        "temp_offset_c": res.inputs.temp_offset_c,
-        "cutoff_mach": _num(c.cutoff_mach),
-        "reaches_ground": c.reaches_ground,
-        "lateral_cutoff_deg": [
-            _num(math.degrees(c.lateral_cutoff_left_rad), 3),
-            _num(math.degrees(c.lateral_cutoff_right_rad), 3),
-        ],
-        "carpet_half_width_left_km": _num(c.half_width_left_m * km, 3),
-        "carpet_half_width_right_km": _num(c.half_width_right_m * km, 3),
-        "carpet_width_km": _num(c.width_m * km, 3),
-        "centerline_ground_offset_km": _num(c.centerline_along_m * km, 3),
-        "centerline_travel_time_s": _num(c.centerline_travel_time_s, 3),
-        "centerline_overpressure_psf": _num(units.pa_to_psf(res.centerline_overpressure_pa), 3),
-        "signature_duration_ms": _num(1e3 * res.centerline_duration_s, 2),
-        "carlson_overpressure_psf": _num(units.pa_to_psf(res.carlson_overpressure_pa), 3),
-        "carlson_duration_ms": _num(1e3 * res.carlson_duration_s, 2),
-        "lateral_profile": [
-            {
-                "offset_km": _num(p.offset_m * km, 3),
-                "overpressure_psf": _num(units.pa_to_psf(p.overpressure_pa), 3),
-                "duration_ms": _num(1e3 * p.duration_s, 2),
-                "arrival_s": _num(p.arrival_s, 3),
-                "edge": p.edge,
-            }
-            for p in res.profile
-        ],
-    }
-
-
-def to_json(res: PredictResult) -> str:
-    """One JSON object (see :func:`result_fields`)."""
-    return json.dumps(result_fields(res), indent=2)
-
-
-def summary_text(res: PredictResult) -> str:
-    """A readable multi-line summary for a person."""
-    f = result_fields(res)
-    lines = [
-        f"Flight condition: Mach {f['mach']:.3f} at {f['altitude_ft']:,.0f} ft, "
-        f"heading {f['heading_deg']:.0f} deg, flight-path angle {f['fpa_deg']:+.1f} deg, "
-        f"load factor {f['load_factor']:.2f}, ground {f['ground_elevation_ft']:,.0f} ft",
-        f"Aircraft: {f['aircraft']}; atmosphere: {f['atmosphere']} "
-        f"(offset {f['temp_offset_c']:+.1f} degC); from {f['source']}",
-        "Cutoff Mach: " + (f"{f['cutoff_mach']:.3f}" if f["cutoff_mach"] else "none up to 5.0"),
-    ]
-    if f["reaches_ground"]:
-        left, right = f["lateral_cutoff_deg"]
-        lines += [
-            "Boom reaches the ground: YES",
-            f"Carpet width: {f['carpet_width_km']:.1f} km "
-            f"(left {f['carpet_half_width_left_km']:.1f} km, "
-            f"right {f['carpet_half_width_right_km']:.1f} km)",
-            f"Lateral cutoff: {abs(left):.1f} deg left, {right:.1f} deg right",
-            f"Centerline boom lands {f['centerline_ground_offset_km']:.1f} km ahead of the "
-            f"emission point, {f['centerline_travel_time_s']:.1f} s after emission",
-        ]
-        if f["centerline_overpressure_psf"] is not None:
-            lines.append(
-                f"Centerline overpressure: {f['centerline_overpressure_psf']:.2f} psf, "
-                f"N-wave duration {f['signature_duration_ms']:.0f} ms"
-            )
-        if f["carlson_overpressure_psf"] is not None:
-            lines.append(f"Cross-check (Carlson's simplified method): "
-                         f"{f['carlson_overpressure_psf']:.2f} psf")
-        if f["lateral_profile"]:
-            lines.append("Lateral profile (offset km: psf):")
-            pts = f["lateral_profile"][:: max(1, len(f["lateral_profile"]) // 10)]
-            lines.append("  " + "  ".join(
-                f"{p['offset_km']:+.0f}: {p['overpressure_psf']:.2f}{'*' if p['edge'] else ''}"
-                for p in pts))
-            lines.append("  (* carpet edge: value at the grazing ray, flagged)")
-    else:
-        lines.append("Boom reaches the ground: NO (below cutoff Mach or subsonic)")
-    lines.append(SAFETY_CAUTION)
-    return "\n".join(lines)

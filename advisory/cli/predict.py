@@ -1,0 +1,195 @@
+"""``boom-advisory predict``: carpet, cutoff Mach and ground overpressure for one steady
+flight condition, as readable text or one JSON object (aviation units, named with their
+unit). The computation is :mod:`advisory.bench.steady_carpet`.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+from typing import TYPE_CHECKING, Any
+
+from advisory import SAFETY_CAUTION, units
+from advisory.cli.options import (
+    UsageError,
+    add_aircraft_option,
+    add_json_option,
+    add_table_option,
+    finite,
+)
+
+if TYPE_CHECKING:
+    from advisory.bench.steady_carpet import PredictInputs, PredictResult
+
+
+def add_parser(sub: argparse._SubParsersAction) -> None:
+    """Register ``boom-advisory predict``."""
+    p = sub.add_parser(
+        "predict",
+        help="carpet, cutoff Mach and ground overpressure for one flight condition",
+        description="Predict the boom carpet for one steady flight condition. "
+                    + SAFETY_CAUTION,
+    )
+    p.add_argument("--mach", type=float, required=True, help="Mach number")
+    p.add_argument("--altitude-ft", type=float, required=True,
+                   help="geometric altitude above mean sea level, ft")
+    p.add_argument("--heading-deg", type=float, default=0.0, help="true heading, deg (0)")
+    p.add_argument("--fpa-deg", type=float, default=0.0, help="flight-path angle, deg (0)")
+    p.add_argument("--temp-offset-c", type=float, default=0.0,
+                   help="temperature offset from the standard atmosphere, degC (0)")
+    p.add_argument("--atmosphere", metavar="FILE",
+                   help="atmosphere profile (CSV or TOML) instead of the standard atmosphere")
+    p.add_argument("--ground-elevation-ft", type=float, default=0.0,
+                   help="ground elevation above mean sea level, ft (0)")
+    add_aircraft_option(p)
+    p.add_argument("--load-factor", type=float, default=1.0,
+                   help="lift over weight (1 in steady flight)")
+    add_table_option(p, "answer from a precomputed table instead of direct tracing")
+    add_json_option(p)
+    p.set_defaults(func=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    """``predict``: print the prediction; exit 0 (bad input raises :class:`UsageError`)."""
+    # Imported here, not at the top: the physics loads numba, which `boom-advisory --help`
+    # and the other commands must not pay for (CLI start-up time).
+    from advisory.bench.steady_carpet import predict
+
+    result = predict(inputs_from_args(args))
+    print(to_json(result) if args.json else summary_text(result))
+    return 0
+
+
+def inputs_from_args(args: argparse.Namespace) -> PredictInputs:
+    """The checked flight condition; :class:`UsageError` names the first bad argument."""
+    # Imported here for the same start-up reason as in :func:`run`.
+    from advisory.bench.steady_carpet import PredictInputs
+
+    inputs = PredictInputs(
+        mach=finite("--mach", args.mach),
+        altitude_ft=finite("--altitude-ft", args.altitude_ft),
+        heading_deg=finite("--heading-deg", args.heading_deg),
+        fpa_deg=finite("--fpa-deg", args.fpa_deg),
+        temp_offset_c=finite("--temp-offset-c", args.temp_offset_c),
+        ground_elevation_ft=finite("--ground-elevation-ft", args.ground_elevation_ft),
+        atmosphere_file=args.atmosphere,
+        aircraft_file=args.aircraft,
+        load_factor=finite("--load-factor", args.load_factor),
+        table_file=args.table,
+    )
+    if args.table:
+        for flag, given in (("--aircraft", args.aircraft), ("--atmosphere", args.atmosphere),
+                            ("--temp-offset-c", args.temp_offset_c != 0.0),
+                            ("--load-factor", args.load_factor != 1.0)):
+            if given:
+                raise UsageError(f"{flag}: cannot be combined with --table (the table fixes "
+                                 "aircraft, atmosphere and load factor 1); omit --table to "
+                                 "trace directly")
+    if not (0.0 < inputs.load_factor <= 9.0):
+        raise UsageError(f"--load-factor: {args.load_factor} must be in (0, 9]")
+    if inputs.mach <= 0.0:
+        raise UsageError(f"--mach: {args.mach} must be greater than 0")
+    if inputs.altitude_ft <= inputs.ground_elevation_ft:
+        raise UsageError(
+            f"--altitude-ft: {args.altitude_ft} must be above the ground elevation "
+            f"({args.ground_elevation_ft} ft)"
+        )
+    return inputs
+
+
+def _num(x: float, nd: int = 4) -> float | None:
+    """JSON-safe rounding: NaN and inf become null."""
+    return round(float(x), nd) if math.isfinite(x) else None
+
+
+def result_fields(res: PredictResult) -> dict[str, Any]:
+    """The JSON object of a prediction (aviation units at the edge, named with units)."""
+    c = res.carpet
+    km = 1e-3
+    return {
+        "caution": SAFETY_CAUTION,
+        "source": res.source,
+        "aircraft": res.aircraft_name,
+        "mach": res.inputs.mach,
+        "altitude_ft": res.inputs.altitude_ft,
+        "heading_deg": res.inputs.heading_deg,
+        "fpa_deg": res.inputs.fpa_deg,
+        "load_factor": res.inputs.load_factor,
+        "ground_elevation_ft": res.inputs.ground_elevation_ft,
+        "atmosphere": res.atmosphere_name,
+        "temp_offset_c": res.inputs.temp_offset_c,
+        "cutoff_mach": _num(c.cutoff_mach),
+        "reaches_ground": c.reaches_ground,
+        "lateral_cutoff_deg": [
+            _num(math.degrees(c.lateral_cutoff_left_rad), 3),
+            _num(math.degrees(c.lateral_cutoff_right_rad), 3),
+        ],
+        "carpet_half_width_left_km": _num(c.half_width_left_m * km, 3),
+        "carpet_half_width_right_km": _num(c.half_width_right_m * km, 3),
+        "carpet_width_km": _num(c.width_m * km, 3),
+        "centerline_ground_offset_km": _num(c.centerline_along_m * km, 3),
+        "centerline_travel_time_s": _num(c.centerline_travel_time_s, 3),
+        "centerline_overpressure_psf": _num(units.pa_to_psf(res.centerline_overpressure_pa), 3),
+        "signature_duration_ms": _num(1e3 * res.centerline_duration_s, 2),
+        "carlson_overpressure_psf": _num(units.pa_to_psf(res.carlson_overpressure_pa), 3),
+        "carlson_duration_ms": _num(1e3 * res.carlson_duration_s, 2),
+        "lateral_profile": [
+            {
+                "offset_km": _num(p.offset_m * km, 3),
+                "overpressure_psf": _num(units.pa_to_psf(p.overpressure_pa), 3),
+                "duration_ms": _num(1e3 * p.duration_s, 2),
+                "arrival_s": _num(p.arrival_s, 3),
+                "edge": p.edge,
+            }
+            for p in res.profile
+        ],
+    }
+
+
+def to_json(res: PredictResult) -> str:
+    """One JSON object (see :func:`result_fields`)."""
+    return json.dumps(result_fields(res), indent=2)
+
+
+def summary_text(res: PredictResult) -> str:
+    """A readable multi-line summary for a person."""
+    f = result_fields(res)
+    lines = [
+        f"Flight condition: Mach {f['mach']:.3f} at {f['altitude_ft']:,.0f} ft, "
+        f"heading {f['heading_deg']:.0f} deg, flight-path angle {f['fpa_deg']:+.1f} deg, "
+        f"load factor {f['load_factor']:.2f}, ground {f['ground_elevation_ft']:,.0f} ft",
+        f"Aircraft: {f['aircraft']}; atmosphere: {f['atmosphere']} "
+        f"(offset {f['temp_offset_c']:+.1f} degC); from {f['source']}",
+        "Cutoff Mach: " + (f"{f['cutoff_mach']:.3f}" if f["cutoff_mach"] else "none up to 5.0"),
+    ]
+    if f["reaches_ground"]:
+        left, right = f["lateral_cutoff_deg"]
+        lines += [
+            "Boom reaches the ground: YES",
+            f"Carpet width: {f['carpet_width_km']:.1f} km "
+            f"(left {f['carpet_half_width_left_km']:.1f} km, "
+            f"right {f['carpet_half_width_right_km']:.1f} km)",
+            f"Lateral cutoff: {abs(left):.1f} deg left, {right:.1f} deg right",
+            f"Centerline boom lands {f['centerline_ground_offset_km']:.1f} km ahead of the "
+            f"emission point, {f['centerline_travel_time_s']:.1f} s after emission",
+        ]
+        if f["centerline_overpressure_psf"] is not None:
+            lines.append(
+                f"Centerline overpressure: {f['centerline_overpressure_psf']:.2f} psf, "
+                f"N-wave duration {f['signature_duration_ms']:.0f} ms"
+            )
+        if f["carlson_overpressure_psf"] is not None:
+            lines.append(f"Cross-check (Carlson's simplified method): "
+                         f"{f['carlson_overpressure_psf']:.2f} psf")
+        if f["lateral_profile"]:
+            lines.append("Lateral profile (offset km: psf):")
+            pts = f["lateral_profile"][:: max(1, len(f["lateral_profile"]) // 10)]
+            lines.append("  " + "  ".join(
+                f"{p['offset_km']:+.0f}: {p['overpressure_psf']:.2f}{'*' if p['edge'] else ''}"
+                for p in pts))
+            lines.append("  (* carpet edge: value at the grazing ray, flagged)")
+    else:
+        lines.append("Boom reaches the ground: NO (below cutoff Mach or subsonic)")
+    lines.append(SAFETY_CAUTION)
+    return "\n".join(lines)

@@ -14,7 +14,7 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from advisory.io import arinc429 as a429
-from advisory.io.messages import StreamDeframer, frame_stream
+from advisory.io.framing import StreamDeframer, frame_stream
 from advisory.pipeline.state import AirDataState, StateValidator
 
 

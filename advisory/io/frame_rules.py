@@ -97,7 +97,7 @@ def _dec_air(m: dict) -> tuple[dict, int]:
         if (_FLOAT_ONLY.issuperset(map(type, vals[:8]))
                 and _FLOAT_OR_NIL.issuperset(map(type, vals[8:]))):
             return dict(zip(AIR_FIELDS, vals)), 13
-    out = {}
+    out: dict[str, Any] = {}
     present = 0
     get = m.get
     for name in AIR_REQUIRED:
@@ -129,7 +129,7 @@ def _dec_air(m: dict) -> tuple[dict, int]:
 
 
 def _dec_adv(m: dict) -> tuple[dict, int]:
-    out = {}
+    out: dict[str, Any] = {}
     present = 0
     status = _need(m, "status")
     if type(status) is not str:
@@ -183,7 +183,7 @@ def _dec_status(m: dict) -> tuple[dict, int]:
     if len(counters) > MAX_COUNTERS:
         raise RejectError("bad_value", f"field 'counters' has {len(counters)} entries, "
                                    f"more than {MAX_COUNTERS}")
-    out = {}
+    out: dict[str, Any] = {}
     for name, value in counters.items():
         if type(name) is not str:
             raise _bad_type("counters", name, "a map with string keys")

@@ -130,7 +130,7 @@ def _text(name: str, value: Any, max_bytes: int, nullable: bool = False) -> str 
 
 def _header(kind: str, seq: Any, utc_s: Any) -> dict:
     if (not isinstance(seq, numbers.Integral) or isinstance(seq, (bool, np.bool_))
-            or not 0 <= seq <= SEQ_MAX):
+            or not 0 <= int(seq) <= SEQ_MAX):
         raise ValueError(f"field 'seq' must be an integer in 0..{SEQ_MAX}, got {seq!r}")
     return {"v": WIRE_FORMAT_VERSION, "type": kind, "seq": int(seq),
             "utc_s": _num("utc_s", utc_s)}
@@ -281,7 +281,7 @@ def encode_status(fields: dict, seq: int, utc_s: float) -> bytes:
             raise ValueError("field 'counters' has an empty counter name")
         value = counters[name]
         if (not isinstance(value, numbers.Integral) or isinstance(value, (bool, np.bool_))
-                or not 0 <= value <= COUNTER_MAX):
+                or not 0 <= int(value) <= COUNTER_MAX):
             raise ValueError(f"counter {name!r} must be an integer in 0..2**64-1, "
                              f"got {value!r}")
         out[name] = int(value)

@@ -41,7 +41,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NamedTuple
 
-import msgpack
+import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 
 from advisory.io.crc32c import crc32c
 from advisory.schema import EVENT_FIELDS
@@ -422,6 +422,8 @@ class RecordReader:
     def _valid_at(self, pos: int) -> int:
         """End offset of a complete, CRC-good record at ``pos``, or -1."""
         mm = self._mm
+        if mm is None:  # closed
+            return -1
         end = len(mm)
         if end - pos < RECORD_OVERHEAD or mm[pos:pos + 2] != SYNC:
             return -1

@@ -39,7 +39,8 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from advisory.io.arinc429 import Arinc429Assembler, LabelMap, load_label_map
+from advisory.io.arinc429 import Arinc429Assembler, LabelMap
+from advisory.io.arinc429_labels import load_label_map
 from advisory.io.framing import DatagramReader, StreamDeframer
 from advisory.io.messages import FrameDecoder, encode_adv, encode_status, next_seq
 from advisory.pipeline.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator

@@ -143,12 +143,12 @@ def test_unknown_label_and_sdi_filter():
 
 def test_label_map_toml_overrides_and_errors():
     lm = parse_label_map('byte_order = "little"\n[labels.203]\nfield = "alt_ft"\n'
-                           'sig_bits = 16\nrange = 65536.0\nscale = 2.0\n')
+                         'sig_bits = 16\nrange = 65536.0\nscale = 2.0\n')
     assert lm.byte_order == "little"
     assert lm.labels[0o203].sig_bits == 16 and lm.labels[0o203].scale == 2.0
     assert lm.labels[0o205] == a429.DEFAULT_LABELS[0o205]  # other defaults kept
     only = parse_label_map('replace_defaults = true\n[labels.205]\nfield = "mach"\n'
-                             'range = 4.096\nsig_bits = 16\n')
+                         'range = 4.096\nsig_bits = 16\n')
     assert list(only.labels) == [0o205]
     for text, match in [
         ('[labels.209]\nfield = "alt_ft"\nrange = 1.0\n', "209"),

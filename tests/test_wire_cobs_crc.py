@@ -166,10 +166,12 @@ def test_cobs_decode_kernel_matches_twin_on_any_bytes(data):
 @given(st.binary(max_size=300), st.integers(0, 9), st.integers(0, 320))
 def test_cobs_decode_into_matches_twin_codes(data, base, cap):
     # Kernel/twin parity of the one COBS decoder at an offset and with a capacity: the
-    # same error code (empty, zero byte, truncated, no room) or the same bytes.
+    # same error code (empty, zero byte, truncated, no room) or the same bytes (after an
+    # error the output buffer holds partial bytes: not compared).
     dst_k = np.zeros(base + cap + 1, dtype=np.uint8)
     dst_p = np.zeros(base + cap + 1, dtype=np.uint8)
     k = int(cobs_decode_into(data, 0, len(data), dst_k, base, cap))
     p = cobs_decode_into_twin(data, 0, len(data), dst_p, base, cap)
     assert k == p
-    assert dst_k.tobytes() == dst_p.tobytes()
+    if k >= 0:
+        assert dst_k.tobytes() == dst_p.tobytes()

@@ -32,6 +32,7 @@ file with a torn tail is safe for the same reason.
 
 from __future__ import annotations
 
+import json
 import mmap
 import os
 import struct
@@ -110,8 +111,6 @@ _V1_PREFIXES = (
 
 
 def _decode_v1_event(text: str) -> Event:
-    import json
-
     if text.startswith("start {") or text.startswith("stats {"):
         try:
             doc = json.loads(text[6:])

@@ -56,7 +56,8 @@ if str(HERE.parent) not in sys.path:  # run from a checkout without installing
 
 from advisory import units  # noqa: E402
 from advisory.geo.geodesy import direct_deg  # noqa: E402
-from advisory.io.messages import encode_air, frame_stream  # noqa: E402
+from advisory.io.framing import frame_stream  # noqa: E402
+from advisory.io.messages import encode_air  # noqa: E402
 from advisory.io.records import KIND_EVENT, KIND_RAW_INPUT, Recorder, encode_event  # noqa: E402
 from advisory.physics.atmosphere import (  # noqa: E402
     Atmosphere,

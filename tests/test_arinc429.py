@@ -14,7 +14,8 @@ from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from advisory.io import arinc429 as a429
-from advisory.io.messages import StreamDeframer, frame_stream
+from advisory.io.arinc429_labels import load_label_map, parse_label_map
+from advisory.io.framing import StreamDeframer, frame_stream
 from advisory.pipeline.state import AirDataState, StateValidator
 
 
@@ -118,8 +119,8 @@ def test_ssm_rejections_counted():
 
 
 def test_bcd_ssm_plus_is_accepted_ncd_rejected():
-    lm = a429.parse_label_map('[labels.012]\nfield = "gs_kt"\nencoding = "bcd"\n'
-                           'digits = 4\nresolution = 1.0\n')
+    lm = parse_label_map('[labels.012]\nfield = "gs_kt"\nencoding = "bcd"\n'
+                         'digits = 4\nresolution = 1.0\n')
     asm = a429.Arinc429Assembler(lm)
     assert asm.feed_word(a429.encode_bcd(0o012, 620.0, 4, 1.0), 0.0) == "gs_kt"
     ncd = (a429.encode_bcd(0o012, 620.0, 4, 1.0) & ~(3 << 29) & 0x7FFFFFFF) | (1 << 29)
@@ -130,8 +131,8 @@ def test_bcd_ssm_plus_is_accepted_ncd_rejected():
 
 
 def test_unknown_label_and_sdi_filter():
-    lm = a429.parse_label_map('[labels.205]\nfield = "mach"\nsig_bits = 16\nrange = 4.096\n'
-                           'sdi = 1\n')
+    lm = parse_label_map('[labels.205]\nfield = "mach"\nsig_bits = 16\nrange = 4.096\n'
+                         'sdi = 1\n')
     asm = a429.Arinc429Assembler(lm)
     assert asm.feed_word(a429.encode_bnr(0o377, 1.0, 16, 4.096), 0.0) is None
     assert asm.counters["unknown_label"] == 1
@@ -141,13 +142,13 @@ def test_unknown_label_and_sdi_filter():
 
 
 def test_label_map_toml_overrides_and_errors():
-    lm = a429.parse_label_map('byte_order = "little"\n[labels.203]\nfield = "alt_ft"\n'
-                           'sig_bits = 16\nrange = 65536.0\nscale = 2.0\n')
+    lm = parse_label_map('byte_order = "little"\n[labels.203]\nfield = "alt_ft"\n'
+                         'sig_bits = 16\nrange = 65536.0\nscale = 2.0\n')
     assert lm.byte_order == "little"
     assert lm.labels[0o203].sig_bits == 16 and lm.labels[0o203].scale == 2.0
     assert lm.labels[0o205] == a429.DEFAULT_LABELS[0o205]  # other defaults kept
-    only = a429.parse_label_map('replace_defaults = true\n[labels.205]\nfield = "mach"\n'
-                             'range = 4.096\nsig_bits = 16\n')
+    only = parse_label_map('replace_defaults = true\n[labels.205]\nfield = "mach"\n'
+                         'range = 4.096\nsig_bits = 16\n')
     assert list(only.labels) == [0o205]
     for text, match in [
         ('[labels.209]\nfield = "alt_ft"\nrange = 1.0\n', "209"),
@@ -159,16 +160,16 @@ def test_label_map_toml_overrides_and_errors():
         ("not toml [", "TOML"),
     ]:
         with pytest.raises(ValueError, match=match):
-            a429.parse_label_map(text)
+            parse_label_map(text)
 
 
 def test_load_label_map_from_file(tmp_path):
     p = tmp_path / "labels.toml"
     p.write_text('[labels.325]\nfield = "bank_deg"\nsig_bits = 14\nrange = 180.0\n')
-    assert a429.load_label_map(p).labels[0o325].field == "bank_deg"
-    assert a429.load_label_map(None).labels == a429.DEFAULT_LABELS
+    assert load_label_map(p).labels[0o325].field == "bank_deg"
+    assert load_label_map(None).labels == a429.DEFAULT_LABELS
     with pytest.raises(ValueError, match="cannot read"):
-        a429.load_label_map(tmp_path / "missing.toml")
+        load_label_map(tmp_path / "missing.toml")
 
 
 def _flight_words(lat, lon, alt, mach, hdg, gs, bank, fpa):

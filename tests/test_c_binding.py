@@ -19,21 +19,10 @@ from pathlib import Path
 import msgpack
 import pytest
 
-from advisory.io.messages import (
-    ADV_STATUSES,
-    AIR_FIELDS,
-    AIR_OPTIONAL,
-    FrameError,
-    StreamDeframer,
-    datagram,
-    decode_frame,
-    encode_adv,
-    encode_air,
-    encode_status,
-    frame_stream,
-    parse_datagram,
-)
+from advisory.io.framing import StreamDeframer, datagram, frame_stream, parse_datagram
+from advisory.io.messages import FrameError, decode_frame, encode_adv, encode_air, encode_status
 from advisory.io.transports import FramedLink, open_transport
+from advisory.schema import ADV_STATUSES, AIR_FIELDS, AIR_OPTIONAL
 
 ROOT = Path(__file__).resolve().parent.parent
 C_DIR = ROOT / "bindings" / "c"

@@ -14,7 +14,8 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from advisory.io.messages import encode_air, frame_stream
+from advisory.io.framing import frame_stream
+from advisory.io.messages import encode_air
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.state import REQUIRED_FIELDS, ValidatorLimits
 from advisory.pipeline.zones import ZoneSet

@@ -17,14 +17,8 @@ from advisory import units
 from advisory.io.arinc429 import DEFAULT_LABELS, encode_bnr, payload_from_words
 from advisory.io.cobs import cobs_encode
 from advisory.io.crc32c import crc32c
-from advisory.io.messages import (
-    MAX_COUNTERS,
-    datagram,
-    decode_frame,
-    encode_adv,
-    encode_air,
-    frame_stream,
-)
+from advisory.io.framing import datagram, frame_stream
+from advisory.io.messages import decode_frame, encode_adv, encode_air
 from advisory.io.records import (
     KIND_INPUT,
     KIND_OUTPUT,
@@ -36,6 +30,7 @@ from advisory.physics.atmosphere import standard_atmosphere
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.zones import ZoneSet
+from advisory.schema import MAX_COUNTERS
 from advisory.service.loop import STARTUP_REASON, AdvisoryLoop, DurationHistogram
 
 LAT0, LON0 = 40.0, -100.0

@@ -38,7 +38,8 @@ from advisory.bench.replay import (
     replay_many,
 )
 from advisory.cli import main
-from advisory.io.messages import StreamDeframer, decode_frame, parse_datagram
+from advisory.io.framing import StreamDeframer, parse_datagram
+from advisory.io.messages import decode_frame
 from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,

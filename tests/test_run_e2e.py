@@ -24,14 +24,8 @@ from pathlib import Path
 import pytest
 
 from advisory import units
-from advisory.io.messages import (
-    StreamDeframer,
-    datagram,
-    decode_frame,
-    encode_air,
-    frame_stream,
-    parse_datagram,
-)
+from advisory.io.framing import StreamDeframer, datagram, frame_stream, parse_datagram
+from advisory.io.messages import decode_frame, encode_air
 from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,

@@ -22,7 +22,8 @@ import warnings
 
 import pytest
 
-from advisory.io.messages import datagram, decode_frame
+from advisory.io.framing import datagram
+from advisory.io.messages import decode_frame
 from advisory.io.records import (
     KIND_EVENT,
     KIND_INPUT,

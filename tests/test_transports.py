@@ -9,15 +9,8 @@ import time
 
 import pytest
 
-from advisory.io.messages import (
-    DatagramReader,
-    StreamDeframer,
-    datagram,
-    decode_frame,
-    encode_air,
-    encode_status,
-    frame_stream,
-)
+from advisory.io.framing import DatagramReader, StreamDeframer, datagram, frame_stream
+from advisory.io.messages import decode_frame, encode_air, encode_status
 from advisory.io.transports import (
     FileTransport,
     FramedLink,

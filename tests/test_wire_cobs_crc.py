@@ -10,12 +10,14 @@ from hypothesis import strategies as st
 from advisory.io.cobs import (
     CobsError,
     cobs_decode,
+    cobs_decode_into,
     cobs_decode_kernel,
-    cobs_decode_py,
     cobs_encode,
     cobs_max_encoded_len,
 )
-from advisory.io.crc32c import CHECK_VALUE, crc32c, crc32c_kernel, crc32c_py
+from advisory.io.crc32c import CHECK_VALUE, crc32c, crc32c_kernel
+from tests.twins.cobs import cobs_decode_into_twin, cobs_decode_twin
+from tests.twins.crc32c import crc32c_twin
 
 # ----------------------------------------------------------------------------- CRC-32C
 
@@ -25,7 +27,7 @@ def test_crc32c_check_value():
     # nine ASCII bytes "123456789" is 0xE3069283.
     assert crc32c(b"123456789") == 0xE3069283
     assert CHECK_VALUE == 0xE3069283
-    assert crc32c_py(b"123456789") == 0xE3069283
+    assert crc32c_twin(b"123456789") == 0xE3069283
 
 
 @pytest.mark.parametrize(("data", "expected"), [
@@ -37,7 +39,7 @@ def test_crc32c_check_value():
 ])
 def test_crc32c_rfc3720_examples(data, expected):
     assert crc32c(data) == expected
-    assert crc32c_py(data) == expected
+    assert crc32c_twin(data) == expected
 
 
 def test_crc32c_empty_is_zero():
@@ -50,9 +52,9 @@ def test_crc32c_empty_is_zero():
 @given(st.binary(max_size=600), st.integers(0, 2**32 - 1))
 def test_crc32c_kernel_matches_python_twin(data, start):
     # Parity of the numba kernel with its plain-Python twin (project rule for kernels).
-    assert crc32c(data, start) == crc32c_py(data, start)
+    assert crc32c(data, start) == crc32c_twin(data, start)
     assert int(crc32c_kernel(np.frombuffer(data, dtype=np.uint8), 0, len(data), start)) \
-        == crc32c_py(data, start)
+        == crc32c_twin(data, start)
 
 
 @settings(max_examples=100, deadline=None)
@@ -91,7 +93,7 @@ WORKED = [
 def test_cobs_worked_examples(raw, encoded):
     assert cobs_encode(raw) == encoded
     assert cobs_decode(encoded) == raw
-    assert cobs_decode_py(encoded) == raw
+    assert cobs_decode_twin(encoded) == raw
 
 
 def test_cobs_cheshire_baker_example():
@@ -131,7 +133,7 @@ def test_cobs_decode_rejects_invalid(bad):
     with pytest.raises(CobsError):
         cobs_decode(bad)
     with pytest.raises(CobsError):
-        cobs_decode_py(bad)
+        cobs_decode_twin(bad)
 
 
 @settings(max_examples=300, deadline=None)
@@ -143,7 +145,7 @@ def test_cobs_round_trip_no_zeros_and_overhead(data):
     assert b"\x00" not in enc
     assert len(enc) <= cobs_max_encoded_len(len(data))
     assert cobs_decode(enc) == data
-    assert cobs_decode_py(enc) == data
+    assert cobs_decode_twin(enc) == data
 
 
 @settings(max_examples=300, deadline=None)
@@ -151,10 +153,25 @@ def test_cobs_round_trip_no_zeros_and_overhead(data):
 def test_cobs_decode_kernel_matches_twin_on_any_bytes(data):
     # Kernel/twin parity, on arbitrary (mostly invalid) input: same bytes or same error.
     try:
-        expected = cobs_decode_py(data)
+        expected = cobs_decode_twin(data)
     except CobsError:
         expected = None
     dst = np.empty(max(len(data), 1), dtype=np.uint8)
     n = int(cobs_decode_kernel(data, 0, len(data), dst))
     got = dst[:n].tobytes() if n >= 0 else None
     assert got == expected
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.binary(max_size=300), st.integers(0, 9), st.integers(0, 320))
+def test_cobs_decode_into_matches_twin_codes(data, base, cap):
+    # Kernel/twin parity of the one COBS decoder at an offset and with a capacity: the
+    # same error code (empty, zero byte, truncated, no room) or the same bytes (after an
+    # error the output buffer holds partial bytes: not compared).
+    dst_k = np.zeros(base + cap + 1, dtype=np.uint8)
+    dst_p = np.zeros(base + cap + 1, dtype=np.uint8)
+    k = int(cobs_decode_into(data, 0, len(data), dst_k, base, cap))
+    p = cobs_decode_into_twin(data, 0, len(data), dst_p, base, cap)
+    assert k == p
+    if k >= 0:
+        assert dst_k.tobytes() == dst_p.tobytes()

@@ -14,24 +14,31 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from advisory.io import messages as fr
+from advisory.io import air_fastpath, frame_rules, framing
+from advisory.io.crc32c import crc32c
+from advisory.io.framing import MAX_ENCODED, StreamDeframer, datagram, frame_stream, parse_datagram
 from advisory.io.messages import (
-    ADV_FIELDS,
-    AIR_FIELDS,
-    HEADER_KEYS,
-    MAX_ENCODED,
+    Frame,
     FrameDecoder,
     FrameError,
-    StreamDeframer,
-    datagram,
     decode_frame,
     encode_adv,
     encode_air,
     encode_status,
-    frame_stream,
     next_seq,
-    parse_datagram,
 )
+from advisory.schema import (
+    ADV_FIELDS,
+    AIR_FIELDS,
+    AIR_OPTIONAL,
+    AIR_REQUIRED,
+    CRC_LEN,
+    DECODE_REASONS,
+    HEADER_KEYS,
+    LINK_COUNTERS,
+    MAX_PAYLOAD,
+)
+from tests.twins.framing import deframe_twin, unstuff_check_twin
 
 VECTORS = json.loads((Path(__file__).parent / "vectors" / "wire_vectors.json").read_text(
     encoding="utf-8"))
@@ -41,9 +48,10 @@ AIR = {"lat_deg": 40.0, "lon_deg": -100.0, "alt_ft": 45000.0, "mach": 1.4,
        "heading_deg": 90.0, "gs_kt": 740.0, "bank_deg": 0.0, "fpa_deg": 0.0}
 
 
-def _general(payload: bytes) -> fr.Frame:
+def _general(payload: bytes) -> Frame:
     """Decode through the general (msgpack-python) path, bypassing the fast kernel."""
-    return fr._dec(msgpack.unpackb(payload, raw=False, strict_map_key=True))
+    return Frame(*frame_rules.check_map(msgpack.unpackb(payload, raw=False,
+                                                        strict_map_key=True)))
 
 
 # ------------------------------------------------------------------ canonical encoding
@@ -115,7 +123,7 @@ def test_air_round_trip_with_optional_fields():
     fields = dict(AIR, track_deg=91.0, mach_rate_per_s=0.001, sat_c=-50.0,
                   wind_from_deg=270.0, wind_kt=30.0)
     f = decode_frame(encode_air(fields, 42, 1893456000.25))
-    assert f == fr.Frame("air", 42, 1893456000.25, fields, 1)
+    assert f == Frame("air", 42, 1893456000.25, fields, 1)
 
 
 def test_air_absent_optionals_decode_as_none():
@@ -214,14 +222,15 @@ def test_order_of_checks_version_before_fields():
 
 def test_oversize_payload():
     with pytest.raises(FrameError) as err:
-        decode_frame(b"\x00" * (fr.MAX_PAYLOAD + 1))
+        decode_frame(b"\x00" * (MAX_PAYLOAD + 1))
     assert err.value.reason == "oversize"
 
 
 def test_fast_path_matches_general_path_on_vectors():
     for case in VECTORS["air"]:
         p = bytes.fromhex(case["payload"])
-        assert fr.air_canonical_kernel(p)[0] >= 0  # canonical payloads take the fast path
+        # canonical payloads take the fast path
+        assert air_fastpath.air_canonical_kernel(p)[0] >= 0
         assert decode_frame(p) == _general(p)
 
 
@@ -230,8 +239,8 @@ _num = st.one_of(st.floats(allow_nan=True, allow_infinity=True), st.integers(-2*
 
 @settings(max_examples=300, deadline=None)
 @given(st.fixed_dictionaries(
-    {k: _num for k in fr.AIR_REQUIRED},
-    optional={k: st.one_of(st.none(), _num) for k in fr.AIR_OPTIONAL}),
+    {k: _num for k in AIR_REQUIRED},
+    optional={k: st.one_of(st.none(), _num) for k in AIR_OPTIONAL}),
     st.integers(0, 2**32 - 1), st.floats(allow_nan=True))
 def test_fast_path_equals_general_path(fields, seq, utc):
     # The numba reader of canonical air frames is a twin of the general decoder.
@@ -249,7 +258,7 @@ def test_noncanonical_layout_uses_general_path():
     # canonical layout, same result through the general path.
     m = {"type": "air", "v": 1, "utc_s": 1.0, "seq": 5, **AIR}
     p = msgpack.packb(m, use_bin_type=True)
-    assert fr.air_canonical_kernel(p)[0] == -1
+    assert air_fastpath.air_canonical_kernel(p)[0] == -1
     assert decode_frame(p).fields["gs_kt"] == 740.0
 
 
@@ -331,18 +340,25 @@ def test_deframer_reset_drops_partial():
 
 
 def test_unstuff_kernel_matches_twin():
+    # Kernel/twin parity (tests/twins/framing.py): same return code, same bytes, also at
+    # an offset into the output and with zero bytes and short capacities in the mix.
     rng = random.Random(7)
-    dst_k = np.empty(fr.MAX_PAYLOAD + fr.CRC_LEN, dtype=np.uint8)
-    dst_p = np.empty(fr.MAX_PAYLOAD + fr.CRC_LEN, dtype=np.uint8)
+    size = MAX_PAYLOAD + CRC_LEN + 64
     cases = [frame_stream(p)[:-1] for p in _frames(5)]
     cases += [bytes(rng.randrange(1, 256) for _ in range(rng.randrange(1, 400)))
               for _ in range(300)]
-    for seg in cases:
-        k = int(fr.unstuff_check_kernel(seg, 0, len(seg), dst_k))
-        p = fr.unstuff_check_py(seg, 0, len(seg), dst_p)
+    cases += [bytes(rng.randrange(0, 4) for _ in range(rng.randrange(0, 40)))
+              for _ in range(100)]
+    for n, seg in enumerate(cases):
+        base = n % 7
+        cap = size - 64 if n % 3 else rng.randrange(0, 60)
+        dst_k = np.zeros(size, dtype=np.uint8)
+        dst_p = np.zeros(size, dtype=np.uint8)
+        k = int(framing.unstuff_check_kernel(seg, 0, len(seg), dst_k, base, cap))
+        p = unstuff_check_twin(seg, 0, len(seg), dst_p, base, cap)
         assert k == p
         if k >= 0:
-            assert dst_k[:k].tobytes() == dst_p[:p].tobytes()
+            assert dst_k[base:base + k].tobytes() == dst_p[base:base + p].tobytes()
 
 
 # -------------------------------------------------------------------------- datagrams
@@ -350,14 +366,14 @@ def test_unstuff_kernel_matches_twin():
 def test_datagram_round_trip_and_errors():
     (p,) = _frames(1)
     dg = datagram(p)
-    assert dg[:-4] == p and int.from_bytes(dg[-4:], "big") == fr.crc32c(p)
+    assert dg[:-4] == p and int.from_bytes(dg[-4:], "big") == crc32c(p)
     assert parse_datagram(dg) == p
     for data, reason in [(b"\x01\x02", "too_short"), (dg[:-1] + bytes([dg[-1] ^ 1]), "bad_crc"),
-                         (b"\x01" * (fr.MAX_DATAGRAM + 1), "oversize")]:
+                         (b"\x01" * (framing.MAX_DATAGRAM + 1), "oversize")]:
         with pytest.raises(FrameError) as err:
             parse_datagram(data)
         assert err.value.reason == reason
-    r = fr.DatagramReader()
+    r = framing.DatagramReader()
     assert r.feed(dg) == [p] and r.feed(b"xx") == []
     assert r.counters["frames_ok"] == 1 and r.counters["too_short"] == 1
 
@@ -372,11 +388,11 @@ def test_decoders_never_raise_on_random_bytes(data):
     try:
         decode_frame(data)
     except FrameError as exc:
-        assert exc.reason in fr.DECODE_REASONS
+        assert exc.reason in DECODE_REASONS
     try:
         parse_datagram(data)
     except FrameError as exc:
-        assert exc.reason in fr.LINK_COUNTERS
+        assert exc.reason in LINK_COUNTERS
     dec = FrameDecoder()
     dec.decode(data)
     assert sum(dec.counters.values()) == 1
@@ -460,18 +476,18 @@ def test_deframe_kernel_matches_twin_on_dirty_streams():
             pieces.append(s)
         buf = b"".join(pieces)
         discarding = trial % 5 == 0
-        expected, pos_p, disc_p, counts_p = fr.deframe_py(buf, discarding)
-        out = np.empty(len(buf) + 8, dtype=np.uint8)
-        offs = np.empty(len(buf) + 1, dtype=np.int64)
-        lens = np.empty(len(buf) + 1, dtype=np.int64)
-        counts = np.zeros(5, dtype=np.int64)
-        k, pos_k, disc_k = fr.deframe_kernel(buf, discarding, MAX_ENCODED,
-                                             fr.MAX_PAYLOAD + fr.CRC_LEN, out, offs, lens,
-                                             counts)
-        got = [out[o:o + n].tobytes() for o, n in zip(offs[:k], lens[:k], strict=True)]
-        assert got == expected
-        assert (pos_k, bool(disc_k)) == (pos_p, disc_p)
-        assert dict(zip(fr.LINK_COUNTERS, counts.tolist(), strict=True)) == counts_p
+        results = []
+        for fn in (framing.deframe_kernel, deframe_twin):
+            out = np.zeros(len(buf) + 8, dtype=np.uint8)
+            offs = np.zeros(len(buf) + 1, dtype=np.int64)
+            lens = np.zeros(len(buf) + 1, dtype=np.int64)
+            counts = np.zeros(len(LINK_COUNTERS), dtype=np.int64)
+            k, pos, disc = fn(buf, discarding, MAX_ENCODED, MAX_PAYLOAD + CRC_LEN, out, offs,
+                              lens, counts)
+            got = [out[o:o + n].tobytes() for o, n in zip(offs[:k], lens[:k], strict=True)]
+            results.append((got, int(pos), bool(disc), counts.tolist()))
+        assert results[0] == results[1]
+        assert results[0][3][LINK_COUNTERS.index("frames_ok")] == len(results[0][0])
 
 
 def test_vector_file_is_what_the_generator_writes():

@@ -948,11 +948,12 @@ def section_decode(ctx: Context) -> None:
     r = ctx.report
     s = ctx.sizes
     frames_mod = _import("advisory.io.messages")
+    framing_mod = _import("advisory.io.framing")
     state_mod = _import("advisory.pipeline.state")
     gs = cruise_ground_speed_kt()
     utc0 = 1.9e9
     stream = b"".join(
-        frames_mod.frame_stream(frames_mod.encode_air(
+        framing_mod.frame_stream(frames_mod.encode_air(
             cruise_fields(i / FRAME_RATE_HZ, gs), i, utc0 + i / FRAME_RATE_HZ))
         for i in range(s.decode_frames)
     )
@@ -961,7 +962,7 @@ def section_decode(ctx: Context) -> None:
     dt_frame = 1.0 / FRAME_RATE_HZ
 
     def one_pass() -> tuple[float, float, int, dict]:
-        deframer = frames_mod.StreamDeframer()
+        deframer = framing_mod.StreamDeframer()
         decoder = frames_mod.FrameDecoder()
         validator = state_mod.StateValidator()
         accepted = 0

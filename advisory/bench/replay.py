@@ -385,7 +385,7 @@ def load_expected(path: str | Path) -> list[Expectation]:
     ExpectFileError
         Unreadable, not JSON, or an entry with a bad or missing field (named).
     """
-    from advisory.io.messages import ADV_STATUSES
+    from advisory.schema import ADV_STATUSES
 
     path = Path(path)
     try:
@@ -690,7 +690,7 @@ class _Sender:
     """Sends the recorded input to a transport, framed for it (``--send``)."""
 
     def __init__(self, url: str, framing: str) -> None:
-        from advisory.io.messages import DatagramReader, StreamDeframer
+        from advisory.io.framing import DatagramReader, StreamDeframer
         from advisory.io.transports import TransportError, open_transport
 
         try:
@@ -703,7 +703,7 @@ class _Sender:
         self.errors = 0
 
     def send(self, data: bytes) -> None:
-        from advisory.io.messages import datagram, frame_stream
+        from advisory.io.framing import datagram, frame_stream
         from advisory.io.transports import TransportError
 
         if self.transport.is_stream == (self.framing == "stream"):
@@ -725,7 +725,7 @@ class _Sender:
 
 def _inputs(records: list, framing: str) -> list[tuple[float, float, bytes]]:
     """(mono, utc, bytes) to feed: raw input records, else re-framed payload records."""
-    from advisory.io.messages import datagram, frame_stream
+    from advisory.io.framing import datagram, frame_stream
     from advisory.io.records import KIND_INPUT, KIND_RAW_INPUT
 
     raw = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_RAW_INPUT]

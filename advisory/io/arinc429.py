@@ -21,8 +21,8 @@ most significant data bit in bit 28 worth ``range / 2``; the resolution is
 ``range / 2**sig_bits``; bit 29 is the sign (two's complement).
 
 The label map (which label feeds which wire field, with its encoding and scaling) comes
-from a TOML file (see :func:`parse_label_map` and ``docs/interface.md``); defaults
-cover the usual air-data labels.
+from a TOML file (read by :mod:`advisory.io.arinc429_labels`; format in
+``docs/interface.md``); defaults cover the usual air-data labels.
 
 References
 ----------
@@ -35,17 +35,13 @@ must confirm them against the equipment's own interface description.
 
 from __future__ import annotations
 
-import sys
 import time
-from collections.abc import Mapping
 from dataclasses import dataclass, field
-from pathlib import Path
-from typing import Any, NamedTuple
+from typing import Literal, NamedTuple
 
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
+from advisory.schema import STALE_AFTER_S
+
+ByteOrder = Literal["big", "little"]  #: how a 4-byte word sits in a frame payload
 
 SSM_FAILURE = 0b00  #: BNR: failure warning
 SSM_NCD = 0b01  #: no computed data (BNR and BCD)
@@ -54,11 +50,6 @@ SSM_NORMAL = 0b11  #: BNR: normal operation
 SSM_BCD_PLUS = 0b00  #: BCD: plus, north, east, right, to, above
 SSM_BCD_MINUS = 0b11  #: BCD: minus, south, west, left, from, below
 
-#: Wire fields a label may feed (the air-data names of ``docs/interface.md``).
-FIELDS = (
-    "lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg", "fpa_deg",
-    "track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt",
-)
 COUNTERS = (
     "words", "accepted", "bad_parity", "ssm_failure", "ssm_ncd", "ssm_test",
     "unknown_label", "sdi_mismatch", "bad_bcd", "bad_payload",
@@ -217,7 +208,7 @@ class LabelSpec:
     label : int
         Label number (``0o203``).
     field : str
-        Wire field name it feeds (one of :data:`FIELDS`).
+        Wire field name it feeds (one of :data:`advisory.schema.AIR_FIELDS`).
     encoding : str
         ``"bnr"`` or ``"bcd"``.
     sig_bits : int
@@ -251,6 +242,7 @@ class LabelSpec:
 
     def value(self, word: int) -> float | None:
         """The field value carried by ``word`` (None for an invalid BCD digit)."""
+        v: float | None
         if self.encoding == "bnr":
             v = bnr_value(word, self.sig_bits, self.range)
         else:
@@ -301,121 +293,11 @@ class LabelMap:
     """
 
     labels: dict[int, LabelSpec] = field(default_factory=lambda: dict(DEFAULT_LABELS))
-    byte_order: str = "big"
+    byte_order: ByteOrder = "big"
     label_bit_reversed: bool = True
 
 
-_SPEC_KEYS = {"field", "encoding", "sig_bits", "range", "digits", "resolution", "sdi",
-              "wrap_360", "scale", "offset"}
-
-
-def parse_label_map(text: str, source: str = "label map") -> LabelMap:
-    """Read a TOML label map.
-
-    The format (all top-level keys optional)::
-
-        byte_order = "big"          # or "little"
-        label_bit_reversed = true
-        replace_defaults = false    # true: only the labels below
-        [labels.203]
-        field = "alt_ft"
-        encoding = "bnr"            # or "bcd"
-        sig_bits = 17
-        range = 131072.0
-        # bcd: digits = 5, resolution = 1.0; any: sdi = 1, wrap_360 = true,
-        # scale = 1.0, offset = 0.0
-
-    Raises
-    ------
-    ValueError
-        Any bad entry; the message names the source, the label and the key.
-    """
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ValueError(f"{source}: not valid TOML: {exc}") from None
-    unknown = set(doc) - {"byte_order", "label_bit_reversed", "replace_defaults", "labels"}
-    if unknown:
-        raise ValueError(f"{source}: unknown key {sorted(unknown)[0]!r}")
-    order = doc.get("byte_order", "big")
-    if order not in ("big", "little"):
-        raise ValueError(f"{source}: byte_order must be 'big' or 'little', got {order!r}")
-    reversed_ = doc.get("label_bit_reversed", True)
-    if not isinstance(reversed_, bool):
-        raise ValueError(f"{source}: label_bit_reversed must be true or false, "
-                         f"got {reversed_!r}")
-    labels = {} if doc.get("replace_defaults", False) else dict(DEFAULT_LABELS)
-    entries = doc.get("labels", {})
-    if not isinstance(entries, Mapping):
-        raise ValueError(f"{source}: [labels] must be a table")
-    for key, entry in entries.items():
-        where = f"{source}: label {key}"
-        try:
-            num = label_from_octal(key)
-        except ValueError as exc:
-            raise ValueError(f"{where}: {exc}") from None
-        if not isinstance(entry, Mapping):
-            raise ValueError(f"{where}: must be a table")
-        bad = set(entry) - _SPEC_KEYS
-        if bad:
-            raise ValueError(f"{where}: unknown key {sorted(bad)[0]!r}")
-        labels[num] = _spec_from_entry(num, entry, where)
-    return LabelMap(labels, order, reversed_)
-
-
-def _spec_from_entry(num: int, e: Mapping[str, Any], where: str) -> LabelSpec:
-    name = e.get("field")
-    if name not in FIELDS:
-        raise ValueError(f"{where}: field must be one of {', '.join(FIELDS)}, got {name!r}")
-    enc = e.get("encoding", "bnr")
-    if enc not in ("bnr", "bcd"):
-        raise ValueError(f"{where}: encoding must be 'bnr' or 'bcd', got {enc!r}")
-
-    def num_of(key: str, default: float, kind: type = float) -> Any:
-        v = e.get(key, default)
-        if isinstance(v, bool) or not isinstance(v, (int, float)) or (
-                kind is int and not isinstance(v, int)):
-            raise ValueError(f"{where}: {key} must be a {kind.__name__}, got {v!r}")
-        return kind(v)
-
-    sig = num_of("sig_bits", 18, int)
-    if not 1 <= sig <= 20:
-        raise ValueError(f"{where}: sig_bits must be 1..20, got {sig}")
-    digits = num_of("digits", 5, int)
-    if not 1 <= digits <= 5:
-        raise ValueError(f"{where}: digits must be 1..5, got {digits}")
-    rng = num_of("range", 1.0)
-    res = num_of("resolution", 1.0)
-    if enc == "bnr" and "range" not in e:
-        raise ValueError(f"{where}: a bnr label needs range")
-    if rng <= 0 or res <= 0:
-        raise ValueError(f"{where}: range and resolution must be positive")
-    sdi = e.get("sdi")
-    if sdi is not None and (isinstance(sdi, bool) or sdi not in (0, 1, 2, 3)):
-        raise ValueError(f"{where}: sdi must be 0..3, got {sdi!r}")
-    if sdi is not None and enc == "bnr" and sig > 18:
-        raise ValueError(f"{where}: sdi cannot be checked when sig_bits > 18 (bits 9-10 "
-                         "carry data)")
-    wrap = e.get("wrap_360", False)
-    if not isinstance(wrap, bool):
-        raise ValueError(f"{where}: wrap_360 must be true or false, got {wrap!r}")
-    return LabelSpec(num, name, enc, sig, rng, digits, res, sdi, wrap,
-                     num_of("scale", 1.0), num_of("offset", 0.0))
-
-
-def load_label_map(path: str | Path | None = None) -> LabelMap:
-    """The label map from a TOML file, or the defaults when ``path`` is None."""
-    if path is None:
-        return LabelMap()
-    p = Path(path)
-    try:
-        text = p.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise ValueError(f"cannot read ARINC 429 label map {str(p)!r}: {exc}") from None
-    return parse_label_map(text, source=str(p))
-
-
-def words_from_payload(payload: bytes, byte_order: str = "big") -> list[int]:
+def words_from_payload(payload: bytes, byte_order: ByteOrder = "big") -> list[int]:
     """Split a frame payload into 32-bit words (4 bytes each, ``byte_order``).
 
     Raises
@@ -429,7 +311,7 @@ def words_from_payload(payload: bytes, byte_order: str = "big") -> list[int]:
     return [int.from_bytes(payload[i:i + 4], byte_order) for i in range(0, n, 4)]
 
 
-def payload_from_words(words: list[int], byte_order: str = "big") -> bytes:
+def payload_from_words(words: list[int], byte_order: ByteOrder = "big") -> bytes:
     """Pack 32-bit words into a frame payload (inverse of :func:`words_from_payload`)."""
     return b"".join((w & 0xFFFFFFFF).to_bytes(4, byte_order) for w in words)
 
@@ -452,7 +334,7 @@ class Arinc429Assembler:
         Monotonic time of the most recent accepted word.
     """
 
-    def __init__(self, label_map: LabelMap | None = None, max_age_s: float = 0.5) -> None:
+    def __init__(self, label_map: LabelMap | None = None, max_age_s: float = STALE_AFTER_S) -> None:
         self.label_map = label_map or LabelMap()
         self.max_age_s = max_age_s
         self.counters: dict[str, int] = dict.fromkeys(COUNTERS, 0)

@@ -21,9 +21,10 @@ Networking 7(2), 159-172, 1999 (code-block definition, reference encoder and dec
 
 Notes
 -----
-``cobs_decode_kernel`` is a numba ``njit(cache=True)`` kernel over plain buffers;
-``cobs_decode_py`` is its plain-Python twin (parity test). The encoder runs at the
-output rate only and is plain Python built on ``bytes.split``.
+``cobs_decode_into`` is a numba ``njit(cache=True)`` kernel over plain buffers, the
+package's one COBS decoder (its plain-Python twin, ``cobs_decode_twin`` in
+``tests/twins/cobs.py``, is checked against it by a parity test). The encoder runs at
+the output rate only and is plain Python built on ``bytes.split``.
 """
 
 from __future__ import annotations
@@ -90,8 +91,11 @@ def cobs_encode(data: bytes | bytearray | memoryview) -> bytes:
 
 
 @njit(cache=True)
-def cobs_decode_kernel(src, start, end, dst):  # pragma: no cover - compiled
-    """Decode COBS ``src[start:end]`` into ``dst``.
+def cobs_decode_into(src, start, end, dst, base, cap):  # pragma: no cover - compiled
+    """Decode COBS ``src[start:end]`` into ``dst[base:base + cap]``.
+
+    The one COBS decoder of the package: :func:`cobs_decode` and the stream deframer
+    (:func:`advisory.io.framing.unstuff_check_kernel`) both use it.
 
     Parameters
     ----------
@@ -101,41 +105,52 @@ def cobs_decode_kernel(src, start, end, dst):  # pragma: no cover - compiled
         Half-open range of the encoded frame inside ``src``.
     dst : ndarray of uint8
         Output buffer.
+    base, cap : int
+        Where the decoded bytes start in ``dst``, and how many may be written.
 
     Returns
     -------
     int
-        Decoded length (>= 0), or a negative error code: -1 empty, -2 zero byte,
-        -3 truncated block, -4 output buffer too small.
+        Decoded length (>= 0), or a negative error code: :data:`ERR_EMPTY`,
+        :data:`ERR_ZERO_BYTE`, :data:`ERR_TRUNCATED` (a code byte points past the end;
+        checked before room), :data:`ERR_NO_ROOM` (more than ``cap`` bytes).
     """
     if end <= start:
-        return -1
-    cap = dst.shape[0]
+        return ERR_EMPTY
     i = start
     n = 0
     while i < end:
         code = src[i]
         if code == 0:
-            return -2
+            return ERR_ZERO_BYTE
         i += 1
         k = code - 1
         if i + k > end:
-            return -3
+            return ERR_TRUNCATED
         if n + k > cap:
-            return -4
+            return ERR_NO_ROOM
         for j in range(k):
             b = src[i + j]
             if b == 0:
-                return -2
-            dst[n + j] = b
+                return ERR_ZERO_BYTE
+            dst[base + n + j] = b
         n += k
         i += k
         if code != 0xFF and i < end:
             if n >= cap:
-                return -4
-            dst[n] = 0
+                return ERR_NO_ROOM
+            dst[base + n] = 0
             n += 1
     return n
+
+
+@njit(cache=True)
+def cobs_decode_kernel(src, start, end, dst):  # pragma: no cover - compiled
+    """Decode COBS ``src[start:end]`` into ``dst`` (from index 0, up to its length).
+
+    Returns the decoded length, or a negative error code of :func:`cobs_decode_into`.
+    """
+    return cobs_decode_into(src, start, end, dst, 0, dst.shape[0])
 
 
 def cobs_decode(data: bytes | bytearray | memoryview) -> bytes:
@@ -163,30 +178,6 @@ def cobs_decode(data: bytes | bytearray | memoryview) -> bytes:
     if n < 0:
         raise CobsError(_ERR_TEXT[int(n)])
     return dst[:n].tobytes()
-
-
-def cobs_decode_py(data: bytes | bytearray | memoryview) -> bytes:
-    """Plain-Python twin of :func:`cobs_decode` (same results and errors)."""
-    src = bytes(data)
-    if not src:
-        raise CobsError(_ERR_TEXT[ERR_EMPTY])
-    out = bytearray()
-    i, end = 0, len(src)
-    while i < end:
-        code = src[i]
-        if code == 0:
-            raise CobsError(_ERR_TEXT[ERR_ZERO_BYTE])
-        i += 1
-        block = src[i:i + code - 1]
-        if len(block) != code - 1:
-            raise CobsError(_ERR_TEXT[ERR_TRUNCATED])
-        if 0 in block:
-            raise CobsError(_ERR_TEXT[ERR_ZERO_BYTE])
-        out += block
-        i += code - 1
-        if code != 0xFF and i < end:
-            out.append(0)
-    return bytes(out)
 
 
 def cobs_error_text(code: int) -> str:

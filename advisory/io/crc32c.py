@@ -13,8 +13,8 @@ with 24 and 32 parity bits", IEEE Trans. Communications 41(6), 1993 (the polynom
 Notes
 -----
 ``crc32c_kernel`` is a numba ``njit(cache=True)`` slicing-by-8 loop over a plain byte
-buffer (``bytes`` or a ``uint8`` array); ``crc32c_py`` is its plain-Python byte-wise
-twin, used by the parity test and as the readable definition.
+buffer (``bytes`` or a ``uint8`` array); its plain-Python byte-wise twin, the readable
+definition, is ``crc32c_twin`` in ``tests/twins/crc32c.py`` (parity test).
 """
 
 from __future__ import annotations
@@ -49,7 +49,6 @@ def _make_tables() -> np.ndarray:
 
 TABLES = _make_tables()
 TABLE = TABLES[0].copy()  #: the byte-wise table (also used by the C binding)
-_TABLE_PY = tuple(int(x) for x in TABLE)
 
 
 @njit(cache=True)
@@ -115,12 +114,3 @@ def crc32c(data: bytes | bytearray | memoryview, crc: int = 0) -> int:
     if type(data) is not bytes:
         data = bytes(data)
     return int(crc32c_kernel(data, 0, len(data), crc))
-
-
-def crc32c_py(data: bytes | bytearray | memoryview, crc: int = 0) -> int:
-    """Plain-Python twin of :func:`crc32c` (same result, slower), for parity tests."""
-    table = _TABLE_PY
-    c = (crc ^ 0xFFFFFFFF) & 0xFFFFFFFF
-    for b in bytes(data):
-        c = table[(c ^ b) & 0xFF] ^ (c >> 8)
-    return c ^ 0xFFFFFFFF

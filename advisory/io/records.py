@@ -32,6 +32,7 @@ file with a torn tail is safe for the same reason.
 
 from __future__ import annotations
 
+import json
 import mmap
 import os
 import struct
@@ -41,7 +42,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, NamedTuple
 
-import msgpack
+import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 
 from advisory.io.crc32c import crc32c
 from advisory.schema import EVENT_FIELDS
@@ -110,8 +111,6 @@ _V1_PREFIXES = (
 
 
 def _decode_v1_event(text: str) -> Event:
-    import json
-
     if text.startswith("start {") or text.startswith("stats {"):
         try:
             doc = json.loads(text[6:])
@@ -422,6 +421,8 @@ class RecordReader:
     def _valid_at(self, pos: int) -> int:
         """End offset of a complete, CRC-good record at ``pos``, or -1."""
         mm = self._mm
+        if mm is None:  # closed
+            return -1
         end = len(mm)
         if end - pos < RECORD_OVERHEAD or mm[pos:pos + 2] != SYNC:
             return -1

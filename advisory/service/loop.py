@@ -39,20 +39,12 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from advisory.io.arinc429 import Arinc429Assembler, LabelMap, load_label_map
-from advisory.io.messages import (
-    DECODE_REASONS,
-    LINK_COUNTERS,
-    MAX_COUNTERS,
-    REASON_MAX_BYTES,
-    DatagramReader,
-    FrameDecoder,
-    StreamDeframer,
-    encode_adv,
-    encode_status,
-    next_seq,
-)
+from advisory.io.arinc429 import Arinc429Assembler, LabelMap
+from advisory.io.arinc429_labels import load_label_map
+from advisory.io.framing import DatagramReader, StreamDeframer
+from advisory.io.messages import FrameDecoder, encode_adv, encode_status, next_seq
 from advisory.pipeline.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator
+from advisory.schema import DECODE_REASONS, LINK_COUNTERS, MAX_COUNTERS, REASON_MAX_BYTES
 
 if TYPE_CHECKING:  # pragma: no cover
     from advisory.io.records import Recorder

@@ -2,9 +2,10 @@
  * boom_wire.h - the boom-advisory wire format for the other side of the link.
  *
  * C99, libc only. Encodes air-data frames and decodes advisory, status (and air-data)
- * frames byte for byte as the Python package does (advisory/wire/frames.py), with the
- * same framing: COBS + CRC-32C + 0x00 delimiter on byte streams, payload + CRC-32C in
- * one UDP datagram. The interface control document is docs/interface.md.
+ * frames byte for byte as the Python package does (advisory/io/messages.py), with the
+ * same framing (advisory/io/framing.py): COBS + CRC-32C + 0x00 delimiter on byte
+ * streams, payload + CRC-32C in one UDP datagram. The interface control document is
+ * docs/interface.md.
  *
  * ADVISORY AID ONLY: boom-advisory is not certified flight software. Local regulations
  * and licensed practice govern supersonic flight.

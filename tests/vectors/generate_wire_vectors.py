@@ -17,7 +17,8 @@ from pathlib import Path
 
 import msgpack
 
-from advisory.io.messages import datagram, encode_adv, encode_air, encode_status, frame_stream
+from advisory.io.framing import datagram, frame_stream
+from advisory.io.messages import encode_adv, encode_air, encode_status
 
 OUT = Path(__file__).with_name("wire_vectors.json")
 

@@ -72,7 +72,12 @@ from advisory.physics.ray_kernels import (
 )
 from advisory.physics.rays import MACH_LIMIT, FlightCondition, FlightConditionError, RayTracer
 from advisory.physics.shocks import signature_kernel
-from advisory.physics.signature import EDGE_GRAZING_SINE, REFLECTION_FACTOR_RANGE
+from advisory.physics.signature import (
+    EDGE_GRAZING_SINE,
+    PRESSURE_RANGE_PA,
+    REFLECTION_FACTOR_RANGE,
+    SOUND_SPEED_RANGE_MPS,
+)
 
 # Per-ray result columns written by :func:`ray_ground_kernel` / :func:`column_kernel`.
 R_X = 0  #: ground offset east of the emission point, m
@@ -471,8 +476,10 @@ def trace_column(tracer: RayTracer, aircraft: Aircraft, altitude_m: float, headi
         return None
     s0 = atm.at(altitude_m)
     c0, w0x, w0y, p0 = s0.sound_speed_mps, s0.wind_east_mps, s0.wind_north_mps, s0.pressure_pa
+    lo_c, hi_c = SOUND_SPEED_RANGE_MPS
+    lo_p, hi_p = PRESSURE_RANGE_PA
     lo_r, hi_r = REFLECTION_FACTOR_RANGE
-    if not (150.0 <= c0 <= 450.0 and 1.0 <= p0 <= 2.0e5 and lo_r <= reflection_factor <= hi_r):
+    if not (lo_c <= c0 <= hi_c and lo_p <= p0 <= hi_p and lo_r <= reflection_factor <= hi_r):
         return None
     lz, lc, lwx, lwy = tracer.levels(altitude_m, ground_elevation_m)
     lz, lc, lwx, lwy = (np.ascontiguousarray(a) for a in (lz, lc, lwx, lwy))

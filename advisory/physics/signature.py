@@ -47,6 +47,10 @@ from advisory.physics.shocks import signature_kernel
 DEFAULT_REFLECTION_FACTOR = 1.9
 #: Accepted reflection factors: 1 (no reflection) to 2 (rigid flat ground).
 REFLECTION_FACTOR_RANGE = (1.0, 2.0)
+#: Accepted sound speed (m/s) and pressure (Pa) at the aircraft, and load factor.
+SOUND_SPEED_RANGE_MPS = (150.0, 450.0)
+PRESSURE_RANGE_PA = (1.0, 2.0e5)
+LOAD_FACTOR_RANGE = (0.0, 9.0)
 #: Cap of the focus-boom amplification factor. Focus booms ("superbooms") of 2-5
 #: times the steady carpet level are commonly quoted; the cap takes the upper end so
 #: that an advisory does not understate a focus (value from memory).
@@ -153,9 +157,9 @@ def ground_signature(aircraft: Aircraft, ray: RayPath, mach: float, c0: float, p
         of range.
     """
     _check("mach", mach, 1.0, MACH_LIMIT)
-    _check("c0", c0, 150.0, 450.0)
-    _check("p0", p0, 1.0, 2.0e5)
-    _check("load_factor", load_factor, 0.0, 9.0)
+    _check("c0", c0, *SOUND_SPEED_RANGE_MPS)
+    _check("p0", p0, *PRESSURE_RANGE_PA)
+    _check("load_factor", load_factor, *LOAD_FACTOR_RANGE)
     _check("reflection_factor", reflection_factor, *REFLECTION_FACTOR_RANGE)
     if mach <= 1.0 or not ray.reaches_ground or ray.t_s.size < 2:
         return _no_boom()

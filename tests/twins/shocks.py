@@ -47,7 +47,11 @@ def shock_fit_twin(y: np.ndarray, f: np.ndarray, area: np.ndarray, age: float,
 
 def _shock_fit(y: np.ndarray, f: np.ndarray, area: np.ndarray,
                age: float) -> tuple[np.ndarray, float, float]:
-    """The construction of :func:`shock_fit_twin`; returns (shocks, f_max, f_min)."""
+    """The construction of :func:`shock_fit_twin`; returns (shocks, f_max, f_min).
+
+    One function from tangents to hull to merge (a little over 80 lines), like the
+    kernel, so that a reader follows the construction top to bottom.
+    """
     y = np.asarray(y, dtype=float)
     f = np.asarray(f, dtype=float)
     area = np.asarray(area, dtype=float)

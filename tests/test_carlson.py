@@ -12,7 +12,9 @@ from advisory.physics import carlson as cm
 from advisory.physics import signature as sig
 from advisory.physics.aircraft import aircraft_from_dict, default_aircraft
 from advisory.physics.atmosphere import GAMMA, R_AIR, Atmosphere
+from advisory.physics.ffunction import f_function_parts
 from advisory.physics.rays import FlightCondition, RayTracer
+from advisory.physics.shocks import age_integral_kernel
 
 
 def uniform_atmosphere(c: float = 300.0, p: float = 20000.0) -> Atmosphere:
@@ -68,8 +70,8 @@ def test_pressure_factor_agrees_with_the_ray_tracer(std_atm, tracer):
     # and the full ray tracer plus the signature module's age integral.
     for mach, alt in ((1.3, 9000.0), (2.0, 15000.0), (2.4, 18000.0)):
         ray = tracer.trace(FlightCondition(mach=mach, altitude_m=alt), 0.0)
-        integral, _ = sig.age_integral_numpy(ray.t_s, ray.amplitude_factor,
-                                             ray.density_kgm3, ray.sound_speed_mps)
+        integral, _ = age_integral_kernel(ray.t_s, ray.amplitude_factor, ray.density_kgm3,
+                                          ray.sound_speed_mps, ray.t_s.size)
         v = std_atm.at(alt)
         age = mach * v.sound_speed_mps * integral
         beta = math.sqrt(mach**2 - 1)
@@ -104,7 +106,7 @@ def test_shape_factor_lift_part_matches_the_numerical_f_function(demo):
         "volume": {"max_area_m2": 1e-6 * demo.length_m**2},
         "lift": {"start_station": demo.lift_start_station,
                  "end_station": demo.lift_end_station}}), mach, p)
-    parts = sig.f_function_parts(demo)
+    parts = f_function_parts(demo)
     b = demo.lift_area_total(mach, p)
     lobe = float(np.max(b * parts.area_lift_unit))
     assert ks == pytest.approx(cm.WHITHAM_CONSTANT * math.sqrt(lobe) / demo.length_m**0.75,

@@ -19,8 +19,9 @@ from advisory.physics import carpet
 from advisory.physics import fastpath as fp
 from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import ProfileLevel, atmosphere_from_levels, standard_atmosphere
+from advisory.physics.ffunction import f_function_parts
 from advisory.physics.rays import FlightCondition, FlightConditionError, RayTracer
-from advisory.physics.signature import f_function_parts, ground_signature
+from advisory.physics.signature import ground_signature
 from advisory.tables import lookup as lk
 from advisory.tables.build import BuildInputs, build_column, build_column_reference
 from advisory.tables.grid import DEFAULT_MACH_EXCESS, TableGrid
@@ -122,11 +123,11 @@ def test_bisection_kernels_match_carpet(wind_case) -> None:
     lz, lc, lwx, lwy = tracer.levels(alt, 0.0)
     args = (c0, w0x, w0y, lc.copy(), lwx.copy(), lwy.copy(), lz.size)
     # Twin parity with advisory.physics.carpet (no outside source).
-    cut = fp.cutoff_mach_kernel(hdg, fpa, *args, fp._PHI_SCAN, carpet.MACH_TOL,
+    cut = fp.cutoff_mach_kernel(hdg, fpa, *args, fp.PHI_SCAN, carpet.MACH_TOL,
                                 carpet.MACH_SEARCH_MAX)
     assert cut == carpet.cutoff_mach(tracer, fc)
     fc = FlightCondition(cut + 0.05, alt, hdg, fpa)
-    phi_in, margin = fp.best_reaching_azimuth_kernel(fc.mach, hdg, fpa, *args, fp._PHI_SCAN)
+    phi_in, margin = fp.best_reaching_azimuth_kernel(fc.mach, hdg, fpa, *args, fp.PHI_SCAN)
     assert (phi_in, margin) == carpet.best_reaching_azimuth(tracer, fc)
     for side in (-1, 1):
         got = fp.lateral_cutoff_kernel(fc.mach, hdg, fpa, *args, phi_in, side,

@@ -9,17 +9,23 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from advisory.physics.atmosphere import Z_MAX_M, Z_MIN_M
-from advisory.physics.rays import (
-    FlightCondition,
-    FlightConditionError,
-    RayTracer,
+from advisory.physics.ray_kernels import (
     emission_slowness,
-    levels_numpy,
+    near_field_constant,
     ray_levels_kernel,
+    reaches_ground_kernel,
+    trace_ground_kernel,
     trace_levels_kernel,
-    trace_levels_numpy,
 )
+from advisory.physics.rays import FlightCondition, FlightConditionError, RayTracer
 from tests.conftest import make_atmosphere
+from tests.twins.ray_kernels import (
+    near_field_constant_twin,
+    ray_levels_twin,
+    reaches_ground_twin,
+    trace_ground_twin,
+    trace_levels_twin,
+)
 
 GRID = np.arange(Z_MIN_M, Z_MAX_M + 1.0, 20.0)
 
@@ -141,28 +147,31 @@ def test_numba_and_numpy_twins_agree(std_atm) -> None:
     # Parity: the numba kernels and their numpy twins implement the same scheme.
     atm = smooth_windy_atmosphere()
     z = np.ascontiguousarray(atm.z_m)
+    args = (z, atm.sound_speed_mps, atm.wind_east_mps, atm.wind_north_mps, 15123.4, 250.0)
     n = z.size + 2
     bufs = [np.empty(n) for _ in range(4)]
-    m = ray_levels_kernel(z, atm.sound_speed_mps, atm.wind_east_mps, atm.wind_north_mps,
-                          15123.4, 250.0, *bufs)
-    lz, lc, lwx, lwy = levels_numpy(atm, 15123.4, 250.0)
-    assert m == lz.size
-    for got, want in zip(bufs, (lz, lc, lwx, lwy), strict=True):
-        np.testing.assert_allclose(got[:m], want, rtol=1e-13, atol=1e-12)
+    twin_bufs = [np.empty(n) for _ in range(4)]
+    m = ray_levels_kernel(*args, *bufs)
+    assert m == ray_levels_twin(*args, *twin_bufs)
+    for got, want in zip(bufs, twin_bufs, strict=True):
+        np.testing.assert_allclose(got[:m], want[:m], rtol=1e-13, atol=1e-12)
+    lz, lc, lwx, lwy = (b[:m] for b in bufs)
     for phi in (-0.6, 0.0, 0.3, 0.7):
         c0, w0x, w0y = lc[0], lwx[0], lwy[0]
-        sx, sy, _, _, _ = emission_slowness(1.9, 0.4, 0.02, phi, c0, w0x, w0y)
+        sx, sy, _, dsx, dsy = emission_slowness(1.9, 0.4, 0.02, phi, c0, w0x, w0y)
         out = np.zeros((m, 9))
+        out2 = np.zeros((m, 9))
         cnt = trace_levels_kernel(lz, lc, lwx, lwy, m, sx, sy, out)
-        cnt2, out2 = trace_levels_numpy(lz, lc, lwx, lwy, sx, sy)
-        assert cnt == cnt2
+        assert cnt == trace_levels_twin(lz, lc, lwx, lwy, m, sx, sy, out2)
         np.testing.assert_allclose(out[:cnt], out2[:cnt], rtol=1e-10, atol=1e-9)
-    fc = FlightCondition(2.0, 16000.0, 1.0, 0.0, 0.0)
-    a = RayTracer(atm).trace(fc, 0.4)
-    b = RayTracer(atm, use_numba=False).trace(fc, 0.4)
-    np.testing.assert_allclose(a.amplitude_factor[1:], b.amplitude_factor[1:], rtol=1e-9)
-    assert RayTracer(atm).ground_point(fc, 0.4) == pytest.approx(
-        RayTracer(atm, use_numba=False).ground_point(fc, 0.4), rel=1e-10)
+        assert reaches_ground_kernel(lc, lwx, lwy, m, sx, sy) == pytest.approx(
+            reaches_ground_twin(lc, lwx, lwy, m, sx, sy), rel=1e-12, abs=1e-20)
+        assert trace_ground_kernel(lz, lc, lwx, lwy, m, sx, sy) == pytest.approx(
+            trace_ground_twin(lz, lc, lwx, lwy, m, sx, sy), rel=1e-10)
+        near = (340.0, 1.9, math.sqrt(1.9**2 - 1.0), c0, w0x, w0y, 0.2, 15123.4, sx, sy,
+                dsx, dsy, 600.0, 150.0)
+        assert near_field_constant(*near) == pytest.approx(near_field_constant_twin(*near),
+                                                           rel=1e-12)
 
 
 def test_uniform_atmosphere_amplitude_is_whitham_near_field() -> None:

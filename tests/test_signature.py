@@ -11,10 +11,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from advisory import units
+from advisory.physics import ffunction as ff
+from advisory.physics import shocks
 from advisory.physics import signature as sig
 from advisory.physics.aircraft import aircraft_from_dict, default_aircraft
 from advisory.physics.atmosphere import GAMMA, R_AIR, Atmosphere, standard_atmosphere
 from advisory.physics.rays import FlightCondition, RayPath, RayTracer
+from tests.twins.shocks import age_integral_twin, shock_fit_twin, signature_twin
 
 # --------------------------------------------------------------------------------------
 # Helpers
@@ -119,7 +122,7 @@ def test_abel_integrals_exact_for_piecewise_linear_slope():
     # Source: elementary integrals (closed form).
     x = np.linspace(0.0, 2.0, 9)
     y = np.array([0.5, 1.0, 2.0, 3.0, 6.0])
-    f, area = sig.f_function_abel(x, x.copy(), y)
+    f, area = ff.f_function_abel(x, x.copy(), y)
     yy = np.maximum(y - 2.0, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):
         f_ref = (2 * np.sqrt(y) - 2 * np.sqrt(yy) - np.where(yy > 0, 2 / np.sqrt(yy), 0)) / (
@@ -136,7 +139,7 @@ def test_abel_integrals_exact_for_piecewise_linear_slope():
 def test_f_function_of_parabolic_body_matches_closed_form():
     # Whitham 1952, parabolic body of revolution (closed form in parabolic_closed_form).
     length, smax = 30.0, 2.7
-    parts = sig.f_function_parts(parabolic_body(length, smax))
+    parts = ff.f_function_parts(parabolic_body(length, smax))
     f_ref, y0, lobe = parabolic_closed_form(length, smax)
     body = parts.y_m <= length
     err = np.max(np.abs(parts.f_volume[body] - f_ref(parts.y_m[body])))
@@ -146,8 +149,8 @@ def test_f_function_of_parabolic_body_matches_closed_form():
 
 
 def test_f_function_total_is_volume_plus_scaled_lift(demo):
-    y, f, area = sig.f_function(demo, 1.6, 12000.0, load_factor=1.5)
-    parts = sig.f_function_parts(demo)
+    y, f, area = ff.f_function(demo, 1.6, 12000.0, load_factor=1.5)
+    parts = ff.f_function_parts(demo)
     b = demo.lift_area_total(1.6, 12000.0, 1.5)
     assert np.allclose(f, parts.f_volume + b * parts.f_lift_unit)
     # A is the running integral of F (trapezoid rule on the fine body grid).
@@ -167,7 +170,7 @@ def test_age_in_uniform_atmosphere_is_whithams_shift(mach):
     # Whitham 1952/1956: characteristics shift by k F sqrt(r), k = (gamma+1) M^4 /
     # sqrt(2 beta^3); the age integral must reproduce k sqrt(r) (exact scheme).
     ray = uniform_ray(mach, 15000.0)
-    integral, last = sig.age_integral_kernel(ray.t_s, ray.amplitude_factor,
+    integral, last = shocks.age_integral_kernel(ray.t_s, ray.amplitude_factor,
                                              ray.density_kgm3, ray.sound_speed_mps,
                                              ray.t_s.size)
     beta = math.sqrt(mach**2 - 1)
@@ -184,7 +187,7 @@ def test_triangular_n_wave_decay_exact(age):
     y = np.linspace(0.0, 6.0, 6001)
     f = np.where(y <= 2.0, 1.0 - y, 0.0)
     area = np.where(y <= 2.0, y - 0.5 * y**2, 0.0)
-    fit = sig.propagate_f_function(y, f, age, area)
+    fit = shocks.propagate_f_function(y, f, age, area)
     s = math.sqrt(1.0 + age)
     assert fit.positions_m.size == 2
     assert fit.bow_position_m == pytest.approx(1.0 - s, abs=2e-3)
@@ -202,11 +205,11 @@ def test_two_n_waves_give_interior_shocks_then_merge():
     f = np.where(y <= 2.0, 1.0 - y, 0.0) + np.where((y >= 3.0) & (y <= 5.0), 4.0 - y, 0.0)
     f[3000] = 0.0  # the second wave starts with a jump right after y = 3
     area = np.concatenate([[0.0], np.cumsum(0.5 * (f[1:] + f[:-1]) * np.diff(y))])
-    fit = sig.propagate_f_function(y, f, 0.5, area)
+    fit = shocks.propagate_f_function(y, f, 0.5, area)
     s = math.sqrt(1.5)
     assert fit.positions_m.size == 4 and fit.interior_count == 2
     assert np.allclose(fit.positions_m, [1 - s, 1 + s, 4 - s, 4 + s], atol=5e-3)
-    merged = sig.propagate_f_function(y, f, 20.0, area)
+    merged = shocks.propagate_f_function(y, f, 20.0, area)
     assert merged.positions_m.size in (2, 3)
     assert merged.bow_position_m == pytest.approx(1.0 - math.sqrt(21.0), abs=5e-2)
 
@@ -214,7 +217,7 @@ def test_two_n_waves_give_interior_shocks_then_merge():
 def test_no_ageing_keeps_the_linear_signature():
     y = np.linspace(0.0, 4.0, 401)
     f = np.sin(np.pi * y / 2.0) * (y <= 4.0)
-    fit = sig.propagate_f_function(y, f, 0.0)
+    fit = shocks.propagate_f_function(y, f, 0.0)
     assert fit.f_max == pytest.approx(1.0, abs=1e-9)
     assert fit.f_min == pytest.approx(-1.0, abs=1e-9)
     assert fit.bow_position_m == 0.0 and fit.bow_jump == 0.0
@@ -488,13 +491,16 @@ def test_shock_fit_kernel_matches_python_twin(values, age, spacing):
     y = np.cumsum(np.full(n, spacing)) - spacing
     f = np.array(values)
     f[0] = 0.0
-    a = sig.propagate_f_function(y, f, age, use_numba=True)
-    b = sig.propagate_f_function(y, f, age, use_numba=False)
-    assert np.allclose(a.positions_m, b.positions_m, rtol=1e-12, atol=1e-12)
-    assert np.allclose(a.f_ahead, b.f_ahead, rtol=1e-12, atol=1e-12)
-    assert np.allclose(a.f_behind, b.f_behind, rtol=1e-12, atol=1e-12)
-    assert a.f_max == pytest.approx(b.f_max, abs=1e-12)
-    assert a.f_min == pytest.approx(b.f_min, abs=1e-12)
+    area = np.concatenate([[0.0], np.cumsum(0.5 * (f[1:] + f[:-1]) * np.diff(y))])
+    out_k = np.empty((n + 2, 3))
+    out_t = np.empty((n + 2, 3))
+    rows, f_max, f_min = shocks.shock_fit_kernel(y, f, area, age, out_k)
+    rows_t, f_max_t, f_min_t = shock_fit_twin(y, f, area, age, out_t)
+    assert rows == rows_t
+    assert np.allclose(out_k[:rows], out_t[:rows], rtol=1e-12, atol=1e-12)
+    assert f_max == pytest.approx(f_max_t, abs=1e-12)
+    assert f_min == pytest.approx(f_min_t, abs=1e-12)
+    a = shocks.propagate_f_function(y, f, age)
     for v in (a.f_max, a.f_min, *a.positions_m):
         assert math.isfinite(v)
     assert a.f_max >= a.f_min
@@ -507,21 +513,29 @@ def test_age_integral_kernel_matches_numpy_twin(ray_set):
         args = (ray.t_s, ray.amplitude_factor, ray.density_kgm3, ray.sound_speed_mps)
         if ray.t_s.size == 0:
             continue
-        k_int, k_last = sig.age_integral_kernel(*args, ray.t_s.size)
-        n_int, n_last = sig.age_integral_numpy(*args)
+        k_int, k_last = shocks.age_integral_kernel(*args, ray.t_s.size)
+        n_int, n_last = age_integral_twin(*args, ray.t_s.size)
         assert k_last == n_last
         assert k_int == pytest.approx(n_int, rel=1e-12)
 
 
-def test_ground_signature_numba_matches_twin(demo, ray_set):
+def test_signature_kernel_matches_twin(demo, ray_set):
+    # Parity of the fused per-ray kernel that ground_signature runs with its twin.
+    parts = ff.f_function_parts(demo)
     for mach, c0, p0, ray in ray_set:
-        a = sig.ground_signature(demo, ray, mach, c0, p0, use_numba=True)
-        b = sig.ground_signature(demo, ray, mach, c0, p0, use_numba=False)
-        for name in ("overpressure_pa", "bow_shock_pa", "tail_shock_pa", "duration_s",
-                     "arrival_s", "age_m05"):
-            assert getattr(a, name) == pytest.approx(getattr(b, name), rel=1e-10, abs=1e-12)
-        assert (a.caustic, a.edge, a.reaches_ground, a.interior_shocks) == (
-            b.caustic, b.edge, b.reaches_ground, b.interior_shocks)
+        if ray.t_s.size < 2:
+            continue
+        lift = demo.lift_area_total(mach, p0, 1.0, 0.0, ray.phi_rad)
+        args = (parts.y_m, parts.f_volume, parts.area_volume, parts.f_lift_unit,
+                parts.area_lift_unit, lift, ray.t_s, ray.amplitude_factor, ray.density_kgm3,
+                ray.sound_speed_mps, ray.t_s.size, mach * c0 / ray.omega[0])
+        out_k = np.empty((parts.y_m.size + 2, 3))
+        out_t = np.empty((parts.y_m.size + 2, 3))
+        k = shocks.signature_kernel(*args, out_k)
+        t = signature_twin(*args, out_t)
+        assert (k[0], k[4]) == (t[0], t[4])
+        assert k[1:4] == pytest.approx(t[1:4], rel=1e-10, abs=1e-12)
+        np.testing.assert_allclose(out_k[:k[0]], out_t[:t[0]], rtol=1e-10, atol=1e-12)
 
 
 # --------------------------------------------------------------------------------------

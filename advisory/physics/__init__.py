@@ -1,1 +1,3 @@
-"""Physics: standard atmosphere and profiles, ray tracing, ground signature."""
+"""Physics: atmosphere (standard and profiles), rays (ray_kernels: the scheme; rays: the
+tracer), carpet geometry, aircraft, F-function, ageing and shocks, ground signature,
+Carlson's cross-check, and the table builder's fused fast path."""

@@ -202,9 +202,9 @@ class Aircraft:
     def volume_area(self, x_m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """Volume equivalent area ``S(x)`` (m^2) and its slope ``S'(x)`` (m) at ``x_m``."""
         x = np.asarray(x_m, dtype=float)
-        if self.table_station_m is not None:
-            return _spline_eval(self.table_station_m, self.table_area_m2,
-                                self._table_curvatures(), x)
+        st, ar = self.table_station_m, self.table_area_m2
+        if st is not None and ar is not None:  # both or neither (aircraft_from_dict)
+            return _spline_eval(st, ar, self._table_curvatures(st, ar), x)
         u = np.clip(x / self.length_m, 0.0, 1.0)
         um = self.max_area_station
         p = max(2.0, 2.0 * um / (1.0 - um))
@@ -231,12 +231,12 @@ class Aircraft:
         b, _ = self.lift_area_unit(x_m)
         return s + self.lift_area_total(mach, pressure_pa, load_factor, fpa_rad, phi_rad) * b
 
-    def _table_curvatures(self) -> np.ndarray:
+    def _table_curvatures(self, station_m: np.ndarray, area_m2: np.ndarray) -> np.ndarray:
+        """Spline curvatures of the area table (computed once, then cached)."""
         if "curvatures" not in self._cache:
-            self._cache["curvatures"] = _spline_second_derivatives(
-                self.table_station_m, self.table_area_m2
-            )
-        return self._cache["curvatures"]
+            self._cache["curvatures"] = _spline_second_derivatives(station_m, area_m2)
+        curvatures: np.ndarray = self._cache["curvatures"]
+        return curvatures
 
 
 # --------------------------------------------------------------------------------------
@@ -299,13 +299,23 @@ def _spline_eval(x: np.ndarray, y: np.ndarray, m: np.ndarray,
 
 
 def _number(doc: dict, key: str, where: str, lo: float, hi: float, *, lo_open: bool = True,
-            required: bool = False, default: float | None = None) -> float | None:
-    """Read a number, checking it lies in ``(lo, hi]`` (or ``[lo, hi]``)."""
+            default: float | None = None) -> float:
+    """Read a number, checking it lies in ``(lo, hi]`` (or ``[lo, hi]``); a missing key
+    gives ``default``, or an error when there is none (a required field)."""
+    v = _optional_number(doc, key, where, lo, hi, lo_open=lo_open)
+    if v is not None:
+        return v
+    if default is None:
+        raise AircraftError(f"{where}{key}: missing (required)")
+    return default
+
+
+def _optional_number(doc: dict, key: str, where: str, lo: float, hi: float, *,
+                     lo_open: bool = True) -> float | None:
+    """Like :func:`_number`; ``None`` when the key is missing."""
     name = f"{where}{key}"
     if key not in doc:
-        if required:
-            raise AircraftError(f"{name}: missing (required)")
-        return default
+        return None
     v = doc[key]
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         raise AircraftError(f"{name}: {v!r} is not a number")
@@ -390,8 +400,8 @@ def aircraft_from_dict(doc: dict, source: str = "dict") -> Aircraft:
     name = doc.get("name", "unnamed aircraft")
     if not isinstance(name, str):
         raise AircraftError(f"name: {name!r} is not text")
-    length = _number(doc, "length_m", "", *LENGTH_RANGE_M, required=True)
-    mass = _number(doc, "mass_kg", "", *MASS_RANGE_KG, required=True)
+    length = _number(doc, "length_m", "", *LENGTH_RANGE_M)
+    mass = _number(doc, "mass_kg", "", *MASS_RANGE_KG)
     vol = doc.get("volume", {})
     if "volume" in doc and "equivalent_area" in doc:
         raise AircraftError("equivalent_area: give either [volume] or [equivalent_area], not both")
@@ -418,13 +428,36 @@ def aircraft_from_dict(doc: dict, source: str = "dict") -> Aircraft:
                        default=preset.reference_mach)
     ref_alt = _number(ref, "altitude_m", "reference.", *REFERENCE_ALTITUDE_RANGE_M,
                       default=preset.reference_altitude_m)
-    ks = _number(doc, "carlson_shape_factor", "", *SHAPE_FACTOR_RANGE, default=None)
+    ks = _optional_number(doc, "carlson_shape_factor", "", *SHAPE_FACTOR_RANGE)
     return Aircraft(
         name=name, aircraft_class=cls, length_m=length, mass_kg=mass, max_area_m2=max_area,
         max_area_station=station, lift_start_station=lift_start, lift_end_station=lift_end,
         table_station_m=st, table_area_m2=ar, reference_mach=ref_mach,
         reference_altitude_m=ref_alt, carlson_shape_factor=ks, source=source,
     )
+
+
+def aircraft_document(aircraft: Aircraft) -> dict:
+    """The aircraft in full as a document :func:`aircraft_from_dict` reads back (stored in
+    table headers and cache keys)."""
+    doc: dict = {
+        "name": aircraft.name, "class": aircraft.aircraft_class,
+        "length_m": aircraft.length_m, "mass_kg": aircraft.mass_kg,
+        "lift": {"start_station": aircraft.lift_start_station,
+                 "end_station": aircraft.lift_end_station},
+        "reference": {"mach": aircraft.reference_mach,
+                      "altitude_m": aircraft.reference_altitude_m},
+    }
+    st, ar = aircraft.table_station_m, aircraft.table_area_m2
+    if st is not None and ar is not None:
+        doc["equivalent_area"] = {"station_m": [float(v) for v in st],
+                                  "area_m2": [float(v) for v in ar]}
+    else:
+        doc["volume"] = {"max_area_m2": aircraft.max_area_m2,
+                         "max_area_station": aircraft.max_area_station}
+    if aircraft.carlson_shape_factor is not None:
+        doc["carlson_shape_factor"] = aircraft.carlson_shape_factor
+    return doc
 
 
 def load_aircraft(path: str | Path) -> Aircraft:

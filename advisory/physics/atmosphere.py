@@ -29,8 +29,10 @@ if sys.version_info >= (3, 11):
 else:  # pragma: no cover
     import tomli as tomllib
 
-#: Effective Earth radius used to convert geometric to geopotential altitude, m [1]_.
-EARTH_RADIUS_M = 6356766.0
+#: The Earth radius r0 of the U.S. Standard Atmosphere 1976 for converting geometric to
+#: geopotential altitude, m [1]_ (a convention of the standard, not a geodetic radius:
+#: for distances see :data:`advisory.schema.EARTH_MEAN_RADIUS_M`).
+USSA_EARTH_RADIUS_M = 6356766.0
 #: Specific gas constant of dry air, R*/M0 = 8314.32 / 28.9644, J/(kg K) [1]_.
 R_AIR = 8314.32 / 28.9644
 #: Ratio of specific heats of air [1]_.
@@ -71,12 +73,12 @@ Z_MAX_M = 32000.0
 
 def geopotential_altitude(z_m: np.ndarray | float) -> np.ndarray | float:
     """Geopotential altitude H = r0 z / (r0 + z) from geometric altitude z, m [1]_ eq. 18."""
-    return EARTH_RADIUS_M * np.asarray(z_m) / (EARTH_RADIUS_M + np.asarray(z_m))
+    return USSA_EARTH_RADIUS_M * np.asarray(z_m) / (USSA_EARTH_RADIUS_M + np.asarray(z_m))
 
 
 def geometric_altitude(h_m: np.ndarray | float) -> np.ndarray | float:
     """Geometric altitude z = r0 H / (r0 - H) from geopotential altitude H, m [1]_ eq. 18."""
-    return EARTH_RADIUS_M * np.asarray(h_m) / (EARTH_RADIUS_M - np.asarray(h_m))
+    return USSA_EARTH_RADIUS_M * np.asarray(h_m) / (USSA_EARTH_RADIUS_M - np.asarray(h_m))
 
 
 def ussa1976(z_m: np.ndarray | float, temp_offset_k: float = 0.0) -> dict[str, np.ndarray]:
@@ -374,7 +376,7 @@ def _hydrostatic_pressure(z: np.ndarray, t: np.ndarray, z_ref: float, p_ref: flo
     Gravity varies with altitude as g0 (r0 / (r0 + z))^2 ([1]_ eq. 17), which is what
     makes geopotential altitude the natural variable of the standard.
     """
-    g = G0 * (EARTH_RADIUS_M / (EARTH_RADIUS_M + z)) ** 2
+    g = G0 * (USSA_EARTH_RADIUS_M / (USSA_EARTH_RADIUS_M + z)) ** 2
     integrand = g / (R_AIR * t)
     dlnp = np.concatenate([[0.0], 0.5 * (integrand[1:] + integrand[:-1]) * np.diff(z)])
     lnp = -np.cumsum(dlnp)

@@ -59,13 +59,12 @@ import numpy as np
 
 from advisory.physics.aircraft import Aircraft
 from advisory.physics.atmosphere import GAMMA, Atmosphere
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 
 #: Whitham's far-field constant 2^(1/4) gamma (gamma+1)^(-1/2) (1.0747 for air) [3]_.
 WHITHAM_CONSTANT = 2.0**0.25 * GAMMA / math.sqrt(GAMMA + 1.0)
 #: Carlson's duration constant (value from memory; 2 (gamma+1)/gamma = 3.43).
 DURATION_CONSTANT = 3.42
-#: Default reflection factor (common practice, no source).
-DEFAULT_REFLECTION_FACTOR = 1.9
 
 _N_SHAPE = 600
 

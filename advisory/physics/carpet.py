@@ -25,7 +25,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
-from advisory.physics.rays import FlightCondition, RayTracer
+from advisory.physics.rays import MACH_LIMIT, FlightCondition, RayTracer
 
 #: Largest ray azimuth searched on each side, rad (a ray beyond 90 deg points upward
 #: in level flight).
@@ -34,10 +34,10 @@ PHI_LIMIT_RAD = math.radians(90.0)
 PHI_TOL_RAD = 1e-7
 #: Bisection tolerance for cutoff Mach.
 MACH_TOL = 1e-6
-#: Highest Mach searched for cutoff.
-MACH_SEARCH_MAX = 5.0
-#: Azimuth samples used to find the ray most likely to reach the ground.
-_PHI_SCAN = [math.radians(d) for d in range(-60, 61, 3)]
+#: Highest Mach searched for cutoff: the highest the ray tracer accepts.
+MACH_SEARCH_MAX = MACH_LIMIT
+#: Azimuth samples used to find the ray most likely to reach the ground, rad.
+PHI_SCAN_RAD = tuple(math.radians(d) for d in range(-60, 61, 3))
 
 
 @dataclass(frozen=True)
@@ -94,7 +94,7 @@ def best_reaching_azimuth(tracer: RayTracer, fc: FlightCondition) -> tuple[float
     if m0 > 0.0:
         return 0.0, m0
     best_phi, best = 0.0, m0
-    for phi in _PHI_SCAN:
+    for phi in PHI_SCAN_RAD:
         m = tracer.min_q2(fc, phi)
         if m > best:
             best_phi, best = phi, m

@@ -15,11 +15,13 @@ arrays; it adds no physics of its own:
   :func:`~advisory.physics.carpet.cutoff_mach` and
   :func:`~advisory.physics.carpet.lateral_cutoff` (same bisections, same tolerances,
   same azimuth scan);
-* :func:`ray_ground_kernel` is ``RayTracer.trace`` (level integration, ray-tube area
-  from the translation of the ray pattern, amplitude factor ``G`` matched to Whitham's
-  near field on a one-metre uniform segment, as in ``RayTracer._amplitude``) followed
-  by ``ground_signature`` (lift-equivalent area, ageing, equal-area shocks via
-  :func:`advisory.physics.signature.signature_kernel`, edge and caustic flags);
+* :func:`ray_ground_kernel` is ``RayTracer.trace`` (the level integration
+  :func:`advisory.physics.ray_kernels.trace_levels_kernel`, ray-tube area from the
+  translation of the ray pattern, amplitude factor ``G`` from
+  :func:`~advisory.physics.ray_kernels.near_field_constant`: the very kernels
+  ``RayTracer`` runs) followed by ``ground_signature`` (lift-equivalent area, ageing,
+  equal-area shocks via :func:`advisory.physics.shocks.signature_kernel`, edge and
+  caustic flags);
 * :func:`column_kernel` strings them together as ``build_column`` does.
 
 Operations are written in the order the readable path evaluates them, so the two agree
@@ -51,19 +53,30 @@ from advisory.jit import njit
 from advisory.physics import carpet as _carpet
 from advisory.physics.aircraft import Aircraft
 from advisory.physics.atmosphere import GAMMA
-from advisory.physics.rays import (
-    FlightCondition,
-    FlightConditionError,
-    RayTracer,
+from advisory.physics.ffunction import f_function_parts
+from advisory.physics.ray_kernels import (
+    L_JXX,
+    L_JXY,
+    L_JYX,
+    L_JYY,
+    L_OMEGA,
+    L_Q,
+    L_T,
+    L_X,
+    L_Y,
+    N_LEVEL_COLUMNS,
     emission_slowness,
+    near_field_constant,
     reaches_ground_kernel,
     trace_levels_kernel,
 )
+from advisory.physics.rays import MACH_LIMIT, FlightCondition, FlightConditionError, RayTracer
+from advisory.physics.shocks import signature_kernel
 from advisory.physics.signature import (
     EDGE_GRAZING_SINE,
+    PRESSURE_RANGE_PA,
     REFLECTION_FACTOR_RANGE,
-    f_function_parts,
-    signature_kernel,
+    SOUND_SPEED_RANGE_MPS,
 )
 
 # Per-ray result columns written by :func:`ray_ground_kernel` / :func:`column_kernel`.
@@ -86,10 +99,9 @@ STATUS_MACH_RANGE = 2  #: a tabulated Mach lies above the supported 5.0
 
 #: Nudge applied when a Mach just above cutoff has no reaching ray (as ``build_column``).
 CUTOFF_NUDGE = 1e-4
-#: Highest Mach the ray tracer accepts (``FlightCondition.validate``).
-MACH_LIMIT = 5.0
 
-_PHI_SCAN = np.array(_carpet._PHI_SCAN, dtype=np.float64)
+#: :data:`advisory.physics.carpet.PHI_SCAN_RAD` as the array the kernels take, rad.
+PHI_SCAN = np.array(_carpet.PHI_SCAN_RAD, dtype=np.float64)
 
 
 # --------------------------------------------------------------------------------------
@@ -203,48 +215,6 @@ def _finite(v):
 
 
 @njit(cache=True)
-def near_field_constant(c0, mach, beta, lc0, lwx0, lwy0, rho0, alt, sx, sy, dsx, dsy,
-                        trans_x, trans_y):
-    """``K0 = lim B / r`` near the aircraft (see ``RayTracer._amplitude``).
-
-    ``B = q A_h / (rho Omega^2)`` on a one-metre drop through a uniform layer with the
-    aircraft-level state (Pierce [1]_ sec. 8-6), divided by the distance from the flight
-    axis ``r = c0 t beta / M``. Written in the evaluation order of
-    ``trace_levels_numpy`` on that two-level segment.
-    """
-    h = alt - (alt - 1.0)
-    c2 = lc0 * lc0
-    om = 1.0 - lwx0 * sx - lwy0 * sy
-    q = math.sqrt(om * om / c2 - sx * sx - sy * sy)
-    dqq_sx = -2.0 * om * lwx0 / c2 - 2.0 * sx
-    dqq_sy = -2.0 * om * lwy0 / c2 - 2.0 * sy
-    cm = 0.5 * (lc0 + lc0)
-    c2m = cm * cm
-    wxm = 0.5 * (lwx0 + lwx0)
-    wym = 0.5 * (lwy0 + lwy0)
-    omm = 1.0 - wxm * sx - wym * sy
-    gx = sx + wxm * omm / c2m
-    gy = sy + wym * omm / c2m
-    gt = omm / c2m
-    ssum = q + q
-    integral = 2.0 * h / ssum
-    f = -2.0 * h / (ssum * ssum)
-    di_sx = f * (0.5 * dqq_sx / q + 0.5 * dqq_sx / q)
-    di_sy = f * (0.5 * dqq_sy / q + 0.5 * dqq_sy / q)
-    jxx = (1.0 - wxm * wxm / c2m) * integral + gx * di_sx
-    jxy = (-wxm * wym / c2m) * integral + gx * di_sy
-    jyx = (-wxm * wym / c2m) * integral + gy * di_sx
-    jyy = (1.0 - wym * wym / c2m) * integral + gy * di_sy
-    t = gt * integral
-    dx = jxx * dsx + jxy * dsy
-    dy = jyx * dsx + jyy * dsy
-    area = abs(trans_x * dy - trans_y * dx)
-    b_near = q * area / (rho0 * (om * om))
-    r_near = c0 * t * beta / mach
-    return b_near / r_near
-
-
-@njit(cache=True)
 def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, m,
                       fy, fv, av, fl, al, lift_n, reflection_factor, work, t_buf, g_buf,
                       shocks, res):
@@ -261,12 +231,12 @@ def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lw
         Integration levels from the aircraft down to the ground: altitude (m), sound
         speed (m/s), wind east/north (m/s), density (kg/m^3); first ``m`` used.
     fy, fv, av, fl, al : ndarray
-        F-function parts of the aircraft (:class:`~advisory.physics.signature.FFunctionParts`).
+        F-function parts of the aircraft (:class:`~advisory.physics.ffunction.FFunctionParts`).
     lift_n : float
         Lift ``n m g0 cos(fpa)``, N.
     reflection_factor : float
         Ground reflection factor.
-    work : ndarray, shape (>= m, 9)
+    work : ndarray, shape (>= m, N_LEVEL_COLUMNS)
         Scratch for the per-level trace.
     t_buf, g_buf : ndarray, shape (>= m,)
         Scratch for travel time and amplitude factor per level.
@@ -299,8 +269,8 @@ def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lw
     vgx = u * cg * math.sin(heading) + w0x
     vgy = u * cg * math.cos(heading) + w0y
     vgz = u * math.sin(fpa)
-    q0 = work[0, 3]
-    om0 = work[0, 8]
+    q0 = work[0, L_Q]
+    om0 = work[0, L_OMEGA]
     c20 = lc[0] * lc[0]
     trans_x = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
     trans_y = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
@@ -311,22 +281,22 @@ def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lw
     dx = 0.0
     dy = 0.0
     for k in range(m):
-        dx = work[k, 4] * dsx + work[k, 5] * dsy
-        dy = work[k, 6] * dsx + work[k, 7] * dsy
+        dx = work[k, L_JXX] * dsx + work[k, L_JXY] * dsy
+        dy = work[k, L_JYX] * dsx + work[k, L_JYY] * dsy
         area = abs(trans_x * dy - trans_y * dx)
-        om = work[k, 8]
-        b = work[k, 3] * area / (rho[k] * (om * om))
+        om = work[k, L_OMEGA]
+        b = work[k, L_Q] * area / (rho[k] * (om * om))
         if b > 0.0:
             g_buf[k] = coef * math.sqrt(k0 / b)
         elif k0 > 0.0:
             g_buf[k] = math.inf
         else:
             g_buf[k] = math.nan
-        t_buf[k] = work[k, 2]
+        t_buf[k] = work[k, L_T]
     res[R_REACHED] = 1.0
-    res[R_X] = work[m - 1, 0]
-    res[R_Y] = work[m - 1, 1]
-    res[R_TIME] = work[m - 1, 2]
+    res[R_X] = work[m - 1, L_X]
+    res[R_Y] = work[m - 1, L_Y]
+    res[R_TIME] = work[m - 1, L_T]
     res[R_DX_DPHI] = dx
     res[R_DY_DPHI] = dy
     # Ground signature (ground_signature with load factor 1).
@@ -340,7 +310,7 @@ def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lw
         return True  # no boom: zeros, edge flagged
     caustic = last < m - 1
     g_ground = g_buf[last]
-    gq = work[m - 1, 3] * lc[m - 1] / work[m - 1, 8]
+    gq = work[m - 1, L_Q] * lc[m - 1] / work[m - 1, L_OMEGA]
     edge = caustic or not (gq >= EDGE_GRAZING_SINE)
     kk = reflection_factor * g_ground
     to_time = om0 / (mach * c0)
@@ -407,7 +377,7 @@ def column_kernel(heading, fpa, c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, mach_ex
                                mach_tol, mach_search_max)
     if not m_cut < math.inf:
         return m_cut, STATUS_NO_CUTOFF
-    work = np.empty((m, 9))
+    work = np.empty((m, N_LEVEL_COLUMNS))
     t_buf = np.empty(m)
     g_buf = np.empty(m)
     shocks = np.empty((fy.size + 2, 3))
@@ -506,8 +476,10 @@ def trace_column(tracer: RayTracer, aircraft: Aircraft, altitude_m: float, headi
         return None
     s0 = atm.at(altitude_m)
     c0, w0x, w0y, p0 = s0.sound_speed_mps, s0.wind_east_mps, s0.wind_north_mps, s0.pressure_pa
+    lo_c, hi_c = SOUND_SPEED_RANGE_MPS
+    lo_p, hi_p = PRESSURE_RANGE_PA
     lo_r, hi_r = REFLECTION_FACTOR_RANGE
-    if not (150.0 <= c0 <= 450.0 and 1.0 <= p0 <= 2.0e5 and lo_r <= reflection_factor <= hi_r):
+    if not (lo_c <= c0 <= hi_c and lo_p <= p0 <= hi_p and lo_r <= reflection_factor <= hi_r):
         return None
     lz, lc, lwx, lwy = tracer.levels(altitude_m, ground_elevation_m)
     lz, lc, lwx, lwy = (np.ascontiguousarray(a) for a in (lz, lc, lwx, lwy))
@@ -524,7 +496,7 @@ def trace_column(tracer: RayTracer, aircraft: Aircraft, altitude_m: float, headi
     rays = np.zeros((nm, eta.size, N_RAY_RESULTS))
     m_cut, status = column_kernel(
         float(heading_rad), float(fpa_rad), c0, w0x, w0y, p0, lz, lc, lwx, lwy, rho, mex, eta,
-        _PHI_SCAN, _carpet.MACH_TOL, _carpet.MACH_SEARCH_MAX, _carpet.PHI_LIMIT_RAD,
+        PHI_SCAN, _carpet.MACH_TOL, _carpet.MACH_SEARCH_MAX, _carpet.PHI_LIMIT_RAD,
         _carpet.PHI_TOL_RAD, parts.y_m, parts.f_volume, parts.area_volume, parts.f_lift_unit,
         parts.area_lift_unit, aircraft.lift_n(1.0, fpa_rad), float(reflection_factor),
         phi_l, phi_r, phi_ref, mach, rays,

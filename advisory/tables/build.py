@@ -23,13 +23,15 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from advisory import __version__
-from advisory.physics.aircraft import Aircraft
+from advisory.physics import fastpath as fp
+from advisory.physics.aircraft import Aircraft, aircraft_document
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.carpet import best_reaching_azimuth, cutoff_mach, lateral_cutoff
-from advisory.physics.rays import FlightCondition, RayTracer
-from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
+from advisory.physics.rays import FlightCondition, RayPath, RayTracer
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, ground_signature
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
+from advisory.tables.store import atmosphere_arrays
 
 
 @dataclass(frozen=True)
@@ -42,16 +44,15 @@ class BuildInputs:
     reflection_factor: float = DEFAULT_REFLECTION_FACTOR
 
 
-def ray_signature(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition, ray):
+def ray_signature(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition,
+                  ray: RayPath) -> tuple[float, float, bool]:
     """Ground overpressure (Pa), duration (s) and edge flag of one traced ray."""
-    from advisory.physics.signature import ground_signature
-
     s0 = tracer.atmosphere.at(fc.altitude_m)
     sig = ground_signature(
         inputs.aircraft, ray, fc.mach, s0.sound_speed_mps, s0.pressure_pa,
         load_factor=1.0, reflection_factor=inputs.reflection_factor, fpa_rad=fc.fpa_rad,
     )
-    edge = bool(getattr(sig, "caustic", False) or getattr(sig, "edge", False))
+    edge = sig.caustic or sig.edge
     return float(sig.overpressure_pa), float(sig.duration_s), edge
 
 
@@ -74,8 +75,6 @@ def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: i
         Cutoff Mach; lateral cutoff azimuths per Mach excess (rad); rows of shape
         (n_mach_excess, n_eta, N_QUANTITIES).
     """
-    from advisory.physics import fastpath as fp
-
     g = inputs.grid
     hdg = g.headings_rad[kh]
     col = fp.trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], hdg, g.fpa_rad[jf],
@@ -235,43 +234,6 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
                    "cells": cells})
     arrays.update(atmosphere_arrays(inputs.atmosphere))
     return arrays
-
-
-_ATM_FIELDS = ("z_m", "temperature_k", "pressure_pa", "density_kgm3", "sound_speed_mps",
-               "wind_east_mps", "wind_north_mps")
-
-
-def atmosphere_arrays(atm: Atmosphere) -> dict[str, np.ndarray]:
-    """The atmosphere in full, as payload arrays (``atm_<field>``)."""
-    return {f"atm_{name}": np.asarray(getattr(atm, name), dtype=np.float64)
-            for name in _ATM_FIELDS}
-
-
-def atmosphere_from_arrays(arrays: dict[str, np.ndarray], description: dict) -> Atmosphere:
-    """Inverse of :func:`atmosphere_arrays`."""
-    return Atmosphere(**{name: np.array(arrays[f"atm_{name}"]) for name in _ATM_FIELDS},
-                      description=dict(description))
-
-
-def aircraft_document(aircraft: Aircraft) -> dict:
-    """The aircraft in full as a document :func:`aircraft_from_dict` reads back."""
-    doc: dict = {
-        "name": aircraft.name, "class": aircraft.aircraft_class,
-        "length_m": aircraft.length_m, "mass_kg": aircraft.mass_kg,
-        "lift": {"start_station": aircraft.lift_start_station,
-                 "end_station": aircraft.lift_end_station},
-        "reference": {"mach": aircraft.reference_mach,
-                      "altitude_m": aircraft.reference_altitude_m},
-    }
-    if aircraft.table_station_m is not None:
-        doc["equivalent_area"] = {"station_m": [float(v) for v in aircraft.table_station_m],
-                                  "area_m2": [float(v) for v in aircraft.table_area_m2]}
-    else:
-        doc["volume"] = {"max_area_m2": aircraft.max_area_m2,
-                         "max_area_station": aircraft.max_area_station}
-    if aircraft.carlson_shape_factor is not None:
-        doc["carlson_shape_factor"] = aircraft.carlson_shape_factor
-    return doc
 
 
 def provenance(inputs: BuildInputs, build_seconds: float) -> dict:

@@ -15,9 +15,9 @@ import time
 from pathlib import Path
 
 from advisory import __version__
-from advisory.physics.aircraft import default_aircraft, load_aircraft
+from advisory.physics.aircraft import aircraft_document, default_aircraft, load_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
-from advisory.tables.build import BuildInputs, aircraft_document, build_table_arrays, provenance
+from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import default_grid
 from advisory.tables.store import TableFileError, write_table_file
 from advisory.tables.table import BoomTable

@@ -19,7 +19,13 @@ import time
 from dataclasses import replace
 from pathlib import Path
 
-from advisory.physics.atmosphere import Atmosphere, AtmosphereError, load_profile
+from advisory.physics.atmosphere import (
+    Atmosphere,
+    AtmosphereError,
+    ProfileLevel,
+    atmosphere_from_levels,
+    load_profile,
+)
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable
@@ -124,6 +130,8 @@ class TableManager:
             try:
                 if proc.exitcode != 0:
                     raise RuntimeError(f"rebuild process exited with code {proc.exitcode}")
+                if path is None:  # cannot happen: _start sets it with the process
+                    raise RuntimeError("rebuild finished without a table file")
                 new = BoomTable.load(path)
                 with self._lock:
                     self._table = new  # the atomic swap
@@ -199,10 +207,8 @@ class StreamProfile:
         s[3] += wind_north_mps or 0.0
         s[4] += 1.0 if wind_east_mps is not None else 0.0
 
-    def levels(self) -> list:
+    def levels(self) -> list[ProfileLevel]:
         """Filled bins as profile levels (ascending)."""
-        from advisory.physics.atmosphere import ProfileLevel
-
         out = []
         for b in sorted(self._sums):
             n, t, e, nn, nw = self._sums[b]
@@ -213,8 +219,6 @@ class StreamProfile:
 
     def proposal(self, current: Atmosphere, now_monotonic: float) -> Atmosphere | None:
         """A new atmosphere when the stream disagrees with ``current`` enough, else None."""
-        from advisory.physics.atmosphere import atmosphere_from_levels
-
         if (self._last_proposal is not None
                 and now_monotonic - self._last_proposal < self.min_interval_s):
             return None

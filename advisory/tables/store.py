@@ -13,6 +13,8 @@ Layout (all integers little-endian)::
 
 The header holds ``format_version``, ``package_version``, ``build_utc``, the grid, the
 aircraft and atmosphere inputs in full, and ``payload_sha256`` / ``payload_nbytes``.
+Besides the table's own arrays the payload carries the atmosphere it was built from,
+node by node (:func:`atmosphere_arrays`).
 Loading refuses, each with its own message: a file that does not start with the magic
 (foreign file), another format version, a header whose digest does not match, a payload
 shorter or longer than declared (truncated or padded), and a payload whose SHA-256 does not
@@ -32,6 +34,8 @@ import struct
 from pathlib import Path
 
 import numpy as np
+
+from advisory.physics.atmosphere import Atmosphere
 
 MAGIC = b"BOOMTBL\x00"
 FORMAT_VERSION = 1
@@ -145,3 +149,20 @@ def read_table_file(path: str | Path) -> tuple[dict, dict[str, np.ndarray]]:
             entry["shape"], dtype=np.int64)), offset=entry["offset"])
         arrays[entry["name"]] = a.reshape(entry["shape"])
     return header, arrays
+
+
+#: Atmosphere fields stored in a table's payload, each as the array ``atm_<field>``.
+ATMOSPHERE_FIELDS = ("z_m", "temperature_k", "pressure_pa", "density_kgm3", "sound_speed_mps",
+                     "wind_east_mps", "wind_north_mps")
+
+
+def atmosphere_arrays(atm: Atmosphere) -> dict[str, np.ndarray]:
+    """The atmosphere in full, as payload arrays (``atm_<field>``)."""
+    return {f"atm_{name}": np.asarray(getattr(atm, name), dtype=np.float64)
+            for name in ATMOSPHERE_FIELDS}
+
+
+def atmosphere_from_arrays(arrays: dict[str, np.ndarray], description: dict) -> Atmosphere:
+    """Inverse of :func:`atmosphere_arrays` (``description`` from the table header)."""
+    return Atmosphere(**{name: np.array(arrays[f"atm_{name}"]) for name in ATMOSPHERE_FIELDS},
+                      description=dict(description))

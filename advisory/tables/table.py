@@ -9,9 +9,16 @@ from pathlib import Path
 
 import numpy as np
 
+from advisory import units
+from advisory.physics.atmosphere import Atmosphere, atmosphere_from_description
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
-from advisory.tables.store import TableFileError, read_table_file, write_table_file
+from advisory.tables.store import (
+    TableFileError,
+    atmosphere_from_arrays,
+    read_table_file,
+    write_table_file,
+)
 
 _REQUIRED = ("axis_altitude_m", "axis_mach_excess", "axis_fpa_rad", "axis_heading_rad",
              "axis_eta", "cutoff_mach", "phi_left", "phi_right", "cells")
@@ -44,7 +51,8 @@ class Footprint:
 class BoomTable:
     """A boom table in memory.
 
-    Use :meth:`load` for a file and :meth:`from_arrays` after a build.
+    Use :meth:`load` for a file, or the constructor with a header and arrays after a
+    build (:attr:`path` is then None).
     """
 
     def __init__(self, header: dict, arrays: dict[str, np.ndarray]) -> None:
@@ -62,6 +70,8 @@ class BoomTable:
         self.cutoff = np.ascontiguousarray(arrays["cutoff_mach"], dtype=np.float64)
         self.cells = np.ascontiguousarray(arrays["cells"], dtype=np.float64)
         self.loaded_monotonic = time.monotonic()
+        #: The file the table was loaded from (None for a table built in memory).
+        self.path: str | None = None
 
     # ---- I/O ---------------------------------------------------------------------------
     @classmethod
@@ -82,14 +92,11 @@ class BoomTable:
         self.header["payload_sha256"] = digest
         return digest
 
-    def atmosphere(self):
-        """The atmosphere the table was built from (from the payload, in full)."""
-        from advisory.tables.build import atmosphere_from_arrays
-
+    def atmosphere(self) -> Atmosphere:
+        """The atmosphere the table was built from (from the payload, in full; from the
+        header's description for a table without the atmosphere arrays)."""
         if "atm_z_m" in self.arrays:
             return atmosphere_from_arrays(self.arrays, self.header.get("atmosphere", {}))
-        from advisory.physics.atmosphere import atmosphere_from_description
-
         return atmosphere_from_description(self.header["atmosphere"])
 
     @property
@@ -133,7 +140,7 @@ class BoomTable:
         """Human-readable provenance."""
         h = self.header
         g = self.grid
-        alts_ft = [a / 0.3048 for a in g.altitudes_m]
+        alts_ft = [units.m_to_ft(a) for a in g.altitudes_m]
         atm = h.get("atmosphere", {})
         ac = h.get("aircraft", {})
         lines = [
@@ -152,6 +159,6 @@ class BoomTable:
             f"Mach max {g.mach_max}, flight-path angle "
             f"{math.degrees(g.fpa_rad[0]):.1f}..{math.degrees(g.fpa_rad[-1]):.1f} deg "
             f"({len(g.fpa_rad)}), headings {len(g.headings_rad)}, azimuths {g.n_eta}, "
-            f"ground {g.ground_elevation_m / 0.3048:,.0f} ft",
+            f"ground {units.m_to_ft(g.ground_elevation_m):,.0f} ft",
         ]
         return lines

@@ -100,7 +100,9 @@ def verify_table(table: BoomTable, samples: int = 40, seed: int = 1,
     tracer = RayTracer(inputs.atmosphere)
     g = table.grid
     rng = np.random.default_rng(seed)
-    hw, dp, mc = [], [], []
+    hw: list[float] = []
+    dp: list[float] = []
+    mc: list[float] = []
     while len(mc) < samples:
         alt = rng.uniform(g.altitudes_m[0], g.altitudes_m[-1])
         fpa = rng.uniform(g.fpa_rad[0], g.fpa_rad[-1])

@@ -1,0 +1,59 @@
+"""Numpy twin of the table lookup kernel in :mod:`advisory.tables.lookup`."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from advisory.tables import lookup as lk
+
+
+def _weights(axis: np.ndarray, x: float) -> tuple[list[int], list[float], bool]:
+    """Readable twin of ``_locate``: corner indices and weights."""
+    if axis.size == 1:
+        return [0], [1.0], False
+    clamped = bool(x < axis[0] or x > axis[-1])
+    xc = min(max(x, axis[0]), axis[-1])
+    i = int(np.clip(np.searchsorted(axis, xc, side="right") - 1, 0, axis.size - 2))
+    w = (xc - axis[i]) / (axis[i + 1] - axis[i])
+    return [i, i + 1], [1.0 - w, w], clamped
+
+
+def _weights_periodic(axis: np.ndarray, x: float) -> tuple[list[int], list[float]]:
+    """Readable twin of ``_locate_periodic``."""
+    if axis.size == 1:
+        return [0], [1.0]
+    two_pi = 2.0 * math.pi
+    ext = np.concatenate([axis, [axis[0] + two_pi]])
+    x = x % two_pi
+    if x < axis[0]:
+        x += two_pi
+    i = int(np.clip(np.searchsorted(ext, x, side="right") - 1, 0, axis.size - 1))
+    w = (x - ext[i]) / (ext[i + 1] - ext[i])
+    return [i, (i + 1) % axis.size], [1.0 - w, w]
+
+
+def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells,
+                out) -> tuple[int, float]:
+    """Twin of ``lookup_kernel`` (same arguments and results)."""
+    ia, wa, ca = _weights(ax_alt, alt)
+    jf, wf, cf = _weights(ax_fpa, fpa)
+    hh, wh = _weights_periodic(ax_hdg, heading)
+    mcut = sum(
+        wa_ * wf_ * wh_ * cutoff[a, f, h]
+        for a, wa_ in zip(ia, wa) for f, wf_ in zip(jf, wf) for h, wh_ in zip(hh, wh)
+    )
+    if mach <= mcut:
+        return lk.NO_BOOM, float(mcut)
+    im, wm, cm = _weights(ax_mex, mach - mcut)
+    if mach - mcut < ax_mex[0]:
+        cm = False
+    acc = np.zeros(cells.shape[4:])
+    for a, wa_ in zip(ia, wa):
+        for m, wm_ in zip(im, wm):
+            for f, wf_ in zip(jf, wf):
+                for h, wh_ in zip(hh, wh):
+                    acc += wa_ * wm_ * wf_ * wh_ * cells[a, m, f, h]
+    out[...] = acc
+    return (lk.CLAMPED if (ca or cm or cf) else lk.OK), float(mcut)

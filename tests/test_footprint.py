@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from advisory import units
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.pipeline.footprint import (
     FootprintPredictor,

@@ -22,7 +22,7 @@ from geographiclib.geodesic import Geodesic
 from shapely.geometry import LinearRing, LineString, MultiPolygon, Point, Polygon
 
 from advisory.geo import polygons as gk
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.pipeline.zones import DEFAULT_MARGIN_KM, ZoneFileError, ZoneSet
 from advisory.units import FT, PSF
 

@@ -1,6 +1,6 @@
 """Planar polygon kernels for no-boom zones: containment, intersection, distance, contact.
 
-All coordinates are metres in a :class:`advisory.geo.geodesy.LocalFrame` plane. Zones come
+All coordinates are metres in a :class:`advisory.geo.frame.LocalFrame` plane. Zones come
 as flat arrays (built by :meth:`advisory.pipeline.zones.ZoneSet.project`):
 
 ``x, y`` : float64 (V,)

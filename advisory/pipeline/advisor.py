@@ -27,7 +27,7 @@ import numpy as np
 
 from advisory import SAFETY_CAUTION, units
 from advisory.geo import polygons as gk
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.jit import njit
 from advisory.physics.atmosphere import Atmosphere
 from advisory.pipeline.config import AdvisorConfig

@@ -2,7 +2,7 @@
 
 The prediction holds the present manoeuvre: a coordinated turn at the current bank,
 a constant Mach rate and a constant flight-path angle, in a wind that is constant over
-the look-ahead. It is propagated in a :class:`~advisory.geo.geodesy.LocalFrame` plane
+the look-ahead. It is propagated in a :class:`~advisory.geo.frame.LocalFrame` plane
 (about the start point unless another frame is given), where straight flight is a
 geodesic on WGS 84, then turned into latitude and longitude with the direct problem.
 
@@ -48,7 +48,7 @@ from functools import cached_property
 
 import numpy as np
 
-from advisory.geo.geodesy import FramePoints, LocalFrame
+from advisory.geo.frame import FramePoints, LocalFrame
 from advisory.jit import njit
 from advisory.units import G0
 
@@ -190,7 +190,7 @@ def _cumtrapz(y: np.ndarray, dt: np.ndarray) -> np.ndarray:
 
 def _grid_bearing(pt: FramePoints, azimuth: float) -> float:
     """Grid bearing of a true azimuth at the single point ``pt`` (scalar path of
-    :meth:`advisory.geo.geodesy.FramePoints.azimuth_to_grid`)."""
+    :meth:`advisory.geo.frame.FramePoints.azimuth_to_grid`)."""
     th = azimuth - float(pt.radial_true_rad[0])
     q = float(pt.anisotropy[0])
     return float(pt.radial_grid_rad[0]) + math.atan2(q * math.sin(th), math.cos(th))

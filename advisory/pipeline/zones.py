@@ -46,7 +46,7 @@ from typing import Any
 import numpy as np
 
 from advisory.geo import polygons as gk
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.units import ft_to_m, psf_to_pa
 
 __all__ = [
@@ -136,7 +136,7 @@ class Zone:
 
 @dataclass(frozen=True, eq=False)
 class ProjectedZones:
-    """A zone set projected into one :class:`~advisory.geo.geodesy.LocalFrame`.
+    """A zone set projected into one :class:`~advisory.geo.frame.LocalFrame`.
 
     The flat arrays follow the layout of :mod:`advisory.geo.polygons` and can be
     passed to its kernels directly; the methods below are thin wrappers.

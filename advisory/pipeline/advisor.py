@@ -26,6 +26,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from advisory import SAFETY_CAUTION, units
+from advisory.geo import contact
 from advisory.geo import polygons as gk
 from advisory.geo.frame import LocalFrame
 from advisory.jit import njit
@@ -761,7 +762,7 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
                 ay = n[start:stop, j0].copy()
                 bx = e[start:stop, j1].copy()
                 by = n[start:stop, j1].copy()
-                hits = gk.first_contact(ax, ay, bx, by, x, y, part_start, zone_start,
+                hits = contact.first_contact(ax, ay, bx, by, x, y, part_start, zone_start,
                                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, m, True)
                 for z in range(nz):
                     if hits[z] < 0:

@@ -45,6 +45,7 @@ from typing import Any
 
 import numpy as np
 
+from advisory.geo import contact
 from advisory.geo import polygons as gk
 from advisory.geo.frame import LocalFrame
 from advisory.units import ft_to_m, psf_to_pa
@@ -161,7 +162,7 @@ class ProjectedZones:
         Largest distance of any vertex from the frame origin, m (0 for no zones);
         reproject about a nearer origin when this grows past a few hundred km.
     ring_chunk, chunk_edges, chunk_bbox : ndarray
-        Edge chunks for :func:`advisory.geo.polygons.first_contact`.
+        Edge chunks for :func:`advisory.geo.contact.first_contact`.
     """
 
     frame: LocalFrame
@@ -187,7 +188,7 @@ class ProjectedZones:
                       margin_m: np.ndarray | None = None) -> np.ndarray:
         """Index of the first time-ordered segment to touch each zone (-1 for none).
 
-        See :func:`advisory.geo.polygons.first_contact`.
+        See :func:`advisory.geo.contact.first_contact`.
 
         Parameters
         ----------
@@ -204,7 +205,7 @@ class ProjectedZones:
             int64 (Z,).
         """
         m = self.margin_m if margin_m is None else np.ascontiguousarray(margin_m, np.float64)
-        return gk.first_contact(*_f64(ax, ay, bx, by), self.x, self.y, self.part_start,
+        return contact.first_contact(*_f64(ax, ay, bx, by), self.x, self.y, self.part_start,
                                 self.zone_start, self.zone_bbox, self.ring_chunk,
                                 self.chunk_edges, self.chunk_bbox, m, bool(swept))
 
@@ -362,7 +363,7 @@ class ZoneSet:
             v0 = rs[ps[zs[k]]]
             v1 = rs[ps[zs[k + 1]]]
             bbox[k] = (x[v0:v1].min(), y[v0:v1].min(), x[v0:v1].max(), y[v0:v1].max())
-        ring_chunk, chunk_edges, chunk_bbox = gk.build_edge_chunks(x, y, rs)
+        ring_chunk, chunk_edges, chunk_bbox = contact.build_edge_chunks(x, y, rs)
         return ProjectedZones(
             frame=frame,
             ids=tuple(z.id for z in self.zones),

@@ -22,7 +22,7 @@ def __getattr__(name: str):
 
         return Advisor
     if name == "Advisory":
-        from advisory.pipeline.advisor import Advisory
+        from advisory.pipeline.results import Advisory
 
         return Advisory
     raise AttributeError(f"module 'advisory' has no attribute {name!r}")

@@ -24,7 +24,8 @@ from shapely.geometry import LinearRing, LineString, MultiPolygon, Point, Polygo
 from advisory.geo import contact
 from advisory.geo import polygons as gk
 from advisory.geo.frame import LocalFrame
-from advisory.pipeline.zones import DEFAULT_MARGIN_KM, ZoneFileError, ZoneSet
+from advisory.pipeline.zone_file import DEFAULT_MARGIN_KM, ZoneFileError
+from advisory.pipeline.zones import ZoneSet
 from advisory.units import FT, PSF
 from tests.twins import polygons as twins
 

@@ -52,11 +52,12 @@ from advisory.io.messages import (
     encode_status,
     next_seq,
 )
-from advisory.pipeline.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator
+from advisory.pipeline.state import AirDataState, Rejection, StateValidator
+from advisory.schema import AIR_REQUIRED as REQUIRED_FIELDS
 
 if TYPE_CHECKING:  # pragma: no cover
     from advisory.io.records import Recorder
-    from advisory.pipeline.advisor import Advisory
+    from advisory.pipeline.results import Advisory
 
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
 FRAMINGS = ("stream", "datagram")
@@ -473,7 +474,7 @@ class AdvisoryLoop:
     _status_reason = ""
 
     def _unavailable(self, reason: str):
-        from advisory.pipeline.advisor import Advisory
+        from advisory.pipeline.results import Advisory
 
         return Advisory("unavailable", reason=reason)
 

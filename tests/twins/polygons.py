@@ -61,7 +61,7 @@ def points_in_zone_twin(px, py, x, y, ring_start, part_start, zone_start, k) -> 
     return inside
 
 
-def _point_seg_dist2_np(px, py, ax, ay, bx, by):
+def _point_seg_dist2(px, py, ax, ay, bx, by):
     ux = bx - ax
     uy = by - ay
     L2 = ux * ux + uy * uy
@@ -71,13 +71,13 @@ def _point_seg_dist2_np(px, py, ax, ay, bx, by):
     return (ax + t * ux - px) ** 2 + (ay + t * uy - py) ** 2
 
 
-def _seg_edges_dist_np(ax, ay, bx, by, x0, y0, x1, y1) -> np.ndarray:
+def _seg_edges_dist(ax, ay, bx, by, x0, y0, x1, y1) -> np.ndarray:
     """Distances between segments (S, 1) and edges (1, E): (S, E), m."""
     d2 = np.minimum.reduce([
-        _point_seg_dist2_np(ax, ay, x0, y0, x1, y1),
-        _point_seg_dist2_np(bx, by, x0, y0, x1, y1),
-        _point_seg_dist2_np(x0, y0, ax, ay, bx, by),
-        _point_seg_dist2_np(x1, y1, ax, ay, bx, by),
+        _point_seg_dist2(ax, ay, x0, y0, x1, y1),
+        _point_seg_dist2(bx, by, x0, y0, x1, y1),
+        _point_seg_dist2(x0, y0, ax, ay, bx, by),
+        _point_seg_dist2(x1, y1, ax, ay, bx, by),
     ])
     d2 = np.where(segments_intersect_twin(ax, ay, bx, by, x0, y0, x1, y1), 0.0, d2)
     return np.sqrt(d2)
@@ -89,7 +89,7 @@ def segment_zone_distance_twin(ax, ay, bx, by, x, y, ring_start, part_start, zon
     x0, y0, x1, y1, _ = _zone_edges(x, y, ring_start, part_start, zone_start, k)
     if points_in_zone_twin([ax], [ay], x, y, ring_start, part_start, zone_start, k)[0]:
         return 0.0
-    return float(_seg_edges_dist_np(ax, ay, bx, by, x0, y0, x1, y1).min())
+    return float(_seg_edges_dist(ax, ay, bx, by, x0, y0, x1, y1).min())
 
 
 def segment_near_zone_twin(ax, ay, bx, by, margin, x, y, ring_start, part_start, zone_start,
@@ -109,13 +109,13 @@ def first_contact_twin(ax, ay, bx, by, x, y, ring_start, part_start, zone_start,
     for k in range(n_zone):
         x0, y0, x1, y1, _ = _zone_edges(x, y, ring_start, part_start, zone_start, k)
         e = (x0[None, :], y0[None, :], x1[None, :], y1[None, :])
-        d = _seg_edges_dist_np(ax[:, None], ay[:, None], bx[:, None], by[:, None], *e).min(1)
+        d = _seg_edges_dist(ax[:, None], ay[:, None], bx[:, None], by[:, None], *e).min(1)
         a_in = points_in_zone_twin(ax, ay, x, y, ring_start, part_start, zone_start, k)
         hit = (d <= margin[k]) | a_in
         if swept and ax.size > 1:
-            dl = _seg_edges_dist_np(ax[:-1, None], ay[:-1, None], ax[1:, None], ay[1:, None],
+            dl = _seg_edges_dist(ax[:-1, None], ay[:-1, None], ax[1:, None], ay[1:, None],
                                     *e).min(1)
-            dr = _seg_edges_dist_np(bx[:-1, None], by[:-1, None], bx[1:, None], by[1:, None],
+            dr = _seg_edges_dist(bx[:-1, None], by[:-1, None], bx[1:, None], by[1:, None],
                                     *e).min(1)
             vx = x[ring_start[part_start[zone_start[k]]]]
             vy = y[ring_start[part_start[zone_start[k]]]]

@@ -23,8 +23,9 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from advisory.pipeline.advisor import Advisor, Advisory
+    from advisory.pipeline.advisor import Advisor
     from advisory.pipeline.config import AdvisorConfig
+    from advisory.pipeline.results import Advisory
     from advisory.pipeline.state import AirDataState
     from advisory.pipeline.zones import ZoneSet
     from advisory.tables.table import BoomTable
@@ -50,7 +51,7 @@ __all__ = [
 #: Public name -> the module that defines it, imported on first use.
 _LAZY = {
     "Advisor": "advisory.pipeline.advisor",
-    "Advisory": "advisory.pipeline.advisor",
+    "Advisory": "advisory.pipeline.results",
     "AdvisorConfig": "advisory.pipeline.config",
     "AirDataState": "advisory.pipeline.state",
 }

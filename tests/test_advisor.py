@@ -16,11 +16,16 @@ from advisory.cli import main
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
-from advisory.pipeline.advisor import Advisor, find_conflicts, find_conflicts_numpy
+from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, ConfigError, load_config
+from advisory.pipeline.conflicts import find_conflicts
+from advisory.pipeline.history import kernel_inputs, turned_trajectory
+from advisory.pipeline.resolutions import trial_clears_kernel
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.zones import ZoneSet
+from advisory.tables import lookup as lk
 from tests.conftest import build_small_table, make_atmosphere
+from tests.twins.conflicts import find_conflicts_twin
 
 GEOD = Geodesic.WGS84
 LAT0, LON0 = 40.0, -100.0
@@ -222,7 +227,7 @@ def test_conflict_kernel_matches_numpy_twin(small_table) -> None:
     adv.step(state(bank=5.0), 0.0)
     pz = adv._projected
     a = find_conflicts(adv.last_prediction, pz, zones, adv._strips, 1.25)
-    b = find_conflicts_numpy(adv.last_prediction, pz, zones, adv._strips, 1.25)
+    b = find_conflicts_twin(adv.last_prediction, pz, zones, adv._strips, 1.25)
     assert [c.zone_id for c in a] == [c.zone_id for c in b]
     for x, y in zip(a, b):
         assert x.time_to_contact_s == pytest.approx(y.time_to_contact_s, abs=1e-6)
@@ -269,9 +274,6 @@ def test_check_command_json_and_text(small_table_path, tmp_path, capsys) -> None
 def test_trial_kernel_matches_readable_composition(small_table) -> None:
     # Parity: the compiled resolution trial equals turned_trajectory + predict +
     # find_conflicts (its readable twin) for a range of turns.
-    from advisory.pipeline.advisor import _kernel_inputs, trial_clears_kernel, turned_trajectory
-    from advisory.tables import lookup as lk
-
     feats = [square(f"z{i}", *point_along(90e3 + 20e3 * i, 90.0 + 2.0 * (i - 1)),
                     half_km=2.0, margin_km=1.0) for i in range(2)]
     zones = zoneset(*feats)
@@ -279,7 +281,7 @@ def test_trial_kernel_matches_readable_composition(small_table) -> None:
     adv.step(state(), 0.0)
     ahead, pz = adv._ahead, adv._projected
     rows, codes, cut = (x.copy() for x in adv._predictor.lookup(ahead))
-    t, mach, a, params = _kernel_inputs(ahead, ahead.t_s, 0.0, math.nan)
+    t, mach, a, params = kernel_inputs(ahead, ahead.t_s, 0.0, math.nan)
     dp = np.ascontiguousarray(rows[:, :, lk.Q_DP])
     outcomes = set()
     for side in (-1, 1):

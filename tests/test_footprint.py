@@ -8,16 +8,11 @@ import numpy as np
 import pytest
 
 from advisory import units
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import standard_atmosphere
-from advisory.pipeline.footprint import (
-    FootprintPredictor,
-    focus_kernel,
-    focus_numpy,
-    place_kernel,
-    place_numpy,
-)
+from advisory.pipeline.footprint import FootprintPredictor, focus_kernel, place_kernel
 from advisory.pipeline.trajectory import predict_trajectory
+from tests.twins.footprint import focus_kernel_twin, place_kernel_twin
 
 C45 = float(standard_atmosphere().at(units.ft_to_m(45000.0)).sound_speed_mps)
 
@@ -40,7 +35,8 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     nk, nj = rows.shape[:2]
     bufs = [np.empty((nk, nj)) for _ in range(5)]
     place_kernel(traj.t_s, traj.east_m, traj.north_m, traj.heading_grid_rad, rows, codes, *bufs)
-    twins = place_numpy(traj.t_s, traj.east_m, traj.north_m, traj.heading_grid_rad, rows, codes)
+    twins = place_kernel_twin(traj.t_s, traj.east_m, traj.north_m, traj.heading_grid_rad, rows,
+                              codes)
     for a, b in zip(bufs, twins, strict=True):
         np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-9, equal_nan=True)
     e, n, _, de, dn = bufs
@@ -48,7 +44,7 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     vg_n = traj.ground_speed_mps * np.cos(traj.track_grid_rad)
     amp = np.ones((nk, nj))
     focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, amp)
-    twin = focus_numpy(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     assert np.all(np.isfinite(amp)) and np.all((amp >= 1.0) & (amp <= 5.0))
 

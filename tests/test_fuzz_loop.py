@@ -17,8 +17,9 @@ from hypothesis import strategies as st
 from advisory.io.framing import frame_stream
 from advisory.io.messages import encode_air
 from advisory.pipeline.advisor import Advisor
-from advisory.pipeline.state import REQUIRED_FIELDS, ValidatorLimits
+from advisory.pipeline.state import ValidatorLimits
 from advisory.pipeline.zones import ZoneSet
+from advisory.schema import AIR_REQUIRED as REQUIRED_FIELDS
 from advisory.service.loop import AdvisoryLoop
 
 LIMITS = ValidatorLimits().ranges

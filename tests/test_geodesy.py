@@ -15,8 +15,10 @@ import numpy as np
 import pytest
 from geographiclib.geodesic import Geodesic
 
+from advisory.geo import frame as fr
 from advisory.geo import geodesy as gd
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
+from tests.twins import geodesy as twins
 
 GEOD = Geodesic.WGS84
 
@@ -75,7 +77,7 @@ def test_inverse_within_500_km():
 
 def test_bisection_fallback_agrees_with_geographiclib():
     # the near-antipodal fallback used on ordinary pairs too, through its plain twin
-    bisect = gd.python_twin(gd._inverse_bisect_point)
+    bisect = twins.inverse_bisect_point_twin
     rng = np.random.default_rng(3)
     lat1, lon1, lat2, lon2 = random_pairs(rng, 80, near_antipodal=20)
     for p in zip(lat1, lon1, lat2, lon2, strict=True):
@@ -125,24 +127,26 @@ def test_scalar_kernels_match_python_twins():
     # numba kernels against the same source run as plain Python (RULES: parity test)
     rng = np.random.default_rng(5)
     lat1, lon1, lat2, lon2 = (np.radians(v) for v in random_pairs(rng, 60, near_antipodal=10))
-    for kernel, args in (
-        (gd.inverse_kernel, (lat1, lon1, lat2, lon2)),
-        (gd.direct_kernel, (lat1, lon1, lon2, rng.uniform(-2e7, 2e7, 60))),
+    for kernel, twin_fn, args in (
+        (gd.inverse_kernel, twins.inverse_kernel_twin, (lat1, lon1, lat2, lon2)),
+        (gd.direct_kernel, twins.direct_kernel_twin,
+         (lat1, lon1, lon2, rng.uniform(-2e7, 2e7, 60))),
     ):
         got = kernel(*args)
-        twin = gd.python_twin(kernel)(*args)
+        twin = twin_fn(*args)
         for a, b in zip(got, twin, strict=True):
             np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-9)
     f = LocalFrame(0.6, -1.2)
     e = rng.uniform(-5e5, 5e5, 60)
     n = rng.uniform(-5e5, 5e5, 60)
-    for kernel, args in (
-        (gd.frame_inverse_kernel, (f.lat0_rad, f.lon0_rad, f.radius_m, e, n)),
-        (gd.frame_forward_kernel, (f.lat0_rad, f.lon0_rad, f.radius_m, lat1 * 0.01 + 0.6,
-                                   lon1 * 0.01 - 1.2)),
+    for kernel, twin_fn, args in (
+        (fr.frame_inverse_kernel, twins.frame_inverse_kernel_twin,
+         (f.lat0_rad, f.lon0_rad, f.radius_m, e, n)),
+        (fr.frame_forward_kernel, twins.frame_forward_kernel_twin,
+         (f.lat0_rad, f.lon0_rad, f.radius_m, lat1 * 0.01 + 0.6, lon1 * 0.01 - 1.2)),
     ):
         got = kernel(*args)
-        twin = gd.python_twin(kernel)(*args)
+        twin = twin_fn(*args)
         for a, b in zip(got, twin, strict=True):
             np.testing.assert_allclose(a, b, rtol=1e-12, atol=1e-9)
 

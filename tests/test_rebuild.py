@@ -10,9 +10,10 @@ import pytest
 from advisory import units
 from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
+from advisory.pipeline.profile import StreamProfile
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import TableGrid
-from advisory.tables.manager import StreamProfile, TableManager
+from advisory.tables.manager import TableManager
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable
 

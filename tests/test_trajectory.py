@@ -19,8 +19,10 @@ import pytest
 from geographiclib.geodesic import Geodesic
 from scipy.integrate import solve_ivp
 
-from advisory.geo.geodesy import LocalFrame, python_twin
-from advisory.pipeline.trajectory import predict_trajectory, propagate_kernel, propagate_np
+from advisory.geo.frame import LocalFrame
+from advisory.pipeline.trajectory import predict_trajectory, propagate_kernel
+from tests.twins.geodesy import python_twin
+from tests.twins.trajectory import propagate_kernel_twin
 
 GEOD = Geodesic.WGS84
 G = 9.80665  # standard gravity, U.S. Standard Atmosphere 1976
@@ -217,7 +219,7 @@ def test_kernel_matches_numpy_twin():
             rng.uniform(-0.1, 0.1)), bank, turn, rng.uniform(0, 6.3), *rng.uniform(-30, 30, 2),
             *rng.uniform(-3e5, 3e5, 2), 6.37e6, G])
         got = propagate_kernel(t, mach, a, params)
-        np.testing.assert_allclose(got, propagate_np(t, mach, a, params), rtol=1e-9,
+        np.testing.assert_allclose(got, propagate_kernel_twin(t, mach, a, params), rtol=1e-9,
                                    atol=1e-6)
         np.testing.assert_allclose(got, python_twin(propagate_kernel)(t, mach, a, params),
                                    rtol=1e-12, atol=1e-9)

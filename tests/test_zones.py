@@ -21,10 +21,13 @@ import shapely
 from geographiclib.geodesic import Geodesic
 from shapely.geometry import LinearRing, LineString, MultiPolygon, Point, Polygon
 
+from advisory.geo import contact
 from advisory.geo import polygons as gk
-from advisory.geo.geodesy import LocalFrame
-from advisory.pipeline.zones import DEFAULT_MARGIN_KM, ZoneFileError, ZoneSet
+from advisory.geo.frame import LocalFrame
+from advisory.pipeline.zone_file import DEFAULT_MARGIN_KM, ZoneFileError
+from advisory.pipeline.zones import ZoneSet
 from advisory.units import FT, PSF
+from tests.twins import polygons as twins
 
 DATA = Path(__file__).parent / "data"
 GEOD = Geodesic.WGS84
@@ -85,7 +88,7 @@ def pack(zones):
     for k in range(len(zones)):
         v = slice(rs[ps[zs[k]]], rs[ps[zs[k + 1]]])
         bbox[k] = (x[v].min(), y[v].min(), x[v].max(), y[v].max())
-    chunks = gk.build_edge_chunks(x, y, rs, 4)
+    chunks = contact.build_edge_chunks(x, y, rs, 4)
     return x, y, rs, ps, zs, bbox, chunks
 
 
@@ -352,7 +355,7 @@ def test_segments_intersect_vs_shapely():
     proper = np.any(seg[:, 0:2] != seg[:, 2:4], axis=1) & np.any(seg[:, 4:6] != seg[:, 6:8], 1)
     seg = seg[proper]
     got = np.array([gk.segments_intersect(*s) for s in seg])
-    twin = gk.segments_intersect_np(*seg.T)
+    twin = twins.segments_intersect_twin(*seg.T)
     ref = np.array([LineString([s[0:2], s[2:4]]).intersects(LineString([s[4:6], s[6:8]]))
                     for s in seg])
     assert np.array_equal(got, ref)
@@ -367,7 +370,7 @@ def test_point_in_zone_vs_shapely(random_zones):
     for k, geom in enumerate(geoms):
         ref = shapely.contains_xy(geom, px, py)
         got = gk.points_in_zone(px, py, x, y, rs, ps, zs, k)
-        twin = gk.points_in_zone_np(px, py, x, y, rs, ps, zs, k)
+        twin = twins.points_in_zone_twin(px, py, x, y, rs, ps, zs, k)
         assert np.array_equal(got, ref), k
         assert np.array_equal(twin, ref), k
         assert gk.point_in_zone(px[0], py[0], x, y, rs, ps, zs, k) == ref[0]
@@ -382,7 +385,7 @@ def test_segment_distance_and_margin_vs_shapely(random_zones):
             bx, by = np.array([ax, ay]) + rng.normal(0, 15, 2)
             ref = geom.distance(LineString([(ax, ay), (bx, by)]))
             d, u = gk.segment_zone_distance(ax, ay, bx, by, x, y, rs, ps, zs, k)
-            twin = gk.segment_zone_distance_np(ax, ay, bx, by, x, y, rs, ps, zs, k)
+            twin = twins.segment_zone_distance_twin(ax, ay, bx, by, x, y, rs, ps, zs, k)
             assert d == pytest.approx(ref, abs=1e-9)
             assert twin == pytest.approx(ref, abs=1e-9)
             if ref > 0:  # the closest point really is at u along the segment
@@ -393,7 +396,7 @@ def test_segment_distance_and_margin_vs_shapely(random_zones):
                 expect = ref <= margin
                 assert gk.segment_near_zone(ax, ay, bx, by, margin, x, y, rs, ps, zs, k,
                                             bbox) == expect
-                assert gk.segment_near_zone_np(ax, ay, bx, by, margin, x, y, rs, ps, zs,
+                assert twins.segment_near_zone_twin(ax, ay, bx, by, margin, x, y, rs, ps, zs,
                                                k) == expect
 
 
@@ -434,8 +437,8 @@ def test_first_contact_vs_shapely(random_zones, swept):
     for _ in range(8):
         ax, ay, bx, by = _carpet(rng)
         margins = rng.uniform(0, 6, len(zones)) * (rng.random(len(zones)) < 0.5)
-        got = gk.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, margins, swept)
-        twin = gk.first_contact_np(ax, ay, bx, by, x, y, rs, ps, zs, margins, swept)
+        got = contact.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, margins, swept)
+        twin = twins.first_contact_twin(ax, ay, bx, by, x, y, rs, ps, zs, margins, swept)
         ref = _first_contact_shapely(geoms, margins, ax, ay, bx, by, swept)
         assert np.array_equal(got, ref)
         assert np.array_equal(twin, ref)
@@ -450,15 +453,15 @@ def test_first_contact_swept_catches_small_zone_between_sections():
     cx = np.arange(0.0, 20.0, 1.0)
     ax, ay, bx, by = cx, np.full_like(cx, 5.0), cx, np.full_like(cx, -5.0)
     m = np.zeros(1)
-    assert gk.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, m, False)[0] == -1
-    assert gk.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, m, True)[0] == 11
+    assert contact.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, m, False)[0] == -1
+    assert contact.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, m, True)[0] == 11
     # and a zone far away costs nothing and reports -1; empty input gives -1 too
     far = sq + 1e4
     x, y, rs, ps, zs, bbox, (rc, ce, cb) = pack([[[sq]], [[far]]])
-    got = gk.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, np.zeros(2), True)
+    got = contact.first_contact(ax, ay, bx, by, x, y, ps, zs, bbox, rc, ce, cb, np.zeros(2), True)
     assert got.tolist() == [11, -1]
     e = np.zeros(0)
-    assert gk.first_contact(e, e, e, e, x, y, ps, zs, bbox, rc, ce, cb, np.zeros(2),
+    assert contact.first_contact(e, e, e, e, x, y, ps, zs, bbox, rc, ce, cb, np.zeros(2),
                             True).tolist() == [-1, -1]
 
 
@@ -489,7 +492,7 @@ def test_ring_self_intersection_vs_shapely():
         pts = rng.uniform(0, 10, size=(n, 2))
         ring = np.vstack([pts, pts[:1]])
         i, j = gk.ring_self_intersection(ring[:, 0].copy(), ring[:, 1].copy())
-        ti, tj = gk.ring_self_intersection_np(ring[:, 0], ring[:, 1])
+        ti, tj = twins.ring_self_intersection_twin(ring[:, 0], ring[:, 1])
         ref_simple = LinearRing(ring).is_simple  # GEOS simplicity of the ring
         assert (i < 0) == ref_simple
         assert (i, j) == (ti, tj)
@@ -502,7 +505,7 @@ def test_ring_self_intersection_vs_shapely():
     for ring, simple in ((spike, False), (eight, False), (square, True)):
         assert LinearRing(ring).is_simple == simple
         assert (gk.ring_self_intersection(ring[:, 0].copy(), ring[:, 1].copy())[0] < 0) == simple
-        assert (gk.ring_self_intersection_np(ring[:, 0], ring[:, 1])[0] < 0) == simple
+        assert (twins.ring_self_intersection_twin(ring[:, 0], ring[:, 1])[0] < 0) == simple
 
 
 def test_zone_file_roundtrip_through_json(tmp_path):

@@ -39,6 +39,7 @@ import math
 import sys
 from dataclasses import dataclass, fields
 from pathlib import Path
+from typing import Any
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -118,7 +119,7 @@ def load_config(path: str | Path | None) -> AdvisorConfig:
         raise ConfigError(f"advisor config {path}: cannot read ({exc.strerror})") from exc
     except tomllib.TOMLDecodeError as exc:
         raise ConfigError(f"advisor config {path}: not valid TOML ({exc})") from exc
-    values: dict[str, float] = {}
+    values: dict[str, Any] = {}  # any TOML value; validate() names a bad one
     for section, table in doc.items():
         if section not in _SECTIONS or not isinstance(table, dict):
             raise ConfigError(f"advisor config {path}: unknown section [{section}]")

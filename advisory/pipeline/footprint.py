@@ -17,6 +17,10 @@ acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoust
 1989, ch. 8, ray-tube area); a sign change of ``J`` between successive emissions is a
 fold (a caustic on the ground). The amplification is bounded by
 :data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP`.
+
+The placement and focus kernels have numpy twins (``place_kernel_twin``,
+``focus_kernel_twin`` in ``tests/twins/footprint.py``) compared in
+``tests/test_footprint.py``.
 """
 
 from __future__ import annotations
@@ -117,54 +121,6 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, 
                 amp = 1.0
             prev_sign[j] = sign
             out[k, j] = amp
-
-
-def place_numpy(t, east, north, heading_grid, rows, codes):
-    """Numpy twin of :func:`place_kernel`; returns (e, n, t, de, dn)."""
-    s = np.sin(heading_grid)[:, None]
-    c = np.cos(heading_grid)[:, None]
-    f, r = rows[:, :, lk.Q_FWD], rows[:, :, lk.Q_RIGHT]
-    df, dr = rows[:, :, lk.Q_DFWD_DPHI], rows[:, :, lk.Q_DRIGHT_DPHI]
-    e = east[:, None] + f * s + r * c
-    n = north[:, None] + f * c - r * s
-    tt = t[:, None] + rows[:, :, lk.Q_TIME]
-    de = df * s + dr * c
-    dn = df * c - dr * s
-    dead = (codes == lk.NO_BOOM)[:, None]
-    return tuple(np.where(dead, np.nan, a) for a in (e, n, tt, de, dn))
-
-
-def focus_numpy(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap) -> np.ndarray:
-    """Readable twin of :func:`focus_kernel`; returns the amplification array."""
-    nk, nj = ground_e.shape
-    out = np.ones((nk, nj))
-    if nk < 2:
-        return out
-    boom = codes != lk.NO_BOOM
-    prev_sign = np.zeros(nj)
-    for k in range(nk):
-        if not boom[k]:
-            prev_sign[:] = 0.0
-            continue
-        k0 = k - 1 if k > 0 and boom[k - 1] else k
-        k1 = k + 1 if k < nk - 1 and boom[k + 1] else k
-        if k1 == k0:
-            continue
-        dt = t[k1] - t[k0]
-        te = (ground_e[k1] - ground_e[k0]) / dt
-        tn = (ground_n[k1] - ground_n[k0]) / dt
-        with np.errstate(divide="ignore", invalid="ignore"):
-            j_act = te * dphi_n[k] - tn * dphi_e[k]
-            j_std = vg_e[k] * dphi_n[k] - vg_n[k] * dphi_e[k]
-            ratio = np.where(j_act != 0.0, j_std / j_act, np.inf)
-        usable = np.isfinite(dphi_e[k]) & np.isfinite(dphi_n[k]) & (j_std != 0.0)
-        sign = np.where(ratio > 0.0, 1.0, -1.0)
-        fold = (ratio <= 0.0) | ((prev_sign != 0.0) & (sign != prev_sign))
-        amp = np.where(fold, cap, np.where(ratio > 1.0, np.minimum(np.sqrt(
-            np.where(ratio > 1.0, ratio, 1.0)), cap), 1.0))
-        out[k] = np.where(usable, amp, 1.0)
-        prev_sign = np.where(usable, sign, prev_sign)
-    return out
 
 
 @dataclass

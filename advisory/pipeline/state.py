@@ -1,13 +1,11 @@
-"""The air-data state (SI inside) and the validator that guards the live loop.
+"""The validator that guards the live loop: which air-data frames may reach the advisor.
 
-:class:`AirDataState` is built from a field dict with the wire names of
-``docs/interface.md`` (``lat_deg``, ``alt_ft``, ``gs_kt``, ...), converting to SI at this
-edge: radians, metres, metres per second, kelvin. :class:`StateValidator` decides
-whether one frame's fields may reach the advisor: it checks presence and type, ranges,
+:class:`StateValidator` decides whether one frame's fields may reach the advisor: it
+checks presence and type, ranges (:data:`advisory.pipeline.airdata.AIR_RANGES`),
 NaN/inf, staleness by monotonic receive time, sender clock steps and implausible jumps
-between consecutive frames. It returns the state or a :class:`Rejection` (a ``str``
-reason code with a human ``detail`` naming the field and the value), counts every
-rejection by reason, and never raises on any input.
+between consecutive frames. It returns the state (:class:`AirDataState`, SI) or a
+:class:`Rejection` (a ``str`` reason code with a human ``detail`` naming the field and
+the value), counts every rejection by reason, and never raises on any input.
 
 The numeric limits are engineering choices (common practice, no source); they are
 listed in the ICD, ``docs/interface.md``, section "Accepted ranges".
@@ -21,157 +19,11 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from advisory.pipeline.airdata import AIR_RANGES, AirDataState, new_state
+from advisory.schema import AIR_OPTIONAL, AIR_REQUIRED, EARTH_MEAN_RADIUS_M, STALE_AFTER_S
 from advisory.units import DEG, FT, KELVIN_OFFSET, KT, wind_from_to_components
 
-EARTH_RADIUS_M = 6371008.8  #: mean Earth radius, m (IUGG mean radius R1 of WGS 84)
-
-REQUIRED_FIELDS = (
-    "lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg", "fpa_deg",
-)
-OPTIONAL_FIELDS = ("track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt")
-
-
-@dataclass(frozen=True)
-class AirDataState:
-    """One validated air-data sample, SI units.
-
-    Attributes
-    ----------
-    lat_rad, lon_rad : float
-        WGS 84 geodetic latitude and longitude, rad.
-    alt_m : float
-        Pressure altitude (standard setting 1013.25 hPa), m.
-    mach : float
-        Flight Mach number.
-    heading_rad : float
-        True heading, clockwise from true north, rad, in [0, 2 pi).
-    gs_mps : float
-        Ground speed, m/s.
-    bank_rad : float
-        Bank angle, rad, positive right wing down.
-    fpa_rad : float
-        Flight-path angle, rad, positive climbing.
-    track_rad : float or None
-        True track over the ground, rad, in [0, 2 pi); None when not sent.
-    mach_rate_per_s : float or None
-        Rate of change of Mach number, 1/s.
-    sat_k : float or None
-        Static air temperature, K.
-    wind_east_mps, wind_north_mps : float or None
-        Wind at the aircraft: velocity of the air toward east and north, m/s.
-    utc_s : float or None
-        Sender's UTC time of the sample, s since 1970.
-    rx_monotonic : float or None
-        ``time.monotonic()`` when the frame was received, s.
-    """
-
-    lat_rad: float
-    lon_rad: float
-    alt_m: float
-    mach: float
-    heading_rad: float
-    gs_mps: float
-    bank_rad: float
-    fpa_rad: float
-    track_rad: float | None = None
-    mach_rate_per_s: float | None = None
-    sat_k: float | None = None
-    wind_east_mps: float | None = None
-    wind_north_mps: float | None = None
-    utc_s: float | None = None
-    rx_monotonic: float | None = None
-
-    @classmethod
-    def from_fields(cls, fields: Mapping[str, Any], *, utc_s: float | None = None,
-                    rx_monotonic: float | None = None) -> AirDataState:
-        """Build a state from wire-named fields, converting units (no range checks).
-
-        Parameters
-        ----------
-        fields : mapping
-            Wire names to numbers (see the module docstring); optional ones may be
-            missing or None. ``wind_from_deg`` and ``wind_kt`` come together or not at
-            all.
-        utc_s, rx_monotonic : float, optional
-            Time tags carried into the state.
-
-        Raises
-        ------
-        ValueError
-            A required field is missing, a value is not a number, or wind is half given;
-            the message names the field and the value.
-        """
-        values = {}
-        for name in REQUIRED_FIELDS + OPTIONAL_FIELDS:
-            x = fields.get(name)
-            if x is None:
-                if name in REQUIRED_FIELDS:
-                    raise ValueError(f"air-data field {name!r} is missing")
-                values[name] = None
-                continue
-            if isinstance(x, bool) or not isinstance(x, (int, float)):
-                raise ValueError(f"air-data field {name!r} must be a number, got {x!r}")
-            values[name] = float(x)
-        if (values["wind_from_deg"] is None) != (values["wind_kt"] is None):
-            raise ValueError("air-data fields 'wind_from_deg' and 'wind_kt' must come "
-                             f"together, got wind_from_deg={values['wind_from_deg']!r}, "
-                             f"wind_kt={values['wind_kt']!r}")
-        return _build(values, utc_s, rx_monotonic)
-
-    def to_fields(self) -> dict[str, float | None]:
-        """The wire-named field dict of this state (inverse of :meth:`from_fields`)."""
-        wind_from = wind_kt = None
-        if self.wind_east_mps is not None and self.wind_north_mps is not None:
-            speed = math.hypot(self.wind_east_mps, self.wind_north_mps)
-            wind_kt = speed / KT
-            # direction the wind blows FROM is opposite to the air's velocity
-            wind_from = math.degrees(math.atan2(-self.wind_east_mps,
-                                                -self.wind_north_mps)) % 360.0
-        return {
-            "lat_deg": self.lat_rad / DEG,
-            "lon_deg": self.lon_rad / DEG,
-            "alt_ft": self.alt_m / FT,
-            "mach": self.mach,
-            "heading_deg": self.heading_rad / DEG,
-            "gs_kt": self.gs_mps / KT,
-            "bank_deg": self.bank_rad / DEG,
-            "fpa_deg": self.fpa_rad / DEG,
-            "track_deg": None if self.track_rad is None else self.track_rad / DEG,
-            "mach_rate_per_s": self.mach_rate_per_s,
-            "sat_c": None if self.sat_k is None else self.sat_k - KELVIN_OFFSET,
-            "wind_from_deg": wind_from,
-            "wind_kt": wind_kt,
-        }
-
-
-_STATE_NAMES = tuple(AirDataState.__dataclass_fields__)
-_object_new = object.__new__
-
-
-def _new_state(values: tuple) -> AirDataState:
-    """An :class:`AirDataState` from its 15 values in field order, without the generated
-    ``__init__`` (half the cost on the hot path; same object, still frozen)."""
-    st = _object_new(AirDataState)
-    st.__dict__.update(zip(_STATE_NAMES, values))
-    return st
-
-
-def _build(v: Mapping[str, float | None], utc_s: float | None,
-           rx_monotonic: float | None) -> AirDataState:
-    track = v["track_deg"]
-    sat = v["sat_c"]
-    east = north = None
-    if v["wind_kt"] is not None:
-        east, north = wind_from_to_components(v["wind_from_deg"], v["wind_kt"] * KT)
-    return AirDataState(
-        v["lat_deg"] * DEG, v["lon_deg"] * DEG, v["alt_ft"] * FT, v["mach"],
-        (v["heading_deg"] % 360.0) * DEG, v["gs_kt"] * KT, v["bank_deg"] * DEG,
-        v["fpa_deg"] * DEG,
-        None if track is None else (track % 360.0) * DEG,
-        v["mach_rate_per_s"],
-        None if sat is None else sat + KELVIN_OFFSET,
-        east, north, utc_s, rx_monotonic,
-    )
+__all__ = ["AirDataState", "Rejection", "ValidatorLimits", "StateValidator"]
 
 
 class Rejection(str):
@@ -203,22 +55,8 @@ class ValidatorLimits:
     monotonic receive time, each with a slack added for sensor noise and timing jitter.
     """
 
-    ranges: dict[str, tuple[float, float]] = field(default_factory=lambda: {
-        "lat_deg": (-90.0, 90.0),
-        "lon_deg": (-180.0, 180.0),
-        "alt_ft": (-1500.0, 98000.0),
-        "mach": (0.0, 4.0),
-        "heading_deg": (0.0, 360.0),
-        "gs_kt": (0.0, 2500.0),
-        "bank_deg": (-80.0, 80.0),
-        "fpa_deg": (-30.0, 30.0),
-        "track_deg": (0.0, 360.0),
-        "mach_rate_per_s": (-1.0, 1.0),
-        "sat_c": (-100.0, 60.0),
-        "wind_from_deg": (0.0, 360.0),
-        "wind_kt": (0.0, 400.0),
-    })
-    max_age_s: float = 0.5  #: a frame older than this (monotonic) is stale
+    ranges: dict[str, tuple[float, float]] = field(default_factory=lambda: dict(AIR_RANGES))
+    max_age_s: float = STALE_AFTER_S  #: a frame older than this (monotonic) is stale
     clock_step_tolerance_s: float = 1.0  #: |d utc - d monotonic| allowed between frames
     utc_range_s: tuple[float, float] = (946684800.0, 4102444800.0)  #: 2000 to 2100
     speed_margin_mps: float = 100.0  #: added to the larger ground speed for position
@@ -269,12 +107,12 @@ class StateValidator:
         self.rebaselines = 0
         self.last_rejection: Rejection | None = None
         r = lim.ranges
-        self._req = tuple((n, float(r[n][0]), float(r[n][1])) for n in REQUIRED_FIELDS)
-        self._opt = tuple((n, float(r[n][0]), float(r[n][1])) for n in OPTIONAL_FIELDS)
+        self._req = tuple((n, float(r[n][0]), float(r[n][1])) for n in AIR_REQUIRED)
+        self._opt = tuple((n, float(r[n][0]), float(r[n][1])) for n in AIR_OPTIONAL)
         self._req_flat = tuple(x for _, lo, hi in self._req for x in (lo, hi))
         self._opt_flat = tuple(x for _, lo, hi in self._opt for x in (lo, hi))
         # jump limits in wire units (deg, ft, kt); position compared in degrees of arc
-        arc = 1.0 / (DEG * EARTH_RADIUS_M)  # degrees of arc per metre
+        arc = 1.0 / (DEG * EARTH_MEAN_RADIUS_M)  # degrees of arc per metre
         self._jump_k = (
             lim.speed_margin_mps / KT, lim.position_slack_m * arc, KT * arc,
             lim.climb_mps / FT, lim.alt_slack_m / FT, lim.mach_per_s, lim.mach_slack,
@@ -333,7 +171,8 @@ class StateValidator:
         if st is None:
             return None
         now = time.monotonic() if now_monotonic is None else now_monotonic
-        if now - st.rx_monotonic > self.limits.max_age_s:
+        rx = st.rx_monotonic  # always set on an accepted state
+        if rx is None or now - rx > self.limits.max_age_s:
             return None
         return st
 
@@ -385,6 +224,8 @@ class StateValidator:
 
     def _validate(self, fields: Any, rx: float, utc_s: float | None,
                   now: float | None) -> AirDataState | Rejection:
+        # One long function on purpose: it runs once per frame on the decode path (budget
+        # 100,000 frames/s), and method calls per check cost a measurable share of that.
         lim = self.limits
         if type(rx) is not float:
             if isinstance(rx, bool) or not isinstance(rx, (int, float)):
@@ -433,7 +274,7 @@ class StateValidator:
                 return rej
             # acceptable but not all floats (ints): convert and go on
             lat, lon, alt, mach, hdg, gs, bank, fpa = (
-                float(fields[n]) for n in REQUIRED_FIELDS)
+                float(fields[n]) for n in AIR_REQUIRED)
         # optional fields
         (p0, p1, q0, q1, r0, r1, s0, s1, t0, t1) = self._opt_flat
         if not ((track is None or (type(track) is float and p0 <= track <= p1))
@@ -523,11 +364,11 @@ class StateValidator:
                 self._candidate = None
                 self._run = 0
         self._last = cur
-        if wkt is None:
+        if wkt is None or wfrom is None:  # both or neither (checked above)
             east = north = None
         else:
             east, north = wind_from_to_components(wfrom, wkt * KT)
-        st = _new_state((
+        st = new_state((
             lat * DEG, lon * DEG, alt * FT, mach, (hdg % 360.0) * DEG, gs * KT, bank * DEG,
             fpa * DEG, None if track is None else (track % 360.0) * DEG, mrate,
             None if sat is None else sat + KELVIN_OFFSET, east, north, utc_s, rx,
@@ -546,8 +387,8 @@ class StateValidator:
         if dt < 0.0:
             dt = 0.0
         # position: equirectangular distance, adequate for the short hops checked here
-        dn = (b[0] - a[0]) * DEG * EARTH_RADIUS_M
-        de = _wrap180(b[1] - a[1]) * DEG * EARTH_RADIUS_M * math.cos(b[0] * DEG)
+        dn = (b[0] - a[0]) * DEG * EARTH_MEAN_RADIUS_M
+        de = _wrap180(b[1] - a[1]) * DEG * EARTH_MEAN_RADIUS_M * math.cos(b[0] * DEG)
         dist = math.hypot(dn, de)
         allowed = (max(a[5], b[5]) * KT + lim.speed_margin_mps) * dt + lim.position_slack_m
         if dist > allowed:

@@ -2,7 +2,7 @@
 
 The prediction holds the present manoeuvre: a coordinated turn at the current bank,
 a constant Mach rate and a constant flight-path angle, in a wind that is constant over
-the look-ahead. It is propagated in a :class:`~advisory.geo.geodesy.LocalFrame` plane
+the look-ahead. It is propagated in a :class:`~advisory.geo.frame.LocalFrame` plane
 (about the start point unless another frame is given), where straight flight is a
 geodesic on WGS 84, then turned into latitude and longitude with the direct problem.
 
@@ -32,11 +32,13 @@ heading, so the slight curvature of geodesics in the plane away from the frame o
 is neglected: some 2 m over a full turn of 37 km radius about the start point, and
 about 20 m over 300 s of turning flight 300 km from the origin of a given frame.
 
-The stepping is a numba kernel (:func:`propagate_kernel`) with a numpy twin
-(:func:`propagate_np`). Latitude, longitude and the true heading and track are worked
-out from the plane positions only when first read (one pass of the direct problem,
-about 60 us for 151 points), so trial trajectories that stay in the plane cost about
-40 us each (151 points, speed of sound given as a value).
+The stepping is a numba kernel (:func:`propagate_kernel`; its numpy twin is in
+``tests/twins/trajectory.py``). Latitude, longitude and the true heading and track are
+worked out from the plane positions only when first read (one pass of the direct
+problem, about 60 us for 151 points), so trial trajectories that stay in the plane cost
+about 40 us each (151 points, speed of sound given as a value). Trajectories derived
+from a predicted one (the recent past, resolution turns) are in
+:mod:`advisory.pipeline.history`.
 """
 
 from __future__ import annotations
@@ -48,7 +50,7 @@ from functools import cached_property
 
 import numpy as np
 
-from advisory.geo.geodesy import FramePoints, LocalFrame
+from advisory.geo.frame import FramePoints, LocalFrame
 from advisory.jit import njit
 from advisory.units import G0
 
@@ -60,7 +62,6 @@ __all__ = [
     "Trajectory",
     "predict_trajectory",
     "propagate_kernel",
-    "propagate_np",
     "PROPAGATE_ROWS",
     "PROPAGATE_PARAMS",
 ]
@@ -190,7 +191,7 @@ def _cumtrapz(y: np.ndarray, dt: np.ndarray) -> np.ndarray:
 
 def _grid_bearing(pt: FramePoints, azimuth: float) -> float:
     """Grid bearing of a true azimuth at the single point ``pt`` (scalar path of
-    :meth:`advisory.geo.geodesy.FramePoints.azimuth_to_grid`)."""
+    :meth:`advisory.geo.frame.FramePoints.azimuth_to_grid`)."""
     th = azimuth - float(pt.radial_true_rad[0])
     q = float(pt.anisotropy[0])
     return float(pt.radial_grid_rad[0]) + math.atan2(q * math.sin(th), math.cos(th))
@@ -208,11 +209,11 @@ def _sound_speed(speed_of_sound: SpeedOfSound, alt: np.ndarray) -> np.ndarray:
 
 
 # --------------------------------------------------------------------------------------
-# Propagation: numba kernel and its numpy twin
+# Propagation: the numba kernel (its numpy twin is in tests/twins/trajectory.py)
 # --------------------------------------------------------------------------------------
 
 
-#: Rows of the array returned by :func:`propagate_kernel` and :func:`propagate_np`.
+#: Rows of the array returned by :func:`propagate_kernel`.
 PROPAGATE_ROWS = ("east_m", "north_m", "alt_m", "tas_mps", "heading_grid_rad",
                   "turn_rate_rad_s", "bank_rad", "track_grid_rad", "ground_speed_mps")
 #: Order of the entries of the ``params`` argument of :func:`propagate_kernel`.
@@ -326,54 +327,6 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         out[8, i] = math.hypot(ge, gn)
         psi[i] = psi[i] % two_pi
     return out
-
-
-def propagate_np(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.ndarray
-                 ) -> np.ndarray:
-    """numpy twin of :func:`propagate_kernel` (same arguments and result)."""
-    h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params
-    dt = np.diff(t)
-    tas = mach * a
-    alt = h0 + _cumtrapz(tas * sin_g, dt)
-    omega = g * math.tan(bank) / tas
-    turned = _cumtrapz(omega, dt)
-    bank_out = np.full_like(t, bank)
-    if not math.isnan(turn_limit):
-        done = np.abs(turned) >= abs(turn_limit)
-        if done.any():
-            first = int(np.argmax(done))
-            turned = np.where(done, turn_limit, turned)
-            omega = omega.copy()
-            omega[first:] = 0.0
-            bank_out[first:] = 0.0
-    psi = psi0 + turned
-    dpsi = np.diff(psi)
-    chord = 0.5 * (tas[1:] + tas[:-1]) * cos_g * dt * np.sinc(dpsi / (2.0 * math.pi))
-    mid = psi[:-1] + 0.5 * dpsi
-    de = chord * np.sin(mid) + wind_e * dt
-    dn = chord * np.cos(mid) + wind_n * dt
-    # the scale correction depends on where each step starts, so it runs step by step
-    east = np.empty_like(t)
-    north = np.empty_like(t)
-    east[0] = e0
-    north[0] = n0
-    for i in range(1, t.size):
-        me = east[i - 1] + 0.5 * de[i - 1]
-        mn = north[i - 1] + 0.5 * dn[i - 1]
-        rho = math.hypot(me, mn)
-        step = np.array([de[i - 1], dn[i - 1]])
-        if rho > 0.0:
-            u = np.array([me, mn]) / rho
-            h = math.sqrt(max(1.0 - (0.5 * rho / radius) ** 2, 1e-300))
-            radial = step @ u
-            step = h * radial * u + (step - radial * u) / h
-        east[i] = east[i - 1] + step[0]
-        north[i] = north[i - 1] + step[1]
-    vh = tas * cos_g
-    ge = vh * np.sin(psi) + wind_e
-    gn = vh * np.cos(psi) + wind_n
-    return np.stack([east, north, alt, tas, np.mod(psi, 2.0 * math.pi), omega, bank_out,
-                     np.mod(np.arctan2(ge, gn), 2.0 * math.pi), np.hypot(ge, gn)])
 
 
 def predict_trajectory(

@@ -43,12 +43,13 @@ from advisory.io.arinc429 import Arinc429Assembler, LabelMap
 from advisory.io.arinc429_labels import load_label_map
 from advisory.io.framing import DatagramReader, StreamDeframer
 from advisory.io.messages import FrameDecoder, encode_adv, encode_status, next_seq
-from advisory.pipeline.state import REQUIRED_FIELDS, AirDataState, Rejection, StateValidator
+from advisory.pipeline.state import AirDataState, Rejection, StateValidator
+from advisory.schema import AIR_REQUIRED as REQUIRED_FIELDS
 from advisory.schema import DECODE_REASONS, LINK_COUNTERS, MAX_COUNTERS, REASON_MAX_BYTES
 
 if TYPE_CHECKING:  # pragma: no cover
     from advisory.io.records import Recorder
-    from advisory.pipeline.advisor import Advisory
+    from advisory.pipeline.results import Advisory
 
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
 FRAMINGS = ("stream", "datagram")
@@ -465,7 +466,7 @@ class AdvisoryLoop:
     _status_reason = ""
 
     def _unavailable(self, reason: str):
-        from advisory.pipeline.advisor import Advisory
+        from advisory.pipeline.results import Advisory
 
         return Advisory("unavailable", reason=reason)
 

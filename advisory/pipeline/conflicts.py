@@ -1,0 +1,158 @@
+"""Conflict search: the first contact of the predicted boom carpet with each zone.
+
+The carpet is cut into strips between the azimuth nodes ``strip_nodes``; each strip is a
+series of ground segments over emission time, tested against the zones (within each
+zone's margin, the band between successive emissions included; see
+:func:`advisory.geo.contact.first_contact`). A zone with an overpressure limit is tested
+only against strip segments where the focus-amplified overpressure at either end
+exceeds the limit (conservative); zones sharing a limit are searched together.
+Emissions whose booms have all arrived (arrival time before now) are left out.
+
+The numba kernel :func:`conflict_kernel` has a readable numpy twin
+(``find_conflicts_twin`` in ``tests/twins/conflicts.py``) compared in
+``tests/test_advisor.py``. Interpolating the contact between two emissions: common
+practice, no source.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from advisory.geo import contact
+from advisory.geo.polygons import segment_zone_distance
+from advisory.jit import njit
+from advisory.pipeline.footprint import CarpetPrediction
+from advisory.pipeline.results import Conflict
+from advisory.pipeline.zones import ProjectedZones, ZoneSet
+
+__all__ = ["find_conflicts", "conflicts_from", "conflict_kernel"]
+
+
+def find_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
+                   strip_nodes: np.ndarray, focus_threshold: float,
+                   first_only: bool = False) -> list[Conflict]:
+    """Zones the predicted carpet reaches, soonest first (numba kernel; see the twin)."""
+    n_zones = len(pz)
+    if n_zones == 0 or not pred.on_ground.any():
+        return []
+    best_t = np.full(n_zones, np.inf)
+    best_dp = np.zeros(n_zones)
+    best_focus = np.zeros(n_zones, dtype=np.bool_)
+    conflict_kernel(
+        pred.east_m, pred.north_m, pred.arrival_s, pred.effective_overpressure_pa,
+        pred.focus_factor, pred.on_ground, np.ascontiguousarray(strip_nodes, dtype=np.int64),
+        pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
+        pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, float(focus_threshold),
+        bool(first_only), best_t, best_dp, best_focus,
+    )
+    return conflicts_from(zones, best_t, best_dp, best_focus)
+
+
+def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,
+                   best_focus: np.ndarray) -> list[Conflict]:
+    """The zones with a finite first-contact time ``best_t`` (s), soonest first, with
+    their overpressure ``best_dp`` (Pa) and focus flag."""
+    out = []
+    for z in np.argsort(best_t, kind="stable"):
+        if not np.isfinite(best_t[z]):
+            break
+        zone = zones.zones[int(z)]
+        out.append(Conflict(int(z), zone.id, zone.name or zone.id, float(best_t[z]),
+                            float(best_dp[z]), bool(best_focus[z])))
+    return out
+
+
+@njit(cache=True)
+def _kernel_contact_time(e, n, arrival, k, start, j0, j1, margin, x, y, ring_start,
+                         part_start, zone_start, z):
+    """Arrival time of carpet strip (j0, j1) at zone ``z``, first touched at emission
+    ``k`` (the run of valid emissions starting at ``start``).
+
+    Between the last clear segment ``k - 1`` and the touching one ``k`` the contact is
+    placed by linear interpolation of the segments' distances to the zone (less its
+    margin), and the strip's earliest arrival time is interpolated the same way.
+    """
+    t_k = min(arrival[k, j0], arrival[k, j1])
+    if k <= start:
+        return t_k
+    t_prev = min(arrival[k - 1, j0], arrival[k - 1, j1])
+    d_prev, _ = segment_zone_distance(e[k - 1, j0], n[k - 1, j0], e[k - 1, j1],
+                                         n[k - 1, j1], x, y, ring_start, part_start,
+                                         zone_start, z)
+    d_k, _ = segment_zone_distance(e[k, j0], n[k, j0], e[k, j1], n[k, j1], x, y,
+                                      ring_start, part_start, zone_start, z)
+    d_prev -= margin
+    d_k -= margin
+    if not (math.isfinite(d_prev) and math.isfinite(d_k)) or d_prev <= 0.0:
+        return min(t_prev, t_k)
+    if d_k <= 0.0:
+        f = d_prev / (d_prev - d_k)
+    else:
+        f = d_prev / (d_prev + d_k)
+    f = min(max(f, 0.0), 1.0)
+    return t_prev + f * (t_k - t_prev)
+
+
+@njit(cache=True)
+def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring_start,
+                    part_start, zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox,
+                    margins, limits, focus_threshold, first_only, best_t, best_dp, best_focus):
+    """First contact of the carpet strips with each zone (see the module notes).
+
+    Writes ``best_t`` (s, inf for none), ``best_dp`` (Pa) and ``best_focus`` per zone.
+    """
+    nz = limits.size
+    nk = e.shape[0]
+    m = np.empty(nz)
+    found = False
+    for zl in range(nz):
+        lim = limits[zl]
+        seen = False
+        for zp in range(zl):
+            if limits[zp] == lim:
+                seen = True
+        if seen:
+            continue
+        for z in range(nz):
+            m[z] = margins[z] if limits[z] == lim else -1.0e12
+        for s in range(strip_nodes.size - 1):
+            j0 = strip_nodes[s]
+            j1 = strip_nodes[s + 1]
+            k = 0
+            while k < nk:
+                if not (on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                        and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
+                    k += 1
+                    continue
+                start = k
+                while (k < nk and on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                       and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
+                    k += 1
+                stop = k
+                ax = e[start:stop, j0].copy()
+                ay = n[start:stop, j0].copy()
+                bx = e[start:stop, j1].copy()
+                by = n[start:stop, j1].copy()
+                hits = contact.first_contact(ax, ay, bx, by, x, y, part_start, zone_start,
+                                        zone_bbox, ring_chunk, chunk_edges, chunk_bbox, m, True)
+                for z in range(nz):
+                    if hits[z] < 0:
+                        continue
+                    kk = start + hits[z]
+                    t = max(_kernel_contact_time(e, n, arrival, kk, start, j0, j1, m[z], x, y,
+                                                 ring_start, part_start, zone_start, z), 0.0)
+                    if t < best_t[z]:
+                        k0 = kk - 1 if kk > start else kk
+                        big = 0.0
+                        foc = 1.0
+                        for q in range(k0, kk + 1):
+                            big = max(big, dp[q, j0], dp[q, j1])
+                            foc = max(foc, focus[q, j0], focus[q, j1])
+                        best_t[z] = t
+                        best_dp[z] = big
+                        best_focus[z] = foc >= focus_threshold
+                        found = True
+                if first_only and found:
+                    return

@@ -1,0 +1,142 @@
+"""What the advisor says: the advisory of one step and the conflicts behind it.
+
+:class:`Advisory` carries SI values inside; :meth:`Advisory.to_fields` gives the wire /
+JSON fields (edge units named in the keys, strings cut to the wire format's limits of
+:mod:`advisory.schema`) and :meth:`Advisory.to_record` the fuller record for logs and
+``check --json``, with the advisory-aid caution.
+
+ADVISORY AID ONLY: not certified flight software; local regulations and licensed
+practice govern supersonic flight.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from advisory import SAFETY_CAUTION, units
+from advisory.pipeline.cues import crew_cue
+from advisory.schema import CUE_MAX_BYTES, ZONE_ID_MAX_BYTES
+
+__all__ = ["Conflict", "Advisory", "clip_utf8"]
+
+
+@dataclass(frozen=True)
+class Conflict:
+    """A zone the carpet reaches within the look-ahead (SI)."""
+
+    zone_index: int
+    zone_id: str
+    zone_name: str
+    time_to_contact_s: float
+    overpressure_pa: float
+    focus: bool
+
+
+@dataclass(frozen=True)
+class Advisory:
+    """What the advisor says for one step.
+
+    Attributes
+    ----------
+    status : str
+        One of :data:`advisory.schema.ADV_STATUSES`.
+    zone_id, zone_name : str or None
+        First zone in conflict.
+    time_to_contact_s : float or None
+        Time until the carpet reaches that zone, s.
+    overpressure_pa : float or None
+        Predicted overpressure there (focus included), Pa.
+    focus : bool
+        A focus boom is predicted at the contact.
+    max_mach_off_ground : float or None
+        Highest Mach at the present altitude whose boom stays off the ground (cutoff
+        minus the configured margin).
+    turn_left_deg, turn_right_deg : float or None
+        Smallest heading changes that clear every zone over the look-ahead (None when
+        none up to the search limit does, or no conflict).
+    reaches_ground : bool
+        The boom of the present emission reaches the ground.
+    cutoff_mach : float or None
+        Cutoff Mach at the present state.
+    tables_stale : bool
+        A newer atmosphere is known and its table is being built.
+    reason : str
+        Why the advisory is unavailable ('' otherwise).
+    conflicts : tuple of Conflict
+        Every zone in conflict, soonest first.
+    utc_s : float or None
+        UTC time of the air data the advisory is based on.
+    """
+
+    status: str
+    zone_id: str | None = None
+    zone_name: str | None = None
+    time_to_contact_s: float | None = None
+    overpressure_pa: float | None = None
+    focus: bool = False
+    max_mach_off_ground: float | None = None
+    turn_left_deg: float | None = None
+    turn_right_deg: float | None = None
+    reaches_ground: bool = False
+    cutoff_mach: float | None = None
+    tables_stale: bool = False
+    reason: str = ""
+    conflicts: tuple[Conflict, ...] = field(default_factory=tuple)
+    utc_s: float | None = None
+
+    @property
+    def overpressure_psf(self) -> float | None:
+        """Predicted overpressure at the zone, psf."""
+        return None if self.overpressure_pa is None else units.pa_to_psf(self.overpressure_pa)
+
+    @property
+    def cue(self) -> str:
+        """One short crew line (our own wording)."""
+        return crew_cue(self)
+
+    def to_fields(self) -> dict:
+        """The advisory as wire / JSON fields (edge units named in the keys)."""
+        def r(x: float | None, nd: int) -> float | None:
+            return None if x is None or not math.isfinite(x) else round(float(x), nd)
+
+        return {
+            "status": self.status,
+            "zone_id": clip_utf8(self.zone_id, ZONE_ID_MAX_BYTES),
+            "time_to_contact_s": r(self.time_to_contact_s, 1),
+            "overpressure_psf": r(self.overpressure_psf, 3),
+            "focus": bool(self.focus),
+            "max_mach_off_ground": r(self.max_mach_off_ground, 2),
+            "turn_left_deg": r(self.turn_left_deg, 0),
+            "turn_right_deg": r(self.turn_right_deg, 0),
+            "tables_stale": bool(self.tables_stale),
+            "cue": clip_utf8(self.cue, CUE_MAX_BYTES),
+        }
+
+    def to_record(self) -> dict:
+        """The fuller record for logs and ``check --json``."""
+        d = self.to_fields()
+        d.update({
+            "zone_name": self.zone_name,
+            "reaches_ground": self.reaches_ground,
+            "cutoff_mach": None if self.cutoff_mach is None else round(self.cutoff_mach, 4),
+            "reason": self.reason,
+            "utc_s": self.utc_s,
+            "conflicts": [
+                {"zone_id": c.zone_id, "zone_name": c.zone_name,
+                 "time_to_contact_s": round(c.time_to_contact_s, 1),
+                 "overpressure_psf": round(units.pa_to_psf(c.overpressure_pa), 3),
+                 "focus": c.focus}
+                for c in self.conflicts
+            ],
+            "caution": SAFETY_CAUTION,
+        })
+        return d
+
+
+def clip_utf8(text: str | None, limit: int) -> str | None:
+    """``text`` cut to at most ``limit`` UTF-8 bytes (the wire format's string limits)."""
+    if text is None:
+        return None
+    raw = text.encode("utf-8")
+    return text if len(raw) <= limit else raw[:limit].decode("utf-8", "ignore")

@@ -1,0 +1,63 @@
+"""numpy twin of the trajectory kernel (``advisory/pipeline/trajectory.py``)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+
+def _cumtrapz(y: np.ndarray, dt: np.ndarray) -> np.ndarray:
+    out = np.empty_like(y)
+    out[0] = 0.0
+    np.cumsum(0.5 * (y[1:] + y[:-1]) * dt, out=out[1:])
+    return out
+
+
+def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.ndarray
+                 ) -> np.ndarray:
+    """numpy twin of :func:`advisory.pipeline.trajectory.propagate_kernel` (same arguments
+    and result)."""
+    h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params
+    dt = np.diff(t)
+    tas = mach * a
+    alt = h0 + _cumtrapz(tas * sin_g, dt)
+    omega = g * math.tan(bank) / tas
+    turned = _cumtrapz(omega, dt)
+    bank_out = np.full_like(t, bank)
+    if not math.isnan(turn_limit):
+        done = np.abs(turned) >= abs(turn_limit)
+        if done.any():
+            first = int(np.argmax(done))
+            turned = np.where(done, turn_limit, turned)
+            omega = omega.copy()
+            omega[first:] = 0.0
+            bank_out[first:] = 0.0
+    psi = psi0 + turned
+    dpsi = np.diff(psi)
+    chord = 0.5 * (tas[1:] + tas[:-1]) * cos_g * dt * np.sinc(dpsi / (2.0 * math.pi))
+    mid = psi[:-1] + 0.5 * dpsi
+    de = chord * np.sin(mid) + wind_e * dt
+    dn = chord * np.cos(mid) + wind_n * dt
+    # the scale correction depends on where each step starts, so it runs step by step
+    east = np.empty_like(t)
+    north = np.empty_like(t)
+    east[0] = e0
+    north[0] = n0
+    for i in range(1, t.size):
+        me = east[i - 1] + 0.5 * de[i - 1]
+        mn = north[i - 1] + 0.5 * dn[i - 1]
+        rho = math.hypot(me, mn)
+        step = np.array([de[i - 1], dn[i - 1]])
+        if rho > 0.0:
+            u = np.array([me, mn]) / rho
+            h = math.sqrt(max(1.0 - (0.5 * rho / radius) ** 2, 1e-300))
+            radial = step @ u
+            step = h * radial * u + (step - radial * u) / h
+        east[i] = east[i - 1] + step[0]
+        north[i] = north[i - 1] + step[1]
+    vh = tas * cos_g
+    ge = vh * np.sin(psi) + wind_e
+    gn = vh * np.cos(psi) + wind_n
+    return np.stack([east, north, alt, tas, np.mod(psi, 2.0 * math.pi), omega, bank_out,
+                     np.mod(np.arctan2(ge, gn), 2.0 * math.pi), np.hypot(ge, gn)])

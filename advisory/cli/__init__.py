@@ -107,7 +107,7 @@ def build_parser() -> argparse.ArgumentParser:
     from advisory.cli.check import add_parser as add_check
 
     add_check(sub)
-    from advisory.service.runner import add_parser as add_run
+    from advisory.cli.run import add_parser as add_run
 
     add_run(sub)
     from advisory.bench import benchmark as bench

@@ -21,6 +21,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
+from advisory.schema import STALE_AFTER_S
 from advisory.units import DEG, FT, KELVIN_OFFSET, KT, wind_from_to_components
 
 EARTH_RADIUS_M = 6371008.8  #: mean Earth radius, m (IUGG mean radius R1 of WGS 84)
@@ -218,7 +219,7 @@ class ValidatorLimits:
         "wind_from_deg": (0.0, 360.0),
         "wind_kt": (0.0, 400.0),
     })
-    max_age_s: float = 0.5  #: a frame older than this (monotonic) is stale
+    max_age_s: float = STALE_AFTER_S  #: a frame older than this (monotonic) is stale
     clock_step_tolerance_s: float = 1.0  #: |d utc - d monotonic| allowed between frames
     utc_range_s: tuple[float, float] = (946684800.0, 4102444800.0)  #: 2000 to 2100
     speed_margin_mps: float = 100.0  #: added to the larger ground speed for position

@@ -37,8 +37,9 @@ from advisory.tables.manager import TableManager
 from advisory.tables.table import BoomTable
 
 
-def load_tables(s: RunSettings) -> tuple[BoomTable | TableManager, TableManager | None]:
-    """(table or manager, manager or None) for the settings."""
+def load_tables(s: RunSettings) -> tuple[BoomTable, TableManager | None]:
+    """(table, manager or None) for the settings: the manager (with ``--profile``)
+    starts from the table and swaps in rebuilt ones."""
     if s.table:
         if not Path(s.table).is_file():
             raise RunError(f"--table: {s.table}: no such file")
@@ -60,7 +61,7 @@ def load_tables(s: RunSettings) -> tuple[BoomTable | TableManager, TableManager 
     if atm.description != table.header.get("atmosphere"):
         mgr.submit_atmosphere(atm)
     mgr.watch_profile_file(s.profile)
-    return mgr, mgr
+    return table, mgr
 
 
 def warm_up(table: BoomTable, zones: ZoneSet, config: AdvisorConfig) -> None:
@@ -108,7 +109,7 @@ def assemble(s: RunSettings) -> ServiceParts:
         raise RunError(f"--zones: {s.zones}: no such file")
     zones = ZoneSet.from_file(s.zones)
     config = load_config(s.config)
-    tables, manager = load_tables(s)
+    table, manager = load_tables(s)
     inp = InputLink(s.input_url)
     fmt = s.input_format or ("stream" if inp.is_stream else "datagram")
     framing = "stream" if inp.is_stream else "datagram"
@@ -116,8 +117,8 @@ def assemble(s: RunSettings) -> ServiceParts:
         raise RunError(f"--input-format: {fmt} does not fit --input {s.input_url} (a "
                        f"{framing} transport)")
     out = OutputPublisher(s.output_url)
-    advisor = Advisor(tables, zones, config)
-    warm_up(tables if manager is None else manager.table, zones, config)
+    advisor = Advisor(manager if manager is not None else table, zones, config)
+    warm_up(manager.table if manager is not None else table, zones, config)
     loop = AdvisoryLoop(advisor, input_format=fmt, framing=framing, rate_hz=s.rate_hz,
                         heartbeat_s=s.heartbeat_s, label_map=s.label_map)
     recorder = None

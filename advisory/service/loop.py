@@ -46,12 +46,7 @@ from advisory.io.messages import (
 )
 from advisory.pipeline.advisor import Advisory
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.state import (
-    AirDataState,
-    Rejection,
-    StateValidator,
-    ValidatorLimits,
-)
+from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
 from advisory.schema import AIR_REQUIRED, LINK_COUNTERS
 from advisory.service.health import DurationHistogram, LoopHealth, clip
 from advisory.service.settings import FRAMINGS, INPUT_FORMATS
@@ -460,17 +455,10 @@ class AdvisoryLoop:
     # ------------------------------------------------------------------ counters
     @property
     def counters(self) -> dict[str, int]:
-        """Every counter by name (a fresh dict).
-
-        Link counters (``frames_ok``, ``bad_crc``, ``cobs_error``, ``too_short``,
-        ``oversize``), decoder counters (``decoded`` and the reason codes of ICD section
-        8; the decoder's ``oversize`` is added to the link's) or the ARINC 429 counters
-        (``words``, ``words_accepted``, ``bad_parity``, ... , ``arinc_incomplete``), the
-        validator's ``valid``, ``rejected`` (total), ``rebaselines`` and one counter per
-        rejection reason code (``range:alt_ft``, ``stale``, ``jump:position``, ...), the
-        loop's own (:data:`advisory.service.health.LOOP_COUNTERS`), ``record_errors`` when
-        a record write failed, and the driver's :attr:`external_counters` that are not 0.
-        """
+        """Every counter by name (a fresh dict): link, decoder or ARINC 429, validator
+        (one per rejection code), the loop's own, ``record_errors`` and the driver's
+        :attr:`external_counters` that are not 0 (ICD section 17.3;
+        :meth:`advisory.service.health.LoopHealth.counters`)."""
         return self.health.counters()
 
     # ------------------------------------------------------------------ shutdown

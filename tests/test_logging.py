@@ -27,7 +27,7 @@ import pytest
 from advisory import units
 from advisory.io.messages import datagram, encode_air
 from advisory.physics.atmosphere import standard_atmosphere
-from tests.test_run_e2e import Listener, Sender, air_payload, free_udp_port, square
+from tests.test_run_e2e import Listener, Sender, free_udp_port, square
 
 RUN = [sys.executable, "-m", "advisory.cli", "run"]
 #: A fresh clone compiles the numba kernels on the first start; with a warm cache the

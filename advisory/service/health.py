@@ -15,18 +15,15 @@ frame, so replays stay byte-identical).
 from __future__ import annotations
 
 import math
-from typing import TYPE_CHECKING
 
 import numpy as np
 
 from advisory.io.arinc429 import Arinc429Assembler
 from advisory.io.messages import DatagramReader, FrameDecoder, StreamDeframer
+from advisory.io.records import Recorder
+from advisory.pipeline.advisor import Advisory
 from advisory.pipeline.state import StateValidator
 from advisory.schema import DECODE_REASONS, LINK_COUNTERS, MAX_COUNTERS, REASON_MAX_BYTES
-
-if TYPE_CHECKING:  # pragma: no cover - type names only
-    from advisory.io.records import Recorder
-    from advisory.pipeline.advisor import Advisory
 
 #: The loop's own counters, in the order they are listed in the ICD.
 LOOP_COUNTERS = ("feeds", "bytes_in", "not_air", "valid", "rejected", "rebaselines", "steps",

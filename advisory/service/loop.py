@@ -33,7 +33,7 @@ import math
 import time
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any, Protocol
+from typing import Any, Protocol
 
 from advisory.io.arinc429 import Arinc429Assembler, LabelMap, load_label_map
 from advisory.io.messages import (
@@ -44,15 +44,13 @@ from advisory.io.messages import (
     encode_status,
     next_seq,
 )
+from advisory.io.records import Recorder
 from advisory.pipeline.advisor import Advisory
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
 from advisory.schema import AIR_REQUIRED, LINK_COUNTERS
 from advisory.service.health import DurationHistogram, LoopHealth, clip
 from advisory.service.settings import FRAMINGS, INPUT_FORMATS
-
-if TYPE_CHECKING:  # pragma: no cover - type names only
-    from advisory.io.records import Recorder
 
 #: Reason of the first status frame: the advisory-only caution, short enough for the
 #: 127-byte reason field (the full sentence is ``advisory.SAFETY_CAUTION``).

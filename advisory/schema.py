@@ -102,4 +102,5 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: in its status frames); a replay restores them from the record. A replay initialises
 #: only those the recorded status frames carry, so records written before a counter was
 #: added still replay byte for byte.
-SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors")
+SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
+                    "log_dropped")

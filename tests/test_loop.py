@@ -31,7 +31,8 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.zones import ZoneSet
 from advisory.schema import MAX_COUNTERS
-from advisory.service.loop import STARTUP_REASON, AdvisoryLoop, DurationHistogram
+from advisory.service.health import DurationHistogram
+from advisory.service.loop import STARTUP_REASON, AdvisoryLoop
 
 LAT0, LON0 = 40.0, -100.0
 ALT_FT = 45000.0
@@ -65,6 +66,7 @@ class SeenAdvisor:
 
     def __init__(self, inner: Advisor) -> None:
         self.inner = inner
+        self.config = inner.config
         self.states: list[AirDataState | None] = []
 
     def step(self, state, now_monotonic):

@@ -14,7 +14,7 @@ import sys
 from collections.abc import Sequence
 
 from advisory import SAFETY_CAUTION
-from advisory.cli import check, predict, tables
+from advisory.cli import check, predict, run, tables
 from advisory.cli.options import EXIT_USAGE, UsageError
 
 __all__ = ["EXIT_USAGE", "UsageError", "build_parser", "main"]
@@ -30,23 +30,17 @@ def build_parser() -> argparse.ArgumentParser:
     predict.add_parser(sub)
     tables.add_parser(sub)
     check.add_parser(sub)
-    _add_run(sub)
+    run.add_parser(sub)
     _add_bench(sub)
     _add_replay(sub)
     _add_demo(sub)
     return parser
 
 
-# The four registrations below import their command's module when the parser is built,
+# The three registrations below import their command's module when the parser is built,
 # not at the top: those modules live outside cli/ until they get their own cli/<command>.py
 # and `advisory.service.runner` loads numba, which `import advisory.cli` must not pay for
 # (CLI start-up time).
-
-
-def _add_run(sub: argparse._SubParsersAction) -> None:
-    from advisory.service.runner import add_parser
-
-    add_parser(sub)
 
 
 def _add_bench(sub: argparse._SubParsersAction) -> None:

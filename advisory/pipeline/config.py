@@ -41,6 +41,8 @@ from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Any
 
+from advisory.schema import STALE_AFTER_S
+
 if sys.version_info >= (3, 11):
     import tomllib
 else:  # pragma: no cover
@@ -69,7 +71,7 @@ class AdvisorConfig:
     turn_step_deg: float = 5.0
     refresh_s: float = 1.0
     focus_threshold: float = 1.25
-    stale_after_s: float = 1.0
+    stale_after_s: float = STALE_AFTER_S
     strips: int = 6
     reproject_km: float = 150.0
 

@@ -6,8 +6,9 @@ datagrams), decodes them (air-data frames, or ARINC 429 words assembled into the
 fields) and validates them (:class:`advisory.pipeline.state.StateValidator`). On a fixed-rate
 schedule (:meth:`AdvisoryLoop.poll`) it steps the advisor on the latest valid, fresh
 state and returns the frames to publish: an advisory frame every step and a status frame
-at least every ``heartbeat_s`` and on every change of status state. Every output is
-recorded with its time.
+at least every ``heartbeat_s`` and on every change of status state
+(:mod:`advisory.service.health` says which state and why). Every output is recorded with
+its time.
 
 Determinism: the loop reads no clock for anything it publishes; it works only with the
 times passed to :meth:`~AdvisoryLoop.feed` and :meth:`~AdvisoryLoop.poll`, so a replay of
@@ -17,13 +18,9 @@ which never enters a frame.
 
 Never raises on input: every rejected byte run, frame, word or state is counted by
 reason (:attr:`AdvisoryLoop.counters`) and the loop keeps publishing. Without a valid,
-fresh state the advisory says ``unavailable`` (never silence, never ``clear``).
-
-Status states (ICD ``docs/interface.md`` section 6 and 17): ``unavailable`` when the
-advisory is unavailable (input link lost, no valid air data yet, air data stale, or the
-advisor cannot predict); ``degraded`` when advisories flow but input was rejected, a
-clock misbehaved, outputs were dropped within the last ``degraded_hold_s`` seconds, or the
-tables are stale; ``ok`` otherwise.
+fresh state the advisory says ``unavailable`` (never silence, never ``clear``). Each
+rejection is also logged at DEBUG level (logger ``advisory.service.input``; nothing is
+formatted unless that level is on); the loop never writes to a stream itself.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
@@ -31,28 +28,24 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import logging
 import math
 import time
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
-
-import numpy as np
+from typing import Any, Protocol
 
 from advisory.io.arinc429 import Arinc429Assembler, LabelMap
 from advisory.io.arinc429_labels import load_label_map
 from advisory.io.framing import DatagramReader, StreamDeframer
 from advisory.io.messages import FrameDecoder, encode_adv, encode_status, next_seq
-from advisory.pipeline.state import AirDataState, Rejection, StateValidator
-from advisory.schema import AIR_REQUIRED as REQUIRED_FIELDS
-from advisory.schema import DECODE_REASONS, LINK_COUNTERS, MAX_COUNTERS, REASON_MAX_BYTES
-
-if TYPE_CHECKING:  # pragma: no cover
-    from advisory.io.records import Recorder
-    from advisory.pipeline.results import Advisory
-
-INPUT_FORMATS = ("stream", "datagram", "arinc429")
-FRAMINGS = ("stream", "datagram")
+from advisory.io.records import Recorder
+from advisory.pipeline.config import AdvisorConfig
+from advisory.pipeline.results import Advisory
+from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
+from advisory.schema import AIR_REQUIRED, LINK_COUNTERS
+from advisory.service.health import DurationHistogram, LoopHealth, clip
+from advisory.service.settings import FRAMINGS, INPUT_FORMATS
 
 #: Reason of the first status frame: the advisory-only caution, short enough for the
 #: 127-byte reason field (the full sentence is ``advisory.SAFETY_CAUTION``).
@@ -60,87 +53,18 @@ STARTUP_REASON = ("started; advisory aid only, not certified flight software; lo
                   "regulations govern supersonic flight")
 STOP_REASON = "service stopped"
 
-#: Link counters that mean bad input (``frames_ok`` is good news).
-_LINK_BAD = tuple(k for k in LINK_COUNTERS if k != "frames_ok")
-#: Decoder counters that mean bad input; ``oversize`` is merged with the link's.
-_DECODE_BAD = tuple(k for k in DECODE_REASONS if k != "oversize")
-#: ARINC 429 assembler counters that mean bad input. Unknown labels and other SDIs are
-#: normal on a shared bus and are counted but not taken as a problem.
-_ARINC_BAD = ("bad_parity", "ssm_failure", "ssm_ncd", "ssm_test", "bad_bcd", "bad_payload")
-_ARINC_ALL = ("words", "words_accepted", "bad_parity", "ssm_failure", "ssm_ncd", "ssm_test",
-              "unknown_label", "sdi_mismatch", "bad_bcd", "bad_payload", "arinc_incomplete")
-#: The loop's own counters, in the order they are listed in the ICD.
-LOOP_COUNTERS = ("feeds", "bytes_in", "not_air", "valid", "rejected", "rebaselines", "steps",
-                 "steps_missed", "adv_frames", "status_frames", "unavailable_steps",
-                 "clock_backwards", "bad_time", "internal_errors")
-_LOOP_BAD = ("not_air", "steps_missed", "clock_backwards", "bad_time", "internal_errors")
-
 _DUE_SLACK_S = 1e-6  #: a poll this close before the due time steps (float rounding)
+_LINK_BAD = tuple(k for k in LINK_COUNTERS if k != "frames_ok")
 
-_COUNTER_TEXT = {
-    "bad_crc": "frames with a bad CRC", "cobs_error": "badly stuffed frames",
-    "too_short": "frames too short", "oversize": "oversize frames",
-    "not_air": "frames that are not air data", "steps_missed": "steps missed (overrun)",
-    "clock_backwards": "loop clock stepped backwards", "bad_time": "non-finite times",
-    "internal_errors": "internal errors", "record_errors": "record writes failed",
-    "input_lost": "input link lost", "input_reopened": "input link reopened",
-    "output_dropped": "outputs dropped",
-    "output_errors": "output link errors", "service_errors": "service errors",
-}
+_input_log = logging.getLogger("advisory.service.input")
 
 
-def _clip(text: str, limit: int = REASON_MAX_BYTES) -> str:
-    """``text`` without NULs, cut to at most ``limit`` UTF-8 bytes."""
-    text = text.replace("\x00", " ")
-    raw = text.encode("utf-8")
-    return text if len(raw) <= limit else raw[:limit].decode("utf-8", "ignore")
+class AdvisorLike(Protocol):
+    """What the loop needs of an advisor (:class:`advisory.pipeline.advisor.Advisor`)."""
 
+    config: AdvisorConfig
 
-class DurationHistogram:
-    """Durations in fixed 10-microsecond bins up to 100 ms (constant memory).
-
-    Attributes
-    ----------
-    count : int
-    max_s : float
-        Longest duration seen, s.
-    total_s : float
-        Sum of all durations, s.
-    """
-
-    BIN_S = 1e-5  #: bin width, s
-    BINS = 10000  #: bins up to 0.1 s; longer durations fall in an overflow bin
-
-    def __init__(self) -> None:
-        self._h = np.zeros(self.BINS + 1, dtype=np.int64)
-        self.count = 0
-        self.max_s = 0.0
-        self.total_s = 0.0
-
-    def add(self, seconds: float) -> None:
-        """Count one duration (s)."""
-        i = int(seconds * 1e5)
-        self._h[i if 0 <= i < self.BINS else (self.BINS if i > 0 else 0)] += 1
-        self.count += 1
-        self.total_s += seconds
-        if seconds > self.max_s:
-            self.max_s = seconds
-
-    def quantile(self, q: float) -> float:
-        """Upper edge of the bin holding quantile ``q`` (0..1), s; NaN when empty."""
-        if self.count == 0:
-            return math.nan
-        rank = max(1, math.ceil(q * self.count))
-        i = int(np.searchsorted(np.cumsum(self._h), rank))
-        return self.max_s if i >= self.BINS else min((i + 1) * self.BIN_S, self.max_s)
-
-    def summary_ms(self) -> dict[str, float | int]:
-        """``n``, ``median_ms``, ``p99_ms``, ``max_ms``, ``mean_ms``."""
-        n = self.count
-        return {"n": n, "median_ms": round(self.quantile(0.5) * 1e3, 3),
-                "p99_ms": round(self.quantile(0.99) * 1e3, 3),
-                "max_ms": round(self.max_s * 1e3, 3),
-                "mean_ms": round(self.total_s / n * 1e3, 4) if n else math.nan}
+    def step(self, state: AirDataState | None, now_monotonic: float) -> Advisory: ...
 
 
 class AdvisoryLoop:
@@ -162,7 +86,9 @@ class AdvisoryLoop:
         Gets every fed byte string (raw input), every frame payload that passed its CRC
         (input) and every output payload, each with its time.
     validator : StateValidator, optional
-        Defaults to ``StateValidator()`` (limits of the ICD section 4).
+        Defaults to a validator whose maximum age of air data is the advisor config's
+        ``stale_after_s`` (the one staleness limit; ``advisory.schema.STALE_AFTER_S`` by
+        default) and whose other limits are those of the ICD section 4.
     label_map : LabelMap or path, optional
         ARINC 429 label map (object or TOML file); defaults to the built-in map.
     framing : str, optional
@@ -178,12 +104,15 @@ class AdvisoryLoop:
     ----------
     last_advisory : Advisory or None
         The advisory of the most recent step.
+    status : tuple of (str, str)
+        Status state and reason of the most recent step (``("", "")`` before the first);
+        the driver logs a line when the state changes.
     cue_log : list of (float, str)
         ``(utc_s, crew cue)`` appended whenever the status or the zone concerned changes.
     external_counters : dict of str to int
         Counters the driver owns (``input_lost``, ``output_dropped``, ...). They appear in
         the status frames once non-zero (so a clean run's frames equal its replay's), and
-        any increase counts as a problem (status ``degraded``).
+        any increase but ``log_dropped``'s counts as a problem (status ``degraded``).
     timing : dict
         ``{"step": DurationHistogram, "feed": DurationHistogram}``: wall time of each
         advisor step and each feed (performance counter; never published in a frame).
@@ -195,11 +124,11 @@ class AdvisoryLoop:
         ``heartbeat_s``, or a bad label map (the message names it).
     """
 
-    def __init__(self, advisor, *, input_format: str = "stream", rate_hz: float = 10.0,
-                 heartbeat_s: float = 1.0, recorder: Recorder | None = None,
-                 validator: StateValidator | None = None, label_map=None,
-                 framing: str | None = None, degraded_hold_s: float = 5.0,
-                 channel: int = 0) -> None:
+    def __init__(self, advisor: AdvisorLike, *, input_format: str = "stream",
+                 rate_hz: float = 10.0, heartbeat_s: float = 1.0,
+                 recorder: Recorder | None = None, validator: StateValidator | None = None,
+                 label_map: LabelMap | str | Path | None = None, framing: str | None = None,
+                 degraded_hold_s: float = 5.0, channel: int = 0) -> None:
         if input_format not in INPUT_FORMATS:
             raise ValueError(f"input_format must be one of {', '.join(INPUT_FORMATS)}, "
                              f"got {input_format!r}")
@@ -219,35 +148,35 @@ class AdvisoryLoop:
         self.period_s = 1.0 / self.rate_hz
         self.heartbeat_s = float(heartbeat_s)
         self.degraded_hold_s = float(degraded_hold_s)
-        self.recorder = recorder
         self.channel = int(channel)
-        self.validator = validator if validator is not None else StateValidator()
-        self._reader = StreamDeframer() if framing == "stream" else DatagramReader()
+        if validator is None:
+            validator = StateValidator(ValidatorLimits(max_age_s=advisor.config.stale_after_s))
+        self.validator = validator
+        self._reader: StreamDeframer | DatagramReader = (
+            StreamDeframer() if framing == "stream" else DatagramReader())
         self._decoder: FrameDecoder | None = None
         self._assembler: Arinc429Assembler | None = None
         if input_format == "arinc429":
-            if label_map is None or isinstance(label_map, LabelMap):
-                lm = label_map
-            elif isinstance(label_map, (str, Path)):
-                lm = load_label_map(label_map)
-            else:
-                raise ValueError(f"label_map must be a LabelMap or a file path, "
-                                 f"got {label_map!r}")
-            self._assembler = Arinc429Assembler(lm, max_age_s=self.validator.limits.max_age_s)
+            self._assembler = Arinc429Assembler(_label_map(label_map),
+                                                max_age_s=self.validator.limits.max_age_s)
         else:
             self._decoder = FrameDecoder()
-        self._c: dict[str, int] = dict.fromkeys(LOOP_COUNTERS, 0)
-        self._arinc_incomplete = 0
-        self.external_counters: dict[str, int] = {}
+        self.health = LoopHealth(self._reader, self._decoder, self._assembler, self.validator,
+                                 self.degraded_hold_s)
+        self._c = self.health.c
+        self.recorder = recorder
+        self.external_counters = self.health.external
         self.timing = {"step": DurationHistogram(), "feed": DurationHistogram()}
         self.last_advisory: Advisory | None = None
+        self.status: tuple[str, str] = ("", "")
         self.cue_log: list[tuple[float, str]] = []
-        self._cue_key: tuple | None = None
+        self._cue_key: tuple[str, str | None] | None = None
         # schedule
         self._next_due: float | None = None
         self._last_now: float | None = None
         self._last_status_t: float | None = None
         self._status_state: str | None = None
+        self._status_reason = ""
         self._seq_adv = 0
         self._seq_status = 0
         # input health
@@ -256,10 +185,16 @@ class AdvisoryLoop:
         self._any_input = False
         self._last_valid_rx: float | None = None
         self._missing: tuple[str, ...] = ()
-        self._prev_bad: dict[str, int] = {}
-        self._last_bad_t: float | None = None
-        self._last_bad_text = ""
         self.last_internal_error = ""
+
+    @property
+    def recorder(self) -> Recorder | None:
+        """The record the loop writes to (None: no record); settable."""
+        return self.health.recorder
+
+    @recorder.setter
+    def recorder(self, rec: Recorder | None) -> None:
+        self.health.recorder = rec
 
     # ------------------------------------------------------------------ input side
     def feed(self, data: bytes, rx_monotonic: float, rx_utc: float) -> None:
@@ -291,7 +226,12 @@ class AdvisoryLoop:
                 return
             if self._next_due is None:
                 self._next_due = rx
+            debug = _input_log.isEnabledFor(logging.DEBUG)
+            bad_before = self._link_bad() if debug else 0
             payloads = self._reader.feed(data)
+            if debug and self._link_bad() != bad_before:
+                _input_log.debug("input refused: %d bytes that are not a good frame "
+                                 "(link counters %s)", len(data), self._reader.counters)
             if not payloads:
                 return
             self._any_input = True
@@ -299,39 +239,54 @@ class AdvisoryLoop:
                 if rec is not None:
                     rec.record_input(p, rx, rx_utc, self.channel)
                 if self._assembler is None:
-                    self._air(p, rx)
+                    self._air(p, rx, debug)
                 else:
-                    self._arinc(p, rx)
+                    self._arinc(self._assembler, p, rx, debug)
         except Exception as exc:  # noqa: BLE001 - the live loop never dies on input
             c["internal_errors"] += 1
             self.last_internal_error = f"feed: {type(exc).__name__}: {exc}"
         finally:
             self.timing["feed"].add(time.perf_counter() - t0)
 
-    def _air(self, payload: bytes, rx: float) -> None:
-        frame = self._decoder.decode(payload)
+    def _link_bad(self) -> int:
+        counters = self._reader.counters
+        return sum(counters[k] for k in _LINK_BAD)
+
+    def _air(self, payload: bytes, rx: float, debug: bool) -> None:
+        decoder = self._decoder
+        assert decoder is not None  # noqa: S101 - set for every input format but ARINC 429
+        frame = decoder.decode(payload)
         if frame is None:
+            if debug:
+                _input_log.debug("frame refused: %s", decoder.last_error)
             return
         if frame.type != "air":
             self._c["not_air"] += 1
+            if debug:
+                _input_log.debug("frame refused: type %r is not air data", frame.type)
             return
         res = self.validator.validate(frame.fields, rx, frame.utc_s, rx)
         if type(res) is not Rejection:
             self._last_valid_rx = rx
+        elif debug:
+            _input_log.debug("input rejected: %s", res.detail)
 
-    def _arinc(self, payload: bytes, rx: float) -> None:
-        asm = self._assembler
+    def _arinc(self, asm: Arinc429Assembler, payload: bytes, rx: float, debug: bool) -> None:
         if not asm.feed_payload(payload, rx):
+            if debug:
+                _input_log.debug("ARINC 429 payload refused (counters %s)", asm.counters)
             return
         fields = asm.fields(rx)
-        missing = tuple(n for n in REQUIRED_FIELDS if n not in fields)
+        missing = tuple(n for n in AIR_REQUIRED if n not in fields)
         self._missing = missing
         if missing:
-            self._arinc_incomplete += 1
+            self.health.arinc_incomplete += 1
             return
         res = self.validator.validate(fields, rx, None, rx)
         if not isinstance(res, Rejection):
             self._last_valid_rx = rx
+        elif debug:
+            _input_log.debug("input rejected: %s", res.detail)
 
     def set_input_link(self, up: bool, reason: str = "") -> None:
         """Tell the loop whether the input link is up (the driver calls this).
@@ -440,10 +395,10 @@ class AdvisoryLoop:
         except Exception as exc:  # noqa: BLE001 - never die; say unavailable instead
             c["internal_errors"] += 1
             self.last_internal_error = f"advisor: {type(exc).__name__}: {exc}"
-            adv = self._unavailable(f"internal error: {type(exc).__name__}")
+            adv = Advisory("unavailable", reason=f"internal error: {type(exc).__name__}")
         self.timing["step"].add(time.perf_counter() - t0)
         if state is None and adv.status != "unavailable":  # cannot happen; never clear
-            adv = self._unavailable(why)
+            adv = Advisory("unavailable", reason=why)
         elif state is None and why:
             adv = replace(adv, reason=why)
         if adv.status == "unavailable":
@@ -454,8 +409,9 @@ class AdvisoryLoop:
             self._cue_key = key
             self.cue_log.append((utc, adv.cue))
         out = [self._adv_payload(adv, now, utc)]
-        st_state, st_reason = self._health(now, adv)
+        st_state, st_reason = self.health.assess(now, adv)
         self._status_reason = st_reason
+        self.status = (st_state, st_reason)
         if (self._last_status_t is None or st_state != self._status_state
                 or now - self._last_status_t >= self.heartbeat_s - 0.5 * self.period_s):
             if self._last_status_t is None:
@@ -463,20 +419,13 @@ class AdvisoryLoop:
             out.append(self._status(now, utc, st_state, st_reason))
         return out
 
-    _status_reason = ""
-
-    def _unavailable(self, reason: str):
-        from advisory.pipeline.results import Advisory
-
-        return Advisory("unavailable", reason=reason)
-
-    def _adv_payload(self, adv, now: float, utc: float) -> bytes:
+    def _adv_payload(self, adv: Advisory, now: float, utc: float) -> bytes:
         try:
             payload = encode_adv(adv.to_fields(), self._seq_adv, utc)
         except Exception as exc:  # noqa: BLE001 - an unencodable advisory: say unavailable
             self._c["internal_errors"] += 1
             self.last_internal_error = f"encode advisory: {type(exc).__name__}: {exc}"
-            fallback = self._unavailable("internal error: advisory not encodable")
+            fallback = Advisory("unavailable", reason="internal error: advisory not encodable")
             payload = encode_adv(fallback.to_fields(), self._seq_adv, utc)
         self._seq_adv = next_seq(self._seq_adv)
         self._c["adv_frames"] += 1
@@ -486,8 +435,8 @@ class AdvisoryLoop:
 
     def _status(self, now: float, utc: float, state: str, reason: str) -> bytes:
         self._c["status_frames"] += 1
-        payload = encode_status({"state": state, "reason": _clip(reason),
-                                 "counters": self._status_counters()},
+        payload = encode_status({"state": state, "reason": clip(reason),
+                                 "counters": self.health.status_counters()},
                                 self._seq_status, utc)
         self._seq_status = next_seq(self._seq_status)
         self._last_status_t = now
@@ -496,129 +445,14 @@ class AdvisoryLoop:
             self.recorder.record_output(payload, now, utc, self.channel)
         return payload
 
-    def _health(self, now: float, adv) -> tuple[str, str]:
-        """(status state, reason) for this step."""
-        bad = self._bad_counts()
-        if bad != self._prev_bad:
-            prev = self._prev_bad
-            grew = [k for k, v in bad.items() if v > prev.get(k, 0)]
-            self._prev_bad = bad
-            if grew:
-                self._last_bad_t = now
-                self._last_bad_text = self._problem_text(grew)
-        if adv.status == "unavailable":
-            return "unavailable", adv.reason or "advisory unavailable"
-        if self._last_bad_t is not None and now - self._last_bad_t < self.degraded_hold_s:
-            return "degraded", self._last_bad_text
-        if adv.tables_stale:
-            return "degraded", "tables stale: rebuilding for a new atmosphere"
-        return "ok", ""
-
-    def _problem_text(self, grew: list[str]) -> str:
-        head = f"problems in the last {self.degraded_hold_s:g} s: "
-        rej = self.validator.last_rejection
-        err = self._decoder.last_error if self._decoder is not None else None
-        for k in grew:
-            if k in self.validator.rejections and rej is not None and rej == k:
-                return head + f"input rejected ({rej.detail})"
-        for k in grew:
-            if k in _DECODE_BAD and err is not None and err.reason == k:
-                return head + f"frame refused ({err})"
-        words = [_COUNTER_TEXT.get(k, k) for k in grew]
-        return head + ", ".join(words)
-
     # ------------------------------------------------------------------ counters
-    def _bad_counts(self) -> dict[str, int]:
-        """Every counter that means a problem, by name."""
-        c = self._c
-        bad = {k: c[k] for k in _LOOP_BAD if c[k]}
-        link = self._reader.counters
-        for k in _LINK_BAD:
-            if link[k]:
-                bad[k] = link[k]
-        if self._decoder is not None:
-            dc = self._decoder.counters
-            for k in _DECODE_BAD:
-                if dc[k]:
-                    bad[k] = dc[k]
-            if dc["oversize"]:
-                bad["oversize"] = bad.get("oversize", 0) + dc["oversize"]
-        else:
-            ac = self._assembler.counters
-            for k in _ARINC_BAD:
-                if ac[k]:
-                    bad[k] = ac[k]
-        bad.update(self.validator.rejections)
-        for k, v in self.external_counters.items():
-            if v:
-                bad[k] = v
-        rec = self.recorder
-        if rec is not None and rec.write_errors:
-            bad["record_errors"] = rec.write_errors
-        return bad
-
     @property
     def counters(self) -> dict[str, int]:
-        """Every counter by name (a fresh dict).
-
-        Link counters (``frames_ok``, ``bad_crc``, ``cobs_error``, ``too_short``,
-        ``oversize``), decoder counters (``decoded`` and the reason codes of ICD section
-        8; the decoder's ``oversize`` is added to the link's) or the ARINC 429 counters
-        (``words``, ``words_accepted``, ``bad_parity``, ... , ``arinc_incomplete``), the
-        validator's ``valid``, ``rejected`` (total), ``rebaselines`` and one counter per
-        rejection reason code (``range:alt_ft``, ``stale``, ``jump:position``, ...), the
-        loop's own (:data:`LOOP_COUNTERS`), ``record_errors`` when a record write failed,
-        and the driver's :attr:`external_counters` that are not 0.
-        """
-        c = dict(self._c)
-        v = self.validator
-        c["valid"] = v.accepted
-        c["rejected"] = v.rejected
-        c["rebaselines"] = v.rebaselines
-        out = dict(self._reader.counters)
-        if self._decoder is not None:
-            dc = self._decoder.counters
-            out["decoded"] = dc["decoded"]
-            for k in _DECODE_BAD:
-                out[k] = dc[k]
-            out["oversize"] += dc["oversize"]
-        else:
-            ac = self._assembler.counters
-            for k in _ARINC_ALL[2:-1]:
-                out[k] = ac[k]
-            out["words"] = ac["words"]
-            out["words_accepted"] = ac["accepted"]
-            out["arinc_incomplete"] = self._arinc_incomplete
-            del c["not_air"]
-        out.update(c)
-        out.update(v.rejections)
-        for k, n in self.external_counters.items():
-            if n:  # present once non-zero, so a clean run's frames equal its replay's
-                out[k] = n
-        rec = self.recorder
-        if rec is not None and rec.write_errors:
-            out["record_errors"] = rec.write_errors
-        return out
-
-    def _status_counters(self) -> dict[str, int]:
-        """:attr:`counters` cut to the status frame's 48 entries.
-
-        The fixed counters always come; rejection reason codes fill the remaining
-        places, most frequent first (ties by name), and the rest are summed into
-        ``rejected_other``.
-        """
-        allc = self.counters
-        if len(allc) <= MAX_COUNTERS:
-            return allc
-        codes = self.validator.rejections
-        fixed = {k: v for k, v in allc.items() if k not in codes}
-        room = MAX_COUNTERS - len(fixed) - 1
-        ranked = sorted(codes.items(), key=lambda kv: (-kv[1], kv[0]))
-        fixed.update(ranked[:max(room, 0)])
-        fixed["rejected_other"] = sum(v for _, v in ranked[max(room, 0):])
-        while len(fixed) > MAX_COUNTERS:  # more external counters than room: drop them
-            fixed.pop(next(k for k in reversed(fixed) if k not in LOOP_COUNTERS))
-        return fixed
+        """Every counter by name (a fresh dict): link, decoder or ARINC 429, validator
+        (one per rejection code), the loop's own, ``record_errors`` and the driver's
+        :attr:`external_counters` that are not 0 (ICD section 17.3;
+        :meth:`advisory.service.health.LoopHealth.counters`)."""
+        return self.health.counters()
 
     # ------------------------------------------------------------------ shutdown
     def final_frames(self, now_monotonic: float, now_utc: float,
@@ -626,7 +460,8 @@ class AdvisoryLoop:
         """An ``unavailable`` advisory and status to publish when the service stops
         (so no display keeps showing the last level); recorded like any output."""
         try:
-            adv = self._unavailable(reason)
+            adv = Advisory("unavailable", reason=reason)
+            self.status = ("unavailable", reason)
             return [self._adv_payload(adv, now_monotonic, now_utc),
                     self._status(now_monotonic, now_utc, "unavailable", reason)]
         except Exception as exc:  # noqa: BLE001
@@ -641,4 +476,14 @@ class AdvisoryLoop:
                 "degraded_hold_s": self.degraded_hold_s}
 
 
-__all__ = ["FRAMINGS", "INPUT_FORMATS", "LOOP_COUNTERS", "AdvisoryLoop", "DurationHistogram"]
+def _label_map(label_map: LabelMap | str | Path | None) -> LabelMap | None:
+    """The ARINC 429 label map from an object or a TOML file (None: the built-in map)."""
+    if label_map is None or isinstance(label_map, LabelMap):
+        return label_map
+    if isinstance(label_map, (str, Path)):
+        return load_label_map(label_map)
+    raise ValueError(f"label_map must be a LabelMap or a file path, got {label_map!r}")
+
+
+__all__ = ["FRAMINGS", "INPUT_FORMATS", "STARTUP_REASON", "STOP_REASON", "AdvisorLike",
+           "AdvisoryLoop"]

@@ -1,0 +1,65 @@
+"""``boom-advisory run``: the options of the live service and the command that starts it.
+
+The service itself is :mod:`advisory.service.runner`; its settings, checks and exit codes
+are in :mod:`advisory.service.settings`.
+"""
+
+from __future__ import annotations
+
+import argparse
+
+from advisory import SAFETY_CAUTION
+from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
+from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
+
+
+def add_parser(sub: argparse._SubParsersAction) -> None:
+    """Register ``boom-advisory run``."""
+    p = sub.add_parser(
+        "run", help="the live service: air data in, advisories and status out",
+        description="Read air data from a serial port or UDP, publish advisory and status "
+                    "frames at a fixed rate, record everything. " + SAFETY_CAUTION)
+    p.add_argument("--input", required=True, metavar="URL",
+                   help="input transport, e.g. serial:///dev/ttyUSB0?baud=115200 or "
+                        "udp://0.0.0.0:5600")
+    p.add_argument("--output", required=True, metavar="URL",
+                   help="output transport, e.g. udp://127.0.0.1:5601")
+    add_zones_option(p, required=True)
+    add_aircraft_option(p)
+    add_table_option(p)
+    p.add_argument("--record", metavar="FILE", help="record file (appended to)")
+    p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
+    p.add_argument("--rate-hz", type=float, default=10.0,
+                   help="advisor steps (advisory frames) per second (10)")
+    p.add_argument("--input-format", choices=INPUT_FORMATS, default=None,
+                   help="air-data frames on a byte stream or datagrams (default: from the "
+                        "input URL) or ARINC 429 words")
+    p.add_argument("--label-map", metavar="FILE",
+                   help="ARINC 429 label map (TOML), with --input-format arinc429")
+    p.add_argument("--profile", metavar="FILE",
+                   help="atmosphere profile (CSV/TOML) to rebuild the tables for; watched "
+                        "for changes")
+    p.add_argument("--duration-s", type=float, default=None,
+                   help="stop after this many seconds (tests, soak)")
+    p.add_argument("--log-level", choices=LOG_LEVELS, default="info",
+                   help="log detail on stderr (info; debug adds a line per refused or "
+                        "rejected input)")
+    p.set_defaults(func=run_command)
+
+
+def run_command(args: argparse.Namespace) -> int:
+    """``run``: the exit code (0 after a clean stop)."""
+    # Imported here so that every other command starts without loading numpy, numba and
+    # the whole pipeline (the CLI dispatcher keeps start-up light).
+    from advisory.service.runner import run_service
+
+    settings = RunSettings(
+        input_url=args.input, output_url=args.output, zones=args.zones,
+        aircraft=args.aircraft, table=args.table, record=args.record, config=args.config,
+        rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
+        duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
+    )
+    return run_service(settings)
+
+
+__all__ = ["add_parser", "run_command"]

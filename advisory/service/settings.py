@@ -1,0 +1,69 @@
+"""What ``boom-advisory run`` is told: its settings, their checks, its exit codes.
+
+Light on purpose (standard library only), so the command line can describe the ``run``
+options without loading numpy, numba or the pipeline.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+#: Input formats the loop reads (``docs/interface.md`` sections 9-11).
+INPUT_FORMATS = ("stream", "datagram", "arinc429")
+#: How the input's bytes are split into frames.
+FRAMINGS = ("stream", "datagram")
+#: Log levels ``run`` accepts (``debug`` adds one line per refused or rejected input).
+LOG_LEVELS = ("debug", "info", "warning", "error")
+
+EXIT_OK = 0
+EXIT_RUNTIME = 1
+EXIT_USAGE = 2
+
+
+class RunError(ValueError):
+    """A bad ``run`` setting or file; the message names the option and the value."""
+
+
+@dataclass(frozen=True)
+class RunSettings:
+    """Everything ``boom-advisory run`` is told (see ``advisory/cli/run.py`` for the
+    meaning of each option)."""
+
+    input_url: str
+    output_url: str
+    zones: str
+    aircraft: str | None = None
+    table: str | None = None
+    record: str | None = None
+    config: str | None = None
+    rate_hz: float = 10.0
+    input_format: str | None = None
+    profile: str | None = None
+    duration_s: float | None = None
+    label_map: str | None = None
+    heartbeat_s: float = 1.0
+    log_level: str = "info"
+
+
+def check_settings(s: RunSettings) -> None:
+    """Raise :class:`RunError` naming the first bad option and its value."""
+    if not (isinstance(s.rate_hz, (int, float)) and math.isfinite(s.rate_hz)
+            and 0.1 <= s.rate_hz <= 100.0):
+        raise RunError(f"--rate-hz: {s.rate_hz} must be in [0.1, 100]")
+    if s.duration_s is not None and not (math.isfinite(s.duration_s) and s.duration_s > 0):
+        raise RunError(f"--duration-s: {s.duration_s} must be a positive number of seconds")
+    if s.input_format is not None and s.input_format not in INPUT_FORMATS:
+        raise RunError(f"--input-format: {s.input_format!r} must be one of "
+                       f"{', '.join(INPUT_FORMATS)}")
+    if s.table and s.aircraft:
+        raise RunError("--aircraft: cannot be combined with --table (the table fixes the "
+                       "aircraft)")
+    if s.label_map and s.input_format != "arinc429":
+        raise RunError("--label-map: only with --input-format arinc429")
+    if s.log_level not in LOG_LEVELS:
+        raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
+
+
+__all__ = ["EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE", "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS",
+           "RunError", "RunSettings", "check_settings"]

@@ -9,6 +9,8 @@ geography, so the checks here are about the scenarios telling their story.
 
 from __future__ import annotations
 
+import contextlib
+import io
 import json
 from pathlib import Path
 
@@ -16,7 +18,8 @@ import pytest
 
 from advisory import SAFETY_CAUTION
 from advisory.bench.demo import demo_flights
-from advisory.bench.replay import load_scenario, prepare, replay_log
+from advisory.bench.replay import replay_log
+from advisory.bench.scenario import load_scenario, prepare
 from advisory.cli import main
 from advisory.io.records import KIND_RAW_INPUT, read_records
 from advisory.pipeline.zones import ZoneSet
@@ -35,9 +38,6 @@ def demo_json(tmp_path_factory):
 
 
 def _run_demo(argv: list[str]) -> tuple[int, str]:
-    import contextlib
-    import io
-
     buf = io.StringIO()
     with contextlib.redirect_stdout(buf):
         code = main(argv)

@@ -26,17 +26,16 @@ from pathlib import Path
 
 import pytest
 
-from advisory.bench.replay import (
+from advisory.bench.batch import replay_many
+from advisory.bench.expect import (
     Expectation,
     ExpectFileError,
-    ReplayError,
     Segment,
     compare_expected,
     load_expected,
-    prepare,
-    replay_log,
-    replay_many,
 )
+from advisory.bench.replay import replay_log
+from advisory.bench.scenario import ReplayError, prepare
 from advisory.cli import main
 from advisory.io.messages import StreamDeframer, decode_frame, parse_datagram
 from advisory.io.records import (
@@ -408,7 +407,7 @@ def test_replay_reproduces_a_live_run_byte_for_byte(tmp_path) -> None:
     assert [s.status for s in live.segments][-1] == "unavailable"  # the shutdown frame
     assert "advisory" in [s.status for s in live.segments]
     # the schedule clock on the same record also replays (not necessarily identically)
-    sched = replay_log(prepare(record, zones=setup.zones, tables=setup.table,
+    sched = replay_log(prepare(record, zones=setup.zones, table=setup.table,
                                clock="schedule"))
     assert sched.outputs and math.isfinite(sched.duration_s)
 

@@ -110,15 +110,13 @@ def build_parser() -> argparse.ArgumentParser:
     from advisory.service.runner import add_parser as add_run
 
     add_run(sub)
-    from advisory.bench import benchmark as bench
-    b = sub.add_parser("bench", help="measure every budget against its figure",
-                       description=bench.DESCRIPTION)
-    bench.add_arguments(b)
-    b.set_defaults(func=bench.run)
-    from advisory.bench.replay import add_parser as add_replay
+    from advisory.cli.bench import add_parser as add_bench
+
+    add_bench(sub)
+    from advisory.cli.replay import add_parser as add_replay
 
     add_replay(sub)
-    from advisory.bench.demo import add_parser as add_demo
+    from advisory.cli.demo import add_parser as add_demo
 
     add_demo(sub)
     return parser

@@ -34,7 +34,7 @@ from advisory.bench.expect import (
     compare_expected,
     load_expected,
 )
-from advisory.bench.replay import replay_log
+from advisory.bench.replay import carried_counters, replay_log
 from advisory.bench.scenario import ReplayError, prepare
 from advisory.cli import main
 from advisory.io.messages import StreamDeframer, decode_frame, parse_datagram
@@ -436,3 +436,14 @@ def test_several_runs_in_one_record_replay_the_last(tmp_path) -> None:
     # the same frames through the same loop; the service's counters appear in the status
     # frames of a 'run' log, so compare the advisory frames
     assert res.advisory_payloads == ref.advisory_payloads
+
+
+def test_only_the_driver_counters_the_record_carries_are_kept() -> None:
+    # Rule of issue 11 (no outside source): a record written before a driver counter was
+    # added lacks it in every status frame, so its replay must not publish it either.
+    polls = [(0.0, 0.0, {"frames_ok": 3, "output_errors": 2}, False),
+             (0.1, 0.1, None, False),
+             (0.2, 0.2, {"input_lost": 1, "frames_ok": 4}, False)]
+    assert set(carried_counters(polls)) == {"input_lost", "output_errors"}
+    assert carried_counters([(0.0, 0.0, None, False)]) == ()
+

@@ -6,12 +6,12 @@ fictional demo aircraft of ``advisory/data/demo_aircraft.toml``. Each scenario d
 gets:
 
 ``flight.rec``
-    The record file (``advisory/wire/recorder.py``): one raw-input record per received
+    The record file (``advisory/io/records.py``): one raw-input record per received
     chunk of the byte stream (COBS + CRC-32C frames of ``docs/interface.md``), with the
     receive times a live service would have stamped (20 Hz, a few ms of latency and
     jitter), garbage and dropouts where the scenario has them.
 ``zones.geojson``
-    The no-boom zones (GeoJSON, see ``advisory/zones.py``).
+    The no-boom zones (GeoJSON, see ``advisory/pipeline/zones.py``).
 ``grid.toml``
     A small table grid covering the flight (altitudes, Mach, headings), so the table
     builds in seconds.
@@ -58,9 +58,17 @@ from advisory import units  # noqa: E402
 from advisory.geo.geodesy import direct_deg  # noqa: E402
 from advisory.io.framing import frame_stream  # noqa: E402
 from advisory.io.messages import encode_air  # noqa: E402
-from advisory.io.records import KIND_EVENT, KIND_RAW_INPUT, Recorder, encode_event  # noqa: E402
+from advisory.io.records import (  # noqa: E402
+    KIND_EVENT,
+    KIND_RAW_INPUT,
+    Recorder,
+    encode_event,
+    encode_record,
+)
 from advisory.physics.atmosphere import (  # noqa: E402
     Atmosphere,
+    ProfileLevel,
+    atmosphere_from_levels,
     load_profile,
     standard_atmosphere,
 )
@@ -282,8 +290,6 @@ def scenario_atmosphere(sc: Scenario) -> Atmosphere:
     """The atmosphere the scenario is flown in."""
     if not sc.atmosphere_levels:
         return standard_atmosphere()
-    from advisory.physics.atmosphere import ProfileLevel, atmosphere_from_levels
-
     levels = []
     for alt_ft, temp_c, wind_from, wind_kt in sc.atmosphere_levels:
         e, n = units.wind_from_to_components(wind_from, units.kt_to_mps(wind_kt))
@@ -396,8 +402,6 @@ def write_record(sc: Scenario, samples: list[dict], path: Path) -> dict:
             counts["frames"] += 1
     if any(f.kind == "torn_tail" for f in sc.faults):
         # a power cut in the middle of writing the next record: only its first bytes
-        from advisory.io.records import encode_record
-
         last = samples[-1]
         fields = {k: v for k, v in last.items() if k != "t_s"}
         tail = encode_record(KIND_RAW_INPUT, frame_stream(encode_air(fields, len(samples),

@@ -1,4 +1,4 @@
-"""Smoke test of the benchmark script (``advisory.bench.benchmark``, ``benchmarks/run.py``).
+"""Smoke test of the benchmark (``boom-advisory bench``, ``benchmarks/run.py``).
 
 ``--quick`` runs every section with tiny sizes on a tiny table grid; the tests check the
 shape of the output (one line per budget, the machine, the caution), never a timing:
@@ -16,7 +16,8 @@ from pathlib import Path
 import pytest
 
 from advisory import SAFETY_CAUTION
-from advisory.bench import benchmark as bench
+from advisory.bench.budgets import BUDGETS
+from advisory.cli import EXIT_USAGE, main
 
 ROOT = Path(__file__).resolve().parent.parent
 STATUS_PREFIXES = ("pass", "short", "not measured (")
@@ -42,15 +43,15 @@ def _table_rows(out: str) -> list[list[str]]:
 
 
 def test_quick_run_prints_one_line_per_budget(work_dir: Path, capsys) -> None:
-    code = bench.main(["--quick", "--work-dir", str(work_dir)])
+    code = main(["bench", "--quick", "--work-dir", str(work_dir)])
     out = capsys.readouterr().out
     assert code == 0
     rows = _table_rows(out)
     assert all(len(r) == 4 for r in rows), rows
     budget_rows = [r for r in rows if r[2] != "-"]
-    assert len(budget_rows) == len(bench.BUDGETS)
+    assert len(budget_rows) == len(BUDGETS)
     # each budget's limit is printed on its own line, in order
-    assert [r[2] for r in budget_rows] == [b.limit_text for b in bench.BUDGETS]
+    assert [r[2] for r in budget_rows] == [b.limit_text for b in BUDGETS]
     for r in rows:
         assert r[3].startswith(STATUS_PREFIXES + ("info",)), r
         assert (r[1] == "-") == r[3].startswith("not measured"), r
@@ -66,12 +67,12 @@ def test_quick_run_prints_one_line_per_budget(work_dir: Path, capsys) -> None:
 
 
 def test_json_with_skip_build_reuses_the_cache(work_dir: Path, capsys) -> None:
-    code = bench.main(["--quick", "--work-dir", str(work_dir), "--skip-build", "--json",
+    code = main(["bench", "--quick", "--work-dir", str(work_dir), "--skip-build", "--json",
                        "--only", "lookup,decode"])
     doc = json.loads(capsys.readouterr().out)
     assert code == 0
     budgets = [r for r in doc["results"] if r["budget"]]
-    assert [r["key"] for r in budgets] == [b.key for b in bench.BUDGETS]
+    assert [r["key"] for r in budgets] == [b.key for b in BUDGETS]
     status = {r["key"]: r["status"] for r in budgets}
     assert status["table_build_s"].startswith("not measured (--skip-build")
     assert status["step_median_ms"] == "not measured (not selected)"
@@ -83,7 +84,7 @@ def test_json_with_skip_build_reuses_the_cache(work_dir: Path, capsys) -> None:
 
 
 def test_bad_section_name_is_a_usage_error(capsys) -> None:
-    assert bench.main(["--only", "lookup,warp"]) == bench.EXIT_USAGE
+    assert main(["bench", "--only", "lookup,warp"]) == EXIT_USAGE
     err = capsys.readouterr().err
     assert "--only" in err and "warp" in err
 
@@ -96,4 +97,4 @@ def test_script_runs_from_the_repository(work_dir: Path) -> None:
     )
     assert proc.returncode == 0, proc.stderr
     doc = json.loads(proc.stdout)
-    assert len([r for r in doc["results"] if r["budget"]]) == len(bench.BUDGETS)
+    assert len([r for r in doc["results"] if r["budget"]]) == len(BUDGETS)

@@ -9,14 +9,18 @@ geography, so the checks here are about the scenarios telling their story.
 
 from __future__ import annotations
 
+import contextlib
+import io
 import json
+import sys
 from pathlib import Path
 
 import pytest
 
 from advisory import SAFETY_CAUTION
-from advisory.bench.demo import demo_flights
-from advisory.bench.replay import load_scenario, prepare, replay_log
+from advisory.bench.demo import demo_flights, demo_flights_dir
+from advisory.bench.replay import replay_log
+from advisory.bench.scenario import load_scenario, prepare
 from advisory.cli import main
 from advisory.io.records import KIND_RAW_INPUT, read_records
 from advisory.pipeline.zones import ZoneSet
@@ -27,17 +31,28 @@ NAMES = ["coastal_approach", "turn_onto_park", "crosswind_day", "below_cutoff",
          "dropouts_and_garbage"]
 
 
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+
+def _files_under(root: Path) -> set[str]:
+    return {str(p.relative_to(root)) for p in root.rglob("*") if "__pycache__" not in p.parts}
+
+
 @pytest.fixture(scope="module")
 def demo_json(tmp_path_factory):
     out = tmp_path_factory.mktemp("demo_report")
+    before = _files_under(DEMO)
     code, text = _run_demo(["demo", "--out", str(out), "--json"])
+    # the demo writes its report to --out and tables to the user cache, never beside
+    # the flights (which an installed package keeps read-only); rule of issue 11
+    assert _files_under(DEMO) == before
     return code, json.loads(text), out
 
 
 def _run_demo(argv: list[str]) -> tuple[int, str]:
-    import contextlib
-    import io
-
     buf = io.StringIO()
     with contextlib.redirect_stdout(buf):
         code = main(argv)
@@ -135,3 +150,33 @@ def test_generator_reproduces_the_committed_records(tmp_path) -> None:
     old, _ = read_records(DEMO / sc.name / "flight.rec")
     assert [(r.kind, r.mono_s, r.utc_s, bytes(r.data)) for r in new] == \
         [(r.kind, r.mono_s, r.utc_s, bytes(r.data)) for r in old]
+
+
+def test_checkout_finds_the_demo_flights_in_replay_logs() -> None:
+    # In a checkout nothing is installed as advisory/demo_flights: the flights are the
+    # repository's replay_logs/ (layout of the design brief).
+    assert demo_flights_dir() == DEMO
+    assert [d.name for d in demo_flights()] == NAMES
+
+
+def test_the_wheel_lists_every_package_and_ships_the_demo_data() -> None:
+    # Common practice, no source: the explicit package list of pyproject.toml must name
+    # every folder of the package, or a wheel would silently leave code out; the data
+    # packages map the top-level demo flights and interface document into the wheel.
+    root = DEMO.parent
+    conf = tomllib.loads((root / "pyproject.toml").read_text(encoding="utf-8"))
+    st = conf["tool"]["setuptools"]
+    on_disk = {".".join(p.parent.relative_to(root).parts)
+               for p in (root / "advisory").rglob("__init__.py")}
+    mapped = st["package-dir"]
+    assert set(st["packages"]) == on_disk | set(mapped)
+    assert mapped == {"advisory.demo_flights": "replay_logs", "advisory.docs": "docs"}
+    data = st["package-data"]
+    assert "data/*" in data["advisory"]
+    assert (root / "advisory" / "data" / "demo_aircraft.toml").is_file()
+    assert "interface.md" in data["advisory.docs"]
+    assert (root / "docs" / "interface.md").is_file()
+    for d in demo_flights():  # every scenario file sits one level down: "*/*"
+        assert {p.name for p in d.iterdir()} >= {"flight.rec", "scenario.toml",
+                                                 "zones.geojson", "expected.json"}
+

@@ -25,7 +25,8 @@ from pathlib import Path
 import pytest
 
 from advisory import units
-from advisory.io.messages import datagram, encode_air
+from advisory.io.framing import datagram
+from advisory.io.messages import encode_air
 from advisory.physics.atmosphere import standard_atmosphere
 from tests.test_run_e2e import Listener, Sender, free_udp_port, square
 

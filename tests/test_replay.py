@@ -26,17 +26,16 @@ from pathlib import Path
 
 import pytest
 
-from advisory.bench.replay import (
+from advisory.bench.batch import replay_many
+from advisory.bench.expect import (
     Expectation,
     ExpectFileError,
-    ReplayError,
     Segment,
     compare_expected,
     load_expected,
-    prepare,
-    replay_log,
-    replay_many,
 )
+from advisory.bench.replay import carried_counters, replay_log
+from advisory.bench.scenario import ReplayError, prepare
 from advisory.cli import main
 from advisory.io.framing import StreamDeframer, parse_datagram
 from advisory.io.messages import decode_frame
@@ -409,7 +408,7 @@ def test_replay_reproduces_a_live_run_byte_for_byte(tmp_path) -> None:
     assert [s.status for s in live.segments][-1] == "unavailable"  # the shutdown frame
     assert "advisory" in [s.status for s in live.segments]
     # the schedule clock on the same record also replays (not necessarily identically)
-    sched = replay_log(prepare(record, zones=setup.zones, tables=setup.table,
+    sched = replay_log(prepare(record, zones=setup.zones, table=setup.table,
                                clock="schedule"))
     assert sched.outputs and math.isfinite(sched.duration_s)
 
@@ -438,3 +437,14 @@ def test_several_runs_in_one_record_replay_the_last(tmp_path) -> None:
     # the same frames through the same loop; the service's counters appear in the status
     # frames of a 'run' log, so compare the advisory frames
     assert res.advisory_payloads == ref.advisory_payloads
+
+
+def test_only_the_driver_counters_the_record_carries_are_kept() -> None:
+    # Rule of issue 11 (no outside source): a record written before a driver counter was
+    # added lacks it in every status frame, so its replay must not publish it either.
+    polls = [(0.0, 0.0, {"frames_ok": 3, "output_errors": 2}, False),
+             (0.1, 0.1, None, False),
+             (0.2, 0.2, {"input_lost": 1, "frames_ok": 4}, False)]
+    assert set(carried_counters(polls)) == {"input_lost", "output_errors"}
+    assert carried_counters([(0.0, 0.0, None, False)]) == ()
+

@@ -14,7 +14,7 @@ import sys
 from collections.abc import Sequence
 
 from advisory import SAFETY_CAUTION
-from advisory.cli import check, predict, run, tables
+from advisory.cli import bench, check, demo, predict, replay, run, tables
 from advisory.cli.options import EXIT_USAGE, UsageError
 
 __all__ = ["EXIT_USAGE", "UsageError", "build_parser", "main"]
@@ -31,37 +31,10 @@ def build_parser() -> argparse.ArgumentParser:
     tables.add_parser(sub)
     check.add_parser(sub)
     run.add_parser(sub)
-    _add_bench(sub)
-    _add_replay(sub)
-    _add_demo(sub)
+    bench.add_parser(sub)
+    replay.add_parser(sub)
+    demo.add_parser(sub)
     return parser
-
-
-# The three registrations below import their command's module when the parser is built,
-# not at the top: those modules live outside cli/ until they get their own cli/<command>.py
-# and `advisory.service.runner` loads numba, which `import advisory.cli` must not pay for
-# (CLI start-up time).
-
-
-def _add_bench(sub: argparse._SubParsersAction) -> None:
-    from advisory.bench import benchmark
-
-    b = sub.add_parser("bench", help="measure every budget against its figure",
-                       description=benchmark.DESCRIPTION)
-    benchmark.add_arguments(b)
-    b.set_defaults(func=benchmark.run)
-
-
-def _add_replay(sub: argparse._SubParsersAction) -> None:
-    from advisory.bench.replay import add_parser
-
-    add_parser(sub)
-
-
-def _add_demo(sub: argparse._SubParsersAction) -> None:
-    from advisory.bench.demo import add_parser
-
-    add_parser(sub)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -19,9 +19,10 @@ import math
 import numpy as np
 
 from advisory.io.arinc429 import Arinc429Assembler
-from advisory.io.messages import DatagramReader, FrameDecoder, StreamDeframer
+from advisory.io.framing import DatagramReader, StreamDeframer
+from advisory.io.messages import FrameDecoder
 from advisory.io.records import Recorder
-from advisory.pipeline.advisor import Advisory
+from advisory.pipeline.results import Advisory
 from advisory.pipeline.state import StateValidator
 from advisory.schema import DECODE_REASONS, LINK_COUNTERS, MAX_COUNTERS, REASON_MAX_BYTES
 

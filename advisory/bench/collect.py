@@ -1,0 +1,133 @@
+"""What a report draws, gathered step by step from a running loop during a replay.
+
+:class:`FlightCollector` is called after every advisor step: it reads the loop's last
+advisory, the validator's current state and the advisor's ``last_prediction`` /
+``last_trajectory``, and keeps the track, the carpet laid along it, focus points and
+where each advisory fired (plain lists, JSON-ready; drawn by :mod:`advisory.bench.report`).
+
+ADVISORY AID ONLY: not certified flight software; local regulations and licensed
+practice govern supersonic flight.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from advisory import units
+from advisory.pipeline.footprint import CarpetPrediction, swath_polygon
+from advisory.pipeline.trajectory import Trajectory
+from advisory.schema import CONFLICT_STATUSES, STATUS_RANK
+from advisory.service.loop import AdvisoryLoop
+
+#: Rank of ``unavailable`` when comparing levels (below every other status).
+UNAVAILABLE_RANK = -1
+
+class FlightCollector:
+    """Gathers what the report draws, step by step, from a running loop.
+
+    Parameters
+    ----------
+    loop : advisory.service.loop.AdvisoryLoop
+        The loop being replayed (its ``advisor``, ``validator``, ``last_advisory``).
+    t0_monotonic : float
+        Time origin (the first input's receive time), s.
+    carpet_every_s : float
+        Spacing of the carpet rows kept along the track, s of flight time.
+    """
+
+    def __init__(self, loop: AdvisoryLoop, t0_monotonic: float,
+                 carpet_every_s: float = 1.0) -> None:
+        self.loop = loop
+        self.t0 = t0_monotonic
+        self.every = carpet_every_s
+        self.threshold = float(loop.advisor.config.focus_threshold)
+        self.track: list[list[Any]] = []
+        self.rows: list[dict[str, Any]] = []
+        self.focus: list[list[float]] = []
+        self.events: list[dict[str, Any]] = []
+        self._last_pred: CarpetPrediction | None = None
+        self._last_row_t = -math.inf
+        self._key: tuple[str, str | None] | None = None
+        self._rank = 0
+
+    def on_step(self, now_monotonic: float) -> None:
+        """Take what the step just computed (call after every advisor step)."""
+        loop = self.loop
+        adv = loop.last_advisory
+        if adv is None:
+            return
+        t = round(now_monotonic - self.t0, 3)
+        st = loop.validator.current(now_monotonic)
+        lat = lon = alt = mach = None
+        if st is not None:
+            lat, lon = round(math.degrees(st.lat_rad), 5), round(math.degrees(st.lon_rad), 5)
+            alt, mach = round(units.m_to_ft(st.alt_m), 1), round(st.mach, 4)
+        cut = None if adv.cutoff_mach is None or not math.isfinite(adv.cutoff_mach) \
+            else round(adv.cutoff_mach, 4)
+        self.track.append([t, lat, lon, alt, mach, cut, adv.status])
+        advisor = loop.advisor
+        pred, traj = advisor.last_prediction, advisor.last_trajectory
+        fresh = (adv.status != "unavailable" and pred is not None and traj is not None
+                 and pred is not self._last_pred)
+        if fresh:
+            self._last_pred = pred
+            if t - self._last_row_t >= self.every - 1e-9:
+                self._row(t, pred, traj)
+        key = (adv.status, adv.zone_id)
+        rank = STATUS_RANK.get(adv.status, UNAVAILABLE_RANK)
+        if key != self._key:
+            ev = {"t_s": t, "status": adv.status, "zone_id": adv.zone_id, "cue": adv.cue,
+                  "lat": lat, "lon": lon, "predicted": None, "predicted_focus": []}
+            if adv.status in CONFLICT_STATUSES and fresh \
+                    and (rank > self._rank or key[1] != (self._key or (None, None))[1]):
+                ev["predicted"], ev["predicted_focus"] = self._predicted(pred, traj)
+            self.events.append(ev)
+            self._key = key
+        self._rank = rank
+
+    def _row(self, t: float, pred: CarpetPrediction, traj: Trajectory) -> None:
+        k0 = int(np.searchsorted(pred.t_emit_s, -1e-9))
+        if k0 >= pred.t_emit_s.size or not pred.on_ground[k0]:
+            return
+        e, n = pred.east_m[k0], pred.north_m[k0]
+        ok = np.isfinite(e) & np.isfinite(n)
+        if ok.sum() < 2:
+            return
+        la, lo = (np.asarray(v) for v in traj.frame.from_enu(e[ok], n[ok]))
+        psf = units.pa_to_psf(pred.effective_overpressure_pa[k0][ok])
+        self.rows.append({"t_s": t, "lat": np.round(np.degrees(la), 5).tolist(),
+                          "lon": np.round(np.degrees(lo), 5).tolist(),
+                          "psf": np.round(psf, 3).tolist()})
+        self._last_row_t = t
+        foc = pred.focus_factor[k0][ok]
+        for i in np.flatnonzero(foc >= self.threshold):
+            self.focus.append([round(float(np.degrees(la[i])), 5),
+                               round(float(np.degrees(lo[i])), 5), round(float(foc[i]), 2)])
+
+    def _predicted(self, pred: CarpetPrediction, traj: Trajectory
+                   ) -> tuple[list[list[float]] | None, list[list[float]]]:
+        ring = swath_polygon(pred, 0.0, math.inf)
+        outline = None
+        if ring is not None:
+            la, lo = traj.frame.from_enu(ring[:, 0], ring[:, 1])
+            outline = [np.round(np.degrees(la), 5).tolist(), np.round(np.degrees(lo), 5).tolist()]
+        ahead = (pred.t_emit_s >= 0.0)[:, None] & pred.on_ground[:, None]
+        mask = ahead & (pred.focus_factor >= self.threshold) & np.isfinite(pred.east_m)
+        ks, js = np.nonzero(mask)
+        if ks.size > 300:
+            pick = np.linspace(0, ks.size - 1, 300).astype(int)
+            ks, js = ks[pick], js[pick]
+        pts = []
+        if ks.size:
+            la, lo = traj.frame.from_enu(pred.east_m[ks, js], pred.north_m[ks, js])
+            pts = [[round(float(a), 5), round(float(b), 5)]
+                   for a, b in zip(np.degrees(la), np.degrees(lo))]
+        return outline, pts
+
+    def result(self) -> dict[str, Any]:
+        """The collected data (plain lists; JSON-ready)."""
+        return {"track": self.track, "rows": self.rows, "focus": self.focus,
+                "events": self.events, "focus_threshold": self.threshold}

@@ -30,12 +30,9 @@ if TYPE_CHECKING:
     from advisory.pipeline.zones import ZoneSet
     from advisory.tables.table import BoomTable
 
-__version__ = "0.1.0"
+from advisory.schema import SAFETY_CAUTION, VERSION
 
-SAFETY_CAUTION = (
-    "CAUTION: boom-advisory is an advisory aid, not certified flight software. "
-    "Local regulations and licensed practice govern supersonic flight."
-)
+__version__ = VERSION
 
 __all__ = [
     "SAFETY_CAUTION",

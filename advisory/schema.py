@@ -9,6 +9,15 @@ Nothing here imports anything else from the package.
 
 from __future__ import annotations
 
+# ----------------------------------------------------------------------------- identity
+#: The package version (pyproject.toml reads it from here: one home).
+VERSION = "0.1.0"
+#: The caution every human-facing output carries.
+SAFETY_CAUTION = (
+    "CAUTION: boom-advisory is an advisory aid, not certified flight software. "
+    "Local regulations and licensed practice govern supersonic flight."
+)
+
 # ----------------------------------------------------------------------------- wire
 WIRE_FORMAT_VERSION = 1  #: the only wire format version this code reads and writes
 FRAME_TYPES = ("air", "adv", "status")

@@ -15,9 +15,9 @@ from pathlib import Path
 
 import pytest
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.budgets import BUDGETS
 from advisory.cli import EXIT_USAGE, main
+from advisory.schema import SAFETY_CAUTION
 
 ROOT = Path(__file__).resolve().parent.parent
 STATUS_PREFIXES = ("pass", "short", "not measured (")

@@ -17,13 +17,13 @@ from pathlib import Path
 
 import pytest
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.demo import demo_flights, demo_flights_dir
 from advisory.bench.replay import replay_log
 from advisory.bench.scenario import load_scenario, prepare
 from advisory.cli import main
 from advisory.io.records import KIND_RAW_INPUT, read_records
 from advisory.pipeline.zones import ZoneSet
+from advisory.schema import SAFETY_CAUTION
 from tests.test_replay import MAKER, table_cache  # noqa: F401  (session table cache)
 
 DEMO = Path(__file__).resolve().parent.parent / "replay_logs"

@@ -8,8 +8,8 @@ import sys
 
 import pytest
 
-from advisory import SAFETY_CAUTION
 from advisory.cli import main
+from advisory.schema import SAFETY_CAUTION
 
 REQUIRED = (
     "cutoff_mach", "reaches_ground", "lateral_cutoff_deg", "carpet_half_width_left_km",

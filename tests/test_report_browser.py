@@ -18,11 +18,11 @@ from pathlib import Path
 
 import pytest
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.replay import replay_log
 from advisory.bench.report import REPORT_NAME, have_matplotlib, write_report
 from advisory.bench.scenario import prepare
 from advisory.io.messages import decode_frame
+from advisory.schema import SAFETY_CAUTION
 from tests.test_replay import short_flight, table_cache  # noqa: F401
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")

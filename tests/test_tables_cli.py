@@ -8,8 +8,8 @@ import json
 
 import pytest
 
-from advisory import SAFETY_CAUTION
 from advisory.cli import main
+from advisory.schema import SAFETY_CAUTION
 
 
 @pytest.fixture(scope="module")

@@ -14,8 +14,8 @@ import math
 from dataclasses import asdict, dataclass
 from typing import Any
 
-from advisory import SAFETY_CAUTION, __version__
 from advisory.bench.machine import machine_lines
+from advisory.schema import SAFETY_CAUTION, VERSION
 
 EXIT_OK = 0
 EXIT_SHORT = 1  #: with ``--strict``: a budget is short or not measured
@@ -193,7 +193,7 @@ class Report:
     def to_json(self, machine: dict[str, Any], options: dict[str, Any]) -> str:
         """One JSON object: machine, options, rows, notes, caution."""
         return json.dumps({
-            "package_version": __version__,
+            "package_version": VERSION,
             "machine": machine,
             "options": options,
             "results": [dict(asdict(r), budget=r.is_budget) for r in self.all_rows()],
@@ -203,7 +203,7 @@ class Report:
 
     def text_lines(self, machine: dict[str, Any]) -> list[str]:
         """The human-readable report: machine, the table, notes, caution."""
-        lines = [f"boom-advisory {__version__} benchmark", SAFETY_CAUTION, ""]
+        lines = [f"boom-advisory {VERSION} benchmark", SAFETY_CAUTION, ""]
         lines += [f"machine: {line}" for line in machine_lines(machine)]
         lines.append("")
         rows = self.all_rows()

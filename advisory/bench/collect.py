@@ -12,11 +12,12 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import math
-from typing import Any
+from typing import Any, cast
 
 import numpy as np
 
 from advisory import units
+from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.footprint import CarpetPrediction, swath_polygon
 from advisory.pipeline.trajectory import Trajectory
 from advisory.schema import CONFLICT_STATUSES, STATUS_RANK
@@ -68,11 +69,12 @@ class FlightCollector:
         cut = None if adv.cutoff_mach is None or not math.isfinite(adv.cutoff_mach) \
             else round(adv.cutoff_mach, 4)
         self.track.append([t, lat, lon, alt, mach, cut, adv.status])
-        advisor = loop.advisor
+        # a replay's loop always runs the real advisor (bench.scenario.make_loop)
+        advisor = cast(Advisor, loop.advisor)
         pred, traj = advisor.last_prediction, advisor.last_trajectory
         fresh = (adv.status != "unavailable" and pred is not None and traj is not None
                  and pred is not self._last_pred)
-        if fresh:
+        if fresh and pred is not None and traj is not None:  # (narrowed for the type checker)
             self._last_pred = pred
             if t - self._last_row_t >= self.every - 1e-9:
                 self._row(t, pred, traj)
@@ -81,8 +83,9 @@ class FlightCollector:
         if key != self._key:
             ev = {"t_s": t, "status": adv.status, "zone_id": adv.zone_id, "cue": adv.cue,
                   "lat": lat, "lon": lon, "predicted": None, "predicted_focus": []}
-            if adv.status in CONFLICT_STATUSES and fresh \
-                    and (rank > self._rank or key[1] != (self._key or (None, None))[1]):
+            escalated = rank > self._rank or key[1] != (self._key or (None, None))[1]
+            if adv.status in CONFLICT_STATUSES and fresh and pred is not None \
+                    and traj is not None and escalated:
                 ev["predicted"], ev["predicted_focus"] = self._predicted(pred, traj)
             self.events.append(ev)
             self._key = key

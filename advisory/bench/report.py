@@ -24,11 +24,11 @@ import base64
 import datetime as _dt
 from pathlib import Path
 
-from advisory import SAFETY_CAUTION, __version__
 from advisory.bench.figures import STATUS_COLOURS, zone_rings
 from advisory.bench.png import have_matplotlib, map_png, timeline_png
 from advisory.bench.result import ReplayResult, read_notes
 from advisory.bench.svg import esc, map_svg, timeline_svg
+from advisory.schema import SAFETY_CAUTION, VERSION
 
 REPORT_NAME = "report.html"
 
@@ -156,7 +156,7 @@ def write_report(results: list[ReplayResult], out_dir: str | Path,
         f"<style>{_CSS}</style></head><body>",
         f"<h1>{esc(title)}</h1>",
         f'<p class="caution" id="caution">{esc(SAFETY_CAUTION)}</p>',
-        f"<p>boom-advisory {__version__}, written {when}. Invented demo scenarios use "
+        f"<p>boom-advisory {VERSION}, written {when}. Invented demo scenarios use "
         "fictional places and a fictional aircraft. "
         + ("" if pngs else "matplotlib is not installed: SVG figures only. ") + "</p>",
         '<table id="summary"><tr><th>log</th><th>duration</th><th>conflicts</th>'

@@ -257,8 +257,10 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
         table_path = str(table)
         _load_table(table_path)  # refuse a bad table here, with its own message
     else:
-        # BoomTable.load sets .path, which the class does not declare
-        table_path = scenario_table(scenario, spath, aircraft, quiet=quiet).path  # type: ignore[attr-defined]
+        built = scenario_table(scenario, spath, aircraft, quiet=quiet).path
+        if built is None:  # cached_table always returns a table loaded from its file
+            raise ReplayError(f"{path}: the scenario's table has no file")
+        table_path = built
     fmt, rate, heartbeat = _loop_rates(scenario, recorded, input_format, rate_hz)
     if clock not in ("auto", "recorded", "schedule"):
         raise ReplayError(f"--clock: {clock!r} is not auto, recorded or schedule")

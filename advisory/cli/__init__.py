@@ -13,9 +13,9 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from advisory import SAFETY_CAUTION
 from advisory.cli import bench, check, demo, predict, replay, run, tables
 from advisory.cli.options import EXIT_USAGE, UsageError
+from advisory.schema import SAFETY_CAUTION
 
 __all__ = ["EXIT_USAGE", "UsageError", "build_parser", "main"]
 

@@ -14,10 +14,10 @@ import argparse
 import tempfile
 from pathlib import Path
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.benchmark import SECTIONS, BenchOptions, run_benchmark
 from advisory.cli.options import add_json_option, add_table_option
 from advisory.cli.replay import replay_command
+from advisory.schema import SAFETY_CAUTION
 
 DESCRIPTION = ("Measure every budget of the issues and print each figure beside its budget, "
                "with the machine it ran on. " + SAFETY_CAUTION)

@@ -7,7 +7,7 @@ import json
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from advisory import SAFETY_CAUTION, units
+from advisory import units
 from advisory.cli.options import (
     UsageError,
     add_aircraft_option,
@@ -16,6 +16,7 @@ from advisory.cli.options import (
     add_table_option,
     add_zones_option,
 )
+from advisory.schema import SAFETY_CAUTION
 
 if TYPE_CHECKING:
     from advisory.pipeline.advisor import Advisory

@@ -20,13 +20,13 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.batch import replay_many
 from advisory.bench.demo import demo_flights
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult, cue_lines, read_notes, summary_table
 from advisory.bench.scenario import prepare
 from advisory.cli.options import add_json_option
+from advisory.schema import SAFETY_CAUTION
 
 DEFAULT_OUT = "demo_report"
 

@@ -10,7 +10,7 @@ import json
 import math
 from typing import TYPE_CHECKING, Any
 
-from advisory import SAFETY_CAUTION, units
+from advisory import units
 from advisory.cli.options import (
     UsageError,
     add_aircraft_option,
@@ -18,6 +18,7 @@ from advisory.cli.options import (
     add_table_option,
     finite,
 )
+from advisory.schema import SAFETY_CAUTION
 
 if TYPE_CHECKING:
     from advisory.bench.steady_carpet import PredictInputs, PredictResult

@@ -10,7 +10,6 @@ import argparse
 import json
 import sys
 
-from advisory import SAFETY_CAUTION
 from advisory.bench.batch import replay_many
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult, cue_lines, read_notes, summary_table
@@ -22,6 +21,7 @@ from advisory.cli.options import (
     add_table_option,
     add_zones_option,
 )
+from advisory.schema import SAFETY_CAUTION
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:

@@ -8,8 +8,8 @@ from __future__ import annotations
 
 import argparse
 
-from advisory import SAFETY_CAUTION
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
+from advisory.schema import SAFETY_CAUTION
 from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
 
 

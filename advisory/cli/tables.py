@@ -6,8 +6,8 @@ import argparse
 import sys
 import time
 
-from advisory import SAFETY_CAUTION
 from advisory.cli.options import add_aircraft_option
+from advisory.schema import SAFETY_CAUTION
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:

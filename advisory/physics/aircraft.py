@@ -490,6 +490,6 @@ DEMO_AIRCRAFT_FILE = "demo_aircraft.toml"
 
 def default_aircraft() -> Aircraft:
     """The bundled invented demo aircraft (``advisory/data/demo_aircraft.toml``)."""
-    ref = resources.files("advisory").joinpath("data", DEMO_AIRCRAFT_FILE)
+    ref = resources.files("advisory").joinpath("data").joinpath(DEMO_AIRCRAFT_FILE)
     with resources.as_file(ref) as path:
         return load_aircraft(path)

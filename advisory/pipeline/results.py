@@ -14,9 +14,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
-from advisory import SAFETY_CAUTION, units
+from advisory import units
 from advisory.pipeline.cues import crew_cue
-from advisory.schema import CUE_MAX_BYTES, ZONE_ID_MAX_BYTES
+from advisory.schema import CUE_MAX_BYTES, SAFETY_CAUTION, ZONE_ID_MAX_BYTES
 
 __all__ = ["Conflict", "Advisory", "clip_utf8"]
 

@@ -38,7 +38,7 @@ import threading
 import time
 from typing import Any
 
-from advisory import SAFETY_CAUTION
+from advisory.schema import SAFETY_CAUTION
 
 PREFIX = "boom-advisory run"  #: first word of every log line
 LOG_QUEUE_LINES = 1000  #: log lines waiting for the stderr writer at most

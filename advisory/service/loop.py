@@ -63,6 +63,7 @@ class AdvisorLike(Protocol):
     """What the loop needs of an advisor (:class:`advisory.pipeline.advisor.Advisor`)."""
 
     config: AdvisorConfig
+    steps: int  #: steps taken so far (a replay watches it to know when a step ran)
 
     def step(self, state: AirDataState | None, now_monotonic: float) -> Advisory: ...
 

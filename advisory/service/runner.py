@@ -31,9 +31,9 @@ import time
 from types import FrameType
 from typing import Any
 
-from advisory import __version__
 from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
+from advisory.schema import VERSION
 from advisory.service.build import assemble
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
@@ -263,7 +263,7 @@ def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
     t0 = time.monotonic()
     svc = build_service(s, logs)
     svc.started_monotonic = t0
-    started = {"version": __version__, "pid": os.getpid(), "input": s.input_url,
+    started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
                "profile": s.profile, **svc.loop.describe()}
     try:

@@ -22,13 +22,13 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from advisory import __version__
 from advisory.physics import fastpath as fp
 from advisory.physics.aircraft import Aircraft, aircraft_document
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.carpet import best_reaching_azimuth, cutoff_mach, lateral_cutoff
 from advisory.physics.rays import FlightCondition, RayPath, RayTracer
 from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, ground_signature
+from advisory.schema import VERSION
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
 from advisory.tables.store import atmosphere_arrays
@@ -240,7 +240,7 @@ def provenance(inputs: BuildInputs, build_seconds: float) -> dict:
     """The header fields that say what a table was built from."""
     return {
         "kind": "boom-advisory table",
-        "package_version": __version__,
+        "package_version": VERSION,
         "build_utc": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
         "build_seconds": round(build_seconds, 3),
         "grid": inputs.grid.to_dict(),

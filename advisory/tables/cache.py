@@ -14,9 +14,9 @@ import sys
 import time
 from pathlib import Path
 
-from advisory import __version__
 from advisory.physics.aircraft import aircraft_document, default_aircraft, load_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
+from advisory.schema import VERSION
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import default_grid
 from advisory.tables.store import TableFileError, write_table_file
@@ -34,7 +34,7 @@ def cache_dir() -> Path:
 def table_key(inputs: BuildInputs) -> str:
     """SHA-256 (hex) of the build inputs."""
     doc = {
-        "package_version": __version__,
+        "package_version": VERSION,
         "aircraft": aircraft_document(inputs.aircraft),
         "atmosphere": inputs.atmosphere.description,
         "grid": inputs.grid.to_dict(),

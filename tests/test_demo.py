@@ -169,10 +169,10 @@ def test_the_wheel_lists_every_package_and_ships_the_demo_data() -> None:
     on_disk = {".".join(p.parent.relative_to(root).parts)
                for p in (root / "advisory").rglob("__init__.py")}
     mapped = st["package-dir"]
-    assert set(st["packages"]) == on_disk | set(mapped)
+    assert set(st["packages"]) == on_disk | set(mapped) | {"advisory.data"}
     assert mapped == {"advisory.demo_flights": "replay_logs", "advisory.docs": "docs"}
     data = st["package-data"]
-    assert "data/*" in data["advisory"]
+    assert "*.toml" in data["advisory.data"] and "py.typed" in data["advisory"]
     assert (root / "advisory" / "data" / "demo_aircraft.toml").is_file()
     assert "interface.md" in data["advisory.docs"]
     assert (root / "docs" / "interface.md").is_file()

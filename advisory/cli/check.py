@@ -5,7 +5,7 @@ from __future__ import annotations
 import argparse
 import json
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from advisory import units
 from advisory.cli.options import (
@@ -16,11 +16,14 @@ from advisory.cli.options import (
     add_table_option,
     add_zones_option,
 )
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.config import load_config
+from advisory.pipeline.results import Advisory
+from advisory.pipeline.state import AirDataState, StateValidator
+from advisory.pipeline.zones import ZoneSet
 from advisory.schema import SAFETY_CAUTION
-
-if TYPE_CHECKING:
-    from advisory.pipeline.advisor import Advisory
-    from advisory.pipeline.state import AirDataState
+from advisory.tables.cache import default_table
+from advisory.tables.table import BoomTable
 
 
 class StateFileError(ValueError):
@@ -66,14 +69,6 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """``check``: exit 0 with the advisory printed."""
-    # Imported here, not at the top: the advisor and the tables load numba, which
-    # `boom-advisory --help` and the other commands must not pay for (CLI start-up time).
-    from advisory.pipeline.advisor import Advisor
-    from advisory.pipeline.config import load_config
-    from advisory.pipeline.state import AirDataState, StateValidator
-    from advisory.pipeline.zones import ZoneSet
-    from advisory.tables.cache import default_table
-    from advisory.tables.table import BoomTable
 
     fields = load_state_fields(args.state)
     validator = StateValidator()

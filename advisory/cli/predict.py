@@ -8,9 +8,10 @@ from __future__ import annotations
 import argparse
 import json
 import math
-from typing import TYPE_CHECKING, Any
+from typing import Any
 
 from advisory import units
+from advisory.bench.steady_carpet import PredictInputs, PredictResult, predict
 from advisory.cli.options import (
     UsageError,
     add_aircraft_option,
@@ -19,9 +20,6 @@ from advisory.cli.options import (
     finite,
 )
 from advisory.schema import SAFETY_CAUTION
-
-if TYPE_CHECKING:
-    from advisory.bench.steady_carpet import PredictInputs, PredictResult
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -53,9 +51,6 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run(args: argparse.Namespace) -> int:
     """``predict``: print the prediction; exit 0 (bad input raises :class:`UsageError`)."""
-    # Imported here, not at the top: the physics loads numba, which `boom-advisory --help`
-    # and the other commands must not pay for (CLI start-up time).
-    from advisory.bench.steady_carpet import predict
 
     result = predict(inputs_from_args(args))
     print(to_json(result) if args.json else summary_text(result))
@@ -64,8 +59,6 @@ def run(args: argparse.Namespace) -> int:
 
 def inputs_from_args(args: argparse.Namespace) -> PredictInputs:
     """The checked flight condition; :class:`UsageError` names the first bad argument."""
-    # Imported here for the same start-up reason as in :func:`run`.
-    from advisory.bench.steady_carpet import PredictInputs
 
     inputs = PredictInputs(
         mach=finite("--mach", args.mach),

@@ -10,6 +10,7 @@ import argparse
 
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
 from advisory.schema import SAFETY_CAUTION
+from advisory.service.runner import run_service
 from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
 
 
@@ -49,9 +50,6 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run_command(args: argparse.Namespace) -> int:
     """``run``: the exit code (0 after a clean stop)."""
-    # Imported here so that every other command starts without loading numpy, numba and
-    # the whole pipeline (the CLI dispatcher keeps start-up light).
-    from advisory.service.runner import run_service
 
     settings = RunSettings(
         input_url=args.input, output_url=args.output, zones=args.zones,

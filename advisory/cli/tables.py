@@ -7,7 +7,14 @@ import sys
 import time
 
 from advisory.cli.options import add_aircraft_option
+from advisory.physics.aircraft import default_aircraft, load_aircraft
+from advisory.physics.atmosphere import load_profile, standard_atmosphere
 from advisory.schema import SAFETY_CAUTION
+from advisory.tables.build import BuildInputs, build_table_arrays, provenance
+from advisory.tables.grid import default_grid, load_grid
+from advisory.tables.store import write_table_file
+from advisory.tables.table import BoomTable
+from advisory.tables.verify import verify_table
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -38,13 +45,6 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 
 def run_build(args: argparse.Namespace) -> int:
     """``tables build``: exit 0 with the table file written."""
-    # The builder imports are here, not at the top: they load numba, which
-    # `boom-advisory --help` and the other commands must not pay for (CLI start-up time).
-    from advisory.physics.aircraft import default_aircraft, load_aircraft
-    from advisory.physics.atmosphere import load_profile, standard_atmosphere
-    from advisory.tables.build import BuildInputs, build_table_arrays, provenance
-    from advisory.tables.grid import default_grid, load_grid
-    from advisory.tables.store import write_table_file
 
     aircraft = load_aircraft(args.aircraft) if args.aircraft else default_aircraft()
     if args.atmosphere:
@@ -65,8 +65,6 @@ def run_build(args: argparse.Namespace) -> int:
 
 def run_info(args: argparse.Namespace) -> int:
     """``tables info``: print the table's provenance; exit 0."""
-    # Imported here for the start-up reason given in :func:`run_build`.
-    from advisory.tables.table import BoomTable
 
     table = BoomTable.load(args.table)
     for line in table.info_lines():
@@ -77,9 +75,6 @@ def run_info(args: argparse.Namespace) -> int:
 
 def run_verify(args: argparse.Namespace) -> int:
     """``tables verify``: exit 0 when within budget, 1 otherwise."""
-    # Imported here for the start-up reason given in :func:`run_build`.
-    from advisory.tables.table import BoomTable
-    from advisory.tables.verify import verify_table
 
     table = BoomTable.load(args.table)
     report = verify_table(table, samples=args.samples, seed=args.seed)

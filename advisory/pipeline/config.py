@@ -30,7 +30,7 @@ operators tune them in a config file::
     threshold = 1.25        # amplification above which a focus boom is flagged
 
     [input]
-    stale_after_s = 1.0     # no valid air data for this long -> unavailable
+    stale_after_s = 0.5     # air data older than this is stale -> unavailable (ICD 4)
 """
 
 from __future__ import annotations

@@ -192,15 +192,18 @@ class FlownPath:
         t = np.arange(self.time_s[0], self.time_s[-1] + 0.5 * interval_s, interval_s)
         t = t[t <= self.time_s[-1] + 1e-9 * interval_s]
 
-        def at(a: np.ndarray | None) -> np.ndarray | None:
-            return None if a is None else np.interp(t, self.time_s, a)
+        def at(a: np.ndarray) -> np.ndarray:
+            return np.interp(t, self.time_s, a)
 
-        heading = np.mod(np.interp(t, self.time_s, np.unwrap(self.heading_rad)), 2.0 * math.pi)
+        def opt(a: np.ndarray | None) -> np.ndarray | None:
+            return None if a is None else at(a)
+
+        heading = np.mod(at(np.unwrap(self.heading_rad)), 2.0 * math.pi)
         return replace(self, time_s=t, east_m=at(self.east_m), north_m=at(self.north_m),
                        altitude_m=at(self.altitude_m), mach=at(self.mach), heading_rad=heading,
-                       fpa_rad=at(self.fpa_rad), turn_rate_rps=at(self.turn_rate_rps),
-                       pitch_rate_rps=at(self.pitch_rate_rps),
-                       load_factor=at(self.load_factor), bank_rad=at(self.bank_rad))
+                       fpa_rad=at(self.fpa_rad), turn_rate_rps=opt(self.turn_rate_rps),
+                       pitch_rate_rps=opt(self.pitch_rate_rps),
+                       load_factor=opt(self.load_factor), bank_rad=opt(self.bank_rad))
 
 
 def mach_from_true_airspeed(atmosphere: Atmosphere, altitude_m: np.ndarray,

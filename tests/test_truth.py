@@ -29,6 +29,7 @@ from advisory.bench.truth import (
     trace_truth,
 )
 from advisory.bench.truth_kernels import N_TRUTH_COLUMNS, trace_emissions_kernel
+from advisory.bench.truth_path import lift_and_bank
 from advisory.bench.truth_zones import TruthZone, ZoneInputError
 from advisory.physics import fastpath as fp
 from advisory.physics.aircraft import default_aircraft
@@ -37,6 +38,8 @@ from advisory.physics.atmosphere import (
     atmosphere_from_levels,
     standard_atmosphere,
 )
+from advisory.physics.carpet import compute_carpet
+from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.signature import f_function_parts, focus_amplification
 from tests.twins.truth import trace_emissions_twin
 
@@ -165,6 +168,60 @@ def test_steady_flight_matches_predict(aircraft, alt_ft, mach, fpa_deg):
     known = np.isfinite(gm.tube_ratio)
     np.testing.assert_allclose(gm.tube_ratio[known], 1.0, atol=1e-6)
     assert not gm.focus.any()
+
+
+def test_steady_flight_in_wind_matches_carpet(aircraft):
+    """Steady level flight in a turning jet stream, positions drifting with the wind at the
+    aircraft: the centreline ray equals physics.carpet.compute_carpet's (the project's
+    steady direct tracing) and the pattern only translates (J / J_s = 1). (A climb through
+    wind shear is not steady: the wind at the aircraft changes; the steady climb is
+    checked in the isothermal, windless layer above.)"""
+    atm = atmosphere_from_levels(WIND_LEVELS, source="test jet stream")
+    alt, mach, heading, fpa = 13000.0, 1.7, math.radians(75.0), 0.0
+    air = atm.at(alt)
+    v = mach * air.sound_speed_mps
+    t = np.arange(0.0, 1.0 + 1e-9, DT)
+    ve = v * math.cos(fpa) * math.sin(heading) + air.wind_east_mps
+    vn = v * math.cos(fpa) * math.cos(heading) + air.wind_north_mps
+    vz = v * math.sin(fpa)
+    n = t.size
+    path = FlownPath(t, ve * t, vn * t, alt + vz * t, np.full(n, mach), np.full(n, heading),
+                     np.full(n, fpa))
+    gm = trace_ground_map(path, atm, aircraft, 250.0)
+    fc = FlightCondition(mach, alt, heading, fpa, 250.0)
+    carpet = compute_carpet(RayTracer(atm), fc)
+    j = int(np.argmin(np.abs(gm.azimuth_rad)))
+    ok, x, y, tt = RayTracer(atm).ground_point(fc, 0.0)
+    assert ok and carpet.reaches_ground
+    assert gm.east_m[0, j] == pytest.approx(x, rel=1e-9)
+    assert gm.north_m[0, j] == pytest.approx(y, rel=1e-9)
+    assert gm.arrival_s[0, j] == pytest.approx(carpet.centerline_travel_time_s, rel=1e-9)
+    known = np.isfinite(gm.tube_ratio)
+    assert known.sum() > 50
+    np.testing.assert_allclose(gm.tube_ratio[known], 1.0, atol=1e-6)
+    assert not gm.focus.any()
+
+
+def test_coordinated_turn_lift_and_bank(uniform):
+    """Level coordinated turn: tan(bank) = V omega / g and load factor 1 / cos(bank)
+    (point-mass flight mechanics; common practice, no source). Rates default to the
+    differences of the samples."""
+    mach, bank = 1.4, math.radians(35.0)
+    v = mach * UNIFORM_C
+    omega = G0 * math.tan(bank) / v
+    t = np.arange(0.0, 5.0 + 1e-9, DT)
+    a = omega * t
+    r = v / omega
+    path = FlownPath(t, r * (1.0 - np.cos(a)), r * np.sin(a), np.full(t.size, 12000.0),
+                     np.full(t.size, mach), np.mod(a, 2.0 * math.pi), np.zeros(t.size))
+    load, got_bank = lift_and_bank(path, uniform)
+    # rtol: the gas constant here (287.05287) and the project's differ in the 6th digit
+    np.testing.assert_allclose(got_bank, bank, rtol=1e-6)
+    np.testing.assert_allclose(load, 1.0 / math.cos(bank), rtol=1e-6)
+    re = path.resampled(0.25)
+    assert re.time_s[1] == pytest.approx(0.25) and re.time_s[-1] == pytest.approx(5.0)
+    np.testing.assert_allclose(re.heading_rad, np.mod(omega * re.time_s, 2.0 * math.pi),
+                               atol=1e-12)
 
 
 def test_steady_half_width_converges_to_predict(aircraft):

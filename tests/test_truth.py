@@ -418,6 +418,29 @@ def test_zone_exposure_from_steady_flight(aircraft):
     assert np.all(ev.duration_ms > 0.0) and not ev.focus.any()
 
 
+def test_each_ground_elevation_traced(aircraft):
+    """Zones on higher ground get rays traced to their own elevation: the centreline ray
+    ends where RayTracer.ground_point (physics.rays, the steady direct tracing) ends it
+    for that ground elevation; exposures serialise to plain JSON types."""
+    atm = standard_atmosphere()
+    alt, mach = 15000.0, 1.5
+    t = np.array([0.0, DT])
+    path = _straight(t, alt, np.full(2, mach), atm.at(alt).sound_speed_mps)
+    box = np.array([[-1e3, 0.0], [1e3, 0.0], [1e3, 6e4], [-1e3, 6e4]])
+    high = TruthZone("high", (box,), limit_psf=5.0, ground_elevation_m=1500.0)
+    truth = trace_truth(path, atm, aircraft, zones=[high], ground_elevations_m=[0.0])
+    assert sorted(truth.maps) == [0.0, 1500.0]
+    tracer = RayTracer(atm)
+    for zg, gm in truth.maps.items():
+        j = int(np.argmin(np.abs(gm.azimuth_rad)))
+        ok, x, y, tt = tracer.ground_point(FlightCondition(mach, alt, 0.0, 0.0, zg), 0.0)
+        assert ok and gm.north_m[0, j] == pytest.approx(y, rel=1e-9)
+        assert gm.arrival_s[0, j] == pytest.approx(tt, rel=1e-9)
+    ex = truth.exposures[0].as_json()
+    assert ex["zone_id"] == "high" and ex["booms"] > 0 and ex["exceeds_limit"] is False
+    assert isinstance(ex["first_arrival_s"], float)
+
+
 def test_latlon_path_events_on_wgs84(aircraft):
     """A path given in latitude/longitude: the centreline boom of an emission lands on the
     geodesic along the heading at predict's along-track offset (geographiclib, WGS 84;

@@ -32,6 +32,10 @@ class TruthInputError(ValueError):
 class FlownPath:
     """A flown path sampled at the emission interval (SI, local east-north frame).
 
+    Positions are over the ground (air velocity plus wind); the heading and flight-path
+    angle are those of the air-relative velocity (the Mach cone's axis). The Mach rate
+    needs no field: successive emissions carry it into the ray tube.
+
     Attributes
     ----------
     time_s : ndarray, shape (E,)

@@ -106,6 +106,12 @@ class ZoneExposure:
     exceeds_limit: bool
     focus: bool
 
+    def as_json(self) -> dict[str, object]:
+        """Plain JSON-ready fields (``first_arrival_s`` None when no boom arrives)."""
+        first = self.first_arrival_s if math.isfinite(self.first_arrival_s) else None
+        return {"zone_id": self.zone_id, "first_arrival_s": first, "peak_psf": self.peak_psf,
+                "exceeds_limit": self.exceeds_limit, "booms": self.booms, "focus": self.focus}
+
 
 def zone_exposure(zone: TruthZone, east_m: np.ndarray, north_m: np.ndarray,
                   arrival_s: np.ndarray, overpressure_psf: np.ndarray, focus: np.ndarray

@@ -14,8 +14,8 @@ Method
    ``azimuth_step_deg`` around it, and are traced through the stratified moving
    atmosphere to the ground elevation (:mod:`advisory.bench.truth_kernels`, which runs
    the project's ray and signature kernels). Per ray: ground point, arrival time
-   (emission time plus the ray's travel time), steady overpressure and duration, and
-   whether it reaches the ground.
+   (emission time plus the ray's travel time; the bow shock is ahead of it by a part of
+   the duration), steady overpressure and duration, and whether it reaches the ground.
 2. **Ray tube from neighbouring emissions.** The ground map (emission time ``t``,
    azimuth ``phi``) -> ground point ``G`` has the Jacobian
    ``J = dG/dt x dG/dphi`` (2-D cross product): ``dG/dphi`` from the ray kernel (exact
@@ -27,12 +27,12 @@ Method
    ``sqrt(J_s / J)`` (Pierce, *Acoustics*, ASA 1989, ch. 8); that factor multiplies the
    steady ground overpressure (the ageing along the ray is kept from the steady tube:
    an approximation that issue 14 refines).
-3. **Focus.** Where ``J / J_s`` changes sign between neighbouring emissions, the map
-   folds: a caustic ("focus") lies between the two rays, and both are flagged. Near it
-   the linear factor diverges; it is bounded by
+3. **Focus.** Where ``J / J_s`` changes sign between neighbouring emissions or
+   neighbouring azimuths, the map folds: a caustic ("focus") lies between the two rays,
+   and both are flagged. Near it the linear factor diverges; it is bounded by
    :data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP` (5, the upper end of the
-   2-5x focus-boom levels commonly quoted; value from memory) through
-   :func:`advisory.physics.signature.focus_amplification`.
+   2-5x focus-boom levels commonly quoted; value from memory), as
+   :func:`advisory.physics.signature.focus_amplification` bounds it.
 4. **Zones.** A boom is in a zone when it lands inside the polygon (even-odd rule, so
    holes are outside) or within the zone's margin (m) of its boundary; the exposure is
    the first arrival, the peak overpressure and whether it exceeds the zone's limit.
@@ -95,8 +95,8 @@ class TruthSettings:
     Attributes
     ----------
     azimuth_step_deg : float
-        Spacing of the rays around the Mach cone, deg; the full circle is traced
-        (rays that leave upward are dropped at once).
+        Spacing of the rays around the Mach cone, deg; every azimuth whose wave normal
+        points down at some emission is traced (:func:`downward_azimuth_limit`).
     reflection_factor : float
         Ground reflection factor (1.9: common practice, no source).
     amplification_cap : float
@@ -168,7 +168,8 @@ class GroundMap:
     amplification : ndarray
         Bounded factor applied to the steady overpressure.
     focus : ndarray of bool
-        A fold of the ground map lies between this ray and an emission neighbour.
+        A fold of the ground map lies between this ray and a neighbour (in emission
+        time or in azimuth).
     edge : ndarray of bool
         Grazing ray near the lateral cutoff (signature flag).
     """

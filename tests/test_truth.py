@@ -224,6 +224,22 @@ def test_coordinated_turn_lift_and_bank(uniform):
                                atol=1e-12)
 
 
+def test_pull_up_load_factor(uniform):
+    """Wings-level pull-up at pitch rate q: the lift is m (V q + g cos(gamma)), so the
+    load factor relative to W cos(gamma) is 1 + V q / (g cos(gamma)) and the bank 0
+    (point-mass flight mechanics; common practice, no source)."""
+    mach, q = 1.3, math.radians(1.5)
+    t = np.arange(0.0, 4.0 + 1e-9, DT)
+    gamma = q * t
+    n = t.size
+    path = FlownPath(t, np.zeros(n), np.zeros(n), np.full(n, 11000.0), np.full(n, mach),
+                     np.zeros(n), gamma, pitch_rate_rps=np.full(n, q))
+    load, bank = lift_and_bank(path, uniform)
+    v = mach * UNIFORM_C
+    np.testing.assert_allclose(load, 1.0 + v * q / (G0 * np.cos(gamma)), rtol=1e-6)
+    np.testing.assert_allclose(bank, 0.0, atol=1e-12)
+
+
 def test_steady_half_width_converges_to_predict(aircraft):
     """With a fine azimuth step the truth's half-width approaches predict's (edge ray at
     the lateral cutoff): the offset grows like the square root of the azimuth gap near a

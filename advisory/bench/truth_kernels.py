@@ -1,0 +1,153 @@
+"""Compiled loop of the truth tracer: every emission of a flown path, every ray azimuth.
+
+This module adds no physics of its own. For each emission it builds the integration
+levels from the aircraft down to the ground elevation
+(:func:`advisory.physics.rays.ray_levels_kernel`), reads the air at the aircraft the way
+:meth:`advisory.physics.atmosphere.Atmosphere.at` does (linear in sound speed and wind,
+linear in the logarithm of pressure and density), and traces each azimuth with
+:func:`advisory.physics.fastpath.ray_ground_kernel` (geometric acoustics in a stratified
+moving atmosphere, ray-tube amplitude matched to Whitham's near field, ageing and the
+equal-area shocks of the ground signature; the references are in those modules). The
+only additions are bookkeeping:
+
+* the lift of a banked aircraft: the lift-equivalent area of a ray at azimuth ``phi``
+  scales with ``cos(phi + bank)`` instead of ``cos(phi)`` (the lift plane turns with the
+  bank, bank positive right wing down, azimuth positive to the right; Walkden's lift
+  term [1]_ taken in the plane of the lift, common practice, no source). It is passed to
+  the ray kernel as an effective lift ``L cos(phi + bank) / cos(phi)``;
+* the steady translation of the ray pattern per unit emission time (the ground
+  velocity plus the slope of the ray at the aircraft times the climb rate, as in
+  :meth:`advisory.physics.rays.RayTracer.trace`), which the caller compares with the
+  actual motion of the ground points between neighbouring emissions.
+
+Its readable twin is ``trace_emissions_twin`` in ``tests/twins/truth.py``
+(``RayTracer.trace`` + ``ground_signature`` ray by ray).
+
+References
+----------
+.. [1] F. Walkden, "The shock pattern of a wing-body combination, far from the flight
+   path", Aeronautical Quarterly 9, 1958, pp. 164-194.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from advisory.jit import njit
+from advisory.physics.fastpath import N_RAY_RESULTS, R_EDGE, R_PHI, ray_ground_kernel
+from advisory.physics.rays import emission_slowness, ray_levels_kernel, reaches_ground_kernel
+
+# Extra per-ray columns written after the ``R_*`` columns of the fast path.
+T_TRANS_X = N_RAY_RESULTS  #: steady translation of the ground point, east, m/s
+T_TRANS_Y = N_RAY_RESULTS + 1  #: steady translation of the ground point, north, m/s
+N_TRUTH_COLUMNS = N_RAY_RESULTS + 2
+
+#: Below this |cos(phi)| the effective-lift trick is not used (the ray kernel's lift term
+#: is then ``cos(phi) L`` ~ 0 either way; such rays point sideways and rarely reach).
+_COS_FLOOR = 1e-9
+
+
+@njit(cache=True)
+def effective_lift(lift_n, bank, phi):
+    """Lift (N) to hand the ray kernel so that its ``cos(phi) L`` term is ``cos(phi + bank) L``.
+
+    Parameters
+    ----------
+    lift_n : float
+        Lift ``n m g0 cos(fpa)``, N.
+    bank, phi : float
+        Bank angle (positive right wing down) and ray azimuth (positive right), rad.
+    """
+    cp = math.cos(phi)
+    if abs(cp) < _COS_FLOOR:
+        return lift_n
+    return lift_n * math.cos(phi + bank) / cp
+
+
+@njit(cache=True)
+def same_state(alt, mach, heading, fpa, lift_n, bank, i):
+    """True when emission ``i`` has exactly the state of emission ``i - 1``."""
+    return (alt[i] == alt[i - 1] and mach[i] == mach[i - 1] and heading[i] == heading[i - 1]
+            and fpa[i] == fpa[i - 1] and lift_n[i] == lift_n[i - 1] and bank[i] == bank[i - 1])
+
+
+@njit(cache=True)
+def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c, wx, wy,
+                           log_rho, log_p, fy, fv, av, fl, al, reflection_factor, out):
+    """Trace every azimuth of every emission to the ground elevation ``zg``.
+
+    Parameters
+    ----------
+    alt, mach, heading, fpa, lift_n, bank : ndarray, shape (E,)
+        Per emission: geometric altitude (m), Mach number, direction of the air-relative
+        velocity (rad from north), flight-path angle (rad), lift (N), bank (rad).
+    zg : float
+        Ground elevation, m (below every ``alt``; emissions at or below it are skipped).
+    phis : ndarray, shape (P,)
+        Ray azimuths around the Mach cone, rad (0 down, positive right).
+    z, c, wx, wy, log_rho, log_p : ndarray
+        Atmosphere nodes: altitude (m, uniform ascending), sound speed (m/s), wind
+        east/north (m/s), log density and log pressure.
+    fy, fv, av, fl, al : ndarray
+        F-function parts of the aircraft (``f_function_parts``).
+    reflection_factor : float
+        Ground reflection factor.
+    out : ndarray, shape (E, P, N_TRUTH_COLUMNS)
+        Output: the ``R_*`` columns of :mod:`advisory.physics.fastpath` (offsets east /
+        north of the point below the aircraft, m; travel time, s; d(offset)/dphi, m/rad;
+        overpressure, Pa; duration, s; edge; azimuth; reached) and the steady
+        translation ``T_TRANS_X``, ``T_TRANS_Y`` (m/s).
+    """
+    n_lev = z.size + 2
+    lz = np.empty(n_lev)
+    lc = np.empty(n_lev)
+    lwx = np.empty(n_lev)
+    lwy = np.empty(n_lev)
+    work = np.empty((n_lev, 9))
+    t_buf = np.empty(n_lev)
+    g_buf = np.empty(n_lev)
+    shocks = np.empty((fy.size + 2, 3))
+    for i in range(alt.size):
+        for j in range(phis.size):
+            for k in range(N_TRUTH_COLUMNS):
+                out[i, j, k] = 0.0
+            out[i, j, R_PHI] = phis[j]
+            out[i, j, R_EDGE] = 1.0
+        if not (mach[i] > 1.0 and alt[i] > zg):
+            continue
+        if i > 0 and same_state(alt, mach, heading, fpa, lift_n, bank, i):
+            # Steady flight: the same state gives the same rays relative to the aircraft
+            # (the atmosphere is stratified), so they are copied, bit for bit.
+            out[i, :, :] = out[i - 1, :, :]
+            continue
+        m = ray_levels_kernel(z, c, wx, wy, alt[i], zg, lz, lc, lwx, lwy)
+        rho = np.exp(np.interp(lz[:m], z, log_rho))
+        c0 = np.interp(alt[i], z, c)
+        w0x = np.interp(alt[i], z, wx)
+        w0y = np.interp(alt[i], z, wy)
+        p0 = math.exp(np.interp(alt[i], z, log_p))
+        u = mach[i] * c0
+        vgx = u * math.cos(fpa[i]) * math.sin(heading[i]) + w0x
+        vgy = u * math.cos(fpa[i]) * math.cos(heading[i]) + w0y
+        vgz = u * math.sin(fpa[i])
+        for j in range(phis.size):
+            phi = phis[j]
+            sx, sy, nz, _, _ = emission_slowness(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y)
+            # Cheap reach test first (smallest q^2 over the levels, no integration): a ray
+            # that turns above the ground costs a fraction of a full trace.
+            if nz >= 0.0 or not reaches_ground_kernel(lc, lwx, lwy, m, sx, sy) > 0.0:
+                continue
+            lift = effective_lift(lift_n[i], bank[i], phi)
+            reached = ray_ground_kernel(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y, p0,
+                                        lz, lc, lwx, lwy, rho, m, fy, fv, av, fl, al, lift,
+                                        reflection_factor, work, t_buf, g_buf, shocks,
+                                        out[i, j, :N_RAY_RESULTS])
+            if not reached:
+                continue
+            q0 = work[0, 3]
+            om0 = work[0, 8]
+            c20 = lc[0] * lc[0]
+            out[i, j, T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
+            out[i, j, T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz

@@ -39,9 +39,10 @@ from advisory.physics.atmosphere import (
     standard_atmosphere,
 )
 from advisory.physics.carpet import compute_carpet
+from advisory.physics.ffunction import f_function_parts
 from advisory.physics.rays import FlightCondition, RayTracer
-from advisory.physics.signature import f_function_parts, focus_amplification
-from tests.twins.truth import trace_emissions_twin
+from advisory.physics.signature import focus_amplification
+from tests.twins.truth_kernels import trace_emissions_twin
 
 G0 = 9.80665  # standard gravity, m/s^2 (U.S. Standard Atmosphere 1976, table 2)
 R_AIR = 287.05287  # J/(kg K), U.S. Standard Atmosphere 1976 (R* / M0)

@@ -64,7 +64,7 @@ from advisory.bench.truth_path import (
     lift_and_bank,
 )
 from advisory.bench.truth_zones import TruthZone, ZoneExposure, zone_exposure
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.physics.aircraft import Aircraft
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.fastpath import (
@@ -78,11 +78,8 @@ from advisory.physics.fastpath import (
     R_X,
     R_Y,
 )
-from advisory.physics.signature import (
-    DEFAULT_REFLECTION_FACTOR,
-    FOCUS_AMPLIFICATION_CAP,
-    f_function_parts,
-)
+from advisory.physics.ffunction import f_function_parts
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, FOCUS_AMPLIFICATION_CAP
 
 #: Default azimuth step around the Mach cone, deg (issue 12).
 DEFAULT_AZIMUTH_STEP_DEG = 1.0

@@ -37,7 +37,7 @@ import numpy as np
 
 from advisory.jit import njit
 from advisory.physics.fastpath import N_RAY_RESULTS, R_EDGE, R_PHI, ray_ground_kernel
-from advisory.physics.rays import emission_slowness, ray_levels_kernel, reaches_ground_kernel
+from advisory.physics.ray_kernels import emission_slowness, ray_levels_kernel, reaches_ground_kernel
 
 # Extra per-ray columns written after the ``R_*`` columns of the fast path.
 T_TRANS_X = N_RAY_RESULTS  #: steady translation of the ground point, east, m/s

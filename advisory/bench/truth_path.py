@@ -14,7 +14,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from advisory import units
-from advisory.geo.geodesy import LocalFrame
+from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import Atmosphere
 
 #: Default emission interval, s (issue 12).

@@ -26,7 +26,7 @@ def trace_emissions_twin(alt: np.ndarray, mach: np.ndarray, heading: np.ndarray,
                          phis: np.ndarray, atmosphere: Atmosphere, aircraft: Aircraft,
                          reflection_factor: float) -> np.ndarray:
     """Every azimuth of every emission, traced and signed one ray at a time."""
-    tracer = RayTracer(atmosphere, use_numba=False)
+    tracer = RayTracer(atmosphere)
     out = np.zeros((alt.size, phis.size, N_TRUTH_COLUMNS))
     out[:, :, fp.R_PHI] = phis[None, :]
     out[:, :, fp.R_EDGE] = 1.0

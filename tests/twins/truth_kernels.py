@@ -45,8 +45,7 @@ def trace_emissions_twin(alt: np.ndarray, mach: np.ndarray, heading: np.ndarray,
             load = lift / (aircraft.weight_n * math.cos(fc.fpa_rad))
             sig = ground_signature(aircraft, ray, fc.mach, air.sound_speed_mps,
                                    air.pressure_pa, load_factor=load,
-                                   reflection_factor=reflection_factor, fpa_rad=fc.fpa_rad,
-                                   use_numba=False)
+                                   reflection_factor=reflection_factor, fpa_rad=fc.fpa_rad)
             row = out[i, j]
             row[fp.R_X], row[fp.R_Y], row[fp.R_TIME] = ray.x_m[-1], ray.y_m[-1], ray.t_s[-1]
             row[fp.R_DX_DPHI], row[fp.R_DY_DPHI] = ray.dxy_dphi

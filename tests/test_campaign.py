@@ -1,0 +1,293 @@
+"""Campaigns: sampling, statistics, engines (process pool and a real Dask LocalCluster on
+127.0.0.1), the report files and the command line.
+
+The engine and report tests fly a small stand-in of the closed loop (``toy_encounter``
+below: a pure function of the scenario, flat geometry and the scenario's seed), so they
+test the campaign machinery and not the advisor; the end-to-end campaign at the bottom
+flies the real closed loop (:func:`advisory.bench.closed_loop.run_encounter`).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+import math
+from collections import Counter
+
+import numpy as np
+import pytest
+from ambiance import Atmosphere as RefAtmosphere
+from geographiclib.geodesic import Geodesic
+from scipy.stats import binomtest
+
+from advisory.bench.campaign import run_campaign, sample_campaign
+from advisory.bench.campaign_engine import DaskEngine, PoolEngine, dask_available, run_pair
+from advisory.bench.campaign_report import CSV_NAME, HTML_NAME, JSON_NAME, summary, write_outputs
+from advisory.bench.campaign_sample import (
+    ADVISOR_AIR,
+    GEOMETRIES,
+    GEOMETRY_P,
+    MANOEUVRES,
+    TRUE_AIR,
+    sample_encounter,
+)
+from advisory.bench.campaign_stats import (
+    bootstrap_quantile,
+    campaign_metrics,
+    classify,
+    wilson_interval,
+)
+from advisory.schema import SAFETY_CAUTION
+
+FT = 0.3048  # m per international foot (exact by definition)
+WGS84 = Geodesic.WGS84
+
+# ------------------------------------------------------------------ a stand-in runner
+
+
+def toy_encounter(doc: dict, crew_follows: bool) -> dict:
+    """A small stand-in of the closed loop: straight flight over a flat earth.
+
+    The carpet is a strip two flight altitudes wide each side (the sampler's own rule of
+    thumb); a zone whose edge lies inside it is exposed. The alert's lead time is drawn
+    from the scenario's seed; the crew who follows avoids the boom when the lead time is
+    longer than its reaction time. Deterministic in the scenario alone.
+    """
+    start, zone = doc["start"], doc["zones"][0]
+    if "circle" in zone:
+        lat, lon, radius_km = zone["circle"]
+    else:
+        ring = np.array(zone["polygon"])
+        lat, lon = ring.mean(axis=0)
+        radius_km = 3.0
+    inv = WGS84.Inverse(start["lat_deg"], start["lon_deg"], lat, lon)
+    rel = math.radians(inv["azi1"] - start["heading_deg"])
+    cross_km = abs(inv["s12"] * math.sin(rel)) / 1000.0
+    h_km = start["alt_ft"] * FT / 1000.0
+    rng = np.random.default_rng(doc["seed"])
+    lead = float(rng.normal(20.0, 30.0))
+    reached = cross_km - radius_km < 2.0 * h_km
+    exposures, nuisance = [], []
+    avoided = crew_follows and lead > doc["crew"]["reaction_s"]
+    if reached and not avoided:
+        arrival = 0.8 * doc["duration_s"]
+        outcome = "missed" if lead < -30.0 else ("late" if lead < 5.0 else "alerted")
+        alert = None if outcome == "missed" else arrival - 60.0 - lead
+        exposures.append({"zone_id": zone["id"], "first_arrival_s": arrival,
+                          "last_arrival_s": arrival + 5.0, "peak_psf": 1.0,
+                          "exceeds_limit": zone["limit_psf"] < 1.0,
+                          "unavoidable_from_s": arrival - 60.0, "first_advisory_s": alert,
+                          "first_caution_s": None, "first_warning_s": None,
+                          "lead_time_s": None if alert is None else lead,
+                          "missed": [], "outcome": outcome})
+    elif not reached and rng.random() < 0.2:
+        nuisance.append({"zone_id": zone["id"], "t0_s": 10.0, "t1_s": 20.0})
+    return {"scenario": doc["name"], "caution": SAFETY_CAUTION,
+            "duration_s": doc["duration_s"], "exposures": exposures,
+            "nuisance_alerts": nuisance,
+            "resolution": {"followed": crew_follows and reached, "kind": "mach",
+                           "avoided": avoided},
+            "unavailable_s": 2.0 if doc["source"]["faults"] else 0.0}
+
+
+def failing_encounter(doc: dict, crew_follows: bool) -> dict:
+    """Fails on every third encounter (a broken scenario must not stop a campaign)."""
+    if int(doc["name"].rsplit("-", 1)[1]) % 3 == 0:
+        raise RuntimeError("invented failure\nsecond line")
+    return toy_encounter(doc, crew_follows)
+
+
+# ------------------------------------------------------------------------- sampling
+
+
+def test_sampling_is_seeded_and_independent_of_order_and_count():
+    # common practice, no source: encounter i depends on (seed, i) only
+    ten = sample_campaign(10, 7)
+    twenty = sample_campaign(20, 7)
+    assert [e.doc for e in ten] == [e.doc for e in twenty[:10]]
+    assert sample_encounter(7, 5).doc == ten[5].doc
+    assert sample_encounter(7, 5).doc == sample_encounter(7, 5).doc
+    assert sample_encounter(8, 5).doc != ten[5].doc
+    assert len({e.doc["name"] for e in twenty}) == 20
+
+
+def test_sampled_values_stay_in_their_ranges():
+    # ranges from issue 12 and the sampler's documented distributions
+    encs = sample_campaign(400, 3)
+    for e in encs:
+        d, s, z = e.doc, e.doc["start"], e.doc["zones"][0]
+        assert 1.05 <= s["mach"] <= 2.4
+        assert 30000.0 <= s["alt_ft"] <= 65000.0
+        assert 120.0 <= d["duration_s"] <= 180.0
+        assert z["limit_psf"] == 0.0 or 0.3 <= z["limit_psf"] <= 1.5
+        assert 0.0 <= z["ground_elevation_ft"] <= 6000.0
+        assert 0.0 <= z["margin_km"] <= 3.0
+        assert set(d) <= {"name", "title", "duration_s", "seed", "start", "schedule",
+                          "atmosphere", "advisor", "zones", "source", "crew"}  # docs/scenarios.md
+        for seg in d["schedule"]:
+            assert seg["kind"] in MANOEUVRES
+            if seg["kind"] == "mach":
+                assert 1.02 <= seg["target_mach"] <= 2.4
+            if seg["kind"] == "climb":
+                assert 28000.0 <= seg["target_alt_ft"] <= 67000.0
+        for f in d["source"]["faults"]:
+            assert 0.0 < f["t0_s"] < f["t1_s"] <= d["duration_s"]
+        if "circle" in z:
+            assert 3.0 <= z["circle"][2] <= 15.0
+            inv = WGS84.Inverse(s["lat_deg"], s["lon_deg"], z["circle"][0], z["circle"][1])
+            if e.info["geometry"] == "ahead":  # on the initial track (geographiclib)
+                dh = (inv["azi1"] - s["heading_deg"] + 180.0) % 360.0 - 180.0
+                assert abs(dh) < 0.01
+            # no farther than the flight could carry the carpet in its flight time
+            assert inv["s12"] <= s["mach"] * 340.3 * d["duration_s"] + 2.0 * s["alt_ft"] * FT
+        else:
+            assert len(z["polygon"]) == 4
+            assert 20.0 <= abs(e.info["crossing_angle_deg"]) <= 90.0
+    info = Counter(e.info["geometry"] for e in encs)
+    assert set(info) == set(GEOMETRIES)
+    for g, p in zip(GEOMETRIES, GEOMETRY_P):  # 4.5 standard deviations of a binomial count
+        assert abs(info[g] - 400 * p) < 4.5 * math.sqrt(400 * p * (1 - p))
+    assert {e.info["true_air"] for e in encs} == set(TRUE_AIR)
+    assert {e.info["advisor_air"] for e in encs} == set(ADVISOR_AIR)
+    assert {e.info["manoeuvre"] for e in encs} == set(MANOEUVRES)
+
+
+def test_sampled_profiles_follow_the_standard_atmosphere():
+    # temperatures of the inline levels: ISA + offset, checked against ambiance (ISA 1993)
+    for e in sample_campaign(60, 11):
+        air = e.doc.get("atmosphere", {})
+        if "levels" not in air:
+            continue
+        levels = np.array(air["levels"])
+        ref = RefAtmosphere(levels[:, 0] * FT).temperature - 273.15
+        offset = levels[:, 1] - ref
+        assert np.ptp(offset) < 0.1 and abs(offset[0]) <= 15.01
+        assert np.all(levels[:, 3] >= 0.0) and np.all(levels[:, 3] <= 120.0)
+
+
+# ----------------------------------------------------------------------- statistics
+
+
+@pytest.mark.parametrize(("k", "n"), [(0, 10), (1, 10), (5, 10), (10, 10), (3, 40),
+                                      (17, 250), (999, 1000)])
+def test_wilson_interval_matches_scipy(k, n):
+    # scipy.stats.binomtest(...).proportion_ci(method="wilson"), 95 %
+    ref = binomtest(k, n).proportion_ci(confidence_level=0.95, method="wilson")
+    low, high = wilson_interval(k, n)
+    assert low == pytest.approx(ref.low, abs=1e-12)
+    assert high == pytest.approx(ref.high, abs=1e-12)
+
+
+def test_wilson_worked_example():
+    # worked example (value from memory: Newcombe, Stat. Med. 17 (1998) 857, Table II,
+    # 81 of 263): 0.2553 to 0.3662
+    low, high = wilson_interval(81, 263)
+    assert (round(low, 4), round(high, 4)) == (0.2553, 0.3662)
+
+
+def test_bootstrap_median_interval_against_normal_theory():
+    # the median of n normal values has standard error sqrt(pi/2) sigma / sqrt(n)
+    # (value from memory: the asymptotic variance of the sample median)
+    x = np.random.default_rng(5).normal(0.0, 1.0, 2000)
+    a = bootstrap_quantile(x, 0.5, np.random.default_rng(1))
+    b = bootstrap_quantile(x, 0.5, np.random.default_rng(1))
+    assert a == b  # seeded
+    assert a["value"] == pytest.approx(np.median(x))
+    half = 0.5 * (a["high"] - a["low"])
+    assert half == pytest.approx(1.96 * math.sqrt(math.pi / 2) / math.sqrt(2000), rel=0.3)
+    assert bootstrap_quantile(np.array([]), 0.5, np.random.default_rng(1))["value"] is None
+
+
+def _run(exposures=(), nuisance=0, unavailable=0.0, duration=100.0):
+    return {"exposures": list(exposures), "nuisance_alerts": [{}] * nuisance,
+            "unavailable_s": unavailable, "duration_s": duration}
+
+
+def _exp(outcome, lead=None, exceeds=True, zone="z"):
+    return {"zone_id": zone, "exceeds_limit": exceeds, "outcome": outcome, "lead_time_s": lead}
+
+
+def test_metrics_of_hand_made_records():
+    # counts worked out by hand from the definitions of docs/scenarios.md
+    recs = [
+        {"ignore": _run([_exp("alerted", 40.0)]), "follow": _run()},           # resolved
+        {"ignore": _run([_exp("late", 2.0)]), "follow": _run([_exp("late", 2.0)])},
+        {"ignore": _run([_exp("missed"), _exp("alerted", 30.0, zone="y")]),
+         "follow": _run([_exp("alerted", 9.0, exceeds=False)])},               # resolved
+        {"ignore": _run([_exp("alerted", 10.0, exceeds=False)]), "follow": _run()},
+        {"ignore": _run(nuisance=2, unavailable=10.0), "follow": _run()},
+        {"ignore": _run(), "follow": _run(unavailable=30.0)},
+        {"error": "RuntimeError: x", "ignore": None, "follow": None},
+    ]
+    m = campaign_metrics(recs, seed=3)
+    assert (m["missed_alert_rate"]["count"], m["missed_alert_rate"]["of"]) == (1, 3)
+    assert (m["late_alert_rate"]["count"], m["late_alert_rate"]["of"]) == (1, 3)
+    assert (m["resolution_success_rate"]["count"], m["resolution_success_rate"]["of"]) == (2, 3)
+    assert (m["nuisance_alert_rate"]["count"], m["nuisance_alert_rate"]["of"]) == (1, 2)
+    assert m["lead_time_s"]["of"] == 3  # 40, 2 and 30 s
+    assert m["lead_time_s"]["median"]["value"] == 30.0
+    assert m["unavailable_fraction"]["value"] == pytest.approx(40.0 / 1200.0)
+    assert m["scenarios"]["value"] == 6 and m["failed"] == 1
+    assert m["missed_alert_rate"]["low"] <= 1 / 3 <= m["missed_alert_rate"]["high"]
+    assert classify(recs[3])["class"] == "below_limit"
+    assert campaign_metrics(recs, seed=3) == m  # seeded bootstrap
+    empty = campaign_metrics([], seed=0)
+    assert empty["missed_alert_rate"]["value"] is None and empty["scenarios"]["value"] == 0
+
+
+# -------------------------------------------------------------------------- engines
+
+
+def _strip(records):
+    return [json.dumps(r, sort_keys=True) for r in records]
+
+
+def test_run_pair_turns_a_failure_into_one_line():
+    doc = sample_encounter(1, 0).doc
+    rec = run_pair(0, doc, failing_encounter)
+    assert rec["ignore"] is None and rec["error"] == "RuntimeError: invented failure second line"
+    assert doc["crew"]["mode"] == "ignore"  # the caller's scenario is untouched
+
+
+def test_process_pool_and_dask_localcluster_give_the_same_results():
+    # same seed, same results, whatever the engine (common practice, no source)
+    one = run_campaign(8, 21, PoolEngine(1), toy_encounter)
+    two = run_campaign(8, 21, PoolEngine(2), toy_encounter)
+    assert _strip(one.records) == _strip(two.records)
+    assert one.metrics == two.metrics
+    if not dask_available():
+        pytest.skip("dask[distributed] not installed")
+    dask = run_campaign(8, 21, DaskEngine(workers=2), toy_encounter)
+    assert _strip(dask.records) == _strip(one.records)
+    assert dask.metrics == one.metrics
+
+
+def test_failures_are_counted_and_named(tmp_path):
+    done = []
+    res = run_campaign(9, 4, PoolEngine(2), failing_encounter,
+                       progress=lambda d, t, f: done.append((d, t, f)))
+    assert res.metrics["failed"] == 3 and res.metrics["scenarios"]["value"] == 6
+    assert done[-1] == (9, 9, 3) and len(done) == 9
+    s = summary(res)
+    assert [f["index"] for f in s["failures"]] == [0, 3, 6]
+    write_outputs(res, tmp_path)
+    rows = list(csv.DictReader((tmp_path / CSV_NAME).open()))
+    assert sum(bool(r["error"]) for r in rows) == 6  # both runs of 3 encounters
+
+
+def test_report_files(tmp_path):
+    res = run_campaign(30, 2, PoolEngine(2), toy_encounter)
+    paths = write_outputs(res, tmp_path / "out")
+    assert [p.name for p in paths] == [CSV_NAME, JSON_NAME, HTML_NAME]
+    rows = list(csv.DictReader(paths[0].open()))
+    assert len(rows) == 60 and {r["run"] for r in rows} == {"ignore", "follow"}
+    assert [int(r["index"]) for r in rows[:4]] == [0, 0, 1, 1]
+    data = json.loads(paths[1].read_text())
+    assert data["caution"] == SAFETY_CAUTION
+    for key in ("missed_alert_rate", "late_alert_rate", "nuisance_alert_rate",
+                "resolution_success_rate", "unavailable_fraction", "scenarios"):
+        assert {"value", "low", "high"} <= set(data["metrics"][key])
+    assert {"median", "p5"} <= set(data["metrics"]["lead_time_s"])
+    page = paths[2].read_text()
+    assert SAFETY_CAUTION in page and page.count("<svg") == 2
+    assert "<script" not in page

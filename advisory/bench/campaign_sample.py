@@ -85,6 +85,13 @@ def _r(x: float, nd: int = 4) -> float:
     return round(float(x), nd)
 
 
+def _move(lat_deg: float, lon_deg: float, azimuth_deg: float, distance_m: float
+          ) -> tuple[float, float]:
+    """The point ``distance_m`` along the geodesic leaving at ``azimuth_deg`` (WGS 84)."""
+    r = direct_deg(lat_deg, lon_deg, azimuth_deg, distance_m)
+    return float(r.lat_deg), float(r.lon_deg)
+
+
 def _isa_temp_c(alt_ft: float, offset_c: float = 0.0) -> float:
     return float(ussa1976(units.ft_to_m(alt_ft))["temperature_k"][0]) - 273.15 + offset_c
 
@@ -174,25 +181,25 @@ def _zone(rng: np.random.Generator, start: dict[str, float], duration_s: float
     if geometry == "crossing":
         half_width_m = 500.0 * rng.uniform(4.0, 12.0)
         along_m = max(along_m, half_width_m + 5000.0)
-        lat_c, lon_c, _ = direct_deg(start["lat_deg"], start["lon_deg"], heading, along_m)
+        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading, along_m)
         angle = rng.uniform(20.0, 90.0) * (1.0 if rng.random() < 0.5 else -1.0)
         axis = heading + angle
         half_len_m = 500.0 * STRIP_LENGTH_KM
         ring = []
         for along, across in ((-1, -1), (1, -1), (1, 1), (-1, 1)):
-            la, lo, _ = direct_deg(lat_c, lon_c, axis, along * half_len_m)
-            la, lo, _ = direct_deg(la, lo, axis + 90.0, across * half_width_m)
+            la, lo = _move(lat_c, lon_c, axis, along * half_len_m)
+            la, lo = _move(la, lo, axis + 90.0, across * half_width_m)
             ring.append([_r(la, 6), _r(lo, 6)])
         zone["polygon"] = ring
         crossing = _r(angle, 1)
     else:
         radius_m = 1000.0 * rng.uniform(3.0, 15.0)
         along_m = max(along_m, radius_m + 5000.0)
-        lat_c, lon_c, _ = direct_deg(start["lat_deg"], start["lon_deg"], heading, along_m)
+        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading, along_m)
         if geometry == "offset":
             side = 1.0 if rng.random() < 0.5 else -1.0
             across_m = side * rng.uniform(0.2, 1.6) * 2.0 * h_m
-            lat_c, lon_c, _ = direct_deg(lat_c, lon_c, heading + 90.0, across_m)
+            lat_c, lon_c = _move(lat_c, lon_c, heading + 90.0, across_m)
         zone["circle"] = [_r(lat_c, 6), _r(lon_c, 6), _r(radius_m / 1000.0, 3)]
     zone["limit_psf"] = 0.0 if rng.random() < 0.5 else _r(rng.uniform(0.3, 1.5), 2)
     zone["margin_km"] = _r(rng.uniform(0.0, 3.0), 2)

@@ -12,6 +12,9 @@ from __future__ import annotations
 import csv
 import json
 import math
+import socket
+import subprocess
+import sys
 from collections import Counter
 
 import numpy as np
@@ -21,7 +24,13 @@ from geographiclib.geodesic import Geodesic
 from scipy.stats import binomtest
 
 from advisory.bench.campaign import run_campaign, sample_campaign
-from advisory.bench.campaign_engine import DaskEngine, PoolEngine, dask_available, run_pair
+from advisory.bench.campaign_engine import (
+    DaskEngine,
+    EngineError,
+    PoolEngine,
+    dask_available,
+    run_pair,
+)
 from advisory.bench.campaign_report import CSV_NAME, HTML_NAME, JSON_NAME, summary, write_outputs
 from advisory.bench.campaign_sample import (
     ADVISOR_AIR,
@@ -291,3 +300,31 @@ def test_report_files(tmp_path):
     page = paths[2].read_text()
     assert SAFETY_CAUTION in page and page.count("<svg") == 2
     assert "<script" not in page
+
+
+@pytest.mark.skipif(not dask_available(), reason="dask[distributed] not installed")
+def test_existing_scheduler_and_an_unreachable_one():
+    from dask.distributed import LocalCluster  # test-only: the optional extra
+
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None) as cluster:
+        res = run_campaign(3, 5, DaskEngine(address=cluster.scheduler_address), toy_encounter)
+    assert res.engine.startswith("Dask cluster at tcp://127.0.0.1:")
+    assert _strip(res.records) == _strip(run_campaign(3, 5, PoolEngine(1), toy_encounter).records)
+    with socket.socket() as s:  # a loopback port that nothing listens on
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    engine = DaskEngine(address=f"tcp://127.0.0.1:{port}", connect_timeout_s=2.0)
+    with pytest.raises(EngineError, match=f"--scheduler: cannot reach tcp://127.0.0.1:{port}"):
+        list(engine.run(sample_campaign(1, 0), toy_encounter))
+
+
+def test_dask_missing_says_how_to_install():
+    # a fresh interpreter in which `import dask` fails, as on a machine without the extra
+    code = ("import sys; sys.modules['dask'] = None\n"
+            "from advisory.bench.campaign_engine import DaskEngine, PoolEngine, EngineError\n"
+            "try:\n    DaskEngine(workers=2).check()\n"
+            "except EngineError as exc:\n    print(exc)\n")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=120, check=True).stdout
+    assert out.strip() == "Dask is not installed: pip install 'boom-advisory[campaign]'"

@@ -127,10 +127,13 @@ class DaskEngine:
         ``tcp://host:port`` of an existing scheduler; None starts a ``LocalCluster``.
     workers : int
         Worker processes of the local cluster (one thread each).
+    connect_timeout_s : float
+        How long to wait for an existing scheduler to answer, s.
     """
 
     address: str | None = None
     workers: int = 2
+    connect_timeout_s: float = CONNECT_TIMEOUT_S
 
     @property
     def description(self) -> str:
@@ -147,7 +150,7 @@ class DaskEngine:
         dd = _dask()
         if self.address:
             try:
-                return dd.Client(self.address, timeout=CONNECT_TIMEOUT_S), None
+                return dd.Client(self.address, timeout=self.connect_timeout_s), None
             except (OSError, TimeoutError, ValueError) as exc:
                 raise EngineError(f"--scheduler: cannot reach {self.address}: "
                                   f"{' '.join(str(exc).split())}") from None

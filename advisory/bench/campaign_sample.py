@@ -32,11 +32,12 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
   rule of thumb, value from memory: about half of them fall inside the carpet);
   ``crossing`` (25 %), a 150 km long strip ``U(4, 12)`` km wide across the initial track
   at a crossing angle of ``U(20, 90)`` deg either way (a coastline or a corridor).
-  Along the track the zone sits where the carpet of the initial flight would reach it at
-  ``U(50, T - 30)`` s (``T`` the flight time): ground speed ``M a(h)`` (standard
-  atmosphere) times that time, less the straight-ray distance ``h sqrt(M^2 - 1)`` by
-  which the carpet's front trails the aircraft (uniform air; refraction moves it), at
-  least 5 km beyond the zone's edge. Limit: 0 psf (no boom, 50 %) or ``U(0.3, 1.5)``
+  Along the track the zone's near edge (its margin included) sits where the boom
+  emitted at ``t_e = U(40, T - 30)`` s (``T`` the flight time) would land in uniform
+  air: the distance flown at ground speed ``M a(h)`` (standard atmosphere) plus the
+  straight ray's forward run ``h / sqrt(M^2 - 1)`` (the wave normal leaves at the Mach
+  angle; refraction moves it), so a boom is on its way only after ``t_e`` and the
+  advisor has time to warn. Limit: 0 psf (no boom, 50 %) or ``U(0.3, 1.5)``
   psf; margin ``U(0, 3)`` km; ground elevation 0 ft (50 %) or ``U(0, 6,000)`` ft.
 * Air-data feed: 20 Hz, ``stream`` or ``datagram`` (50/50), 4 ms latency, 3 ms jitter,
   noise 0.002 Mach, 10 ft, 0.1 deg; a dropout of ``U(2, 10)`` s in 15 % of encounters.
@@ -73,6 +74,8 @@ ALT_FT_RANGE = (30000.0, 65000.0)
 DURATION_S_RANGE = (120.0, 180.0)
 LEVELS_FT = tuple(float(x) for x in range(0, 90001, 10000))
 STRIP_LENGTH_KM = 150.0
+#: The boom that first reaches the zone is emitted at U(a, T - b) s (T: flight time).
+EMIT_S_RANGE = (40.0, 30.0)
 
 
 def encounter_rng(seed: int, index: int) -> np.random.Generator:
@@ -172,17 +175,18 @@ def _zone(rng: np.random.Generator, start: dict[str, float], duration_s: float
     geometry = str(rng.choice(GEOMETRIES, p=GEOMETRY_P))
     mach, alt_ft = start["mach"], start["alt_ft"]
     h_m = units.ft_to_m(alt_ft)
-    t_reach = rng.uniform(50.0, duration_s - 30.0)
-    trail_m = h_m * math.sqrt(max(mach * mach - 1.0, 0.0))
-    along_m = mach * _sound_speed(alt_ft) * t_reach - trail_m
+    margin_m = 1000.0 * _r(rng.uniform(0.0, 3.0), 2)
+    # the near edge (margin included) where the boom emitted at t_emit lands (uniform air)
+    t_emit = rng.uniform(EMIT_S_RANGE[0], duration_s - EMIT_S_RANGE[1])
+    edge_m = mach * _sound_speed(alt_ft) * t_emit + h_m / math.sqrt(mach * mach - 1.0)
     heading = start["heading_deg"]
     zone: dict[str, Any] = {"id": "zone", "name": "Invented zone"}
     crossing = 0.0
     if geometry == "crossing":
         half_width_m = 500.0 * rng.uniform(4.0, 12.0)
-        along_m = max(along_m, half_width_m + 5000.0)
-        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading, along_m)
         angle = rng.uniform(20.0, 90.0) * (1.0 if rng.random() < 0.5 else -1.0)
+        along_m = edge_m + (half_width_m + margin_m) / math.sin(math.radians(abs(angle)))
+        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading, along_m)
         axis = heading + angle
         half_len_m = 500.0 * STRIP_LENGTH_KM
         ring = []
@@ -194,15 +198,15 @@ def _zone(rng: np.random.Generator, start: dict[str, float], duration_s: float
         crossing = _r(angle, 1)
     else:
         radius_m = 1000.0 * rng.uniform(3.0, 15.0)
-        along_m = max(along_m, radius_m + 5000.0)
-        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading, along_m)
+        lat_c, lon_c = _move(start["lat_deg"], start["lon_deg"], heading,
+                             edge_m + margin_m + radius_m)
         if geometry == "offset":
             side = 1.0 if rng.random() < 0.5 else -1.0
             across_m = side * rng.uniform(0.2, 1.6) * 2.0 * h_m
             lat_c, lon_c = _move(lat_c, lon_c, heading + 90.0, across_m)
         zone["circle"] = [_r(lat_c, 6), _r(lon_c, 6), _r(radius_m / 1000.0, 3)]
     zone["limit_psf"] = 0.0 if rng.random() < 0.5 else _r(rng.uniform(0.3, 1.5), 2)
-    zone["margin_km"] = _r(rng.uniform(0.0, 3.0), 2)
+    zone["margin_km"] = margin_m / 1000.0
     zone["ground_elevation_ft"] = 0.0 if rng.random() < 0.5 else _r(rng.uniform(0.0, 6000.0), 0)
     return geometry, crossing, zone
 

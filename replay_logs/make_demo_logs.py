@@ -23,11 +23,12 @@ gets:
 ``expected.json`` (the advisories each flight must produce, with time tolerances) is
 written by hand from the scenario design and is not touched by this script.
 
-The aircraft model (:mod:`advisory.bench.flight`) is a point mass: Mach changes at a set rate toward a target, bank
-rolls at a limited rate toward a target, turns are coordinated (heading rate
-``g tan(bank) / TAS``), the ground velocity is the air velocity plus the wind of the
-atmosphere at the aircraft, and positions advance along geodesics (WGS 84,
-``advisory.geo.geodesy.direct``).
+The aircraft model is the package's point-mass flight simulator
+(:mod:`advisory.bench.flight`): Mach changes at a set rate toward a target, bank rolls at
+a limited rate toward a target, turns are coordinated (heading rate ``g tan(bank) /
+TAS``), the ground velocity is the air velocity plus the wind of the atmosphere at the
+aircraft, and positions advance along geodesics (WGS 84). The feed (latency, jitter,
+faults) is :mod:`advisory.bench.feed`. This script only defines the five demo scenarios.
 
 Run from the repository root::
 

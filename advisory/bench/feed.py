@@ -101,6 +101,7 @@ class FeedEncoder:
         self.start_utc_s = float(start_utc_s)
         self.rx_prev = -math.inf
         self.frozen: dict[str, float] | None = None
+        self.last: dict[str, float] | None = None  #: the values last sent (not frozen)
         self.counts = {"frames": 0, "garbage_chunks": 0, "dropped": 0, "bad_crc": 0, "nan": 0,
                        "torn": 0}
         self._wrap = frame_stream if settings.format == "stream" else datagram
@@ -116,7 +117,7 @@ class FeedEncoder:
         fields = {k: v for k, v in sample.items() if k != "t_s"}
         if fault == "frozen":
             if self.frozen is None:
-                self.frozen = fields
+                self.frozen = self.last if self.last is not None else fields
             return dict(self.frozen)
         self.frozen = None
         for key in NOISE_FIELDS:
@@ -125,6 +126,7 @@ class FeedEncoder:
                 fields[key] = fields[key] + float(self.noise_rng.normal(0.0, sd))
         if "heading_deg" in fields:
             fields["heading_deg"] = fields["heading_deg"] % 360.0
+        self.last = dict(fields)
         return fields
 
     def encode(self, sample: dict[str, float], seq: int) -> list[Chunk]:

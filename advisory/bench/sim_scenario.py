@@ -147,7 +147,8 @@ class _Table:
             doc = {}
         if not isinstance(doc, dict):
             raise ScenarioError(f"{where}: must be a table, got {doc!r}")
-        self.doc, self.where, self.used = doc, where, set()
+        self.doc, self.where = doc, where
+        self.used: set[str] = set()
 
     def key(self, k: str) -> str:
         return f"{self.where}.{k}" if self.where else k

@@ -23,11 +23,12 @@ gets:
 ``expected.json`` (the advisories each flight must produce, with time tolerances) is
 written by hand from the scenario design and is not touched by this script.
 
-The aircraft model is a point mass: Mach changes at a set rate toward a target, bank
-rolls at a limited rate toward a target, turns are coordinated (heading rate
-``g tan(bank) / TAS``), the ground velocity is the air velocity plus the wind of the
-atmosphere at the aircraft, and positions advance along geodesics (WGS 84,
-``advisory.geo.geodesy.direct``).
+The aircraft model is the package's point-mass flight simulator
+(:mod:`advisory.bench.flight`): Mach changes at a set rate toward a target, bank rolls at
+a limited rate toward a target, turns are coordinated (heading rate ``g tan(bank) /
+TAS``), the ground velocity is the air velocity plus the wind of the atmosphere at the
+aircraft, and positions advance along geodesics (WGS 84). The feed (latency, jitter,
+faults) is :mod:`advisory.bench.feed`. This script only defines the five demo scenarios.
 
 Run from the repository root::
 
@@ -48,23 +49,20 @@ import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import numpy as np
-
 HERE = Path(__file__).resolve().parent
 if str(HERE.parent) not in sys.path:  # run from a checkout without installing
     sys.path.insert(0, str(HERE.parent))
 
 from advisory import units  # noqa: E402
-from advisory.geo.geodesy import direct_deg  # noqa: E402
-from advisory.io.framing import frame_stream  # noqa: E402
-from advisory.io.messages import encode_air  # noqa: E402
-from advisory.io.records import (  # noqa: E402
-    KIND_EVENT,
-    KIND_RAW_INPUT,
-    Recorder,
-    encode_event,
-    encode_record,
+from advisory.bench.feed import (  # noqa: E402
+    Fault,
+    FeedEncoder,
+    FeedSettings,
+    encode_samples,
 )
+from advisory.bench.feed import write_record as write_record_file  # noqa: E402
+from advisory.bench.flight import FlightState, fly_timed  # noqa: E402
+from advisory.geo.geodesy import direct_deg  # noqa: E402
 from advisory.physics.atmosphere import (  # noqa: E402
     Atmosphere,
     ProfileLevel,
@@ -83,21 +81,6 @@ RECORD_NAME = "flight.rec"
 
 
 # ---------------------------------------------------------------------- scenario model
-
-@dataclass(frozen=True)
-class Fault:
-    """Something wrong with the feed between ``t0`` and ``t1`` (s of flight time).
-
-    kind : ``"dropout"`` (nothing received), ``"garbage"`` (random bytes between the
-    frames), ``"bad_crc"`` (frames with a damaged byte), ``"nan"`` (frames whose Mach is
-    NaN), ``"torn"`` (every frame cut in half) or ``"torn_tail"`` (the record file ends
-    with half a record, as after a power cut; ``t0``/``t1`` unused).
-    """
-
-    kind: str
-    t0: float = 0.0
-    t1: float = 0.0
-
 
 @dataclass(frozen=True)
 class Scenario:
@@ -297,119 +280,30 @@ def scenario_atmosphere(sc: Scenario) -> Atmosphere:
     return atmosphere_from_levels(levels, source=f"{sc.name}/atmosphere.csv")
 
 
-def _toward(value: float, target: float, step: float) -> float:
-    if abs(target - value) <= step:
-        return target
-    return value + math.copysign(step, target - value)
-
-
 def simulate(sc: Scenario, atm: Atmosphere) -> list[dict]:
-    """Air-data samples at :data:`RATE_HZ` (wire field names plus ``t_s``)."""
-    dt_s = 1.0 / RATE_HZ
-    n = int(round(sc.duration_s * RATE_HZ)) + 1
-    lat, lon = sc.lat_deg, sc.lon_deg
-    alt_m = units.ft_to_m(sc.alt_ft)
-    mach, heading, bank = sc.mach, sc.heading_deg, 0.0
-    mach_target, mach_rate = mach, 0.0
-    bank_target = 0.0
-    samples = []
-    for i in range(n):
-        t = i * dt_s
-        for t0, target, rate in sc.mach_schedule:
-            if abs(t - t0) < 0.5 * dt_s:
-                mach_target, mach_rate = target, rate
-        for t0, target in sc.bank_schedule:
-            if abs(t - t0) < 0.5 * dt_s:
-                bank_target = target
-        s = atm.at(alt_m)
-        tas = mach * s.sound_speed_mps
-        ve = tas * math.sin(math.radians(heading)) + s.wind_east_mps
-        vn = tas * math.cos(math.radians(heading)) + s.wind_north_mps
-        gs = math.hypot(ve, vn)
-        track = math.degrees(math.atan2(ve, vn)) % 360.0
-        moving = mach != mach_target
-        wind_speed = math.hypot(s.wind_east_mps, s.wind_north_mps)
-        wind_from = math.degrees(math.atan2(-s.wind_east_mps, -s.wind_north_mps)) % 360.0
-        samples.append({
-            "t_s": t,
-            "lat_deg": lat, "lon_deg": lon, "alt_ft": units.m_to_ft(alt_m), "mach": mach,
-            "heading_deg": heading % 360.0, "gs_kt": units.mps_to_kt(gs), "bank_deg": bank,
-            "fpa_deg": 0.0, "track_deg": track,
-            "mach_rate_per_s": math.copysign(mach_rate, mach_target - mach) if moving else 0.0,
-            "sat_c": units.k_to_c(s.temperature_k),
-            "wind_from_deg": wind_from if wind_speed > 0.0 else 0.0,
-            "wind_kt": units.mps_to_kt(wind_speed),
-        })
-        # advance one step
-        heading = (heading + math.degrees(units.G0 * math.tan(math.radians(bank)) / tas)
-                   * dt_s) % 360.0
-        p = direct_deg(lat, lon, track, gs * dt_s)
-        lat, lon = float(p.lat_deg), float(p.lon_deg)
-        mach = _toward(mach, mach_target, mach_rate * dt_s)
-        bank = _toward(bank, bank_target, ROLL_RATE_DEG_S * dt_s)
-    return samples
-
-
-def _fault_at(sc: Scenario, t: float) -> str | None:
-    for f in sc.faults:
-        if f.t0 <= t < f.t1:
-            return f.kind
-    return None
+    """Air-data samples at :data:`RATE_HZ` (wire field names plus ``t_s``), flown by the
+    package's point-mass simulator (:func:`advisory.bench.flight.fly_timed`)."""
+    state = FlightState(atm, sc.lat_deg, sc.lon_deg, sc.alt_ft, sc.mach, sc.heading_deg,
+                        roll_rate_deg_s=ROLL_RATE_DEG_S)
+    return fly_timed(state, sc.duration_s, RATE_HZ, sc.mach_schedule, sc.bank_schedule)
 
 
 def write_record(sc: Scenario, samples: list[dict], path: Path) -> dict:
-    """Write the record file of the scenario's feed; returns counts of what was written."""
-    rng = np.random.default_rng(sc.seed)
-    if path.exists():
-        path.unlink()
-    counts = {"frames": 0, "garbage_chunks": 0, "dropped": 0, "bad_crc": 0, "nan": 0,
-              "torn": 0}
-    rx_prev = -math.inf
-    with Recorder(path, fsync_interval_s=3600.0) as rec:
-        rec.write(KIND_EVENT, encode_event("note", text=f"demo flight {sc.name}: synthesized "
-                                           "by make_demo_logs.py (invented scenario)"),
-                  START_UTC, sc.mono_start_s)
-        for seq, s in enumerate(samples):
-            t = s["t_s"]
-            fields = {k: v for k, v in s.items() if k != "t_s"}
-            utc = START_UTC + t
-            rx = sc.mono_start_s + t + LATENCY_S + float(rng.uniform(0.0, JITTER_S))
-            rx = max(rx, rx_prev + 1e-4)
-            rx_prev = rx
-            rx_utc = utc + (rx - sc.mono_start_s - t)
-            fault = _fault_at(sc, t)
-            if fault == "dropout":
-                counts["dropped"] += 1
-                continue
-            if fault == "nan":
-                fields["mach"] = math.nan
-                counts["nan"] += 1
-            payload = encode_air(fields, seq & 0xFFFFFFFF, utc)
-            data = frame_stream(payload)
-            if fault == "bad_crc":
-                b = bytearray(data)
-                b[len(b) // 2] ^= 0x5A if b[len(b) // 2] not in (0x00, 0x5A) else 0x01
-                data = bytes(b)
-                counts["bad_crc"] += 1
-            elif fault == "torn":
-                data = data[: len(data) // 2]
-                counts["torn"] += 1
-            elif fault == "garbage" and seq % 3 == 0:
-                noise = rng.integers(0, 256, size=int(rng.integers(8, 90)), dtype=np.uint8)
-                data = noise.tobytes() + data
-                counts["garbage_chunks"] += 1
-            rec.write(KIND_RAW_INPUT, data, rx_utc, rx)
-            counts["frames"] += 1
+    """Write the record file of the scenario's feed (:mod:`advisory.bench.feed`); returns
+    counts of what was written."""
+    settings = FeedSettings(rate_hz=RATE_HZ, format="stream", latency_s=LATENCY_S,
+                            jitter_s=JITTER_S,
+                            faults=tuple(f for f in sc.faults if f.kind != "torn_tail"))
+    enc = FeedEncoder(settings, sc.seed, sc.mono_start_s, START_UTC)
+    chunks = encode_samples(enc, samples)
+    tail = b""
     if any(f.kind == "torn_tail" for f in sc.faults):
-        # a power cut in the middle of writing the next record: only its first bytes
-        last = samples[-1]
-        fields = {k: v for k, v in last.items() if k != "t_s"}
-        tail = encode_record(KIND_RAW_INPUT, frame_stream(encode_air(fields, len(samples),
-                                                                     START_UTC + 1e3)),
-                             START_UTC + sc.duration_s + 0.05, rx_prev + 0.05)
-        with open(path, "ab") as f:
-            f.write(tail[: len(tail) // 3])
-        counts["torn_tail_bytes"] = len(tail) // 3
+        tail = enc.torn_tail(samples[-1], len(samples), sc.duration_s)
+    write_record_file(path, chunks, f"demo flight {sc.name}: synthesized by "
+                      "make_demo_logs.py (invented scenario)", sc.mono_start_s, START_UTC, tail)
+    counts = dict(enc.counts)
+    if tail:
+        counts["torn_tail_bytes"] = len(tail)
     return counts
 
 

@@ -18,6 +18,9 @@ section            budget                                                      l
 ``replay``         ``replay --speed max`` of a 20 Hz log, one core             >= 200x
 ``startup``        cold start to first advisory, numba cache warm              < 3 s
 ``startup``        resident memory (peak RSS of that process)                  < 250 MB
+``campaign``       closed-loop campaign on one Dask worker, in ten-minute      >= 4 per
+                   scenarios of flight per core-minute                         core-min
+``campaign``       the same campaign on 2 Dask workers vs 1, side by side      >= 1.7x
 =================  ==========================================================  =========
 
 plus, for information, the first-ever start (empty numba cache) and the speed-up over
@@ -26,10 +29,11 @@ build is repeated up to three times while the builds fit in 80 s); the lookup/di
 ratio is measured side by side on the same conditions in the same run. A section that
 cannot measure prints "not measured (why)" and the run goes on.
 
-The sections live in :mod:`advisory.bench.sections_table` (build, lookup, verify) and
-:mod:`advisory.bench.sections_live` (advisor, decode, replay, startup); the budgets and
-the printed table in :mod:`advisory.bench.budgets`, the machine in
-:mod:`advisory.bench.machine`, the invented workload in :mod:`advisory.bench.workload`.
+The sections live in :mod:`advisory.bench.sections_table` (build, lookup, verify),
+:mod:`advisory.bench.sections_live` (advisor, decode, replay, startup) and
+:mod:`advisory.bench.sections_campaign` (campaign); the budgets and the printed table in
+:mod:`advisory.bench.budgets`, the machine in :mod:`advisory.bench.machine`, the
+invented workload in :mod:`advisory.bench.workload`.
 
 Budgets are engineering targets set in the project's issues (common practice, no
 source). Speed is measured here, never asserted in tests.
@@ -55,6 +59,7 @@ from advisory.bench.budgets import (
 )
 from advisory.bench.context import QUICK, Context, ReplayCommand, Sizes, exc_text
 from advisory.bench.machine import machine_info
+from advisory.bench.sections_campaign import section_campaign
 from advisory.bench.sections_live import (
     section_advisor,
     section_decode,
@@ -71,6 +76,7 @@ SECTION_FUNCS: dict[str, Callable[[Context], None]] = {
     "decode": section_decode,
     "replay": section_replay,
     "startup": section_startup,
+    "campaign": section_campaign,
 }
 
 

@@ -20,7 +20,7 @@ from advisory.schema import SAFETY_CAUTION, VERSION
 EXIT_OK = 0
 EXIT_SHORT = 1  #: with ``--strict``: a budget is short or not measured
 
-SECTIONS = ("build", "lookup", "verify", "advisor", "decode", "replay", "startup")
+SECTIONS = ("build", "lookup", "verify", "advisor", "decode", "replay", "startup", "campaign")
 
 
 @dataclass(frozen=True)
@@ -62,7 +62,8 @@ class Budget:
         return f"{'<' if self.upper else '>='} {self.limit:,g} {self.unit}"
 
 
-#: Every budget named in the issues (tables, advisor, live loop, replay), in print order.
+#: Every budget named in the issues (tables, advisor, live loop, replay, campaigns), in
+#: print order.
 BUDGETS = (
     Budget("table_build_s", "build", "table build, default grid", 60.0, "s"),
     Budget("lookup_us", "lookup", "footprint lookup (31 azimuths)", 20.0, "us"),
@@ -78,6 +79,10 @@ BUDGETS = (
            upper=False),
     Budget("cold_start_s", "startup", "cold start to first advisory", 3.0, "s"),
     Budget("rss_mb", "startup", "resident memory (peak RSS)", 250.0, "MB"),
+    Budget("campaign_rate", "campaign", "closed-loop campaign, one worker", 4.0,
+           "10-min scenarios/core-min", upper=False),
+    Budget("dask_speedup", "campaign", "Dask 2 workers vs 1, same campaign", 1.7, "x",
+           upper=False),
 )
 BUDGET_BY_KEY = {b.key: b for b in BUDGETS}
 

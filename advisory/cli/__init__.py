@@ -13,7 +13,7 @@ import argparse
 import sys
 from collections.abc import Sequence
 
-from advisory.cli import bench, check, demo, predict, replay, run, simulate, tables
+from advisory.cli import bench, campaign, check, demo, predict, replay, run, simulate, tables
 from advisory.cli.options import EXIT_USAGE, UsageError
 from advisory.schema import SAFETY_CAUTION
 
@@ -35,6 +35,7 @@ def build_parser() -> argparse.ArgumentParser:
     replay.add_parser(sub)
     demo.add_parser(sub)
     simulate.add_parser(sub)
+    campaign.add_parser(sub)
     return parser
 
 

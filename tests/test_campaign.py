@@ -31,7 +31,15 @@ from advisory.bench.campaign_engine import (
     dask_available,
     run_pair,
 )
-from advisory.bench.campaign_report import CSV_NAME, HTML_NAME, JSON_NAME, summary, write_outputs
+from advisory.bench.campaign_report import (
+    CSV_NAME,
+    HTML_NAME,
+    JSON_NAME,
+    RUN_FIELDS,
+    run_row,
+    summary,
+    write_outputs,
+)
 from advisory.bench.campaign_sample import (
     ADVISOR_AIR,
     GEOMETRIES,
@@ -46,6 +54,8 @@ from advisory.bench.campaign_stats import (
     classify,
     wilson_interval,
 )
+from advisory.bench.closed_loop import run_encounter
+from advisory.cli import EXIT_USAGE, main
 from advisory.schema import SAFETY_CAUTION
 
 FT = 0.3048  # m per international foot (exact by definition)
@@ -333,3 +343,76 @@ def test_dask_missing_says_how_to_install():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          timeout=120, check=True).stdout
     assert out.strip() == "Dask is not installed: pip install 'boom-advisory[campaign]'"
+
+
+# ------------------------------------------------------------------- command line
+
+
+def test_command_line_checks_its_options(capsys):
+    for argv, needle in ((["--count", "0"], "--count: 0"), (["--count", "2", "--seed", "-1"],
+                                                              "--seed: -1"),
+                         (["--count", "2", "--workers", "0"], "--workers: 0"),
+                         (["--count", "2", "--processes", "0"], "--processes: 0"),
+                         (["--count", "2", "--scheduler", " "], "--scheduler: empty")):
+        assert main(["campaign", *argv]) == EXIT_USAGE
+        err = capsys.readouterr().err.strip().splitlines()
+        assert len(err) == 1 and needle in err[0], err
+
+
+def test_command_line_without_dask_says_how_to_install():
+    # a fresh interpreter in which `import dask` fails, as on a machine without the extra
+    code = ("import sys; sys.modules['dask'] = None\n"
+            "from advisory.cli import main\n"
+            "sys.exit(main(['campaign', '--count', '1', '--workers', '2']))\n")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          timeout=120)
+    assert proc.returncode == EXIT_USAGE
+    assert proc.stderr.strip() == ("boom-advisory campaign: error: Dask is not installed: "
+                                   "pip install 'boom-advisory[campaign]'")
+
+
+@pytest.mark.slow  # about 15 s: the 3-minute budget of the fast suite
+def test_command_line_flies_a_real_encounter(tmp_path, capsys):
+    # the real closed loop, one encounter in this process (the engine tests cover the rest)
+    assert main(["campaign", "--count", "1", "--seed", "4", "--processes", "1", "--json",
+                 "--out", str(tmp_path)]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["caution"] == SAFETY_CAUTION and doc["count"] == 1 and not doc["failures"]
+    assert doc["metrics"]["scenarios"]["value"] == 1
+    assert json.loads((tmp_path / JSON_NAME).read_text())["metrics"] == doc["metrics"]
+    rows = list(csv.DictReader((tmp_path / CSV_NAME).open()))
+    assert [r["run"] for r in rows] == ["ignore", "follow"] and rows[0]["error"] == ""
+
+
+@pytest.mark.slow
+@pytest.mark.skipif(not dask_available(), reason="dask[distributed] not installed")
+def test_campaign_of_40_on_a_local_dask_cluster(tmp_path, capsys):
+    # issue 12: >= 40 short encounters on a LocalCluster (2 workers, loopback), every
+    # metric printed; then the first three again on a process pool: the same records
+    out = tmp_path / "campaign"
+    code = main(["campaign", "--count", "40", "--seed", "12", "--workers", "2",
+                 "--out", str(out)])
+    text = capsys.readouterr().out
+    assert code == 0, text
+    assert SAFETY_CAUTION in text
+    for name in ("missed_alert_rate", "late_alert_rate", "nuisance_alert_rate",
+                 "lead_time_s (median)", "lead_time_s (5th percentile)",
+                 "resolution_success_rate", "unavailable_fraction", "scenarios"):
+        assert name in text, name
+    print(text)
+    summary_doc = json.loads((out / JSON_NAME).read_text())
+    assert summary_doc["metrics"]["scenarios"]["value"] == 40
+    assert summary_doc["engine"] == "Dask LocalCluster, 2 workers x 1 thread"
+    rows = list(csv.DictReader((out / CSV_NAME).open()))
+    assert len(rows) == 80
+    again = run_campaign(3, 12, PoolEngine(2), run_encounter)
+    for rec in again.records:
+        for mode in ("ignore", "follow"):
+            assert run_row(rec[mode], None) == {k: str(v) for k, v in
+                                                 run_row_from_csv(rows, rec["index"], mode).items()}
+
+
+def run_row_from_csv(rows, index, mode):
+    """The CSV row's run fields of one encounter and run."""
+    row = next(r for r in rows if int(r["index"]) == index and r["run"] == mode)
+    return {k: row[k] for k in RUN_FIELDS}

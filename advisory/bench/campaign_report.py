@@ -60,7 +60,9 @@ def summary(result: CampaignResult) -> dict[str, Any]:
 def _num(x: float | None, unit: str = "") -> str:
     if x is None:
         return "-"
-    return f"{x:.1f}{unit}" if unit else f"{x:.3f}"
+    text = f"{x:.1f}{unit}" if unit else f"{x:.3f}"
+    return text[1:] if text.startswith("-") and not any(c in "123456789" for c in text) \
+        else text  # no "-0.0"
 
 
 def text_lines(result: CampaignResult) -> list[str]:

@@ -8,7 +8,7 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
 -------------------------------------------------------------------------
 * Start: latitude ``U(-55, 55)`` deg, longitude ``U(-180, 180)`` deg, true heading
   ``U(0, 360)`` deg, Mach ``U(1.05, 2.4)``, pressure altitude ``U(30,000, 65,000)`` ft,
-  level, wings level. Flight time ``U(120, 180)`` s (short, so CI can fly dozens).
+  level, wings level. Flight time ``U(90, 150)`` s (short, so CI can fly dozens).
 * Manoeuvre (one of four, equally likely), starting at ``U(10, 50)`` s: ``hold``
   (none); ``turn`` at a bank of ``U(15, 30)`` deg either way, roll rate 5 deg/s, through
   ``U(15, 60)`` deg of heading; ``mach`` toward a target ``U(max(1.02, M - 0.4),
@@ -71,7 +71,7 @@ ADVISOR_AIR_P = (0.30, 0.35, 0.35)
 
 MACH_RANGE = (1.05, 2.4)
 ALT_FT_RANGE = (30000.0, 65000.0)
-DURATION_S_RANGE = (120.0, 180.0)
+DURATION_S_RANGE = (90.0, 150.0)
 LEVELS_FT = tuple(float(x) for x in range(0, 90001, 10000))
 STRIP_LENGTH_KM = 150.0
 #: The boom that first reaches the zone is emitted at U(a, T - b) s (T: flight time).

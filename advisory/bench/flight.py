@@ -42,7 +42,7 @@ import numpy as np
 from advisory import units
 from advisory.bench.truth_path import DEFAULT_EMISSION_INTERVAL_S, FlownPath
 from advisory.geo.geodesy import direct_deg
-from advisory.physics.atmosphere import Atmosphere
+from advisory.physics.atmosphere import Atmosphere, AtmosphereSample
 
 #: Largest |flight-path angle| the simulator flies, deg (the truth tracer's limit).
 FPA_LIMIT_DEG = 30.0
@@ -101,10 +101,18 @@ class FlightState:
         self.bank_target, self.roll_rate = self.bank_deg, float(roll_rate_deg_s)
         self.fpa_target, self.pitch_rate = self.fpa_deg, 1.0
         self.step_index = 0
+        self._air_at: tuple[float, AtmosphereSample] | None = None
+
+    def air(self) -> AtmosphereSample:
+        """The atmosphere at the aircraft (the last one kept while the altitude holds)."""
+        kept = self._air_at
+        if kept is None or kept[0] != self.alt_m:
+            kept = self._air_at = (self.alt_m, self.atmosphere.at(self.alt_m))
+        return kept[1]
 
     def tas_mps(self) -> float:
         """True airspeed, m/s."""
-        return self.mach * self.atmosphere.at(self.alt_m).sound_speed_mps
+        return self.mach * self.air().sound_speed_mps
 
     def turn_rate_deg_s(self) -> float:
         """Heading rate of the coordinated turn ``g tan(bank) / TAS``, deg/s."""
@@ -117,7 +125,7 @@ class FlightState:
         moves on by ``dt_s``.
         """
         t = self.t_s if t_s is None else t_s
-        s = self.atmosphere.at(self.alt_m)
+        s = self.air()
         tas = self.mach * s.sound_speed_mps
         tas_h = tas * math.cos(math.radians(self.fpa_deg))
         ve = tas_h * math.sin(math.radians(self.heading_deg)) + s.wind_east_mps

@@ -195,8 +195,11 @@ class Pilot:
     climb to an altitude likewise levels off early), so it ends near the asked heading
     (common practice, no source).
 
+    A timed Mach segment that ends before its target holds the Mach reached.
+
     :meth:`take_over` replaces the rest of the schedule with the crew's segment: once the
-    crew acts on a cue it flies the resolution and then holds.
+    crew acts on a cue it rolls the wings and the flight path level (ending any scheduled
+    turn or climb), flies the resolution and then holds.
     """
 
     def __init__(self, schedule: Iterable[Segment]) -> None:
@@ -211,11 +214,14 @@ class Pilot:
         """Drop the rest of the schedule and fly ``segment`` from now."""
         self.queue = []
         self.crew_segment = segment
+        state.bank_target, state.fpa_target = 0.0, 0.0
         self._begin(replace(segment, at_s=None), state)
 
     def update(self, state: FlightState, dt_s: float) -> None:
         """Set the state's targets for the next step (see the class notes)."""
         if self.active is not None and self._done(state, dt_s):
+            if self.active.kind == "mach":
+                state.mach_target = state.mach  # a timed change ends where it got to
             self.active = None
         if self.active is None and self.queue:
             nxt = self.queue[0]

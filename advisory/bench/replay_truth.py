@@ -71,7 +71,7 @@ CELLS_ACROSS = 110
 ARRIVAL_BIN_S = 0.1
 
 
-class TruthUnavailable(ReplayError):
+class TruthUnavailableError(ReplayError):
     """The truth cannot be made for this log (no usable air data, ARINC 429 input)."""
 
 
@@ -113,11 +113,11 @@ def air_samples(log: str | Path, input_format: str, t0_monotonic: float
 
     Raises
     ------
-    TruthUnavailable
+    TruthUnavailableError
         ARINC 429 input, or fewer than two usable frames.
     """
     if input_format == "arinc429":
-        raise TruthUnavailable("--truth: ARINC 429 input is not decoded for the truth yet; "
+        raise TruthUnavailableError("--truth: ARINC 429 input is not decoded for the truth yet; "
                                "record the air-data frames (stream or datagram)")
     records, report = read_records(log)
     starts = [i for i, r in enumerate(records) if r.kind == KIND_EVENT
@@ -146,16 +146,17 @@ def _usable(rows: list[tuple[float, float, dict[str, Any]]], log: str | Path
     """The rows with finite values in range, on the receive clock, strictly increasing."""
     good = []
     for rx, utc, f in rows:
-        vals = [f.get(k) for k in _FIELDS]
-        if not all(isinstance(v, (int, float)) and math.isfinite(v) for v in vals):
+        raw = [f.get(k) for k in _FIELDS]
+        if not all(isinstance(v, (int, float)) and math.isfinite(v) for v in raw):
             continue
+        vals = [float(v) for v in raw if v is not None]  # all numbers (checked above)
         lat, lon, _alt, mach, _hdg, bank, fpa = vals
         if (abs(lat) <= 90.0 and abs(lon) <= 180.0 and 0.0 < mach <= MACH_MAX
                 and abs(math.radians(fpa)) <= FPA_MAX_RAD and abs(bank) < 89.0
                 and math.isfinite(utc)):
             good.append((rx, utc, *vals))
     if len(good) < 2:
-        raise TruthUnavailable(f"--truth: {log}: fewer than two usable air-data frames")
+        raise TruthUnavailableError(f"--truth: {log}: fewer than two usable air-data frames")
     a = np.array(good, dtype=np.float64)
     rel = a[:, 1] - a[0, 1]
     offset = float(np.median(a[:, 0] - rel))  # receive clock minus sample clock
@@ -167,7 +168,7 @@ def _usable(rows: list[tuple[float, float, dict[str, Any]]], log: str | Path
     inc = np.concatenate([[True], np.diff(t) > 1e-6])
     a, t = a[inc], t[inc]
     if t.size < 2:
-        raise TruthUnavailable(f"--truth: {log}: fewer than two usable air-data frames")
+        raise TruthUnavailableError(f"--truth: {log}: fewer than two usable air-data frames")
     out = {"t_s": t}
     for i, k in enumerate(_FIELDS):
         out[k] = a[:, 2 + i]
@@ -251,7 +252,7 @@ def flight_truth(res: ReplayResult, aircraft_file: str | None = None,
     try:
         path = flown_path(samples, atm)
     except TruthInputError as exc:
-        raise TruthUnavailable(f"--truth: {log}: {exc}") from None
+        raise TruthUnavailableError(f"--truth: {log}: {exc}") from None
     assert path.frame is not None  # from_latlon always sets it
     zones, names = truth_zones(res.setup.zones, path.frame)
     truth = trace_truth(path, atm, aircraft, zones, settings=settings)
@@ -275,8 +276,9 @@ def truth_lines(truth: dict[str, Any]) -> list[str]:
         return ["truth: no boom reached a zone"]
     out = []
     for e in truth["exposures"]:
-        line = (f"truth: {e['zone_id']} (with its margin): booms arrive T+{e['first_arrival_s']:.1f} to "
-                f"T+{e['last_arrival_s']:.1f} s, peak {e['peak_psf']:.2f} psf"
+        line = (f"truth: {e['zone_id']} (with its margin): booms arrive "
+                f"T+{e['first_arrival_s']:.1f} to T+{e['last_arrival_s']:.1f} s, "
+                f"peak {e['peak_psf']:.2f} psf"
                 + (" (over the limit)" if e["exceeds_limit"] else "")
                 + f", first emitted T+{e['unavoidable_from_s']:.1f} s")
         if e.get("first_arrival_inside_s") is not None:

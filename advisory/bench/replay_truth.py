@@ -66,7 +66,7 @@ ZONE_EDGE_DEG = 0.01
 #: Side of the map cells that summarise the ground events for the report, m (at least).
 MIN_CELL_M = 500.0
 #: Most map cells across the larger side of the area the booms cover.
-CELLS_ACROSS = 110
+CELLS_ACROSS = 90
 #: Bin of the per-zone arrival series kept for the timeline, s.
 ARRIVAL_BIN_S = 0.1
 
@@ -293,7 +293,7 @@ def truth_lines(truth: dict[str, Any]) -> list[str]:
 def figure_data(ft: FlightTruth) -> dict[str, Any]:
     """What the report draws of the truth (plain lists): ``cells`` ([lat, lon, psf,
     first arrival s] of the map cells where booms landed, peak per cell), ``cell_m``,
-    ``arrivals`` (per zone id: [t_s, peak psf] per :data:`ARRIVAL_BIN_S` bin), ``names``,
+    ``arrivals`` (per zone id: [t_s, peak psf, booms] per :data:`ARRIVAL_BIN_S` bin), ``names``,
     ``margins_km``, and the score's exposures."""
     ev = ft.truth.events
     cells: list[list[float]] = []
@@ -326,10 +326,11 @@ def figure_data(ft: FlightTruth) -> dict[str, Any]:
         hit = z.covers(e.east_m, e.north_m)
         if not np.any(hit):
             continue
-        b, peak = _max_by(np.floor(e.arrival_s[hit] / ARRIVAL_BIN_S).astype(np.int64),
-                          e.overpressure_psf[hit])
-        arrivals[z.zone_id] = [[round(float(k) * ARRIVAL_BIN_S, 2), round(float(p), 3)]
-                               for k, p in zip(b, peak, strict=True)]
+        bins = np.floor(e.arrival_s[hit] / ARRIVAL_BIN_S).astype(np.int64)
+        b, peak = _max_by(bins, e.overpressure_psf[hit])
+        count = np.unique(bins, return_counts=True)[1]
+        arrivals[z.zone_id] = [[round(float(k) * ARRIVAL_BIN_S, 2), round(float(p), 3), int(c)]
+                               for k, p, c in zip(b, peak, count, strict=True)]
     return {"cells": cells, "cell_m": cell_m, "arrivals": arrivals, "names": ft.names,
             "margins_km": {z.zone_id: z.margin_m / 1e3 for z in ft.zones},
             "exposures": ft.score.exposures}

@@ -163,7 +163,7 @@ def scenarios() -> list[Scenario]:
     out = []
 
     # 1. Coastal approach: straight at the fictional harbour town of Marrowick; the
-    #    crew slows below cutoff Mach after the caution and the conflict clears.
+    #    crew slows below cutoff Mach after the advisory and the conflict clears.
     lat0, lon0 = 30.10, -141.20
     t_lat, t_lon = ahead(lat0, lon0, 90.0, 80.0)
     out.append(Scenario(
@@ -172,11 +172,13 @@ def scenarios() -> list[Scenario]:
         description=(
             "Eastbound at Mach 1.40 and 45,000 ft toward the invented harbour town of "
             "Marrowick on the fictional Sable Reach coast. The carpet would reach the town; "
-            "after the caution the crew slows to Mach 1.10, below cutoff Mach, and the boom "
-            "leaves the ground before it gets there."),
+            "30 s after the advisory the crew slows to Mach 1.10, below cutoff Mach, and "
+            "the boom leaves the ground long before it gets there. (Slowing only after the "
+            "caution, at 85 s, is too late: booms emitted near cutoff during the slow-down "
+            "travel far ahead and still land in the town; the truth harness shows it.)"),
         lat_deg=lat0, lon_deg=lon0, alt_ft=45000.0, mach=1.40, heading_deg=90.0,
         duration_s=150.0,
-        mach_schedule=((85.0, 1.10, 0.012),),
+        mach_schedule=((30.0, 1.10, 0.012),),
         zones=(town("marrowick", "Marrowick", t_lat, t_lon, 3.0),
                park("sable-reach-dunes", "Sable Reach Dunes Reserve",
                     *ahead(t_lat, t_lon, 0.0, 55.0), 18.0, 5.0, 20.0)),

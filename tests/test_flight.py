@@ -179,3 +179,20 @@ def test_feed_datagrams_and_dropout() -> None:
     assert all(b > a for a, b in zip(rx, rx[1:]))
     assert all(0.004 <= c[0] - 100.0 - x["t_s"] < 0.004 + 0.003 + 1e-9
                for c, x in zip(chunks[:10], samples[:10]))
+
+
+def test_crew_take_over_ends_the_scheduled_turn_and_flies_the_resolution() -> None:
+    # docs/scenarios.md (flight model): once the crew acts it rolls wings level, drops the
+    # rest of the schedule and flies its resolution (common practice, no source).
+    state = FlightState(standard_atmosphere(), 30.0, -140.0, ALT_FT, MACH, 0.0)
+    pilot = Pilot([Segment("turn", bank_deg=30.0, duration_s=100.0),
+                   Segment("mach", target_mach=1.8, mach_rate_per_s=0.05)])
+    dt = 0.05
+    for i in range(400):
+        if i == 200:
+            pilot.take_over(Segment("mach", target_mach=1.1, mach_rate_per_s=0.02), state)
+        pilot.update(state, dt)
+        state.step(dt, i * dt)
+    assert state.bank_deg == 0.0 and pilot.queue == []
+    # 10 s of deceleration at 0.02 per s from 1.4 (closed form)
+    assert state.mach == pytest.approx(1.4 - 0.02 * 10.0, abs=2e-3)

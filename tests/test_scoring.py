@@ -97,7 +97,10 @@ def test_exposure_fields_worked_by_hand():
     assert set(doc["exposures"][0]) == {
         "zone_id", "first_arrival_s", "last_arrival_s", "peak_psf", "exceeds_limit",
         "unavoidable_from_s", "first_advisory_s", "first_caution_s", "first_warning_s",
-        "lead_time_s", "missed", "outcome"}  # docs/scenarios.md, "What simulate reports"
+        "lead_time_s", "missed", "outcome",  # docs/scenarios.md, "What simulate reports"
+        "first_arrival_inside_s", "peak_psf_inside"}  # the extras for the zone itself
+    assert e["first_arrival_inside_s"] == pytest.approx(70.0)  # no margin: all inside
+    assert e["peak_psf_inside"] == pytest.approx(1.5)
 
 
 def test_truth_clock_is_shifted_by_t0():
@@ -150,6 +153,7 @@ def test_margin_and_elevation():
     assert score_flight(truth, [], 5.0, zones=[plain]).exposures == []
     e = score_flight(truth, [], 5.0, zones=[wide]).exposures[0]
     assert e["peak_psf"] == pytest.approx(0.7) and e["exceeds_limit"] is False  # 0.7 < 1.0
+    assert e["first_arrival_inside_s"] is None and e["peak_psf_inside"] is None  # margin only
     # The same events traced to sea level say nothing about a zone at 300 m.
     assert score_flight(_truth(rows, 0.0), [], 5.0, zones=[wide]).exposures == []
 

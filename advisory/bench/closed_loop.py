@@ -43,12 +43,14 @@ from advisory.bench.expect import segments_of
 from advisory.bench.feed import Chunk, FeedEncoder, stamp_header
 from advisory.bench.flight import FlightState, FlightTrack, Pilot
 from advisory.bench.replay import replay_log
+from advisory.bench.replay_truth import FlightTruth, figure_data
 from advisory.bench.report import write_report
+from advisory.bench.result import ReplayResult
 from advisory.bench.scenario import prepare
 from advisory.bench.scoring import FlightScore, score_flight
 from advisory.bench.sim_scenario import Scenario, scenario_from_dict
 from advisory.bench.sim_world import World, build_world
-from advisory.bench.truth import Truth, TruthSettings, trace_truth
+from advisory.bench.truth import FlownPath, Truth, TruthSettings, trace_truth
 from advisory.io.messages import decode_frame
 from advisory.io.records import Recorder
 from advisory.pipeline.advisor import Advisor
@@ -77,6 +79,8 @@ class SimulationResult:
         Status segments of the advisory frames (s after the start of the flight).
     truth : Truth
         The ground truth of the path flown.
+    path : FlownPath
+        The path flown (true state), as traced.
     score : FlightScore
         Exposures, nuisance alerts, unavailable time.
     actions : list of CrewAction
@@ -91,6 +95,7 @@ class SimulationResult:
     outputs: list[Chunk] = field(default_factory=list)
     segments: list[StatusSegment] = field(default_factory=list)
     truth: Truth | None = None
+    path: FlownPath | None = None
     score: FlightScore = field(default_factory=FlightScore)
     actions: list[CrewAction] = field(default_factory=list)
     feed_counts: dict[str, int] = field(default_factory=dict)
@@ -222,7 +227,7 @@ def simulate(scenario: Scenario, record: str | Path | None = None, quiet: bool =
                            feed_counts=dict(flight.feed.counts), counters=loop.counters)
     res.segments = segments_of(res.outputs, MONO_START_S)
     ts = scenario.truth
-    path = flight.track.flown_path(world.origin_deg, ts.emission_interval_s)
+    res.path = path = flight.track.flown_path(world.origin_deg, ts.emission_interval_s)
     res.truth = trace_truth(path, world.true_atmosphere, world.aircraft, world.truth_zones,
                             settings=TruthSettings(azimuth_step_deg=ts.azimuth_step_deg))
     res.score = score_flight(res.truth, res.segments, scenario.crew.reaction_s,
@@ -271,7 +276,24 @@ def simulate_with_report(scenario: Scenario, out_dir: str | Path, quiet: bool = 
     setup = replace(setup, name=scenario.name, title=scenario.title or scenario.name,
                     description=scenario.description)
     replayed = replay_log(setup)
+    _attach_truth(replayed, res, world)
     html = write_report([replayed], out, title=f"boom-advisory simulate: {scenario.name}")
     (out / "simulate.json").write_text(json.dumps(res.as_json(), indent=1) + "\n",
                                        encoding="utf-8")
     return res, html
+
+
+def _attach_truth(replayed: ReplayResult, res: SimulationResult, world: World) -> None:
+    """Put the simulator's truth (the path actually flown, not one rebuilt from the frames)
+    on the replay for the report, scored on the replay's clock (which starts at the first
+    input, a few ms after the flight)."""
+    assert res.truth is not None and res.path is not None
+    t0 = replayed.t0_monotonic - MONO_START_S
+    score = score_flight(res.truth, replayed.segments, res.scenario.crew.reaction_s, t0,
+                         zones=world.truth_zones)
+    names = {z.id: z.name for z in world.zones}
+    ft = FlightTruth(res.path, res.truth, list(world.truth_zones), names, score,
+                     "scenario [atmosphere] (the simulator's true air)",
+                     len(res.path.time_s), 0.0)
+    replayed.truth = score.as_json()
+    replayed.truth_figure = figure_data(ft)

@@ -49,6 +49,11 @@ class FlightCollector:
         self.rows: list[dict[str, Any]] = []
         self.focus: list[list[float]] = []
         self.events: list[dict[str, Any]] = []
+        #: Predicted first contacts: [t_s, lat, lon, zone_id, status] (at most one a
+        #: ``carpet_every_s``): the predicted ray arriving at the time to contact nearest
+        #: the named zone.
+        self.contacts: list[list[Any]] = []
+        self._last_contact_t = -math.inf
         self._last_pred: CarpetPrediction | None = None
         self._last_row_t = -math.inf
         self._key: tuple[str, str | None] | None = None
@@ -78,6 +83,10 @@ class FlightCollector:
             self._last_pred = pred
             if t - self._last_row_t >= self.every - 1e-9:
                 self._row(t, pred, traj)
+        if (fresh and pred is not None and traj is not None and adv.zone_id is not None
+                and adv.time_to_contact_s is not None and adv.status in CONFLICT_STATUSES
+                and t - self._last_contact_t >= self.every - 1e-9):
+            self._contact(t, adv.status, adv.zone_id, adv.time_to_contact_s, pred, traj)
         key = (adv.status, adv.zone_id)
         rank = STATUS_RANK.get(adv.status, UNAVAILABLE_RANK)
         if key != self._key:
@@ -110,6 +119,28 @@ class FlightCollector:
             self.focus.append([round(float(np.degrees(la[i])), 5),
                                round(float(np.degrees(lo[i])), 5), round(float(foc[i]), 2)])
 
+    def _contact(self, t: float, status: str, zone_id: str, ttc: float,
+                 pred: CarpetPrediction, traj: Trajectory) -> None:
+        """Keep the predicted contact point: of the predicted rays that arrive within half
+        a second of the time to contact, the one nearest the zone's first vertex."""
+        advisor = cast(Advisor, self.loop.advisor)
+        try:
+            zone = advisor.zones[advisor.zones.index_of(zone_id)]
+        except (KeyError, ValueError, IndexError):
+            return
+        ring = zone.polygons[0][0]
+        zx, zy = traj.frame.to_enu(float(ring[:, 1].mean()), float(ring[:, 0].mean()))
+        ok = (pred.on_ground[:, None] & np.isfinite(pred.east_m)
+              & (np.abs(pred.arrival_s - ttc) <= 0.5))
+        if not np.any(ok):
+            return
+        d2 = np.where(ok, (pred.east_m - zx) ** 2 + (pred.north_m - zy) ** 2, np.inf)
+        k, j = np.unravel_index(int(np.argmin(d2)), d2.shape)
+        la, lo = traj.frame.from_enu(pred.east_m[k, j], pred.north_m[k, j])
+        self.contacts.append([t, round(math.degrees(float(la)), 5),
+                              round(math.degrees(float(lo)), 5), zone_id, status])
+        self._last_contact_t = t
+
     def _predicted(self, pred: CarpetPrediction, traj: Trajectory
                    ) -> tuple[list[list[float]] | None, list[list[float]]]:
         ring = swath_polygon(pred, 0.0, math.inf)
@@ -133,4 +164,5 @@ class FlightCollector:
     def result(self) -> dict[str, Any]:
         """The collected data (plain lists; JSON-ready)."""
         return {"track": self.track, "rows": self.rows, "focus": self.focus,
-                "events": self.events, "focus_threshold": self.threshold}
+                "events": self.events, "focus_threshold": self.threshold,
+                "contacts": self.contacts}

@@ -17,6 +17,11 @@ or the replay ends) at ``t_to_s``, each within ``tolerance_s`` (default 1 s). An
 with ``"optional": true`` may be missing (a brief intermediate level); a ``"note"`` is for
 people. Times are seconds after the first input record of the log.
 
+The object may also hold ``"truth_exposures"``: the ids of the zones that booms of the
+flight really reach, by the truth harness (``replay --truth``; an empty list: none). The
+advisories are compared by ``--expect``; the test suite checks ``truth_exposures``
+against the truth, so a demo flight's expectations never contradict where its booms land.
+
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
 """

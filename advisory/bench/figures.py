@@ -17,6 +17,7 @@ import math
 from typing import Any
 
 from advisory import units
+from advisory.io.messages import decode_frame
 from advisory.pipeline.zones import ZoneSet
 from advisory.schema import CONFLICT_STATUSES, EARTH_MEAN_RADIUS_M, STATUS_RANK
 
@@ -25,6 +26,12 @@ STATUS_COLOURS = {
     "no_boom": "#9db4c0", "clear": "#5aa469", "advisory": "#e9c12e", "caution": "#f2994a",
     "warning": "#d64545", "unavailable": "#4f4f4f",
 }
+#: Top of the FIXED overpressure scale of the truth's booms, psf: the same for every flight
+#: of every report, so colours compare across flights (higher values take the top colour).
+TRUTH_PSF_MAX = 3.0
+#: Colour of a missed span (a boom on its way into a zone while the status said clear or
+#: no boom).
+MISSED_COLOUR = "#e00000"
 #: Overpressure colour ramp stops (fraction of the scale, RGB): blue - yellow - red.
 RAMP = ((0.0, (44, 123, 182)), (0.25, (171, 217, 233)), (0.5, (255, 255, 191)),
         (0.75, (253, 174, 97)), (1.0, (215, 25, 28)))
@@ -93,7 +100,8 @@ def zone_rings(zones_file: str) -> list[dict[str, Any]]:
     return out
 
 
-def extent(flight: dict[str, Any], zones: list[dict[str, Any]]) -> tuple[list[float], list[float]]:
+def extent(flight: dict[str, Any], zones: list[dict[str, Any]],
+           truth: dict[str, Any] | None = None) -> tuple[list[float], list[float]]:
     lats, lons = [], []
     for row in flight["track"]:
         if row[1] is not None:
@@ -110,6 +118,9 @@ def extent(flight: dict[str, Any], zones: list[dict[str, Any]]) -> tuple[list[fl
         if ev.get("predicted"):
             lats += ev["predicted"][0]
             lons += ev["predicted"][1]
+    for cell in (truth or {}).get("cells", []):
+        lats.append(cell[0])
+        lons.append(cell[1])
     if not lats:
         lats, lons = [0.0, 0.1], [0.0, 0.1]
     return lats, lons
@@ -171,3 +182,25 @@ def swath_quads(rows: list[dict[str, Any]], every: float, max_rows: int = 400
             psf = 0.25 * (a["psf"][j] + a["psf"][j + 1] + b["psf"][j] + b["psf"][j + 1])
             quads.append((pts, psf))
     return quads
+
+
+def advisory_series(outputs: list[tuple[float, float, bytes]], t0: float
+                    ) -> list[tuple[float, str, str | None, float | None, float | None]]:
+    """Every advisory frame of a replay: (t_s after ``t0``, status, zone_id, time to
+    contact s, predicted overpressure psf)."""
+    out = []
+    for mono, _utc, payload in outputs:
+        f = decode_frame(payload)
+        if f.type == "adv":
+            a = f.fields
+            out.append((round(mono - t0, 3), a["status"], a["zone_id"],
+                        a["time_to_contact_s"], a["overpressure_psf"]))
+    return out
+
+
+def missed_spans(truth: dict[str, Any] | None) -> list[tuple[float, float, str]]:
+    """The truth's missed spans of every exposure: (t0_s, t1_s, zone_id)."""
+    if not truth:
+        return []
+    return [(float(a), float(b), str(e["zone_id"])) for e in truth.get("exposures", [])
+            for a, b in e.get("missed", [])]

@@ -42,7 +42,7 @@ import numpy as np
 from advisory import units
 from advisory.bench.truth_path import DEFAULT_EMISSION_INTERVAL_S, FlownPath
 from advisory.geo.geodesy import direct_deg
-from advisory.physics.atmosphere import Atmosphere
+from advisory.physics.atmosphere import Atmosphere, AtmosphereSample
 
 #: Largest |flight-path angle| the simulator flies, deg (the truth tracer's limit).
 FPA_LIMIT_DEG = 30.0
@@ -101,10 +101,18 @@ class FlightState:
         self.bank_target, self.roll_rate = self.bank_deg, float(roll_rate_deg_s)
         self.fpa_target, self.pitch_rate = self.fpa_deg, 1.0
         self.step_index = 0
+        self._air_at: tuple[float, AtmosphereSample] | None = None
+
+    def air(self) -> AtmosphereSample:
+        """The atmosphere at the aircraft (the last one kept while the altitude holds)."""
+        kept = self._air_at
+        if kept is None or kept[0] != self.alt_m:
+            kept = self._air_at = (self.alt_m, self.atmosphere.at(self.alt_m))
+        return kept[1]
 
     def tas_mps(self) -> float:
         """True airspeed, m/s."""
-        return self.mach * self.atmosphere.at(self.alt_m).sound_speed_mps
+        return self.mach * self.air().sound_speed_mps
 
     def turn_rate_deg_s(self) -> float:
         """Heading rate of the coordinated turn ``g tan(bank) / TAS``, deg/s."""
@@ -117,7 +125,7 @@ class FlightState:
         moves on by ``dt_s``.
         """
         t = self.t_s if t_s is None else t_s
-        s = self.atmosphere.at(self.alt_m)
+        s = self.air()
         tas = self.mach * s.sound_speed_mps
         tas_h = tas * math.cos(math.radians(self.fpa_deg))
         ve = tas_h * math.sin(math.radians(self.heading_deg)) + s.wind_east_mps
@@ -187,8 +195,11 @@ class Pilot:
     climb to an altitude likewise levels off early), so it ends near the asked heading
     (common practice, no source).
 
+    A timed Mach segment that ends before its target holds the Mach reached.
+
     :meth:`take_over` replaces the rest of the schedule with the crew's segment: once the
-    crew acts on a cue it flies the resolution and then holds.
+    crew acts on a cue it rolls the wings and the flight path level (ending any scheduled
+    turn or climb), flies the resolution and then holds.
     """
 
     def __init__(self, schedule: Iterable[Segment]) -> None:
@@ -203,11 +214,14 @@ class Pilot:
         """Drop the rest of the schedule and fly ``segment`` from now."""
         self.queue = []
         self.crew_segment = segment
+        state.bank_target, state.fpa_target = 0.0, 0.0
         self._begin(replace(segment, at_s=None), state)
 
     def update(self, state: FlightState, dt_s: float) -> None:
         """Set the state's targets for the next step (see the class notes)."""
         if self.active is not None and self._done(state, dt_s):
+            if self.active.kind == "mach":
+                state.mach_target = state.mach  # a timed change ends where it got to
             self.active = None
         if self.active is None and self.queue:
             nxt = self.queue[0]

@@ -21,13 +21,22 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import base64
+import csv
 import datetime as _dt
+import io
 from pathlib import Path
+from typing import Any
 
-from advisory.bench.figures import STATUS_COLOURS, zone_rings
+from advisory.bench.figures import (
+    STATUS_COLOURS,
+    advisory_series,
+    missed_spans,
+    zone_rings,
+)
 from advisory.bench.png import have_matplotlib, map_png, timeline_png
 from advisory.bench.result import ReplayResult, read_notes
 from advisory.bench.svg import esc, map_svg, timeline_svg
+from advisory.bench.svg_truth import truth_timeline_svg
 from advisory.schema import SAFETY_CAUTION, VERSION
 
 REPORT_NAME = "report.html"
@@ -82,16 +91,32 @@ def _flight_section(res: ReplayResult, out_dir: Path, pngs: bool) -> str:
                      f"<td>{_status_badge(s.status)}</td><td>{esc(s.zone_id or '')}</td>"
                      f"<td>{esc(s.cue)}</td></tr>")
     parts.append("</table>")
+    if res.truth is not None:
+        parts.append(_truth_table(res.truth, out_dir, name, res))
     if res.flight is not None:
         zones = zone_rings(res.setup.zones)
-        parts.append('<figure class="map-figure">' + map_svg(name, res.flight, zones)
-                     + "<figcaption>Map: zones, track, carpet laid along the track coloured by "
-                     "ground overpressure, focus points, where each cue fired and the carpet "
-                     "predicted then.</figcaption></figure>")
+        parts.append('<figure class="map-figure">'
+                     + map_svg(name, res.flight, zones, truth=res.truth_figure)
+                     + "<figcaption>Map: zones and their margins, track, carpet laid along the "
+                     "track as predicted, coloured by ground overpressure, focus points, where "
+                     "each cue fired, the carpet and contact points predicted then"
+                     + ("; squares: where booms actually landed (truth), on a fixed scale"
+                        if res.truth_figure is not None else "")
+                     + ".</figcaption></figure>")
         parts.append('<figure class="timeline-figure">'
                      + timeline_svg(name, res.flight, res.segments, res.duration_s)
                      + "<figcaption>Timeline: Mach and cutoff Mach, altitude, advisory level."
                      "</figcaption></figure>")
+        if res.truth is not None:
+            series = advisory_series(res.outputs, res.t0_monotonic)
+            parts.append('<figure class="truth-timeline-figure">'
+                         + truth_timeline_svg(name, series, res.truth, res.truth_figure,
+                                              res.segments, res.duration_s)
+                         + "<figcaption>Truth timeline: predicted time to contact; predicted "
+                         "overpressure at the zone (line) and the booms that landed in each "
+                         "zone (dots, truth); truth arrivals per zone; the level, red where a "
+                         "boom was on its way into a zone while the status said clear or no "
+                         "boom.</figcaption></figure>")
         if pngs:
             for kind, data in (("map", map_png(name, res.flight, zones)),
                                ("timeline", timeline_png(name, res.flight, res.segments))):
@@ -108,6 +133,61 @@ def _flight_section(res: ReplayResult, out_dir: Path, pngs: bool) -> str:
                  + "</details>")
     parts.append("</section>")
     return "\n".join(parts)
+
+
+def _truth_table(truth: dict[str, Any], out_dir: Path, name: str, res: ReplayResult) -> str:
+    """The truth's exposures as a table, and the timeline CSV written beside the report."""
+    csv_name = f"{name}_timeline.csv"
+    (out_dir / csv_name).write_text(timeline_csv(res), encoding="utf-8")
+    rows = ['<table class="truth"><tr><th>zone (truth)</th><th>first boom (s)</th>'
+            "<th>last boom (s)</th><th>peak psf</th><th>over limit</th><th>first emitted (s)"
+            "</th><th>outcome</th><th>missed (s)</th></tr>"]
+    for e in truth["exposures"]:
+        missed = ", ".join(f"{a:.1f}-{b:.1f}" for a, b in e["missed"])
+        rows.append(f"<tr><td>{esc(e['zone_id'])}</td><td>{e['first_arrival_s']:.1f}</td>"
+                    f"<td>{e['last_arrival_s']:.1f}</td><td>{e['peak_psf']:.2f}</td>"
+                    f"<td>{'yes' if e['exceeds_limit'] else 'no'}</td>"
+                    f"<td>{e['unavoidable_from_s']:.1f}</td><td>{esc(e['outcome'])}</td>"
+                    + (f'<td class="bad">MISSED {esc(missed)}</td>' if missed else "<td>-</td>")
+                    + "</tr>")
+    if not truth["exposures"]:
+        rows.append('<tr><td colspan="8">no boom reached a zone (truth)</td></tr>')
+    rows.append("</table>")
+    return ("\n".join(rows) + f'<p>Timeline as CSV: <a class="csv" href="{esc(csv_name)}">'
+            f"{esc(csv_name)}</a> (time, status, zone, time to contact, psf, missed, truth "
+            "arrivals per zone).</p>")
+
+
+def timeline_csv(res: ReplayResult) -> str:
+    """One row per advisory frame: ``t_s``, ``status``, ``zone_id``, ``time_to_contact_s``,
+    ``overpressure_psf`` (predicted), ``missed`` (1 inside a missed span) and, per zone the
+    truth saw a boom reach, ``<zone>_booms`` and ``<zone>_peak_psf`` of the booms arriving
+    since the previous frame."""
+    series = advisory_series(res.outputs, res.t0_monotonic)
+    arrivals = (res.truth_figure or {}).get("arrivals", {})
+    zones = sorted(arrivals)
+    spans = missed_spans(res.truth)
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["t_s", "status", "zone_id", "time_to_contact_s", "overpressure_psf", "missed"]
+               + [f"{z}_{k}" for z in zones for k in ("booms", "peak_psf")])
+    idx = dict.fromkeys(zones, 0)
+    t_prev = -float("inf")
+    for t, status, zone, ttc, psf in series:
+        row: list[Any] = [f"{t:.3f}", status, zone or "", "" if ttc is None else ttc,
+                          "" if psf is None else psf,
+                          int(any(a <= t < b for a, b, _z in spans))]
+        for z in zones:
+            arr, n, peak = arrivals[z], 0, 0.0
+            while idx[z] < len(arr) and arr[idx[z]][0] <= t:
+                if arr[idx[z]][0] > t_prev:
+                    n += arr[idx[z]][2]
+                    peak = max(peak, arr[idx[z]][1])
+                idx[z] += 1
+            row += [n, f"{peak:.3f}" if n else ""]
+        w.writerow(row)
+        t_prev = t
+    return buf.getvalue()
 
 
 def write_report(results: list[ReplayResult], out_dir: str | Path,

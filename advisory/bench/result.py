@@ -62,6 +62,12 @@ class ReplayResult:
         Report data (track, carpet rows, where advisories fired) when collected.
     notes : list of str
         What the replay had to decide about the log (several runs in one file, ...).
+    truth : dict or None
+        With ``replay --truth``: the ground truth's score of the flight
+        (:func:`advisory.bench.replay_truth.truth_json`: ``exposures``,
+        ``nuisance_alerts``, ``unavailable_s`` and provenance).
+    truth_figure : dict or None
+        What the report draws of the truth (:func:`advisory.bench.replay_truth.figure_data`).
     """
 
     setup: ReplaySetup
@@ -82,6 +88,8 @@ class ReplayResult:
     diffs: list[str] | None = None
     flight: dict[str, Any] | None = None
     notes: list[str] = field(default_factory=list)
+    truth: dict[str, Any] | None = None
+    truth_figure: dict[str, Any] | None = None
 
     @property
     def name(self) -> str:
@@ -169,6 +177,8 @@ class ReplayResult:
         })
         if self.setup.send:
             d.update({"sent": self.sent, "send_errors": self.send_errors})
+        if self.truth is not None:
+            d["truth"] = self.truth
         return d
 
 

@@ -32,7 +32,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -61,8 +61,10 @@ class FlightScore:
         ``zone_id``, ``first_arrival_s``, ``last_arrival_s``, ``peak_psf``,
         ``exceeds_limit``, ``unavoidable_from_s``, ``first_advisory_s``,
         ``first_caution_s``, ``first_warning_s``, ``lead_time_s``, ``missed``
-        (list of ``[t0_s, t1_s]``), ``outcome``; times in s after the flight's start,
-        None where there is none.
+        (list of ``[t0_s, t1_s]``), ``outcome``; and two extra fields,
+        ``first_arrival_inside_s`` and ``peak_psf_inside``, for the booms inside the zone
+        itself rather than its margin; times in s after the flight's start, None where
+        there is none.
     nuisance_alerts : list of dict
         One per alert episode naming a zone no boom reached: ``zone_id``, ``t0_s``,
         ``t1_s``, ``level`` (the highest status of the episode).
@@ -121,22 +123,29 @@ def _first_alerts(segments: Sequence[Segment], zone_id: str) -> dict[str, float 
     return first
 
 
-def _zone_hits(truth: Truth, zone: TruthZone) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Emission times, arrivals (s, truth clock) and psf of the booms landing in ``zone``."""
+def _zone_hits(truth: Truth, zone: TruthZone
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Emission times, arrivals (s, truth clock), psf of the booms landing in ``zone`` or
+    its margin, and which of them land inside the zone itself."""
     ev = truth.events.get(float(zone.ground_elevation_m))
     if ev is None or len(ev) == 0:
-        return np.zeros(0), np.zeros(0), np.zeros(0)
+        return np.zeros(0), np.zeros(0), np.zeros(0), np.zeros(0, dtype=bool)
     hit = zone.covers(ev.east_m, ev.north_m)
-    return ev.emission_time_s[hit], ev.arrival_s[hit], ev.overpressure_psf[hit]
+    inside = replace(zone, margin_m=0.0).covers(ev.east_m[hit], ev.north_m[hit])
+    return ev.emission_time_s[hit], ev.arrival_s[hit], ev.overpressure_psf[hit], inside
 
 
 def score_exposure(zone: TruthZone, emission_s: np.ndarray, arrival_s: np.ndarray,
                    psf: np.ndarray, segments: Sequence[Segment], reaction_s: float,
-                   quiet: Sequence[Span] | None = None) -> dict[str, Any]:
+                   quiet: Sequence[Span] | None = None,
+                   inside: np.ndarray | None = None) -> dict[str, Any]:
     """The exposure dict of one zone from its booms (times already on the flight's clock).
 
     ``emission_s``, ``arrival_s`` (s) and ``psf`` are the booms landing in the zone or its
-    margin (at least one); ``quiet`` the spans of :func:`quiet_spans` (computed when None).
+    margin (at least one); ``quiet`` the spans of :func:`quiet_spans` (computed when None);
+    ``inside`` marks the booms inside the zone itself (not only its margin): their first
+    arrival and peak are the extra fields ``first_arrival_inside_s`` and
+    ``peak_psf_inside`` (None when none lands inside; both absent when ``inside`` is None).
     """
     if emission_s.size == 0:
         raise ValueError(f"zone {zone.zone_id!r}: no boom reaches it, nothing to score")
@@ -156,6 +165,11 @@ def score_exposure(zone: TruthZone, emission_s: np.ndarray, arrival_s: np.ndarra
         outcome = "late"
     else:
         outcome = "alerted"
+    extra: dict[str, Any] = {}
+    if inside is not None:
+        some = bool(np.any(inside))
+        extra = {"first_arrival_inside_s": float(np.min(arrival_s[inside])) if some else None,
+                 "peak_psf_inside": float(np.max(psf[inside])) if some else None}
     return {
         "zone_id": zone.zone_id,
         "first_arrival_s": first_arrival,
@@ -169,6 +183,7 @@ def score_exposure(zone: TruthZone, emission_s: np.ndarray, arrival_s: np.ndarra
         "lead_time_s": lead,
         "missed": [[a, b] for a, b in missed],
         "outcome": outcome,
+        **extra,
     }
 
 
@@ -224,12 +239,12 @@ def score_flight(truth: Truth, segments: Sequence[Segment], reaction_s: float,
     exposures = []
     reached: set[str] = set()
     for zone in zones:
-        emitted, arrival, psf = _zone_hits(truth, zone)
+        emitted, arrival, psf, inside = _zone_hits(truth, zone)
         if emitted.size == 0:
             continue
         reached.add(zone.zone_id)
         exposures.append(score_exposure(zone, emitted - t0_s, arrival - t0_s, psf,
-                                        segments, reaction_s, quiet))
+                                        segments, reaction_s, quiet, inside))
     nuisance = [ep for ep in alert_episodes(segments) if ep["zone_id"] not in reached]
     unavailable = sum(s.t_end_s - s.t_start_s for s in segments if s.status == "unavailable")
     return FlightScore(exposures, nuisance, float(unavailable))

@@ -23,6 +23,7 @@ from advisory.bench.figures import (
     swath_quads,
     track_runs,
 )
+from advisory.bench.svg_truth import cells_layer, contacts_layer, margins_layer, truth_legend
 from advisory.schema import CONFLICT_STATUSES
 
 
@@ -36,9 +37,10 @@ def _pts(proj: Projection, pts: Iterable[tuple[float, float]]) -> str:
 
 
 def map_svg(name: str, flight: dict[str, Any], zones: list[dict[str, Any]], width: int = 900,
-            height: int = 640) -> str:
-    """The map of one flight as an SVG element (``class="map"``)."""
-    lats, lons = extent(flight, zones)
+            height: int = 640, truth: dict[str, Any] | None = None) -> str:
+    """The map of one flight as an SVG element (``class="map"``); with ``truth``
+    (:func:`advisory.bench.replay_truth.figure_data`) also where booms actually landed."""
+    lats, lons = extent(flight, zones, truth)
     proj = Projection(lats, lons, width, height)
     psf_all = [v for r in flight["rows"] for v in r["psf"]]
     vmax = scale_max(max(psf_all) if psf_all else 0.0)
@@ -48,12 +50,18 @@ def map_svg(name: str, flight: dict[str, Any], zones: list[dict[str, Any]], widt
            f'<rect class="sea" x="0" y="0" width="{width}" height="{height}" fill="#eef4f8"/>']
     out += _graticule(proj, width, height)
     out += _carpet(proj, flight, vmax)
+    if truth is not None:
+        out += cells_layer(proj, truth)
+    out += margins_layer(proj, zones)
     out += _zones(proj, zones)
     out += _predicted(proj, flight)
+    out += contacts_layer(proj, flight)
     out += _track(proj, flight)
     out += _focus(proj, flight)
     out += _fired(proj, flight)
     out += _legend(proj, width, height, vmax)
+    if truth is not None:
+        out += truth_legend(height)
     out.append("</svg>")
     return "\n".join(out)
 

@@ -11,6 +11,7 @@ import json
 import sys
 
 from advisory.bench.batch import replay_many
+from advisory.bench.replay_truth import figure_data, flight_truth, truth_json, truth_lines
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult, cue_lines, read_notes, summary_table
 from advisory.bench.scenario import ReplayError, prepare
@@ -54,6 +55,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="expected advisories (JSON); 'auto': the expected.json named by "
                         "each log's scenario.toml")
     p.add_argument("--report", metavar="DIR", help="write report.html and PNG figures here")
+    p.add_argument("--truth", action="store_true",
+                   help="also trace the ground truth of each flight from its air-data "
+                        "frames (where every boom landed) and score the advice against it")
     add_json_option(p)
     p.add_argument("--send", metavar="URL",
                    help="also send the recorded input to this transport (e.g. "
@@ -83,12 +87,26 @@ def _print_result(res: ReplayResult) -> None:
     if res.setup.send:
         print(f"  sent {res.sent} chunk(s) to {res.setup.send}"
               + (f", {res.send_errors} failed" if res.send_errors else ""))
+    if res.truth is not None:
+        for line in truth_lines(res.truth):
+            print("  " + line)
     if res.diffs:
         print(f"  DIFFERENCES from {res.setup.expect}:")
         for d in res.diffs:
             print("    " + d)
     elif res.diffs is not None:
         print(f"  matches {res.setup.expect}")
+
+
+def _add_truth(res: ReplayResult, aircraft: str | None, figure: bool) -> None:
+    """Trace the truth of a replayed log and keep its score (and report data) on it."""
+    if not res.inputs_fed:
+        res.notes.append("--truth: the log holds no input")
+        return
+    ft = flight_truth(res, aircraft)
+    res.truth = truth_json(ft)
+    if figure:
+        res.truth_figure = figure_data(ft)
 
 
 def run_replay(args: argparse.Namespace) -> int:
@@ -108,6 +126,8 @@ def run_replay(args: argparse.Namespace) -> int:
               for log in args.logs]
     results = []
     for res in replay_many(setups, args.jobs or None):
+        if args.truth:
+            _add_truth(res, args.aircraft, bool(args.report))
         results.append(res)
         if human:
             _print_result(res)

@@ -67,6 +67,7 @@ from advisory.bench.sections_live import (
     section_startup,
 )
 from advisory.bench.sections_table import section_build, section_lookup, section_verify
+from advisory.bench.sections_truth import section_truth
 
 SECTION_FUNCS: dict[str, Callable[[Context], None]] = {
     "build": section_build,
@@ -76,6 +77,7 @@ SECTION_FUNCS: dict[str, Callable[[Context], None]] = {
     "decode": section_decode,
     "replay": section_replay,
     "startup": section_startup,
+    "truth": section_truth,
     "campaign": section_campaign,
 }
 

@@ -20,7 +20,8 @@ from advisory.schema import SAFETY_CAUTION, VERSION
 EXIT_OK = 0
 EXIT_SHORT = 1  #: with ``--strict``: a budget is short or not measured
 
-SECTIONS = ("build", "lookup", "verify", "advisor", "decode", "replay", "startup", "campaign")
+SECTIONS = ("build", "lookup", "verify", "advisor", "decode", "replay", "startup", "truth",
+            "campaign")
 
 
 @dataclass(frozen=True)
@@ -79,6 +80,7 @@ BUDGETS = (
            upper=False),
     Budget("cold_start_s", "startup", "cold start to first advisory", 3.0, "s"),
     Budget("rss_mb", "startup", "resident memory (peak RSS)", 250.0, "MB"),
+    Budget("truth_10min_s", "truth", "truth of a 10-minute flight, one core", 20.0, "s"),
     Budget("campaign_rate", "campaign", "closed-loop campaign, one worker", 4.0,
            "10-min scenarios/core-min", upper=False),
     Budget("dask_speedup", "campaign", "Dask 2 workers vs 1, same campaign", 1.7, "x",

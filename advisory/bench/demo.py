@@ -16,16 +16,11 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
-import sys
 from importlib import resources
 from pathlib import Path
 
 from advisory.bench.scenario import SCENARIO_FILE
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import tomllib
 
 #: Where an installed package keeps the demo flights (``advisory/demo_flights``).
 INSTALLED_NAME = "demo_flights"

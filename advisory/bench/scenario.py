@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import math
 import os
-import sys
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -31,11 +30,7 @@ from advisory.tables.build import BuildInputs
 from advisory.tables.cache import cached_table
 from advisory.tables.grid import default_grid, load_grid
 from advisory.tables.table import BoomTable
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import read_toml
 
 SCENARIO_FILE = "scenario.toml"  #: scenario description beside a demo log
 DEFAULT_RECORD_NAME = "flight.rec"  #: record file looked for when LOG is a directory
@@ -120,10 +115,7 @@ def load_scenario(log: Path) -> tuple[dict[str, Any], Path | None]:
     path = log.parent / SCENARIO_FILE
     if not path.is_file():
         return {}, None
-    try:
-        doc = tomllib.loads(path.read_text(encoding="utf-8"))
-    except (OSError, tomllib.TOMLDecodeError) as exc:
-        raise ReplayError(f"scenario file {path}: cannot read ({exc})") from exc
+    doc = read_toml(path, f"scenario file {path}", ReplayError)
     return doc, path
 
 

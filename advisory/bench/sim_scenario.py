@@ -19,7 +19,6 @@ from __future__ import annotations
 
 import math
 import re
-import sys
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
@@ -27,11 +26,7 @@ from typing import Any
 from advisory.bench.feed import FAULT_KINDS, NOISE_FIELDS, Fault, FeedSettings
 from advisory.bench.flight import BANK_LIMIT_DEG, FPA_LIMIT_DEG, Segment
 from advisory.pipeline.zone_file import DEFAULT_MARGIN_KM, GROUND_ELEVATION_RANGE_FT, MAX_MARGIN_KM
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import read_toml
 
 SEGMENT_KINDS = ("hold", "turn", "mach", "climb", "pitch")
 CREW_MODES = ("ignore", "follow")
@@ -462,12 +457,7 @@ def scenario_from_dict(doc: Any, base_dir: str | Path | None = None) -> Scenario
 def load_scenario_file(path: str | Path) -> Scenario:
     """Read and check a scenario file (TOML); relative paths are taken from its folder."""
     p = Path(path)
-    try:
-        doc = tomllib.loads(p.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise ScenarioError(f"SCENARIO {path}: cannot read ({exc.strerror})") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise ScenarioError(f"SCENARIO {path}: not valid TOML ({exc})") from None
+    doc = read_toml(p, f"SCENARIO {path}", ScenarioError)
     try:
         return scenario_from_dict(doc, p.resolve().parent)
     except ScenarioError as exc:

@@ -7,19 +7,13 @@ Bad entries are refused with one message naming the file, the label and the key.
 
 from __future__ import annotations
 
-import sys
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
 from advisory.io.arinc429 import DEFAULT_LABELS, LabelMap, LabelSpec, label_from_octal
 from advisory.schema import AIR_FIELDS
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - Python 3.10
-    import tomli as tomllib
-
+from advisory.tomlfile import parse_toml
 
 _SPEC_KEYS = {"field", "encoding", "sig_bits", "range", "digits", "resolution", "sdi",
               "wrap_360", "scale", "offset"}
@@ -46,10 +40,7 @@ def parse_label_map(text: str, source: str = "label map") -> LabelMap:
     ValueError
         Any bad entry; the message names the source, the label and the key.
     """
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise ValueError(f"{source}: not valid TOML: {exc}") from None
+    doc = parse_toml(text, source, ValueError)
     unknown = set(doc) - {"byte_order", "label_bit_reversed", "replace_defaults", "labels"}
     if unknown:
         raise ValueError(f"{source}: unknown key {sorted(unknown)[0]!r}")

@@ -73,7 +73,6 @@ References
 from __future__ import annotations
 
 import math
-import sys
 from dataclasses import dataclass, field
 from importlib import resources
 from pathlib import Path
@@ -82,11 +81,7 @@ import numpy as np
 
 from advisory import units
 from advisory.physics.atmosphere import GAMMA
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import read_toml
 
 
 class AircraftError(ValueError):
@@ -470,14 +465,7 @@ def load_aircraft(path: str | Path) -> Aircraft:
         the message names the file, the field and the value.
     """
     path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except OSError as exc:
-        raise AircraftError(f"aircraft file {path}: cannot read ({exc.strerror})") from exc
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise AircraftError(f"aircraft file {path}: not valid TOML ({exc})") from exc
+    doc = read_toml(path, f"aircraft file {path}", AircraftError)
     try:
         return aircraft_from_dict(doc, source=str(path))
     except AircraftError as exc:

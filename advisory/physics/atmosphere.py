@@ -16,18 +16,13 @@ from __future__ import annotations
 
 import csv
 import math
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from advisory import units
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import parse_toml
 
 #: The Earth radius r0 of the U.S. Standard Atmosphere 1976 for converting geometric to
 #: geopotential altitude, m [1]_ (a convention of the standard, not a geodetic radius:
@@ -442,10 +437,7 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
         raise AtmosphereError(f"atmosphere file {path}: cannot read ({exc.strerror})") from exc
     rows: list[dict[str, float]] = []
     if path.suffix.lower() == ".toml":
-        try:
-            doc = tomllib.loads(text)
-        except tomllib.TOMLDecodeError as exc:
-            raise AtmosphereError(f"atmosphere file {path}: not valid TOML ({exc})") from exc
+        doc = parse_toml(text, f"atmosphere file {path}", AtmosphereError)
         raw_rows = doc.get("level")
         if not isinstance(raw_rows, list):
             raise AtmosphereError(f"atmosphere file {path}: needs [[level]] tables")

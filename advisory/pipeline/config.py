@@ -36,17 +36,12 @@ operators tune them in a config file::
 from __future__ import annotations
 
 import math
-import sys
 from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Any
 
 from advisory.schema import STALE_AFTER_S
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import read_toml
 
 
 class ConfigError(ValueError):
@@ -115,12 +110,7 @@ def load_config(path: str | Path | None) -> AdvisorConfig:
     if path is None:
         return AdvisorConfig()
     path = Path(path)
-    try:
-        doc = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise ConfigError(f"advisor config {path}: cannot read ({exc.strerror})") from exc
-    except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(f"advisor config {path}: not valid TOML ({exc})") from exc
+    doc = read_toml(path, f"advisor config {path}", ConfigError)
     values: dict[str, Any] = {}  # any TOML value; validate() names a bad one
     for section, table in doc.items():
         if section not in _SECTIONS or not isinstance(table, dict):

@@ -25,18 +25,13 @@ A grid file (TOML) may override any axis: ``altitudes_ft``, ``mach_excess``,
 from __future__ import annotations
 
 import math
-import sys
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from advisory import units
-
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
+from advisory.tomlfile import read_toml
 
 
 class GridError(ValueError):
@@ -150,12 +145,7 @@ def default_grid(with_wind: bool = False, ground_elevation_m: float = 0.0) -> Ta
 def load_grid(path: str | Path, with_wind: bool = False) -> TableGrid:
     """Read a grid file (TOML); keys not given take the default grid's values."""
     path = Path(path)
-    try:
-        doc = tomllib.loads(path.read_text(encoding="utf-8"))
-    except OSError as exc:
-        raise GridError(f"grid file {path}: cannot read ({exc.strerror})") from exc
-    except tomllib.TOMLDecodeError as exc:
-        raise GridError(f"grid file {path}: not valid TOML ({exc})") from exc
+    doc = read_toml(path, f"grid file {path}", GridError)
     base = default_grid(with_wind)
     known = {"altitudes_ft", "mach_excess", "fpa_deg", "headings_deg", "n_eta", "mach_max",
              "ground_elevation_ft"}

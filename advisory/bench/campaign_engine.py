@@ -13,10 +13,9 @@ Engines
   :mod:`advisory.bench.batch` does).
 * :class:`DaskEngine`: an existing Dask distributed scheduler at an address
   (``tcp://host:port``), or a ``LocalCluster`` it starts on 127.0.0.1 with ``K``
-  worker processes of one thread each and no dashboard, closed at the end. Its workers
-  are not daemonic (``distributed.worker.daemon: false``), since the closed loop's table
-  builder starts worker processes of its own; workers of an existing cluster need the
-  same setting. Dask is an
+  worker processes of one thread each and no dashboard, closed at the end. An
+  encounter builds a missing table in its own process (one task, one core), so plain
+  (daemonic) Dask workers do. Dask is an
   optional extra (``pip install 'boom-advisory[campaign]'``); without it a Dask engine
   raises :class:`EngineError` saying so.
 
@@ -111,14 +110,6 @@ def _dask() -> Any:
     return distributed
 
 
-def _dask_config() -> Any:
-    """The ``dask.config`` module (after :func:`_dask` succeeded)."""
-    # Optional dependency, as in _dask.
-    from dask import config
-
-    return config
-
-
 def dask_available() -> bool:
     """True when ``dask.distributed`` can be imported."""
     try:
@@ -165,12 +156,9 @@ class DaskEngine:
             except (OSError, TimeoutError, ValueError) as exc:
                 raise EngineError(f"--scheduler: cannot reach {self.address}: "
                                   f"{' '.join(str(exc).split())}") from None
-        # Non-daemonic workers: the table builder of the closed loop starts its own
-        # process pool, which a daemonic process may not do.
-        with _dask_config().set({"distributed.worker.daemon": False}):
-            cluster = dd.LocalCluster(n_workers=self.workers, threads_per_worker=1,
-                                      processes=True, host="127.0.0.1",
-                                      dashboard_address=None, silence_logs=logging.ERROR)
+        cluster = dd.LocalCluster(n_workers=self.workers, threads_per_worker=1,
+                                  processes=True, host="127.0.0.1",
+                                  dashboard_address=None, silence_logs=logging.ERROR)
         return dd.Client(cluster), cluster
 
     def run(self, encounters: Sequence[Encounter], runner: Runner) -> Iterator[dict[str, Any]]:

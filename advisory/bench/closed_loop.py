@@ -241,11 +241,13 @@ def run_encounter(doc: dict[str, Any], crew_follows: bool) -> dict[str, Any]:
     object.
 
     Pure and picklable: the same dict and flag give the same result in any process
-    (seeded; the table is built once per machine and cached).
+    (seeded; the table is built once per machine and cached). A campaign's engine runs
+    one encounter per core, so a missing table is built in this process (a pool of
+    builder processes inside every campaign worker would only fight for the same cores).
     """
     sc = scenario_from_dict(doc)
     sc = replace(sc, crew=replace(sc.crew, mode="follow" if crew_follows else "ignore"))
-    return simulate(sc).as_json()
+    return simulate(sc, world=build_world(sc, quiet=True, build_workers=1)).as_json()
 
 
 RECORD_NAME = "flight.rec"  #: the run's record file in a ``--report`` directory

@@ -188,8 +188,10 @@ def grid_from_dict(doc: dict[str, Any], with_wind: bool) -> TableGrid:
 
 
 def advisor_table(sc: Scenario, aircraft: Aircraft, true_atm: Atmosphere,
-                  adv_atm: Atmosphere, quiet: bool = True) -> BoomTable:
-    """The advisor's table (module notes)."""
+                  adv_atm: Atmosphere, quiet: bool = True,
+                  build_workers: int | None = None) -> BoomTable:
+    """The advisor's table (module notes); ``build_workers`` processes build it when it is
+    not cached (default all cores)."""
     if sc.advisor.table is not None:
         return BoomTable.load(sc.advisor.table)
     if sc.advisor.grid_file is not None:
@@ -198,11 +200,13 @@ def advisor_table(sc: Scenario, aircraft: Aircraft, true_atm: Atmosphere,
         grid = grid_from_dict(sc.advisor.grid, adv_atm.has_wind)
     else:
         grid = grid_around_flight(sc, true_atm, adv_atm.has_wind)
-    return cached_table(BuildInputs(aircraft, adv_atm, grid), quiet=quiet)
+    return cached_table(BuildInputs(aircraft, adv_atm, grid), quiet=quiet,
+                        workers=build_workers)
 
 
-def build_world(sc: Scenario, quiet: bool = True) -> World:
-    """The world of a scenario (module notes); the table is built once and cached.
+def build_world(sc: Scenario, quiet: bool = True, build_workers: int | None = None) -> World:
+    """The world of a scenario (module notes); the table is built once and cached (by
+    ``build_workers`` processes, default all cores).
 
     Raises
     ------
@@ -222,6 +226,6 @@ def build_world(sc: Scenario, quiet: bool = True) -> World:
     origin = (sc.start.lat_deg, sc.start.lon_deg)
     frame = LocalFrame.from_deg(*origin)
     aircraft = default_aircraft()
-    table = advisor_table(sc, aircraft, true_atm, adv_atm, quiet)
+    table = advisor_table(sc, aircraft, true_atm, adv_atm, quiet, build_workers)
     return World(true_atm, adv_atm, aircraft, zones, geo, truth_zones_of(zones, frame),
                  origin, table)

@@ -19,8 +19,6 @@ class ZoneInputError(ValueError):
     """A zone that cannot be used; the message names the field and value."""
 
 
-
-
 @dataclass(frozen=True)
 class TruthZone:
     """A protected zone in the path's local frame.
@@ -60,8 +58,22 @@ class TruthZone:
         Crossing-number test and clamped point-to-segment distance (*Computational
         Geometry in C*, 2nd ed., 1998, ch. 7; common practice).
         """
-        px = np.asarray(east, dtype=np.float64)[:, None]
-        py = np.asarray(north, dtype=np.float64)[:, None]
+        ex = np.asarray(east, dtype=np.float64).ravel()
+        ny = np.asarray(north, dtype=np.float64).ravel()
+        out = np.zeros(ex.shape[0], dtype=bool)
+        # Only points in the zone's bounding box grown by the margin can be covered: an
+        # exact pre-filter (most boom events of a flight land far from a given zone).
+        allv = np.concatenate(self.rings)
+        lo, hi = allv.min(axis=0) - self.margin_m, allv.max(axis=0) + self.margin_m
+        cand = np.flatnonzero((ex >= lo[0]) & (ex <= hi[0]) & (ny >= lo[1]) & (ny <= hi[1]))
+        if cand.size:
+            out[cand] = self._covers_all(ex[cand], ny[cand])
+        return out
+
+    def _covers_all(self, east: np.ndarray, north: np.ndarray) -> np.ndarray:
+        """:meth:`covers` without the pre-filter (every point tested against every edge)."""
+        px = east[:, None]
+        py = north[:, None]
         inside = np.zeros(px.shape[0], dtype=bool)
         near = np.zeros(px.shape[0], dtype=bool)
         for ring in self.rings:

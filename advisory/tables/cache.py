@@ -43,8 +43,13 @@ def table_key(inputs: BuildInputs) -> str:
     return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()
 
 
-def cached_table(inputs: BuildInputs, quiet: bool = False) -> BoomTable:
-    """Load the table for ``inputs`` from the cache, building it first if needed."""
+def cached_table(inputs: BuildInputs, quiet: bool = False,
+                 workers: int | None = None) -> BoomTable:
+    """Load the table for ``inputs`` from the cache, building it first if needed.
+
+    ``workers``: processes of the build (:func:`advisory.tables.build.build_table_arrays`;
+    default all cores, 1 builds in this process, as a campaign's worker does).
+    """
     path = cache_dir() / f"table-{table_key(inputs)[:24]}.boomtable"
     if path.exists():
         try:
@@ -57,7 +62,7 @@ def cached_table(inputs: BuildInputs, quiet: bool = False) -> BoomTable:
         print(f"boom-advisory: building the boom table for {inputs.aircraft.name} "
               f"(once; cached in {path.parent})", file=sys.stderr)
     t0 = time.monotonic()
-    arrays = build_table_arrays(inputs)
+    arrays = build_table_arrays(inputs, workers=workers)
     write_table_file(path, provenance(inputs, time.monotonic() - t0), arrays)
     return BoomTable.load(path)
 

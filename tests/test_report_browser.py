@@ -223,3 +223,16 @@ def test_truth_report_csv(truth_report) -> None:
     booms = [float(r[0]) for r in rows if r[6] not in ("", "0")]
     assert booms and 200.0 < booms[0] < 235.0  # the issue's T+229-235 s, less the margin
     assert 'href="coastal_approach_timeline.csv"' in truth_report.read_text(encoding="utf-8")
+
+
+def test_truth_report_pngs_carry_the_truth(truth_report) -> None:
+    # Issue 12: the PNG figures (matplotlib, optional) show the truth too: the timeline
+    # marks the missed span in the report's red (the same colour as the SVG's), the map
+    # has the truth's squares of where booms landed (its own colour bar).
+    if not have_matplotlib():
+        pytest.skip("matplotlib (the optional report extra) is not installed")
+    timeline = (truth_report.parent / "coastal_approach_timeline.png").read_bytes()
+    _w, _h, rows = read_png(timeline)
+    assert any(px == (0xE0, 0x00, 0x00) for row in rows for px in row)
+    assert (truth_report.parent / "coastal_approach_map.png").read_bytes()[:8] == \
+        b"\x89PNG\r\n\x1a\n"

@@ -1,5 +1,8 @@
 """The report's figures as PNG images, drawn with matplotlib when it is installed (the
-optional ``report`` extra): the map of a flight and its timeline.
+optional ``report`` extra): the map of a flight and its timeline, with the ground truth
+when the replay has one (as the SVG figures: where booms landed on the fixed scale
+:data:`~advisory.bench.figures.TRUTH_PSF_MAX`, the truth's arrivals per zone, and in red
+the spans where a boom was on its way into a zone while the status said clear or no boom).
 
 matplotlib is optional, so every function imports it inside (the stated exception to
 "imports at module top"); the package never needs it.
@@ -18,10 +21,13 @@ import numpy as np
 
 from advisory.bench.expect import Segment
 from advisory.bench.figures import (
+    MISSED_COLOUR,
     RAMP,
     STATUS_COLOURS,
+    TRUTH_PSF_MAX,
     extent,
     fire_groups,
+    missed_spans,
     scale_max,
     swath_quads,
     track_runs,
@@ -48,8 +54,10 @@ def _png(fig: Any) -> bytes:
     return buf.getvalue()
 
 
-def map_png(name: str, flight: dict[str, Any], zones: list[dict[str, Any]]) -> bytes:
-    """The map as a PNG image (needs matplotlib)."""
+def map_png(name: str, flight: dict[str, Any], zones: list[dict[str, Any]],
+            truth_fig: dict[str, Any] | None = None) -> bytes:
+    """The map as a PNG image (needs matplotlib); ``truth_fig``
+    (:func:`advisory.bench.replay_truth.figure_data`) adds where booms landed."""
     # matplotlib is optional (the ``report`` extra): imported only when drawing
     from matplotlib.collections import PolyCollection
     from matplotlib.colors import LinearSegmentedColormap, Normalize
@@ -76,11 +84,18 @@ def map_png(name: str, flight: dict[str, Any], zones: list[dict[str, Any]]) -> b
                             linewidths=0.3, edgecolors="face")
         ax.add_collection(pc)
         fig.colorbar(pc, ax=ax, label="ground overpressure, psf", shrink=0.7, fraction=0.04)
+    cells = (truth_fig or {}).get("cells", [])
+    if cells:
+        c = np.array(cells, dtype=float)
+        sc = ax.scatter(c[:, 1], c[:, 0], c=np.minimum(c[:, 2], TRUTH_PSF_MAX), cmap=cmap,
+                        norm=Normalize(0.0, TRUTH_PSF_MAX), marker="s", s=4, lw=0,
+                        alpha=0.6, label="booms that landed (truth)", zorder=1.5)
+        fig.colorbar(sc, ax=ax, label="truth, psf (fixed scale)", shrink=0.7, fraction=0.04)
     for z in zones:
         for i, ring in enumerate(z["rings"]):
             ax.fill([p[1] for p in ring], [p[0] for p in ring], color="#c0392b", alpha=0.35,
-                    lw=1.2, ec="#7b241c", label="no-boom zone" if z is zones[0] and i == 0
-                    else None)
+                    lw=1.2, ec="#7b241c", zorder=2, label="no-boom zone"
+                    if z is zones[0] and i == 0 else None)
         ring = z["rings"][0]
         ax.annotate(z["name"], (sum(p[1] for p in ring) / len(ring),
                                 sum(p[0] for p in ring) / len(ring)),
@@ -114,8 +129,12 @@ def map_png(name: str, flight: dict[str, Any], zones: list[dict[str, Any]]) -> b
     return _png(fig)
 
 
-def timeline_png(name: str, flight: dict[str, Any], segments: list[Segment]) -> bytes:
-    """The timeline as a PNG image (needs matplotlib)."""
+def timeline_png(name: str, flight: dict[str, Any], segments: list[Segment],
+                 truth: dict[str, Any] | None = None,
+                 truth_fig: dict[str, Any] | None = None) -> bytes:
+    """The timeline as a PNG image (needs matplotlib); with the replay's ``truth`` (its
+    JSON form) and ``truth_fig``, a panel of the truth's arrivals per zone and the missed
+    spans in red under the level band."""
     # matplotlib is optional (the ``report`` extra): imported only when drawing
     from matplotlib.figure import Figure
     from matplotlib.patches import Patch
@@ -126,8 +145,13 @@ def timeline_png(name: str, flight: dict[str, Any], segments: list[Segment]) -> 
         return np.array([np.nan if r[i] is None else r[i] for r in tr], dtype=float)
 
     t = col(0)
-    fig = Figure(figsize=(9, 5.2))
-    axes = fig.subplots(3, 1, sharex=True, gridspec_kw={"height_ratios": [3, 2, 1]})
+    with_truth = truth is not None
+    ratios = [3, 2, 2, 1] if with_truth else [3, 2, 1]
+    fig = Figure(figsize=(9, 6.8 if with_truth else 5.2))
+    axes = fig.subplots(len(ratios), 1, sharex=True, gridspec_kw={"height_ratios": ratios})
+    if with_truth:
+        _truth_panel(axes[2], truth or {}, truth_fig or {})
+        axes = [axes[0], axes[1], axes[3]]
     axes[0].plot(t, col(4), color="#1f4e79", label="Mach")
     axes[0].plot(t, col(5), color="#c0392b", ls="--", label="cutoff Mach")
     axes[0].set_ylabel("Mach")
@@ -142,14 +166,34 @@ def timeline_png(name: str, flight: dict[str, Any], segments: list[Segment]) -> 
                 ax.axvline(s.t_start_s, color=STATUS_COLOURS[s.status], ls=":", lw=1)
     axes[2].set_yticks([])
     axes[2].set_ylabel("level")
+    for a, b, _zid in missed_spans(truth):
+        axes[2].axvspan(a, max(b, a + 0.5), ymin=0.0, ymax=0.35, color=MISSED_COLOUR)
     axes[2].set_xlabel("time after the first input, s")
     handles = [Patch(color=STATUS_COLOURS[k], label=k) for k in STATUS_COLOURS
                if any(s.status == k for s in segments)]
     if handles:
         axes[2].legend(handles=handles, loc="upper center", ncol=len(handles), fontsize=7,
                        bbox_to_anchor=(0.5, -0.9))
-    axes[0].set_title(f"{name}: Mach, altitude and advisory level")
+    axes[0].set_title(f"{name}: Mach, altitude and advisory level"
+                      + ("; red: missed (truth)" if with_truth else ""))
     fig.tight_layout()
     return _png(fig)
 
 
+
+
+def _truth_panel(ax: Any, truth: dict[str, Any], truth_fig: dict[str, Any]) -> None:
+    """The truth's arrivals at each zone: overpressure (psf, fixed scale) against time."""
+    arrivals = truth_fig.get("arrivals", {})
+    for e in truth.get("exposures", []):
+        pts = np.array(arrivals.get(e["zone_id"], []), dtype=float).reshape(-1, 3)
+        if pts.size:
+            ax.plot(pts[:, 0], np.minimum(pts[:, 1], TRUTH_PSF_MAX), ".", ms=3,
+                    label=f"{e['zone_id']} (truth)")
+    ax.set_ylim(0.0, TRUTH_PSF_MAX)
+    ax.set_ylabel("truth, psf")
+    if truth.get("exposures"):
+        ax.legend(loc="upper right", fontsize=7)
+    else:
+        ax.text(0.5, 0.5, "no boom reached a zone (truth)", transform=ax.transAxes,
+                ha="center", va="center", fontsize=8, color="#555")

@@ -118,8 +118,9 @@ def _flight_section(res: ReplayResult, out_dir: Path, pngs: bool) -> str:
                          "boom was on its way into a zone while the status said clear or no "
                          "boom.</figcaption></figure>")
         if pngs:
-            for kind, data in (("map", map_png(name, res.flight, zones)),
-                               ("timeline", timeline_png(name, res.flight, res.segments))):
+            for kind, data in (("map", map_png(name, res.flight, zones, res.truth_figure)),
+                               ("timeline", timeline_png(name, res.flight, res.segments,
+                                                         res.truth, res.truth_figure))):
                 fname = f"{name}_{kind}.png"
                 (out_dir / fname).write_bytes(data)
                 b64 = base64.b64encode(data).decode("ascii")

@@ -131,3 +131,36 @@ def test_no_truth_without_air_data(tmp_path):
     ft = flight_truth(res)
     assert ft.score.exposures == [] and truth_lines(ft.score.as_json()) == [
         "truth: no boom reached a zone"]
+
+
+def _without_timing(obj):
+    """A replay --json object without its wall-clock figures (they vary run to run)."""
+    if isinstance(obj, dict):
+        return {k: _without_timing(v) for k, v in obj.items()
+                if k not in ("wall_s", "speedup")}
+    if isinstance(obj, list):
+        return [_without_timing(v) for v in obj]
+    return obj
+
+
+@pytest.mark.slow
+def test_replay_truth_of_many_logs_on_a_dask_localcluster(capsys):
+    # Issue 12, item 8: `replay` of many logs can use the campaign's engine. Two bundled
+    # flights replayed with their truth on a real LocalCluster (2 workers, 127.0.0.1) give
+    # what one local process gives, in the order the logs were named.
+    pytest.importorskip("dask.distributed")
+    logs = ["replay_logs/turn_onto_park", "replay_logs/below_cutoff"]
+    outs = []
+    for engine in (["--jobs", "1"], ["--workers", "2"]):
+        assert main(["replay", *logs, "--truth", "--json", *engine]) == 0
+        outs.append(json.loads(capsys.readouterr().out))
+    assert [r["name"] for r in outs[1]["results"]] == ["turn_onto_park", "below_cutoff"]
+    assert all("truth" in r for r in outs[1]["results"])
+    assert _without_timing(outs[0]) == _without_timing(outs[1])
+
+
+def test_replay_engine_options_are_checked(capsys):
+    # One line and exit 2 for a bad engine option (issue 15's rule for commands).
+    assert main(["replay", "replay_logs/below_cutoff", "--workers", "0"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--workers: 0" in err[0]

@@ -4,7 +4,8 @@ Every engine runs the same task, :func:`run_pair` (one encounter flown twice: th
 ignores the cues, then follows them), on the same scenario dicts, and yields the
 records as they complete; the caller orders them by index. An encounter's result
 depends only on its scenario (its own seed), so the engine changes the time taken, not
-the results.
+the results. ``map`` runs any picklable task the same way (``replay`` of many logs uses
+it: :func:`advisory.bench.batch.replay_many`).
 
 Engines
 -------
@@ -38,6 +39,8 @@ from advisory.bench.campaign_sample import Encounter
 
 #: ``run_encounter(doc, crew_follows) -> simulate --json object`` (a picklable function).
 Runner = Callable[[dict[str, Any], bool], dict[str, Any]]
+#: Any picklable task of one argument, for :meth:`PoolEngine.map` / :meth:`DaskEngine.map`.
+Task = Callable[[Any], Any]
 
 INSTALL_HINT = "Dask is not installed: pip install 'boom-advisory[campaign]'"
 #: Seconds to wait for an existing scheduler to answer.
@@ -97,6 +100,20 @@ class PoolEngine:
             futures = [ex.submit(run_pair, e.index, e.doc, runner) for e in encounters]
             for fut in as_completed(futures):
                 yield fut.result()
+
+    def map(self, task: Task, items: Sequence[Any]) -> Iterator[tuple[int, Any]]:
+        """``(i, task(items[i]))`` as each completes (any order); a task's exception is
+        raised here."""
+        jobs = min(self.size, len(items))
+        if jobs <= 1:
+            for i, item in enumerate(items):
+                yield i, task(item)
+            return
+        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
+        with ProcessPoolExecutor(max_workers=jobs, mp_context=mp.get_context(method)) as ex:
+            futures = {ex.submit(task, item): i for i, item in enumerate(items)}
+            for fut in as_completed(futures):
+                yield futures[fut], fut.result()
 
 
 def _dask() -> Any:
@@ -174,6 +191,20 @@ class DaskEngine:
                 except Exception as exc:  # a lost worker: that encounter fails, not all
                     yield {"index": futures[fut], "ignore": None, "follow": None,
                            "error": f"{type(exc).__name__}: {' '.join(str(exc).split())}"}
+        finally:
+            client.close()
+            if cluster is not None:
+                cluster.close()
+
+    def map(self, task: Task, items: Sequence[Any]) -> Iterator[tuple[int, Any]]:
+        """``(i, task(items[i]))`` as each completes on the cluster (any order); a task's
+        exception is raised here."""
+        dd = _dask()
+        client, cluster = self._client()
+        try:
+            futures = {client.submit(task, item, pure=False): i for i, item in enumerate(items)}
+            for fut in dd.as_completed(list(futures)):
+                yield futures[fut], fut.result()
         finally:
             client.close()
             if cluster is not None:

@@ -348,3 +348,15 @@ def _min_by(key: np.ndarray, val: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     out = np.full(uk.size, np.inf)
     np.minimum.at(out, inv, val)
     return uk, out
+
+
+def add_truth(res: ReplayResult, aircraft: str | None, figure: bool) -> None:
+    """Trace the truth of a replayed log and keep its score (and, with ``figure``, what the
+    report draws of it) on ``res``; a note instead when the log holds no input."""
+    if not res.inputs_fed:
+        res.notes.append("--truth: the log holds no input")
+        return
+    ft = flight_truth(res, aircraft)
+    res.truth = truth_json(ft)
+    if figure:
+        res.truth_figure = figure_data(ft)

@@ -10,8 +10,9 @@ import argparse
 import json
 import sys
 
-from advisory.bench.batch import replay_many
-from advisory.bench.replay_truth import figure_data, flight_truth, truth_json, truth_lines
+from advisory.bench.batch import TruthRequest, replay_many
+from advisory.bench.campaign_engine import DaskEngine
+from advisory.bench.replay_truth import truth_lines
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult, cue_lines, read_notes, summary_table
 from advisory.bench.scenario import ReplayError, prepare
@@ -23,6 +24,8 @@ from advisory.cli.options import (
     add_zones_option,
 )
 from advisory.schema import SAFETY_CAUTION
+
+MAX_WORKERS = 1024  #: most Dask workers a local cluster may be asked for
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -70,8 +73,15 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--clock", choices=("auto", "recorded", "schedule"), default="auto",
                    help="poll times: recorded outputs' times (auto when present) or the "
                         "loop's schedule")
-    p.add_argument("--jobs", type=int, default=0,
-                   help="worker processes for several logs (default: one per core)")
+    engine = p.add_mutually_exclusive_group()
+    engine.add_argument("--jobs", type=int, default=0,
+                        help="worker processes for several logs (default: one per core)")
+    engine.add_argument("--workers", type=int, metavar="K",
+                        help="replay the logs on a local Dask cluster of K worker "
+                             "processes on 127.0.0.1 (pip install 'boom-advisory[campaign]')")
+    engine.add_argument("--scheduler", metavar="ADDRESS",
+                        help="replay the logs on the Dask scheduler at ADDRESS, e.g. "
+                             "tcp://host:8786 (the workers must see the log files)")
 
 
 def _print_result(res: ReplayResult) -> None:
@@ -98,15 +108,20 @@ def _print_result(res: ReplayResult) -> None:
         print(f"  matches {res.setup.expect}")
 
 
-def _add_truth(res: ReplayResult, aircraft: str | None, figure: bool) -> None:
-    """Trace the truth of a replayed log and keep its score (and report data) on it."""
-    if not res.inputs_fed:
-        res.notes.append("--truth: the log holds no input")
-        return
-    ft = flight_truth(res, aircraft)
-    res.truth = truth_json(ft)
-    if figure:
-        res.truth_figure = figure_data(ft)
+def _engine(args: argparse.Namespace) -> DaskEngine | None:
+    """The Dask engine ``--workers`` / ``--scheduler`` ask for (None: local processes)."""
+    if args.scheduler is not None:
+        if not args.scheduler.strip():
+            raise ReplayError("--scheduler: empty address")
+        engine = DaskEngine(address=args.scheduler.strip())
+    elif args.workers is not None:
+        if not 1 <= args.workers <= MAX_WORKERS:
+            raise ReplayError(f"--workers: {args.workers} is not in 1..{MAX_WORKERS}")
+        engine = DaskEngine(workers=args.workers)
+    else:
+        return None
+    engine.check()  # Dask missing: one line with the install hint, before any work
+    return engine
 
 
 def run_replay(args: argparse.Namespace) -> int:
@@ -115,6 +130,7 @@ def run_replay(args: argparse.Namespace) -> int:
         raise ReplayError("--send: give exactly one LOG to send")
     if args.jobs < 0:
         raise ReplayError(f"--jobs: {args.jobs} must be >= 0")
+    engine = _engine(args)
     human = not args.json
     if human:
         print(SAFETY_CAUTION)
@@ -125,9 +141,8 @@ def run_replay(args: argparse.Namespace) -> int:
                       clock=args.clock, quiet=args.json)
               for log in args.logs]
     results = []
-    for res in replay_many(setups, args.jobs or None):
-        if args.truth:
-            _add_truth(res, args.aircraft, bool(args.report))
+    truth = TruthRequest(args.aircraft, bool(args.report)) if args.truth else None
+    for res in replay_many(setups, args.jobs or None, truth=truth, engine=engine):
         results.append(res)
         if human:
             _print_result(res)

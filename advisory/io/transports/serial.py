@@ -46,6 +46,7 @@ class SerialTransport(BaseTransport):
     """
 
     is_stream = True
+    retry_open = True  #: a port absent at start may be plugged in later
 
     def __init__(self, url: str, role: str = "input") -> None:
         self.url = url

@@ -144,3 +144,37 @@ def test_bad_record_limits_are_one_line_and_exit_2(tmp_path, opt, value,
     assert out.returncode == 2
     lines = [ln for ln in out.stderr.splitlines() if opt in ln]
     assert len(lines) == 1 and value in lines[0], out.stderr
+
+
+@pytest.mark.slow
+def test_rebuilt_tables_are_deleted_but_the_one_in_force_and_the_one_before(
+        tmp_path, monkeypatch) -> None:
+    # issue 15 item 9: rebuilt tables piled up in TMPDIR and were never deleted
+    import tempfile
+
+    from advisory.physics.aircraft import default_aircraft
+    from advisory.physics.atmosphere import standard_atmosphere
+    from advisory.tables.build import BuildInputs, build_table_arrays, provenance
+    from advisory.tables.manager import TableManager
+    from advisory.tables.store import write_table_file
+    from advisory.tables.table import BoomTable
+    from tests.test_rebuild import TINY, wait_for_swap
+
+    tmpdir = tmp_path / "tmp"
+    tmpdir.mkdir()
+    monkeypatch.setattr(tempfile, "tempdir", str(tmpdir))  # the manager's TMPDIR
+    inputs = BuildInputs(default_aircraft(), standard_atmosphere(), TINY)
+    first = tmp_path / "first.boomtable"
+    write_table_file(first, provenance(inputs, 0.0), build_table_arrays(inputs, workers=1))
+    manager = TableManager(BoomTable.load(first), inputs)
+    try:
+        for k in (5.0, 10.0, 15.0):
+            manager.submit_atmosphere(standard_atmosphere(temp_offset_k=k))
+            assert wait_for_swap(manager)
+        left = sorted(tmpdir.rglob("*.boomtable"))
+        assert len(left) == 2 and manager.table.path in map(str, left)
+        assert manager.table.header["atmosphere"]["temp_offset_k"] == 15.0
+    finally:
+        manager.close()
+    assert list(tmpdir.iterdir()) == []  # the private directory is gone
+    assert first.exists()  # a table the manager did not write is never deleted

@@ -29,7 +29,14 @@ In both cases a frame received at the same instant as a poll is fed first.
 Which bytes are fed: the raw-input records (kind 3, garbage included); a log without raw
 input records has its CRC-checked frame payloads (kind 1) framed again and fed instead.
 A torn last record (power cut mid-write) and damaged stretches inside the file are
-reported and skipped by the reader; everything else replays. Record events are read only
+reported and skipped by the reader; everything else replays.
+
+Damaged logs: a record whose time is not a finite number, or a recorded output that
+cannot be decoded, is skipped and counted (``bad_records``). A jump forward by more than
+:data:`MAX_GAP_S` or back by more than :data:`BACKWARDS_SLACK_S` between two records
+splits the log into segments: the replay says so in its notes and goes on with the next
+segment :data:`SEGMENT_PAUSE_S` after the last record of the previous one on its own
+clock (so a far-future timestamp costs a few polls, not years of them). Record events are read only
 through :func:`advisory.io.records.decode_event` (their codes, never their wording).
 
 Setting a replay up is :mod:`advisory.bench.scenario` (:func:`prepare` is re-exported
@@ -44,7 +51,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import asdict
+from dataclasses import asdict, replace
 
 from advisory.bench.collect import FlightCollector
 from advisory.bench.expect import compare_expected, load_expected, segments_of
@@ -73,6 +80,11 @@ Control = tuple[float, str, str]  #: (monotonic s, kind, text) of a recorded lin
 #: status frame then), and whether it came after the recorded ``stopping`` event.
 Poll = tuple[float, float, dict[str, int] | None, bool]
 FEED, CONTROL, POLL = 1, 0, 2  #: event kinds; at equal times: control, then feed, then poll
+MAX_GAP_S = 300.0  #: a longer jump forward between two records starts a new segment, s
+#: Records may be out of time order by this much (written by different threads of a
+#: service); a longer step back starts a new segment, s.
+BACKWARDS_SLACK_S = 1.0
+SEGMENT_PAUSE_S = 10.0  #: the replay's clock from one segment to the next, s
 
 
 class _Pacer:
@@ -141,6 +153,57 @@ def _last_run(records: list[Record], version: int) -> tuple[list[Record], list[s
     return records, []
 
 
+def _segments(records: list[Record]) -> tuple[list[Record], int, list[str]]:
+    """The records on one continuous clock: (records, bad, notes).
+
+    Records whose times are not finite are dropped (``bad``); after a jump forward by more
+    than :data:`MAX_GAP_S` or back by more than :data:`BACKWARDS_SLACK_S` the following
+    records are shifted to go on :data:`SEGMENT_PAUSE_S` after the last one (one note
+    per segment).
+    """
+    out: list[Record] = []
+    bad = 0
+    notes: list[str] = []
+    shift = 0.0
+    last: float | None = None
+    for r in records:
+        if not (math.isfinite(r.mono_s) and math.isfinite(r.utc_s)):
+            bad += 1
+            continue
+        m = r.mono_s + shift
+        if last is not None and (m - last > MAX_GAP_S or m < last - BACKWARDS_SLACK_S):
+            notes.append(f"time jumps by {m - last:+.6g} s at byte {r.offset}: new segment "
+                         f"(replayed {SEGMENT_PAUSE_S:g} s after the previous one)")
+            shift += last + SEGMENT_PAUSE_S - m
+            m = last + SEGMENT_PAUSE_S
+        out.append(replace(r, mono_s=m) if shift else r)
+        last = m if last is None else max(last, m)
+    if bad:
+        notes.append(f"{bad} record(s) with a time that is not a number skipped")
+    return out, bad, notes
+
+
+def _recorded_outputs(records: list[Record]) -> tuple[list[Chunk], list[dict | None], int]:
+    """The recorded outputs that decode, the counters of each (None: not a status frame),
+    and how many could not be decoded (skipped)."""
+    outputs: list[Chunk] = []
+    counters: list[dict | None] = []
+    bad = 0
+    for r in records:
+        if r.kind != KIND_OUTPUT:
+            continue
+        p = bytes(r.data)
+        try:
+            f = decode_frame(p)
+            c = f.fields["counters"] if f.type == "status" else None
+        except (ValueError, TypeError, KeyError):
+            bad += 1
+            continue
+        outputs.append((r.mono_s, r.utc_s, p))
+        counters.append(c)
+    return outputs, counters, bad
+
+
 def _controls(records: list[Record], version: int) -> tuple[bool, list[Control]]:
     """(recorded by a ``run`` service, link and stop events as (mono, kind, text)).
 
@@ -168,14 +231,14 @@ def _controls(records: list[Record], version: int) -> tuple[bool, list[Control]]
     return service, out
 
 
-def _recorded_polls(recorded: list[Chunk], controls: list[Control]) -> list[Poll]:
+def _recorded_polls(recorded: list[Chunk], counters: list[dict | None],
+                    controls: list[Control]) -> list[Poll]:
     """The polls of the recorded run, in time order (one per distinct output time)."""
     by_time: dict[tuple[float, float], dict[str, int] | None] = {}
-    for m, u, p in recorded:
-        f = decode_frame(p)
+    for (m, u, _p), c in zip(recorded, counters):
         key = (m, u)
-        if f.type == "status":
-            by_time[key] = f.fields["counters"]
+        if c is not None:
+            by_time[key] = c
         else:
             by_time.setdefault(key, None)
     stop_t = next((m for m, k, _t in controls if k == "stop"), math.inf)
@@ -326,13 +389,16 @@ def replay_log(setup: ReplaySetup, loop: AdvisoryLoop | None = None) -> ReplayRe
     wall0 = time.perf_counter()
     records, report = read_records(setup.log)
     records, notes = _last_run(records, report.version)
+    records, bad, seg_notes = _segments(records)
     loop = loop or make_loop(setup)
     inputs = _inputs(records, loop.framing)
-    recorded = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_OUTPUT]
+    recorded, recorded_counters, bad_out = _recorded_outputs(records)
+    if bad_out:
+        seg_notes.append(f"{bad_out} recorded output(s) that cannot be decoded skipped")
     service, controls = _controls(records, report.version)
     del records
     res = ReplayResult(setup=setup, read=asdict(report), recorded_outputs=len(recorded),
-                       notes=notes)
+                       notes=notes + seg_notes, bad_records=bad + bad_out)
     if not inputs:
         res.wall_s = time.perf_counter() - wall0
         return res
@@ -341,7 +407,8 @@ def replay_log(setup: ReplaySetup, loop: AdvisoryLoop | None = None) -> ReplayRe
     if setup.clock == "recorded" and not recorded:
         raise ReplayError(f"--clock recorded: {setup.log} holds no recorded outputs")
     use_recorded = bool(recorded) and setup.clock != "schedule"
-    polls = _recorded_polls(recorded, controls) if use_recorded or service else []
+    polls = (_recorded_polls(recorded, recorded_counters, controls)
+             if use_recorded or service else [])
     collector = FlightCollector(loop, res.t0_monotonic) if setup.collect else None
     driver = _Driver(loop, carried_counters(polls) if service else ())
     sender = _Sender(setup.send, loop.framing) if setup.send else None

@@ -486,12 +486,17 @@ class RecordReader:
         return stop + 4
 
     def __iter__(self) -> Iterator[Record]:
+        return self.records_from(HEADER_LEN)
+
+    def records_from(self, offset: int) -> Iterator[Record]:
+        """The records from byte ``offset`` on (a record's :attr:`Record.offset`, or the
+        end of the header); the report counts what this iteration finds."""
         mm = self._mm
         if mm is None:
             return
         rep = self.report
         end = len(mm)
-        pos = HEADER_LEN
+        pos = max(HEADER_LEN, offset)
         while pos < end:
             stop = self._valid_at(pos)
             if stop < 0:

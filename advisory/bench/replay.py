@@ -57,6 +57,7 @@ import math
 import time
 from collections.abc import Iterator
 from dataclasses import asdict
+from typing import Any, cast
 
 from advisory.bench.collect import FlightCollector
 from advisory.bench.expect import compare_expected, load_expected, segments_of
@@ -260,8 +261,8 @@ class _Run:
         others.sort()
         final_done = False
         fed = 0
-        event: tuple
-        for event in heapq.merge(inputs, others):
+        merged = cast(Iterator[tuple[Any, ...]], heapq.merge(inputs, others))
+        for event in merged:
             t, kind, i = event[0], event[1], event[2]
             if polls is None:
                 self.poll_due(t, offset, inclusive=False)

@@ -126,6 +126,9 @@ def test_run_flooded_over_udp_keeps_its_record_under_the_cap(tmp_path, small_tab
     # the service counts what rotation dropped (its final status frame and stats event)
     last_status = [f for _t, f in listener.frames if f.type == "status"][-1]
     assert last_status.fields["counters"]["record_dropped"] > 0
+    for f in files:  # each file names the settings it was recorded with
+        first = read_records(f)[0][0]
+        assert first.kind == KIND_EVENT and decode_event(first.data).code == "start"
     records, rep = read_records(record)
     stats = [decode_event(r.data, rep.version) for r in records if r.kind == KIND_EVENT]
     final = [e for e in stats if e.code == "stats" and e.fields["kind"] == "final"]

@@ -165,8 +165,10 @@ class Recorder:
     ``max_bytes``, the file is renamed ``PATH.1`` (an older ``PATH.1`` becomes
     ``PATH.2``, and so on), at most ``keep`` of them are kept (the oldest is deleted,
     its records counted in :attr:`rotated_out`), and a new ``PATH`` is started with its
-    own header. Every kept file is a complete record file of its own; nothing within the
-    cap is lost. A single record larger than the cap goes alone into a fresh file.
+    own header, then a copy of the last ``start`` event (so each file names the settings
+    it was recorded with). Every kept file is a complete record file of its own; nothing
+    within the cap is lost. A single record larger than the cap goes alone into a fresh
+    file.
 
     Every record goes to the operating system in one ``write`` call whose result is
     checked: a short write (full disk, file-size limit) is counted as lost, never as
@@ -224,6 +226,7 @@ class Recorder:
         self._size = 0
         self._file_records = 0  # records this recorder wrote into the current file
         self._kept: list[int] = []  # the same for PATH.1, PATH.2, ... (ours only)
+        self._start: bytes | None = None  # the last start event, repeated after rotation
         self._open_file()
         self._last_sync = time.monotonic()
 
@@ -308,6 +311,10 @@ class Recorder:
         while len(self._kept) > self.keep:
             self.rotated_out += self._kept.pop()
         self._open_file()
+        if self._start is not None and self._fd is not None:
+            now = time.monotonic()
+            rec = encode_record(KIND_EVENT, self._start, time.time(), now)
+            self._size = _write_all(self._fd, rec, self._size)
 
     def record_input(self, payload: bytes, rx_monotonic: float | None = None,
                      rx_utc: float | None = None, channel: int = 0) -> bool:
@@ -332,7 +339,10 @@ class Recorder:
         ValueError
             An unknown code or the wrong fields (a programming error, not bad input).
         """
-        return self.write(KIND_EVENT, encode_event(code, **fields), channel=channel)
+        data = encode_event(code, **fields)
+        if code == "start":
+            self._start = data
+        return self.write(KIND_EVENT, data, channel=channel)
 
     def flush(self) -> None:
         """fsync now."""

@@ -289,7 +289,21 @@ class Recorder:
             return True
 
     def _rotate(self) -> None:
-        """Close the full file, shift the rotated names, start a fresh file."""
+        """Close the full file, shift the rotated names, start a fresh file.
+
+        When a rename fails, the recorder goes on appending to ``path`` (whatever file
+        that names now) rather than stop recording.
+        """
+        try:
+            self._shift_files()
+        finally:
+            if self._fd is None:
+                try:
+                    self._open_file()
+                except (OSError, RecordFormatError) as exc:
+                    self.last_error = f"record rotation failed: {exc}"
+
+    def _shift_files(self) -> None:
         fd, self._fd = self._fd, None
         if fd is not None:
             try:
@@ -355,7 +369,8 @@ class Recorder:
 
     def close(self) -> None:
         """fsync and close (safe twice)."""
-        fd, self._fd = self._fd, None
+        with self._lock:
+            fd, self._fd = self._fd, None
         if fd is not None:
             try:
                 os.fsync(fd)

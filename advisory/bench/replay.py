@@ -29,8 +29,18 @@ In both cases a frame received at the same instant as a poll is fed first.
 Which bytes are fed: the raw-input records (kind 3, garbage included); a log without raw
 input records has its CRC-checked frame payloads (kind 1) framed again and fed instead.
 A torn last record (power cut mid-write) and damaged stretches inside the file are
-reported and skipped by the reader; everything else replays. Record events are read only
-through :func:`advisory.io.records.decode_event` (their codes, never their wording).
+reported and skipped by the reader; everything else replays.
+
+Streaming: the log is read in two passes (:mod:`advisory.bench.logscan`): a first one
+keeps only the small things (link events, recorded outputs, where the inputs are), the
+second feeds the inputs one record at a time, so memory does not grow with the inputs.
+
+Damaged logs: a record whose time is not a finite number, or a recorded output that
+cannot be decoded, is skipped and counted (``bad_records``). A jump forward by more than
+:data:`MAX_GAP_S` or back by more than :data:`BACKWARDS_SLACK_S` between two records
+splits the log into segments: the replay says so in its notes and goes on with the next
+segment :data:`SEGMENT_PAUSE_S` after the last record of the previous one on its own
+clock (so a far-future timestamp costs a few polls, not years of them).
 
 Setting a replay up is :mod:`advisory.bench.scenario` (:func:`prepare` is re-exported
 here), the expected advisories :mod:`advisory.bench.expect`, the result
@@ -42,37 +52,39 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import heapq
 import math
 import time
+from collections.abc import Iterator
 from dataclasses import asdict
+from typing import Any, cast
 
 from advisory.bench.collect import FlightCollector
 from advisory.bench.expect import compare_expected, load_expected, segments_of
+from advisory.bench.logscan import (
+    BACKWARDS_SLACK_S,
+    FEED,
+    MAX_GAP_S,
+    SEGMENT_PAUSE_S,
+    Chunk,
+    Control,
+    InputEvent,
+    iter_inputs,
+    scan_log,
+)
 from advisory.bench.result import ReplayResult
 from advisory.bench.scenario import ReplayError, ReplaySetup, make_loop, prepare
 from advisory.io.framing import DatagramReader, StreamDeframer, datagram, frame_stream
-from advisory.io.messages import decode_frame
-from advisory.io.records import (
-    KIND_EVENT,
-    KIND_INPUT,
-    KIND_OUTPUT,
-    KIND_RAW_INPUT,
-    Record,
-    decode_event,
-    read_records,
-)
 from advisory.io.transports import TransportError, open_transport
 from advisory.schema import SERVICE_COUNTERS
 from advisory.service.loop import AdvisoryLoop
 
-__all__ = ["prepare", "replay_log"]
+__all__ = ["BACKWARDS_SLACK_S", "MAX_GAP_S", "SEGMENT_PAUSE_S", "prepare", "replay_log"]
 
-Chunk = tuple[float, float, bytes]  #: (monotonic s, UTC s, bytes)
-Control = tuple[float, str, str]  #: (monotonic s, kind, text) of a recorded link event
 #: A recorded poll: monotonic s, UTC s, the counters of its status frame (None: no
 #: status frame then), and whether it came after the recorded ``stopping`` event.
 Poll = tuple[float, float, dict[str, int] | None, bool]
-FEED, CONTROL, POLL = 1, 0, 2  #: event kinds; at equal times: control, then feed, then poll
+CONTROL, POLL = 0, 2  #: event kinds; at equal times: control, then feed (FEED), then poll
 
 
 class _Pacer:
@@ -122,60 +134,14 @@ class _Sender:
         self.transport.close()
 
 
-def _inputs(records: list[Record], framing: str) -> list[Chunk]:
-    """(mono, utc, bytes) to feed: raw input records, else re-framed payload records."""
-    raw = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_RAW_INPUT]
-    if raw:
-        return raw
-    wrap = frame_stream if framing == "stream" else datagram
-    return [(r.mono_s, r.utc_s, wrap(bytes(r.data))) for r in records if r.kind == KIND_INPUT]
-
-
-def _last_run(records: list[Record], version: int) -> tuple[list[Record], list[str]]:
-    """The records of the last run in the file (from its ``start`` event) and a note."""
-    starts = [i for i, r in enumerate(records)
-              if r.kind == KIND_EVENT and decode_event(r.data, version).code == "start"]
-    if len(starts) > 1:  # several runs appended to one file: each has its own clock
-        return records[starts[-1]:], [f"{len(starts)} runs recorded in this file; replaying "
-                                      f"the last one (record {starts[-1]} on)"]
-    return records, []
-
-
-def _controls(records: list[Record], version: int) -> tuple[bool, list[Control]]:
-    """(recorded by a ``run`` service, link and stop events as (mono, kind, text)).
-
-    Read from the typed events' codes and fields (record format 2), or from the text
-    lines of format-1 records, always through :func:`~advisory.io.records.decode_event`.
-    """
-    service = False
-    out = []
-    for r in records:
-        if r.kind != KIND_EVENT:
-            continue
-        ev = decode_event(r.data, version)
-        reason = ev.fields.get("reason")
-        if ev.code == "start":
-            service = True
-        elif ev.code == "input_lost":
-            out.append((r.mono_s, "lost", str(reason)))
-        elif ev.code == "input_open_failed":
-            out.append((r.mono_s, "open_failed", str(reason)))
-        elif ev.code == "input_open":
-            out.append((r.mono_s, "open", str(ev.fields.get("url"))))
-        elif ev.code == "stopping":
-            out.append((r.mono_s, "stop", "service stopped" if reason == "stop requested"
-                        else f"service stopped ({reason})"))
-    return service, out
-
-
-def _recorded_polls(recorded: list[Chunk], controls: list[Control]) -> list[Poll]:
+def _recorded_polls(recorded: list[Chunk], counters: list[dict | None],
+                    controls: list[Control]) -> list[Poll]:
     """The polls of the recorded run, in time order (one per distinct output time)."""
     by_time: dict[tuple[float, float], dict[str, int] | None] = {}
-    for m, u, p in recorded:
-        f = decode_frame(p)
+    for (m, u, _p), c in zip(recorded, counters):
         key = (m, u)
-        if f.type == "status":
-            by_time[key] = f.fields["counters"]
+        if c is not None:
+            by_time[key] = c
         else:
             by_time.setdefault(key, None)
     stop_t = next((m for m, k, _t in controls if k == "stop"), math.inf)
@@ -279,23 +245,32 @@ class _Run:
             self.poll(due, due + offset)
             due = self.loop.next_due()
 
-    def drive(self, inputs: list[Chunk], controls: list[Control],
-              polls: list[Poll] | None) -> None:
-        """Run every event in time order; ``polls`` None: the loop's schedule."""
-        events = [(m, FEED, i) for i, (m, _u, _d) in enumerate(inputs)]
-        events += [(m, CONTROL, i) for i, (m, _k, _t) in enumerate(controls)]
+    def drive(self, inputs: Iterator[InputEvent], offset: float, last_input: float,
+              controls: list[Control], polls: list[Poll] | None) -> int:
+        """Run every event in time order; ``polls`` None: the loop's schedule.
+
+        ``inputs`` come one at a time in file order (:func:`~advisory.bench.logscan.
+        iter_inputs`) and are merged with the recorded events; ``offset`` is UTC minus
+        monotonic time of the first input, ``last_input`` the monotonic time of the last.
+        Returns the number of inputs fed.
+        """
+        others: list[tuple[float, int, int]] = [(m, CONTROL, i)
+                                                for i, (m, _k, _t) in enumerate(controls)]
         if polls is not None:
-            events += [(m, POLL, i) for i, (m, _u, _c, _f) in enumerate(polls)]
-        events.sort()
-        offset = inputs[0][1] - inputs[0][0]  # utc - mono of the latest input
+            others += [(m, POLL, i) for i, (m, _u, _c, _f) in enumerate(polls)]
+        others.sort()
         final_done = False
-        for t, kind, i in events:
+        fed = 0
+        merged = cast(Iterator[tuple[Any, ...]], heapq.merge(inputs, others))
+        for event in merged:
+            t, kind, i = event[0], event[1], event[2]
             if polls is None:
                 self.poll_due(t, offset, inclusive=False)
             if kind == FEED:
-                mono, utc, data = inputs[i]
-                self.feed(mono, utc, data)
-                offset = utc - mono
+                utc, data = event[3], event[4]
+                self.feed(t, utc, data)
+                offset = utc - t
+                fed += 1
             elif kind == CONTROL:
                 self.driver.control(controls[i][1], controls[i][2])
             elif polls is not None:
@@ -307,7 +282,8 @@ class _Run:
                 self.poll(mono, utc, final)
                 final_done = final_done or final
         if polls is None:
-            self.poll_due(inputs[-1][0], offset, inclusive=True)
+            self.poll_due(last_input, offset, inclusive=True)
+        return fed
 
 
 def replay_log(setup: ReplaySetup, loop: AdvisoryLoop | None = None) -> ReplayResult:
@@ -324,36 +300,35 @@ def replay_log(setup: ReplaySetup, loop: AdvisoryLoop | None = None) -> ReplayRe
     ReplayResult
     """
     wall0 = time.perf_counter()
-    records, report = read_records(setup.log)
-    records, notes = _last_run(records, report.version)
+    scan = scan_log(setup.log)
     loop = loop or make_loop(setup)
-    inputs = _inputs(records, loop.framing)
-    recorded = [(r.mono_s, r.utc_s, bytes(r.data)) for r in records if r.kind == KIND_OUTPUT]
-    service, controls = _controls(records, report.version)
-    del records
-    res = ReplayResult(setup=setup, read=asdict(report), recorded_outputs=len(recorded),
-                       notes=notes)
-    if not inputs:
+    recorded = scan.recorded
+    res = ReplayResult(setup=setup, read=asdict(scan.report), recorded_outputs=len(recorded),
+                       notes=scan.notes, bad_records=scan.bad_records)
+    if scan.first_input is None:
         res.wall_s = time.perf_counter() - wall0
         return res
-    res.t0_monotonic, res.t0_utc = inputs[0][0], inputs[0][1]
-    res.duration_s = inputs[-1][0] - inputs[0][0]
+    res.t0_monotonic, res.t0_utc = scan.first_input
+    res.duration_s = scan.last_input_mono - res.t0_monotonic
     if setup.clock == "recorded" and not recorded:
         raise ReplayError(f"--clock recorded: {setup.log} holds no recorded outputs")
     use_recorded = bool(recorded) and setup.clock != "schedule"
-    polls = _recorded_polls(recorded, controls) if use_recorded or service else []
+    controls = scan.controls
+    polls = (_recorded_polls(recorded, scan.recorded_counters, controls)
+             if use_recorded or scan.service else [])
     collector = FlightCollector(loop, res.t0_monotonic) if setup.collect else None
-    driver = _Driver(loop, carried_counters(polls) if service else ())
+    driver = _Driver(loop, carried_counters(polls) if scan.service else ())
     sender = _Sender(setup.send, loop.framing) if setup.send else None
     run = _Run(loop, driver, _Pacer(setup.speed, res.t0_monotonic), sender, collector)
     try:
-        run.drive(inputs, controls, polls if use_recorded else None)
+        res.inputs_fed = run.drive(iter_inputs(scan, loop.framing),
+                                   res.t0_utc - res.t0_monotonic, scan.last_input_mono,
+                                   controls, polls if use_recorded else None)
     finally:
         if sender is not None:
             res.sent, res.send_errors = sender.sent, sender.errors
             sender.close()
     res.outputs = run.outputs
-    res.inputs_fed = len(inputs)
     res.counters = dict(loop.counters)
     res.segments = segments_of(res.outputs, res.t0_monotonic)
     if recorded:

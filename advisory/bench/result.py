@@ -38,7 +38,10 @@ class ReplayResult:
         The log held outputs of a live run and the replay reproduced them byte for byte
         (None: the log held no outputs).
     recorded_outputs : int
-        Output records in the log.
+        Output records in the log (those that decode).
+    bad_records : int
+        Records skipped because their time is not a number or (a recorded output) they
+        cannot be decoded.
     first_mismatch : str
         Where the replay first differed from the recorded outputs ('' if it did not).
     t0_monotonic, t0_utc : float
@@ -74,6 +77,7 @@ class ReplayResult:
     outputs: list[tuple[float, float, bytes]] = field(default_factory=list)
     recorded_match: bool | None = None
     recorded_outputs: int = 0
+    bad_records: int = 0
     first_mismatch: str = ""
     t0_monotonic: float = 0.0
     t0_utc: float = 0.0
@@ -169,6 +173,8 @@ class ReplayResult:
             "outputs": len(self.outputs),
             "advisory_frames": int(self.counters.get("adv_frames", 0)),
             "recorded_outputs": self.recorded_outputs,
+            "bad_records": self.bad_records,
+            "notes": list(self.notes),
             "recorded_match": self.recorded_match,
             "first_mismatch": self.first_mismatch,
             "differences": self.diffs,

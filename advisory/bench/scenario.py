@@ -179,7 +179,29 @@ def _loop_settings(log: Path) -> dict:
             doc = ev.fields.get("settings") if ev.code == "start" else None
             if isinstance(doc, dict):
                 found = _find_settings(doc) or found
+    _check_recorded(found, log)
     return found
+
+
+#: The type each recorded setting must have (a start event is data from a file).
+_RECORDED_TYPES = {"input_format": str, "framing": str, "zones": str, "tables": str,
+                   "rate_hz": float, "heartbeat_s": float}
+
+
+def _check_recorded(found: dict, log: Path) -> None:
+    """ReplayError naming the first recorded setting of the wrong type or range."""
+    for key, value in found.items():
+        kind = _RECORDED_TYPES[key]
+        if kind is float:
+            ok = (isinstance(value, (int, float)) and not isinstance(value, bool)
+                  and math.isfinite(value) and value > 0)
+        else:
+            ok = isinstance(value, str)
+        if not ok:
+            text = repr(value)
+            text = text if len(text) <= 60 else text[:57] + "..."
+            what = "a positive number" if kind is float else "a string"
+            raise ReplayError(f"{log}: start event: {key} = {text} is not {what}")
 
 
 def _find_settings(doc: dict) -> dict:
@@ -212,19 +234,23 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
             table: str | None = None, config: str | None = None, expect: str | None = None,
             speed: str | float = "max", send: str | None = None, collect: bool = False,
             input_format: str | None = None, rate_hz: float | None = None,
-            clock: str = "auto", quiet: bool = False) -> ReplaySetup:
+            clock: str = "auto", quiet: bool = False,
+            trust_log_paths: bool = False) -> ReplaySetup:
     """Resolve a LOG and the options into a :class:`ReplaySetup` (builds the table once).
 
     Files not given are taken from the ``scenario.toml`` beside the log (``zones``,
     ``grid``, ``atmosphere``, ``aircraft``, ``expected`` when ``expect == "auto"``,
     ``input_format``, ``rate_hz``); what a ``run`` service recorded in its start event
-    comes next (its zone and table files when they still exist, input format, rate,
-    heartbeat); then the defaults (stream input, 10 Hz, the default table).
+    comes next (input format, rate, heartbeat; its zone and table files only with
+    ``trust_log_paths``, when they still exist: a log is data, and a path inside it is
+    refused with one line naming the option to give instead); then the defaults
+    (stream input, 10 Hz, the default table).
 
     Raises
     ------
     ReplayError
-        Missing log or zones, bad option; the message names it.
+        Missing log or zones, a file named only inside the log, a start event value of
+        the wrong type, bad option; the message names it.
     """
     path = find_log(log)
     scenario, spath = load_scenario(path)
@@ -232,6 +258,10 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
 
     def recorded_file(key: str) -> str | None:
         value = recorded.get(key) if spath is None else None
+        if value is not None and not trust_log_paths:
+            option = "--zones" if key == "zones" else "--tables"
+            raise ReplayError(f"{option}: {path} names the file {value!r} in its start "
+                              f"event; give {option} FILE, or --trust-log-paths to use it")
         return value if isinstance(value, str) and Path(value).is_file() else None
 
     zones = zones or _scenario_file(scenario, spath, "zones") or recorded_file("zones")

@@ -46,13 +46,13 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--speed", default="max", metavar="1|10|max",
                    help="replay speed relative to real time (default max)")
     add_zones_option(p, help_text="no-boom zones (GeoJSON); default: the scenario.toml "
-                                  "beside the log names it, else the zone file a 'run' "
-                                  "recorded in its start event")
+                                  "beside the log names it, else (with --trust-log-paths) "
+                                  "the zone file a 'run' recorded in its start event")
     add_aircraft_option(p, help_text="aircraft file (default: scenario's or the bundled "
                                      "demo aircraft)")
     add_table_option(p, help_text="boom table file (default: built once from the scenario "
-                                  "and cached, else the one a 'run' recorded, else the "
-                                  "default table)")
+                                  "and cached, else (with --trust-log-paths) the one a "
+                                  "'run' recorded, else the default table)")
     add_config_option(p)
     p.add_argument("--expect", metavar="FILE",
                    help="expected advisories (JSON); 'auto': the expected.json named by "
@@ -73,6 +73,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--clock", choices=("auto", "recorded", "schedule"), default="auto",
                    help="poll times: recorded outputs' times (auto when present) or the "
                         "loop's schedule")
+    p.add_argument("--trust-log-paths", action="store_true",
+                   help="use the zone and table files a 'run' named in the log's start "
+                        "event (off: give --zones / --tables, a log is data, not a "
+                        "command)")
     engine = p.add_mutually_exclusive_group()
     engine.add_argument("--jobs", type=int, default=0,
                         help="worker processes for several logs (default: one per core)")
@@ -91,6 +95,8 @@ def _print_result(res: ReplayResult) -> None:
         print("  " + line)
     for note in read_notes(res):
         print("  note: " + note)
+    if res.bad_records:
+        print(f"  {res.bad_records} bad record(s) skipped (see the notes)")
     if res.recorded_match is not None:
         print("  recorded outputs: " + ("reproduced byte for byte"
                                         if res.recorded_match else res.first_mismatch))
@@ -138,7 +144,8 @@ def run_replay(args: argparse.Namespace) -> int:
                       config=args.config, expect=args.expect, speed=args.speed,
                       send=args.send, collect=bool(args.report),
                       input_format=args.input_format, rate_hz=args.rate_hz,
-                      clock=args.clock, quiet=args.json)
+                      clock=args.clock, quiet=args.json,
+                      trust_log_paths=args.trust_log_paths)
               for log in args.logs]
     results = []
     truth = TruthRequest(args.aircraft, bool(args.report)) if args.truth else None

@@ -9,7 +9,7 @@ from __future__ import annotations
 import argparse
 
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
-from advisory.schema import SAFETY_CAUTION
+from advisory.schema import RECORD_KEEP_DEFAULT, RECORD_MAX_MB_DEFAULT, SAFETY_CAUTION
 from advisory.service.runner import run_service
 from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
 
@@ -29,6 +29,12 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     add_aircraft_option(p)
     add_table_option(p)
     p.add_argument("--record", metavar="FILE", help="record file (appended to)")
+    p.add_argument("--record-max-mb", type=float, default=RECORD_MAX_MB_DEFAULT, metavar="MB",
+                   help="size cap of the record file; at the cap it becomes FILE.1 (older "
+                        f"ones FILE.2, ...) and a new FILE starts ({RECORD_MAX_MB_DEFAULT:g})")
+    p.add_argument("--record-keep", type=int, default=RECORD_KEEP_DEFAULT, metavar="K",
+                   help="rotated record files kept; the oldest beyond is deleted and its "
+                        f"records counted as record_dropped ({RECORD_KEEP_DEFAULT})")
     p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
     p.add_argument("--rate-hz", type=float, default=10.0,
                    help="advisor steps (advisory frames) per second (10)")
@@ -56,6 +62,7 @@ def run_command(args: argparse.Namespace) -> int:
         aircraft=args.aircraft, table=args.table, record=args.record, config=args.config,
         rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
         duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
+        record_max_mb=args.record_max_mb, record_keep=args.record_keep,
     )
     return run_service(settings)
 

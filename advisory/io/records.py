@@ -32,10 +32,10 @@ file with a torn tail is safe for the same reason.
 
 from __future__ import annotations
 
-import json
 import mmap
 import os
 import struct
+import threading
 import time
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -45,6 +45,7 @@ from typing import Any, NamedTuple
 import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 
 from advisory.io.crc32c import crc32c
+from advisory.io.records_v1 import decode_v1_event
 from advisory.schema import EVENT_FIELDS
 
 MAGIC = b"\x8bBOOMREC"
@@ -93,50 +94,6 @@ def encode_event(code: str, **fields: Any) -> bytes:
     return msgpack.packb({"code": code, **fields}, use_bin_type=True)
 
 
-#: Version-1 records held events as text lines; the prefixes that the service wrote,
-#: each mapped to its typed code and the field its remainder fills. Read-only: only
-#: old records are parsed this way.
-_V1_PREFIXES = (
-    ("input open failed: ", "input_open_failed", "reason"),
-    ("input open: ", "input_open", "url"),
-    ("input lost: ", "input_lost", "reason"),
-    ("output open failed: ", "output_open_failed", "reason"),
-    ("output open: ", "output_open", "url"),
-    ("output lost: ", "output_lost", "reason"),
-    ("output error: ", "output_error", "reason"),
-    ("internal error (going on): ", "internal_error", "reason"),
-    ("start failed: ", "start_failed", "reason"),
-    ("stopping: ", "stopping", "reason"),
-)
-
-
-def _decode_v1_event(text: str) -> Event:
-    if text.startswith("start {") or text.startswith("stats {"):
-        try:
-            doc = json.loads(text[6:])
-        except ValueError:
-            return Event("note", {"text": text})
-        if text.startswith("start"):
-            return Event("start", {"settings": doc})
-        return Event("stats", {"kind": doc.get("event", "stats"), "stats": doc})
-    if text == "shutdown":
-        return Event("shutdown", {})
-    if text == "output writer still blocked at shutdown":
-        return Event("output_blocked", {})
-    if text.startswith("first advisory out ") and text.endswith(" s after start"):
-        try:
-            return Event("first_advisory", {"after_s": float(text.split()[3])})
-        except (ValueError, IndexError):
-            return Event("note", {"text": text})
-    for prefix, code, field_name in _V1_PREFIXES:
-        if text.startswith(prefix):
-            rest = text[len(prefix):]
-            if code == "input_open_failed":
-                rest = rest.removesuffix("; retrying with backoff")
-            return Event(code, {field_name: rest})
-    return Event("note", {"text": text})
-
-
 def decode_event(data: bytes, version: int = VERSION) -> Event:
     """The event held in one event record's data (never raises).
 
@@ -154,7 +111,7 @@ def decode_event(data: bytes, version: int = VERSION) -> Event:
     """
     data = bytes(data)
     if version == 1:
-        return _decode_v1_event(data.decode("utf-8", "replace"))
+        return Event(*decode_v1_event(data.decode("utf-8", "replace")))
     try:
         doc = msgpack.unpackb(data, raw=False, strict_map_key=True)
     except Exception:  # noqa: BLE001 - any undecodable event is reported as unknown
@@ -172,6 +129,24 @@ def _header_bytes(created_utc: float) -> bytes:
     return head + crc32c(head).to_bytes(4, "big")
 
 
+def _write_all(fd: int, data: bytes, size: int) -> int:
+    """Write ``data`` in one call at the end of a file of ``size`` bytes; the new size.
+
+    Raises
+    ------
+    OSError
+        The write failed or was short (the torn piece is cut off again when possible).
+    """
+    n = os.write(fd, data)
+    if n != len(data):
+        try:
+            os.ftruncate(fd, size)
+        except OSError:
+            pass  # the reader skips a torn tail anyway
+        raise OSError(f"short write: {n} of {len(data)} bytes (disk full or file too large)")
+    return size + n
+
+
 def encode_record(kind: int, data: bytes, utc_s: float, mono_s: float,
                   channel: int = 0) -> bytes:
     """The bytes of one record (see the module docstring)."""
@@ -186,19 +161,40 @@ def encode_record(kind: int, data: bytes, utc_s: float, mono_s: float,
 class Recorder:
     """Append records to a file; never raises once open (write errors are counted).
 
+    With ``max_bytes`` the record is rotated: before a record would take the file past
+    ``max_bytes``, the file is renamed ``PATH.1`` (an older ``PATH.1`` becomes
+    ``PATH.2``, and so on), at most ``keep`` of them are kept (the oldest is deleted,
+    its records counted in :attr:`rotated_out`), and a new ``PATH`` is started with its
+    own header, then a copy of the last ``start`` event (so each file names the settings
+    it was recorded with). Every kept file is a complete record file of its own; nothing
+    within the cap is lost. A single record larger than the cap goes alone into a fresh
+    file.
+
+    Every record goes to the operating system in one ``write`` call whose result is
+    checked: a short write (full disk, file-size limit) is counted as lost, never as
+    written, and the torn piece is cut off again where the file system allows.
+
     Parameters
     ----------
     path : str or Path
         The record file; created with a header if missing or empty, else appended to.
     fsync_interval_s : float
         Longest time between fsyncs, s (0 fsyncs after every record).
+    max_bytes : int, optional
+        Size cap of one record file, bytes (None: no cap, no rotation).
+    keep : int
+        Rotated files kept beside ``path`` (0: the full file is started afresh).
 
     Attributes
     ----------
     records : int
-        Records written by this recorder.
+        Records written by this recorder (all of them on disk when written).
     write_errors : int
-        Records lost to write errors (disk full, ...); ``last_error`` says why.
+        Records lost to write errors (disk full, short write, ...); ``last_error`` says why.
+    rotated_out : int
+        Records this recorder wrote that were deleted with the oldest rotated file.
+    rotations : int
+        Files started afresh at the cap.
 
     Raises
     ------
@@ -206,14 +202,36 @@ class Recorder:
         At open, if an existing non-empty file is not a record file of this version.
     OSError
         At open, if the file cannot be opened.
+    ValueError
+        ``max_bytes`` not positive or ``keep`` negative.
     """
 
-    def __init__(self, path: str | Path, fsync_interval_s: float = 1.0) -> None:
+    def __init__(self, path: str | Path, fsync_interval_s: float = 1.0,
+                 max_bytes: int | None = None, keep: int = 0) -> None:
+        if max_bytes is not None and max_bytes <= HEADER_LEN:
+            raise ValueError(f"record size cap {max_bytes!r} bytes is too small")
+        if keep < 0:
+            raise ValueError(f"record files to keep {keep!r} must be >= 0")
         self.path = Path(path)
         self.fsync_interval_s = fsync_interval_s
+        self.max_bytes = max_bytes
+        self.keep = keep
         self.records = 0
         self.write_errors = 0
+        self.rotated_out = 0
+        self.rotations = 0
         self.last_error: str | None = None
+        self._lock = threading.Lock()
+        self._fd: int | None = None
+        self._size = 0
+        self._file_records = 0  # records this recorder wrote into the current file
+        self._kept: list[int] = []  # the same for PATH.1, PATH.2, ... (ours only)
+        self._start: bytes | None = None  # the last start event, repeated after rotation
+        self._open_file()
+        self._last_sync = time.monotonic()
+
+    def _open_file(self) -> None:
+        """Open (or create) ``path`` for appending; sets the descriptor and size."""
         fd = os.open(self.path, os.O_RDWR | os.O_CREAT | os.O_APPEND, 0o644)
         try:
             size = os.fstat(fd).st_size
@@ -230,35 +248,87 @@ class Recorder:
                 os.ftruncate(fd, 0)  # a torn header: nothing recorded yet, start again
                 size = 0
             if size == 0:
-                os.write(fd, _header_bytes(time.time()))
+                _write_all(fd, _header_bytes(time.time()), 0)
                 os.fsync(fd)
+                size = HEADER_LEN
         except BaseException:
             os.close(fd)
             raise
-        self._fd: int | None = fd
-        self._last_sync = time.monotonic()
+        self._fd = fd
+        self._size = size
+        self._file_records = 0
+
+    @property
+    def dropped(self) -> int:
+        """Records lost from the record: not written, or rotated out beyond ``keep``."""
+        return self.write_errors + self.rotated_out
 
     def write(self, kind: int, data: bytes, utc_s: float | None = None,
               mono_s: float | None = None, channel: int = 0) -> bool:
         """Append one record; times default to now. Returns False if it was lost."""
-        if self._fd is None:
-            self.write_errors += 1
-            self.last_error = "recorder is closed"
-            return False
         now = time.monotonic()
+        with self._lock:
+            try:
+                rec = encode_record(kind, bytes(data), time.time() if utc_s is None else utc_s,
+                                    now if mono_s is None else mono_s, channel)
+                if (self.max_bytes is not None and self._size + len(rec) > self.max_bytes
+                        and self._size > HEADER_LEN):
+                    self._rotate()
+                if self._fd is None:
+                    raise OSError("recorder is closed")
+                self._size = _write_all(self._fd, rec, self._size)
+                if now - self._last_sync >= self.fsync_interval_s:
+                    os.fsync(self._fd)
+                    self._last_sync = now
+            except (OSError, ValueError, TypeError, struct.error) as exc:
+                self.write_errors += 1
+                self.last_error = f"record not written: {exc}"
+                return False
+            self.records += 1
+            self._file_records += 1
+            return True
+
+    def _rotate(self) -> None:
+        """Close the full file, shift the rotated names, start a fresh file.
+
+        When a rename fails, the recorder goes on appending to ``path`` (whatever file
+        that names now) rather than stop recording.
+        """
         try:
-            rec = encode_record(kind, bytes(data), time.time() if utc_s is None else utc_s,
-                                now if mono_s is None else mono_s, channel)
-            os.write(self._fd, rec)
-            if now - self._last_sync >= self.fsync_interval_s:
-                os.fsync(self._fd)
-                self._last_sync = now
-        except (OSError, ValueError, TypeError, struct.error) as exc:
-            self.write_errors += 1
-            self.last_error = f"record not written: {exc}"
-            return False
-        self.records += 1
-        return True
+            self._shift_files()
+        finally:
+            if self._fd is None:
+                try:
+                    self._open_file()
+                except (OSError, RecordFormatError) as exc:
+                    self.last_error = f"record rotation failed: {exc}"
+
+    def _shift_files(self) -> None:
+        fd, self._fd = self._fd, None
+        if fd is not None:
+            try:
+                os.fsync(fd)
+            finally:
+                os.close(fd)
+        self._kept.insert(0, self._file_records)
+        self._file_records = 0
+        self.rotations += 1
+        if self.keep == 0:
+            self.path.unlink(missing_ok=True)
+        else:
+            Path(f"{self.path}.{self.keep}").unlink(missing_ok=True)
+            for i in range(self.keep - 1, 0, -1):
+                older = Path(f"{self.path}.{i}")
+                if older.exists():
+                    older.rename(f"{self.path}.{i + 1}")
+            self.path.rename(f"{self.path}.1")
+        while len(self._kept) > self.keep:
+            self.rotated_out += self._kept.pop()
+        self._open_file()
+        if self._start is not None and self._fd is not None:
+            now = time.monotonic()
+            rec = encode_record(KIND_EVENT, self._start, time.time(), now)
+            self._size = _write_all(self._fd, rec, self._size)
 
     def record_input(self, payload: bytes, rx_monotonic: float | None = None,
                      rx_utc: float | None = None, channel: int = 0) -> bool:
@@ -283,7 +353,10 @@ class Recorder:
         ValueError
             An unknown code or the wrong fields (a programming error, not bad input).
         """
-        return self.write(KIND_EVENT, encode_event(code, **fields), channel=channel)
+        data = encode_event(code, **fields)
+        if code == "start":
+            self._start = data
+        return self.write(KIND_EVENT, data, channel=channel)
 
     def flush(self) -> None:
         """fsync now."""
@@ -296,7 +369,8 @@ class Recorder:
 
     def close(self) -> None:
         """fsync and close (safe twice)."""
-        fd, self._fd = self._fd, None
+        with self._lock:
+            fd, self._fd = self._fd, None
         if fd is not None:
             try:
                 os.fsync(fd)
@@ -437,12 +511,17 @@ class RecordReader:
         return stop + 4
 
     def __iter__(self) -> Iterator[Record]:
+        return self.records_from(HEADER_LEN)
+
+    def records_from(self, offset: int) -> Iterator[Record]:
+        """The records from byte ``offset`` on (a record's :attr:`Record.offset`, or the
+        end of the header); the report counts what this iteration finds."""
         mm = self._mm
         if mm is None:
             return
         rep = self.report
         end = len(mm)
-        pos = HEADER_LEN
+        pos = max(HEADER_LEN, offset)
         while pos < end:
             stop = self._valid_at(pos)
             if stop < 0:

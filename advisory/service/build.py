@@ -124,7 +124,8 @@ def assemble(s: RunSettings) -> ServiceParts:
     recorder = None
     if s.record:
         try:
-            recorder = Recorder(s.record)
+            recorder = Recorder(s.record, max_bytes=int(s.record_max_mb * 1e6),
+                                keep=s.record_keep)
         except OSError as exc:
             raise RunError(f"--record: {s.record}: cannot open ({exc.strerror})") from None
     loop.recorder = recorder

@@ -42,7 +42,7 @@ _ARINC_ALL = ("words", "words_accepted", "bad_parity", "ssm_failure", "ssm_ncd",
               "unknown_label", "sdi_mismatch", "bad_bcd", "bad_payload", "arinc_incomplete")
 #: Driver counters that are published but are no problem for the advisory itself (a log
 #: line that could not be written says nothing about the advice).
-_EXTERNAL_INFO = ("log_dropped",)
+_EXTERNAL_INFO = ("log_dropped", "record_dropped")
 
 _COUNTER_TEXT = {
     "bad_crc": "frames with a bad CRC", "cobs_error": "badly stuffed frames",

@@ -4,10 +4,12 @@ from a bounded queue by its own thread.
 * Input (:class:`InputLink`): any transport URL (``docs/interface.md`` section 12). A
   serial port that fails (cable pulled, adapter unplugged, absent at start) is closed and
   reopened with exponential backoff (0.1 s doubling to 2 s). A UDP or file input that
-  cannot be opened at start is a fatal error (the caller exits 1).
+  cannot be opened at start is a fatal error (the caller exits 1). A FIFO input opens
+  at once (non-blocking); its writer going away is a lost link, reopened the same way.
 * Output (:class:`OutputPublisher`): a full or stuck output never blocks the loop; when
   the queue is full the oldest frame is dropped and counted (``output_dropped``). A
-  serial output that fails is reopened the same way as the input.
+  serial output that fails, or a FIFO output without a reader yet, is reopened the same
+  way as the input.
 
 Both report what happens to them through ``on_event(code, **fields)`` with the record's
 event codes (``advisory.schema.EVENT_FIELDS``); neither writes to a stream itself.
@@ -26,7 +28,6 @@ from typing import Any
 from advisory.io.transports import (
     FramedLink,
     SendBufferFullError,
-    SerialTransport,
     TransportError,
     UdpTransport,
     make_transport,
@@ -61,7 +62,7 @@ class InputLink:
         self.url = url
         self.transport = make_transport(url, "input")
         self.is_stream = self.transport.is_stream
-        self.retry = isinstance(self.transport, SerialTransport)
+        self.retry = self.transport.retry_open
         self.up = False
         self.reason = "not opened yet"
         self.next_try = -math.inf
@@ -187,13 +188,14 @@ class OutputPublisher:
         Raises
         ------
         TransportError
-            A non-serial output cannot be opened.
+            An output that is not worth retrying (not a serial port, not a FIFO waiting
+            for its reader) cannot be opened.
         """
         try:
             self.transport.open()
             self._up = True
         except TransportError as exc:
-            if not isinstance(self.transport, SerialTransport):
+            if not self.transport.retry_open:  # serial ports, FIFOs without a reader
                 raise
             self.on_event("output_open_failed", reason=str(exc))
         self._thread = threading.Thread(target=self._run, name="boom-output", daemon=True)

@@ -157,6 +157,8 @@ class AdvisoryService:
         ext["output_dropped"] = self.out.dropped
         ext["output_errors"] = self.out.errors
         ext["log_dropped"] = self.logs.dropped if self.logs is not None else 0
+        # the size cap at work (write failures are the loop's record_errors)
+        ext["record_dropped"] = self.recorder.rotated_out if self.recorder is not None else 0
 
     def run(self) -> int:
         """Run until stopped; returns the exit code."""

@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from advisory.schema import RECORD_KEEP_DEFAULT, RECORD_MAX_MB_DEFAULT, RECORD_MAX_MB_MIN
+
 #: Input formats the loop reads (``docs/interface.md`` sections 9-11).
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
 #: How the input's bytes are split into frames.
@@ -44,6 +46,8 @@ class RunSettings:
     label_map: str | None = None
     heartbeat_s: float = 1.0
     log_level: str = "info"
+    record_max_mb: float = RECORD_MAX_MB_DEFAULT
+    record_keep: int = RECORD_KEEP_DEFAULT
 
 
 def check_settings(s: RunSettings) -> None:
@@ -61,6 +65,12 @@ def check_settings(s: RunSettings) -> None:
                        "aircraft)")
     if s.label_map and s.input_format != "arinc429":
         raise RunError("--label-map: only with --input-format arinc429")
+    if not (isinstance(s.record_max_mb, (int, float)) and math.isfinite(s.record_max_mb)
+            and s.record_max_mb >= RECORD_MAX_MB_MIN):
+        raise RunError(f"--record-max-mb: {s.record_max_mb} must be a number of MB >= "
+                       f"{RECORD_MAX_MB_MIN}")
+    if not (isinstance(s.record_keep, int) and 0 <= s.record_keep <= 1000):
+        raise RunError(f"--record-keep: {s.record_keep} must be a whole number in [0, 1000]")
     if s.log_level not in LOG_LEVELS:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 

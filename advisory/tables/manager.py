@@ -6,12 +6,18 @@ process (one worker, so the loop keeps its core); the finished table is written 
 file, and the loop swaps it in between two steps by calling :meth:`TableManager.poll`.
 From the moment a new atmosphere is submitted until the swap, :attr:`stale` is True and
 the advisory status says so.
+
+Disk: the manager deletes the table files it wrote once they can no longer be needed: it
+keeps the one in force and the one before it (a failed build's file goes at once), and
+at :meth:`TableManager.close` it removes the private temporary directory it made (a
+``work_dir`` it was given is left in place, with only its own files deleted).
 """
 
 from __future__ import annotations
 
 import multiprocessing as mp
 import os
+import shutil
 import tempfile
 import threading
 import time
@@ -56,7 +62,9 @@ class TableManager:
         self._pending_path: str | None = None
         self._pending_atm: Atmosphere | None = None
         self._building_atm: Atmosphere | None = None
+        self._own_dir = work_dir is None
         self._work_dir = work_dir or tempfile.mkdtemp(prefix="boom-tables-")
+        self._written: list[str] = []  # rebuilt files in force or before it, oldest first
         self._watch: tuple[Path, float] | None = None
         self.rebuilds_done = 0
         self.rebuilds_failed = 0
@@ -136,20 +144,48 @@ class TableManager:
                         self._pending_atm = None
                 self.rebuilds_done += 1
                 swapped = True
+                self._keep_written(path)
             except Exception as exc:  # noqa: BLE001 - the live loop must not die
                 # The old table stays in use and stays flagged stale; the same
                 # atmosphere is not retried (a newer submission will be).
                 self.rebuilds_failed += 1
                 self.last_error = str(exc)
+                if path is not None:
+                    _remove(path)
             with self._lock:
                 pending = self._pending_atm
                 if pending is not None and pending is not self._building_atm:
                     self._start(pending)
         return swapped
 
+    def _keep_written(self, path: str) -> None:
+        """``path`` is in force now: delete rebuilt files older than the one before it."""
+        self._written.append(path)
+        while len(self._written) > 2:
+            _remove(self._written.pop(0))
+
     def close(self) -> None:
-        """Stop a running rebuild (safe to call twice)."""
+        """Stop a running rebuild, delete the files it wrote (safe to call twice).
+
+        The table in force stays usable: its arrays are loaded already (a file deleted
+        while mapped stays readable until unmapped, POSIX ``unlink``).
+        """
         proc, self._proc = self._proc, None
         if proc is not None and proc.is_alive():
             proc.terminate()
             proc.join(timeout=5)
+        pending, self._pending_path = self._pending_path, None
+        for path in [*self._written, *([pending] if pending else [])]:
+            _remove(path)
+        self._written = []
+        if self._own_dir:
+            shutil.rmtree(self._work_dir, ignore_errors=True)
+            self._own_dir = False
+
+
+def _remove(path: str) -> None:
+    """Delete a file the manager wrote; a file already gone is fine."""
+    try:
+        os.unlink(path)
+    except OSError:
+        pass

@@ -85,6 +85,9 @@ class BaseTransport(ABC):
 
     url: str
     is_stream: bool
+    #: A failed open is worth retrying with backoff (a serial port, a FIFO without a
+    #: reader yet); False: a failed first open is fatal to the caller.
+    retry_open: bool = False
 
     @abstractmethod
     def open(self) -> None:

@@ -1,9 +1,14 @@
 """Serial ports through pyserial: real devices, pseudo-terminals, and pyserial URLs.
 
 ``serial:///dev/ttyUSB0?baud=115200`` (also ``parity=N|E|O``, ``bytesize=8``,
-``stopbits=1``, ``rtscts=0``, ``xonxoff=0``, ``write_timeout=1.0``, ``exclusive=0``);
+``stopbits=1``, ``rtscts=0``, ``xonxoff=0``, ``write_timeout=1.0``, ``exclusive=1``);
 any other URL that pyserial's ``serial_for_url`` accepts (``loop://``,
 ``socket://host:port``, ``rfc2217://...``) is handed to pyserial unchanged.
+
+A ``serial:`` port is opened exclusively by default (pyserial's ``exclusive``: an
+advisory ``flock`` on the device), so a second reader cannot take bytes from the
+service: the second open is refused with one line saying the port is in use.
+``exclusive=0`` shares the port on request.
 """
 
 from __future__ import annotations
@@ -41,6 +46,7 @@ class SerialTransport(BaseTransport):
     """
 
     is_stream = True
+    retry_open = True  #: a port absent at start may be plugged in later
 
     def __init__(self, url: str, role: str = "input") -> None:
         self.url = url
@@ -61,7 +67,7 @@ class SerialTransport(BaseTransport):
                 "rtscts": pop_flag(q, "rtscts", False, url),
                 "xonxoff": pop_flag(q, "xonxoff", False, url),
                 "write_timeout": pop_number(q, "write_timeout", 1.0, url),
-                "exclusive": pop_flag(q, "exclusive", False, url),
+                "exclusive": pop_flag(q, "exclusive", True, url),
             }
             if self._kwargs["stopbits"] == int(self._kwargs["stopbits"]):
                 self._kwargs["stopbits"] = int(self._kwargs["stopbits"])
@@ -79,6 +85,11 @@ class SerialTransport(BaseTransport):
         try:
             port = serial.serial_for_url(self._target, timeout=0, **self._kwargs)
         except (serial.SerialException, OSError, ValueError) as exc:
+            if self._kwargs.get("exclusive") and "exclusively lock" in str(exc):
+                raise TransportError(
+                    f"cannot open serial port {self.url!r}: {self._target} is in use by "
+                    "another program (opened exclusively; exclusive=0 in the URL shares "
+                    "it)") from None
             raise TransportError(f"cannot open serial port {self.url!r}: {exc}") from None
         self._port = port
         try:

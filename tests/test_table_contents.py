@@ -228,3 +228,12 @@ def test_loaded_table_arrays_are_consistent_for_the_lookup(table_dir) -> None:
     fp = t.footprint(units.ft_to_m(45000.0), 1.6)
     assert fp.reaches_ground and np.all(np.isfinite(fp.rows))
     assert math.isfinite(fp.cutoff_mach)
+
+
+def test_replay_refuses_bad_table_and_missing_table(table_dir, tmp_path) -> None:
+    # A bundled demo flight replayed against a defective table: exit 2, one line.
+    log = Path(__file__).resolve().parent.parent / "replay_logs" / "below_cutoff"
+    assert_refused(cli("replay", str(log), "--table",
+                       str(table_dir / "cells_short_altitude.boomtable")), ["cells", "shape"])
+    assert_refused(cli("replay", str(log), "--table", str(tmp_path / "absent.boomtable")),
+                   ["absent.boomtable"])

@@ -113,3 +113,10 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: added still replay byte for byte.
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
                     "log_dropped")
+
+# ----------------------------------------------------------------------------- zone files
+#: A zone ``limit_psf`` above this is implausible and warned about once per file (not
+#: refused): ground booms of supersonic aircraft in level flight are typically about
+#: 0.5-3 psf (value from memory), so a larger limit almost certainly means pascals typed
+#: as psf (48 Pa is 1 psf) and would silently disable the zone. Common practice, no source.
+ZONE_LIMIT_PSF_PLAUSIBLE_MAX = 10.0

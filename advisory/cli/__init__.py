@@ -44,8 +44,9 @@ def main(argv: Sequence[str] | None = None) -> int:
 
     A :class:`UsageError` or a ``ValueError`` from the command (a domain error: bad
     atmosphere, flight condition or file, its message naming the field and the value),
-    or a file that is missing or cannot be opened, prints ``boom-advisory <command>: error: <message>`` on one line of stderr and
-    returns :data:`EXIT_USAGE`.
+    or a file that is missing or cannot be opened, prints
+    ``boom-advisory <command>: error: <message>`` on one line of stderr and returns
+    :data:`EXIT_USAGE`.
     """
     parser = build_parser()
     args = parser.parse_args(argv)

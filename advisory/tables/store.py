@@ -172,7 +172,9 @@ def _directory_entry(entry: object, payload_nbytes: int,
         raise TableFileError(f"{where}: an entry is not an object with a 'name'")
     name = entry["name"]
     try:
-        dtype = np.dtype(entry.get("dtype"))
+        if not isinstance(entry.get("dtype"), str):
+            raise TypeError
+        dtype = np.dtype(entry["dtype"])
     except TypeError:
         raise TableFileError(f"{where}: array {name}: dtype {entry.get('dtype')!r} is not "
                              "a numpy dtype") from None

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 
 from advisory import units
+from advisory.physics.aircraft import AircraftError, aircraft_from_dict
 from advisory.physics.atmosphere import Atmosphere, atmosphere_from_description
 from advisory.tables import lookup as lk
 from advisory.tables.grid import GridError, TableGrid
@@ -188,8 +189,9 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
     formed from the axes' lengths and trusts every value, so everything it reads is
     checked here once, at load:
 
-    * header: ``grid`` (every key, the grid's own rules), ``aircraft``, ``atmosphere``,
-      ``reflection_factor`` in :data:`REFLECTION_FACTOR_RANGE`;
+    * header: ``grid`` (every key, the grid's own rules), ``aircraft`` (what
+      :func:`~advisory.physics.aircraft.aircraft_from_dict` accepts), ``atmosphere``
+      (with its ``kind``), ``reflection_factor`` in :data:`REFLECTION_FACTOR_RANGE`;
     * every array float64; axes one-dimensional, finite, strictly ascending, equal to
       the header's grid; altitude and Mach excess at least 2 nodes (interpolated axes),
       flight-path angle and heading at least 1, heading in [0, 2 pi), ``axis_eta`` the
@@ -214,6 +216,12 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
         if not isinstance(v, kind) or isinstance(v, bool):
             raise TableFileError(f"header key {key!r} is missing or not a "
                                  f"{'number' if key == 'reflection_factor' else 'JSON object'}")
+    try:
+        aircraft_from_dict(header["aircraft"], "table header")
+    except AircraftError as exc:
+        raise TableFileError(f"header aircraft: {exc}") from None
+    if not isinstance(header["atmosphere"].get("kind"), str):
+        raise TableFileError("header atmosphere: key 'kind' is missing or not text")
     rf = float(header["reflection_factor"])
     if not REFLECTION_FACTOR_RANGE[0] <= rf <= REFLECTION_FACTOR_RANGE[1]:
         raise TableFileError(f"header reflection_factor {rf!r} is outside "

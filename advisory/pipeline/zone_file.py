@@ -50,7 +50,7 @@ from typing import Any
 
 import numpy as np
 
-from advisory.geo import polygons as gk
+from advisory.geo.rings import ring_self_intersection
 from advisory.schema import ZONE_ID_MAX_BYTES, ZONE_LIMIT_PSF_PLAUSIBLE_MAX
 from advisory.units import ft_to_m, pa_to_psf, psf_to_pa
 
@@ -379,7 +379,7 @@ def _parse_ring(ring_in: Any) -> np.ndarray:
         raise ValueError("encloses no area (all positions on one line)")
     xs = np.ascontiguousarray(pts[:, 0])
     ys = np.ascontiguousarray(pts[:, 1])
-    i, j = gk.ring_self_intersection(xs, ys)
+    i, j = ring_self_intersection(xs, ys)
     if i >= 0:
         raise ValueError(f"crosses or touches itself: the edge from {_fmt(pts[i])} to "
                          f"{_fmt(pts[i + 1])} meets the edge from {_fmt(pts[j])} to "

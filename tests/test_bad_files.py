@@ -172,7 +172,7 @@ def test_zones_fuzz(tmp_path) -> None:
              ("ground_elevation_ft", None)}
     cases = []
     for key in ("id", "name", "limit_psf", "margin_km", "ground_elevation_ft"):
-        for value in ([], {}, "x", True, None, math.inf, -1.0):
+        for value in ([], {}, "x", True, None, math.inf, -1.0, 10**400):
             if any(key == k and value == v and type(value) is type(v) for k, v in valid) or (
                     key == "ground_elevation_ft" and value == -1.0):
                 continue
@@ -195,6 +195,13 @@ def test_zones_fuzz(tmp_path) -> None:
             dict(f, geometry={"type": "Polygon", "coordinates": [["x"] * 5]})]}),
         "geometry text": json.dumps({"type": "FeatureCollection", "features": [
             dict(f, geometry="x")]}),
+        "huge integer longitude": json.dumps({"type": "FeatureCollection", "features": [
+            dict(f, geometry={"type": "Polygon", "coordinates": [
+                [[0, 0], [10**400, 0], [1, 1], [0, 1], [0, 0]]]})]}),
+        "bool latitude in a long ring": json.dumps({"type": "FeatureCollection", "features": [
+            dict(f, geometry={"type": "Polygon", "coordinates": [
+                [[0, 0]] + [[1e-3 * k, 1.0 + (k % 2) * 0.1] for k in range(1, 500)]
+                + [[0.5, True], [0, 0]]]})]}),
         "not utf-8": "\udcff",
     }
     for name, text in shapes.items():
@@ -202,6 +209,24 @@ def test_zones_fuzz(tmp_path) -> None:
                       "argv": argv})
     cases[-1]["files"]["z.geojson"] = '{"type": "\u00ff'
     assert_all_refused(run_cases(tmp_path, cases), "z.geojson")
+
+
+def test_long_ring_with_altitudes_loads_and_bad_position_is_named(tmp_path) -> None:
+    # Positions may carry an altitude (RFC 7946 section 3.1.1); a bad position deep in a
+    # long ring is still named by its index.
+    ring = [[-100.0 + 1e-3 * k, 40.0 + 0.01 * (k % 2), 100.0] for k in range(400)]
+    ring += [[-100.0 + 0.4, 41.0], [-100.0, 41.0], ring[0]]
+    f = tmp_path / "z.geojson"
+    doc = {"type": "FeatureCollection", "features": [
+        dict(zone_feature(), geometry={"type": "Polygon", "coordinates": [ring]})]}
+    f.write_text(json.dumps(doc))
+    assert ZoneSet.from_file(f)[0].vertex_count == 402
+    for v in ring[:-1]:
+        v[:] = v[:2]  # plain [lon, lat] positions: the whole-array path
+    ring[123][1] = "40"
+    f.write_text(json.dumps(doc))
+    with pytest.raises(ValueError, match="position 123: latitude"):
+        ZoneSet.from_file(f)
 
 
 def test_zone_file_with_no_zones_refused(tmp_path) -> None:

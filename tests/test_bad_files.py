@@ -299,6 +299,31 @@ def test_aircraft_fuzz(tmp_path) -> None:
     assert_all_refused(run_cases(tmp_path, cases), "a.toml")
 
 
+# ---------------------------------------------------------------------- grid file
+def test_grid_fuzz(tmp_path) -> None:
+    # Every case is refused before anything is built (a valid grid would build a table).
+    argv = ["tables", "build", "--grid", "g.toml", "-o", "never.boomtable", "--workers", "1"]
+    cases = []
+    for key in ("altitudes_ft", "mach_excess", "fpa_deg", "headings_deg", "n_eta", "mach_max",
+                "ground_elevation_ft"):
+        values = dict(TOML_BAD)
+        if key in ("altitudes_ft", "mach_excess", "fpa_deg", "headings_deg"):
+            values.update({"array": "[1, true]", "nan in array": "[1.0, nan]",
+                           "descending": "[3.0, 2.0]"})
+        else:
+            values.pop("table")  # a grid key that is a table: tested once below
+            values["fraction" if key == "n_eta" else "huge"] = "2.5" if key == "n_eta" \
+                else "1e300"
+        for label, value in values.items():
+            cases.append({"name": f"{key}={label}", "files": {"g.toml": f"{key} = {value}\n"},
+                          "argv": argv})
+    cases.append({"name": "unknown key", "files": {"g.toml": "altitude = [1, 2]\n"},
+                  "argv": argv})
+    cases.append({"name": "table", "files": {"g.toml": "[n_eta]\na = 1\n"}, "argv": argv})
+    assert_all_refused(run_cases(tmp_path, cases), "g.toml")
+    assert not (tmp_path / "never.boomtable").exists()
+
+
 # ---------------------------------------------------------------------- table header
 def write_raw(path: Path, header: dict, payload: bytes) -> None:
     """A table file with any header at all (digests valid), bypassing the writer's rules."""

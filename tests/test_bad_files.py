@@ -394,3 +394,25 @@ def test_systemd_unit_stops_on_exit_2() -> None:
     prevent = [ln for ln in lines if ln.startswith("RestartPreventExitStatus=")]
     assert prevent and "2" in prevent[0].split("=", 1)[1].split()
     assert any(ln.startswith("#") and "exit" in ln.lower() and "2" in ln for ln in lines)
+
+
+# ---------------------------------------------------------------------- state file (check)
+def test_state_file_fuzz(tmp_path) -> None:
+    argv = ["check", "--state", "s.json", "--zones", "z.geojson", "--table", "absent.bt"]
+    base = json.loads(state_file())
+    cases = []
+    for key in list(base) + ["track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg",
+                             "wind_kt"]:
+        for value in ([], {}, "x", True, None, math.nan, math.inf, 10**400):
+            if value is None and key not in base:
+                continue  # an absent optional field given as null is fine
+            doc = dict(base, **{key: value})
+            cases.append({"name": f"{key}={value!r}",
+                          "files": {"s.json": json.dumps(doc), "z.geojson": good_zones()},
+                          "argv": argv})
+    for name, text in (("list", "[]"), ("deep", nested(100000)), ("not json", "{"),
+                       ("empty object", "{}")):
+        cases.append({"name": name, "files": {"s.json": text, "z.geojson": good_zones()},
+                      "argv": argv})
+    results = run_cases(tmp_path, cases)
+    assert_all_refused(results, "s.json")

@@ -237,3 +237,17 @@ def test_replay_refuses_bad_table_and_missing_table(table_dir, tmp_path) -> None
                        str(table_dir / "cells_short_altitude.boomtable")), ["cells", "shape"])
     assert_refused(cli("replay", str(log), "--table", str(tmp_path / "absent.boomtable")),
                    ["absent.boomtable"])
+
+
+def test_table_without_atmosphere_arrays_needs_a_usable_description(table_dir, tmp_path) -> None:
+    # A table may omit the atm_* arrays (its atmosphere is then rebuilt from the header's
+    # description, store.py notes); a description that cannot be rebuilt is refused.
+    def drop_atm(a: dict) -> dict:
+        return {k: v for k, v in a.items() if not k.startswith("atm_")}
+
+    ok = rewrite(table_dir / "good.boomtable", tmp_path / "no_atm.boomtable", drop_atm)
+    assert BoomTable.load(ok).atmosphere().z_m.size > 2
+    bad = rewrite(table_dir / "good.boomtable", tmp_path / "bad_desc.boomtable", drop_atm,
+                  lambda h: dict(h, atmosphere={"kind": "profile", "levels": [[1, 2]]}))
+    with pytest.raises(TableFileError, match="header atmosphere"):
+        BoomTable.load(bad)

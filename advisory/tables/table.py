@@ -204,7 +204,8 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
     * no NaN or infinity anywhere: no cell may legitimately be NaN, a ray that does not
       reach the ground is stored as zeros with its edge flag (advisory/tables/build.py);
     * the atmosphere arrays (``atm_*``), when present: all of them, one length >= 2,
-      finite, altitude ascending, temperature, pressure, density and sound speed > 0.
+      finite, altitude ascending, temperature, pressure, density and sound speed > 0;
+      when absent, the header's atmosphere description must rebuild an atmosphere.
 
     Raises
     ------
@@ -253,7 +254,7 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
         v = cells[..., q]
         if v.min() < lo or v.max() > hi:
             raise TableFileError(f"array cells: {what} (quantity {q}) outside [{lo:g}, {hi:g}]")
-    _check_atmosphere(arrays)
+    _check_atmosphere(arrays, header["atmosphere"])
     return grid
 
 
@@ -306,10 +307,14 @@ def _values(arrays: dict[str, np.ndarray], name: str, shape: tuple[int, ...], lo
             raise TableFileError(f"array {name}: values outside [{lo:g}, {hi:g}]")
 
 
-def _check_atmosphere(arrays: dict[str, np.ndarray]) -> None:
+def _check_atmosphere(arrays: dict[str, np.ndarray], description: dict) -> None:
     names = [f"atm_{f}" for f in ATMOSPHERE_FIELDS]
     present = [n for n in names if n in arrays]
-    if not present:
+    if not present:  # the table's atmosphere comes from the header's description
+        try:
+            atmosphere_from_description(description)
+        except (ValueError, TypeError, KeyError, IndexError) as exc:
+            raise TableFileError(f"header atmosphere: cannot be rebuilt ({exc!r})") from None
         return
     if len(present) != len(names):
         raise TableFileError(f"atmosphere arrays incomplete: missing "

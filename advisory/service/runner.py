@@ -27,6 +27,7 @@ import math
 import os
 import resource
 import signal
+import threading
 import time
 from types import FrameType
 from typing import Any
@@ -304,14 +305,22 @@ def _publish_refusal(output_url: str, why: str) -> None:
     if len(reason.encode("utf-8")) > REASON_MAX_BYTES:
         tail = reason.encode("utf-8")[-(REASON_MAX_BYTES - 20):].decode("utf-8", "ignore")
         reason = "start refused: ..." + tail
-    try:
-        out = OutputPublisher(output_url)
-        out.open()
-        out.publish(encode_status({"state": "unavailable", "reason": clip(reason)}, 0,
-                                  time.time()))
-        out.close(1.0)
-    except Exception:  # noqa: BLE001, S110 - the refusal itself goes to stderr regardless
-        pass
+
+    def send() -> None:
+        try:
+            out = OutputPublisher(output_url)
+            out.open()
+            out.publish(encode_status({"state": "unavailable", "reason": clip(reason)}, 0,
+                                      time.time()))
+            out.close(1.0)
+        except Exception:  # noqa: BLE001, S110 - the refusal goes to stderr regardless
+            pass
+
+    # on its own thread, waited for at most 2 s: an output that blocks in open() (a FIFO
+    # without a reader) must not keep the refused service from exiting
+    sender = threading.Thread(target=send, name="boom-refusal", daemon=True)
+    sender.start()
+    sender.join(2.0)
 
 
 __all__ = ["AdvisoryService", "build_service", "run_service"]

@@ -251,3 +251,18 @@ def test_table_without_atmosphere_arrays_needs_a_usable_description(table_dir, t
                   lambda h: dict(h, atmosphere={"kind": "profile", "levels": [[1, 2]]}))
     with pytest.raises(TableFileError, match="header atmosphere"):
         BoomTable.load(bad)
+
+
+def test_run_with_bad_table_exits_even_if_output_fifo_has_no_reader(table_dir,
+                                                                     check_files,
+                                                                     tmp_path) -> None:
+    # Opening a FIFO for writing blocks until a reader comes; announcing the refusal on
+    # such an output must not hold the exit (bounded by the subprocess timeout).
+    zones, _ = check_files
+    fifo = tmp_path / "display.fifo"
+    os.mkfifo(fifo)
+    proc = cli("run", "--input", "udp://127.0.0.1:0", "--output", f"file://{fifo}",
+               "--zones", str(zones), "--table", str(table_dir / "cells_nan.boomtable"),
+               timeout=60.0)
+    assert proc.returncode == 2, proc.stderr[-2000:]
+    assert "cells" in proc.stderr.splitlines()[-1]

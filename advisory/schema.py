@@ -121,3 +121,10 @@ SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_er
 RECORD_MAX_MB_DEFAULT = 100.0
 RECORD_KEEP_DEFAULT = 9
 RECORD_MAX_MB_MIN = 0.1  #: smallest cap accepted, MB
+
+# ----------------------------------------------------------------------------- zone files
+#: A zone ``limit_psf`` above this is implausible and warned about once per file (not
+#: refused): ground booms of supersonic aircraft in level flight are typically about
+#: 0.5-3 psf (value from memory), so a larger limit almost certainly means pascals typed
+#: as psf (48 Pa is 1 psf) and would silently disable the zone. Common practice, no source.
+ZONE_LIMIT_PSF_PLAUSIBLE_MAX = 10.0

@@ -23,11 +23,13 @@ from shapely.geometry import LinearRing, LineString, MultiPolygon, Point, Polygo
 
 from advisory.geo import contact
 from advisory.geo import polygons as gk
+from advisory.geo import rings as gr
 from advisory.geo.frame import LocalFrame
 from advisory.pipeline.zone_file import DEFAULT_MARGIN_KM, ZoneFileError
 from advisory.pipeline.zones import ZoneSet
 from advisory.units import FT, PSF
 from tests.twins import polygons as twins
+from tests.twins import rings as ring_twins
 
 DATA = Path(__file__).parent / "data"
 GEOD = Geodesic.WGS84
@@ -484,6 +486,16 @@ def test_projected_first_contact_wrapper():
     assert got0[0] == 40
 
 
+def _sweep_agrees(ring: np.ndarray) -> bool:
+    """The sweep kernel and its all-pairs twin agree on the ring; returns the verdict."""
+    i, j = gr.ring_self_intersection(ring[:, 0].copy(), ring[:, 1].copy())
+    ti, _ = ring_twins.ring_self_intersection_twin(ring[:, 0], ring[:, 1])
+    assert (i < 0) == (ti < 0), ring.tolist()
+    if i >= 0:  # the sweep may name another offending pair than the twin's first one
+        assert i < j and ring_twins.edge_pair_bad_twin(ring[:, 0], ring[:, 1], i, j)
+    return i < 0
+
+
 def test_ring_self_intersection_vs_shapely():
     rng = np.random.default_rng(15)
     n_bad = 0
@@ -491,12 +503,9 @@ def test_ring_self_intersection_vs_shapely():
         n = int(rng.integers(3, 10))
         pts = rng.uniform(0, 10, size=(n, 2))
         ring = np.vstack([pts, pts[:1]])
-        i, j = gk.ring_self_intersection(ring[:, 0].copy(), ring[:, 1].copy())
-        ti, tj = twins.ring_self_intersection_twin(ring[:, 0], ring[:, 1])
-        ref_simple = LinearRing(ring).is_simple  # GEOS simplicity of the ring
-        assert (i < 0) == ref_simple
-        assert (i, j) == (ti, tj)
-        n_bad += i >= 0
+        simple = _sweep_agrees(ring)
+        assert simple == LinearRing(ring).is_simple  # GEOS simplicity of the ring
+        n_bad += not simple
     assert n_bad > 50  # the sample really exercises both outcomes
     # fold-back spike and a figure-of-eight through a shared vertex (exact cases)
     spike = np.array([[0, 0], [4, 0], [4, 4], [4, 2], [0, 4], [0, 0]], float)
@@ -504,8 +513,56 @@ def test_ring_self_intersection_vs_shapely():
     square = np.array([[0, 0], [4, 0], [4, 4], [0, 4], [0, 0]], float)
     for ring, simple in ((spike, False), (eight, False), (square, True)):
         assert LinearRing(ring).is_simple == simple
-        assert (gk.ring_self_intersection(ring[:, 0].copy(), ring[:, 1].copy())[0] < 0) == simple
-        assert (twins.ring_self_intersection_twin(ring[:, 0], ring[:, 1])[0] < 0) == simple
+        assert _sweep_agrees(ring) == simple
+
+
+def test_ring_sweep_degenerate_rings_vs_twin_and_shapely():
+    # Small integer grids make every degenerate case common: vertical and collinear
+    # edges, touching at vertices, overlaps, repeated coordinates (exact arithmetic).
+    rng = np.random.default_rng(7)
+    verdicts = {True: 0, False: 0}
+    for _ in range(3000):
+        n = int(rng.integers(3, 12))
+        pts = rng.integers(0, 4, size=(n, 2)).astype(float)
+        keep = np.ones(n, dtype=bool)
+        keep[1:] = np.any(pts[1:] != pts[:-1], axis=1)
+        pts = pts[keep]
+        if len(pts) > 1 and np.array_equal(pts[0], pts[-1]):
+            pts = pts[:-1]
+        if len(pts) < 3:
+            continue
+        ring = np.vstack([pts, pts[:1]])
+        simple = _sweep_agrees(ring)
+        verdicts[simple] += 1
+        d = ring - ring[0]
+        if not np.all(d[:, 0] * d[1, 1] - d[:, 1] * d[1, 0] == 0.0):  # GEOS wants area
+            assert simple == LinearRing(ring).is_simple, ring.tolist()
+    assert verdicts[True] > 100 and verdicts[False] > 1000
+
+
+def comb_ring(teeth: int, angle_deg: float = 0.0, touch: bool = False) -> np.ndarray:
+    """A comb: a spine along y with ``teeth`` long teeth along x, rotated by the angle;
+    with ``touch`` the last tooth's tip is bent to touch the previous tooth."""
+    pts = [[0.0, 0.0]]
+    for k in range(teeth):
+        y0 = 2.0 * k
+        pts += [[100.0, y0], [100.0, y0 + 1.0], [1.0, y0 + 1.0], [1.0, y0 + 2.0]]
+    pts[-1] = [0.0, 2.0 * teeth]
+    if touch:
+        pts[-3] = [100.0, 2.0 * teeth - 3.0]  # onto the previous tooth's upper edge
+    a = np.radians(angle_deg)
+    rot = np.array([[np.cos(a), -np.sin(a)], [np.sin(a), np.cos(a)]])
+    ring = np.array(pts) @ rot.T
+    return np.vstack([ring, ring[:1]])
+
+
+@pytest.mark.parametrize("angle", [0.0, 90.0, 33.0])
+def test_ring_sweep_comb_rings_vs_shapely(angle):
+    # Combs in three orientations (a large one is what took the quadratic test 17.6 s;
+    # its speed is measured by the bench, not here): simple, and with one touch.
+    for touch in (False, True):
+        ring = comb_ring(300, angle, touch)
+        assert _sweep_agrees(ring) == LinearRing(ring).is_simple == (not touch)
 
 
 def test_zone_file_roundtrip_through_json(tmp_path):

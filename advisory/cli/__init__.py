@@ -43,9 +43,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the process exit code.
 
     A :class:`UsageError` or a ``ValueError`` from the command (a domain error: bad
-    atmosphere, flight condition or file, its message naming the field and the value)
-    prints ``boom-advisory <command>: error: <message>`` on one line of stderr and
-    returns :data:`EXIT_USAGE`.
+    atmosphere, flight condition or file, its message naming the field and the value),
+    or a file that is missing or cannot be opened, prints
+    ``boom-advisory <command>: error: <message>`` on one line of stderr and returns
+    :data:`EXIT_USAGE`.
     """
     parser = build_parser()
     args = parser.parse_args(argv)
@@ -53,6 +54,11 @@ def main(argv: Sequence[str] | None = None) -> int:
         return int(args.func(args))
     except (UsageError, ValueError) as exc:
         print(f"boom-advisory {args.command}: error: {_one_line(exc)}", file=sys.stderr)
+        return EXIT_USAGE
+    except (FileNotFoundError, IsADirectoryError, NotADirectoryError, PermissionError) as exc:
+        # a named file that cannot be opened is bad input like any other (one line, exit 2)
+        print(f"boom-advisory {args.command}: error: {exc.filename}: {exc.strerror}",
+              file=sys.stderr)
         return EXIT_USAGE
 
 

@@ -43,8 +43,10 @@ def load_state_fields(path: str | Path) -> dict[str, Any]:
         obj = json.loads(Path(path).read_text(encoding="utf-8"))
     except OSError as exc:
         raise StateFileError(f"state file {path}: cannot read ({exc.strerror})") from exc
-    except json.JSONDecodeError as exc:
+    except (json.JSONDecodeError, UnicodeDecodeError) as exc:
         raise StateFileError(f"state file {path}: not valid JSON ({exc})") from exc
+    except RecursionError:
+        raise StateFileError(f"state file {path}: JSON nested too deeply") from None
     if not isinstance(obj, dict):
         raise StateFileError(f"state file {path}: expected one JSON object")
     return obj

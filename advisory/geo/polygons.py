@@ -49,7 +49,6 @@ __all__ = [
     "segment_zone_distance",
     "segment_near_zone",
     "edge_run_near",
-    "ring_self_intersection",
 ]
 
 
@@ -358,72 +357,3 @@ def segment_near_zone(ax: float, ay: float, bx: float, by: float, margin: float,
         if inside:
             return True
     return False
-
-
-# --------------------------------------------------------------------------------------
-# Ring validity
-# --------------------------------------------------------------------------------------
-
-
-@njit(cache=True)
-def ring_self_intersection(x: np.ndarray, y: np.ndarray) -> tuple[int, int]:
-    """First pair of edges of a closed ring that meet where they should not.
-
-    Non-adjacent edges must not share any point; adjacent edges must share only their
-    common vertex (no fold-back). Consecutive duplicate vertices must have been removed.
-    A sweep over edges sorted by their smallest x keeps this near O(n log n) for
-    ordinary rings.
-
-    Parameters
-    ----------
-    x, y : ndarray
-        float64 (n,) closed ring (``x[-1] == x[0]``), any units.
-
-    Returns
-    -------
-    (i, j) : tuple of int
-        Indices of the offending edges (edge ``i`` joins vertices ``i`` and ``i + 1``),
-        ``i < j``; ``(-1, -1)`` when the ring is simple.
-    """
-    ne = x.shape[0] - 1
-    xmin = np.empty(ne)
-    for e in range(ne):
-        xmin[e] = min(x[e], x[e + 1])
-    order = np.argsort(xmin)
-    bi = -1
-    bj = -1
-    for oi in range(ne):
-        i = order[oi]
-        xmax_i = max(x[i], x[i + 1])
-        ymin_i = min(y[i], y[i + 1])
-        ymax_i = max(y[i], y[i + 1])
-        for oj in range(oi + 1, ne):
-            j = order[oj]
-            if xmin[j] > xmax_i:
-                break
-            if min(y[j], y[j + 1]) > ymax_i or max(y[j], y[j + 1]) < ymin_i:
-                continue
-            a = min(i, j)
-            b = max(i, j)
-            if b == a + 1 or (a == 0 and b == ne - 1):
-                # adjacent: shared vertex v; bad only if they fold back onto each other
-                if b == a + 1:
-                    vx, vy = x[b], y[b]
-                    px, py = x[a], y[a]
-                    qx, qy = x[b + 1], y[b + 1]
-                else:
-                    vx, vy = x[0], y[0]
-                    px, py = x[1], y[1]
-                    qx, qy = x[ne - 1], y[ne - 1]
-                if ne == 2 or (_orient(px, py, vx, vy, qx, qy) == 0.0
-                               and (px - vx) * (qx - vx) + (py - vy) * (qy - vy) > 0.0):
-                    bad = True
-                else:
-                    bad = False
-            else:
-                bad = segments_intersect(x[a], y[a], x[a + 1], y[a + 1],
-                                         x[b], y[b], x[b + 1], y[b + 1])
-            if bad and (bi < 0 or a < bi or (a == bi and b < bj)):
-                bi = a
-                bj = b
-    return bi, bj

@@ -389,7 +389,7 @@ def aircraft_from_dict(doc: dict, source: str = "dict") -> Aircraft:
                 raise AircraftError(f"{key}: {doc[key]!r} is not a table")
             _check_keys(doc[key], allowed, f"{key}.")
     cls = doc.get("class", DEFAULT_CLASS)
-    if cls not in CLASS_PRESETS:
+    if not isinstance(cls, str) or cls not in CLASS_PRESETS:
         raise AircraftError(f"class: {cls!r} is not one of {', '.join(sorted(CLASS_PRESETS))}")
     preset = CLASS_PRESETS[cls]
     name = doc.get("name", "unnamed aircraft")

@@ -435,6 +435,9 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
         text = path.read_text(encoding="utf-8")
     except OSError as exc:
         raise AtmosphereError(f"atmosphere file {path}: cannot read ({exc.strerror})") from exc
+    except UnicodeDecodeError as exc:
+        raise AtmosphereError(f"atmosphere file {path}: not UTF-8 text ({exc.reason} at byte "
+                              f"{exc.start})") from exc
     rows: list[dict[str, float]] = []
     if path.suffix.lower() == ".toml":
         doc = parse_toml(text, f"atmosphere file {path}", AtmosphereError)
@@ -442,11 +445,14 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
         if not isinstance(raw_rows, list):
             raise AtmosphereError(f"atmosphere file {path}: needs [[level]] tables")
         for i, raw in enumerate(raw_rows):
+            if not isinstance(raw, dict):
+                raise AtmosphereError(f"atmosphere file {path}: level {i}: {raw!r} is not a "
+                                      "table of named values ([[level]] tables)")
             row = {}
             for k, v in raw.items():
-                if not isinstance(v, (int, float)) or isinstance(v, bool):
+                if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v):
                     raise AtmosphereError(f"atmosphere file {path}: level {i}: {k} = {v!r} "
-                                          "is not a number")
+                                          "is not a finite number")
                 row[k] = float(v)
             rows.append(row)
     else:
@@ -458,9 +464,12 @@ def load_profile(path: str | Path, temp_offset_k: float = 0.0) -> Atmosphere:
                     continue
                 try:
                     row[k.strip()] = float(v)
+                    if not math.isfinite(row[k.strip()]):
+                        raise ValueError(v)
                 except ValueError as exc:
                     raise AtmosphereError(
-                        f"atmosphere file {path}: row {i + 1}: {k.strip()} = {v!r} is not a number"
+                        f"atmosphere file {path}: row {i + 1}: {k.strip()} = {v!r} is not a "
+                        "finite number"
                     ) from exc
             rows.append(row)
     levels = [

@@ -85,6 +85,8 @@ class AdvisorConfig:
         for f in fields(self):
             v = getattr(self, f.name)
             lo, hi = limits[f.name]
+            if f.type in (int, "int") and not (isinstance(v, int) and not isinstance(v, bool)):
+                raise ConfigError(f"advisor config: {f.name} = {v!r} is not a whole number")
             if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v) \
                     or not (lo <= v <= hi):
                 raise ConfigError(f"advisor config: {f.name} = {v!r} is outside [{lo}, {hi}]")

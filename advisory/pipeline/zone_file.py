@@ -4,7 +4,9 @@ A zone file is a GeoJSON FeatureCollection (RFC 7946) of Polygon and MultiPolygo
 features; polygons may have holes. Each feature's ``properties``:
 
 ``id`` : str, required
-    Unique, non-empty identifier (used in advisories).
+    Unique, non-empty identifier (used in advisories), without control characters
+    (Unicode category Cc) and unique within its first 63 UTF-8 bytes (the advisory
+    frame's ``zone_id`` limit).
 ``name`` : str, optional
     Human-readable name; defaults to the id.
 ``limit_psf`` : number >= 0, required
@@ -38,7 +40,9 @@ All values are SI inside (:class:`Zone`): Pa, m, rad.
 from __future__ import annotations
 
 import json
+import logging
 import math
+import unicodedata
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -46,8 +50,11 @@ from typing import Any
 
 import numpy as np
 
-from advisory.geo import polygons as gk
-from advisory.units import ft_to_m, psf_to_pa
+from advisory.geo.rings import ring_self_intersection
+from advisory.schema import ZONE_ID_MAX_BYTES, ZONE_LIMIT_PSF_PLAUSIBLE_MAX
+from advisory.units import ft_to_m, pa_to_psf, psf_to_pa
+
+log = logging.getLogger(__name__)
 
 __all__ = [
     "DEFAULT_MARGIN_KM",
@@ -148,6 +155,9 @@ def read_geojson(path: str | Path, source: str) -> Any:
         raise ZoneFileError(
             f"not valid JSON: {exc.msg} at line {exc.lineno} column {exc.colno}",
             source=source) from exc
+    except RecursionError:
+        raise ZoneFileError("JSON nested too deeply to be a zone file", source=source) \
+            from None
     return obj
 
 
@@ -172,14 +182,45 @@ def zones_from_geojson(obj: Any, source: str = "<geojson>") -> tuple[Zone, ...]:
                             source=source)
     zones: list[Zone] = []
     seen: dict[str, int] = {}
+    seen_wire: dict[str, int] = {}
     for i, feat in enumerate(features):
         zone = _parse_feature(feat, i, source)
         if zone.id in seen:
             raise ZoneFileError(f"id repeats that of feature {seen[zone.id]}",
                                 source=source, feature_index=i, zone_id=zone.id)
+        wire = wire_zone_id(zone.id)
+        if wire in seen_wire:
+            raise ZoneFileError(
+                f"id agrees with that of feature {seen_wire[wire]} in its first "
+                f"{ZONE_ID_MAX_BYTES} UTF-8 bytes (all an advisory frame carries); make the "
+                "ids differ within that length", source=source, feature_index=i,
+                zone_id=zone.id)
         seen[zone.id] = i
+        seen_wire[wire] = i
         zones.append(zone)
+    _warn_implausible_limits(zones, source)
     return tuple(zones)
+
+
+def _warn_implausible_limits(zones: list[Zone], source: str) -> None:
+    """One warning line for the zones whose ``limit_psf`` is above
+    :data:`advisory.schema.ZONE_LIMIT_PSF_PLAUSIBLE_MAX` (likely pascals typed as psf)."""
+    high = [z for z in zones if pa_to_psf(z.limit_pa) > ZONE_LIMIT_PSF_PLAUSIBLE_MAX]
+    if not high:
+        return
+    named = ", ".join(f"{z.id!r} ({pa_to_psf(z.limit_pa):g})" for z in high[:5])
+    more = f" and {len(high) - 5} more" if len(high) > 5 else ""
+    log.warning("%s: limit_psf above %g psf for zone(s) %s%s: typical booms are "
+                "0.5-3 psf, so such a zone is in effect never in conflict; were pascals "
+                "meant (1 psf = 47.88 Pa)?", source, ZONE_LIMIT_PSF_PLAUSIBLE_MAX, named, more)
+
+
+def wire_zone_id(zone_id: str) -> str:
+    """The zone id as an advisory frame carries it: cut to
+    :data:`advisory.schema.ZONE_ID_MAX_BYTES` UTF-8 bytes, a partial character dropped."""
+    raw = zone_id.encode("utf-8")
+    return zone_id if len(raw) <= ZONE_ID_MAX_BYTES else \
+        raw[:ZONE_ID_MAX_BYTES].decode("utf-8", "ignore")
 
 
 # --------------------------------------------------------------------------------------
@@ -204,7 +245,10 @@ def _kind(v: Any) -> str:
 
 
 def _is_number(v: Any) -> bool:
-    return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+    try:
+        return isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+    except OverflowError:  # an integer too large for a float
+        return False
 
 
 def _parse_feature(feat: Any, i: int, source: str) -> Zone:
@@ -226,6 +270,10 @@ def _parse_feature(feat: Any, i: int, source: str) -> Zone:
         raise fail("properties.id is missing (a unique, non-empty string is required)")
     if zid is None:
         raise fail(f"properties.id must be a non-empty string, got {_kind(props['id'])}")
+    bad = [ch for ch in zid if unicodedata.category(ch) == "Cc"]
+    if bad:
+        raise fail(f"properties.id contains the control character U+{ord(bad[0]):04X} "
+                   "(ids are sent in advisory frames as printable text)")
 
     name = props.get("name", zid)
     if name is None:
@@ -297,6 +345,24 @@ def _fmt(p: Sequence[float]) -> str:
     return f"[{p[0]:.9g}, {p[1]:.9g}]"
 
 
+def _positions_fast(ring_in: list) -> np.ndarray | None:
+    """The ring's [lon, lat] as an (n, 2) array when every position is plainly good
+    (JSON numbers in range), else None: the position-by-position check then names the
+    first bad one. A whole-array check: large rings load in a fraction of the time."""
+    if not all(type(p) is list and len(p) == 2 for p in ring_in):
+        return None  # (positions with an altitude take the slow path)
+    kinds = {type(p[0]) for p in ring_in} | {type(p[1]) for p in ring_in}
+    if not kinds <= {int, float}:  # bool, str, null, containers: the slow path names them
+        return None
+    try:
+        pts = np.array(ring_in, dtype=np.float64)
+    except OverflowError:
+        return None
+    if not (np.all(np.abs(pts[:, 0]) <= 180.0) and np.all(np.abs(pts[:, 1]) <= 90.0)):
+        return None  # NaN and infinity fail these too
+    return pts
+
+
 def _parse_ring(ring_in: Any) -> np.ndarray:
     """Check one linear ring; return it as a closed (n, 2) array of [lon, lat] rad."""
     if not isinstance(ring_in, list):
@@ -304,8 +370,9 @@ def _parse_ring(ring_in: Any) -> np.ndarray:
     if len(ring_in) < 4:
         raise ValueError(f"has {len(ring_in)} positions; a linear ring needs at least 4 "
                          "(RFC 7946 section 3.1.6)")
-    pts = np.empty((len(ring_in), 2))
-    for j, pos in enumerate(ring_in):
+    fast = _positions_fast(ring_in)
+    pts = fast if fast is not None else np.empty((len(ring_in), 2))
+    for j, pos in enumerate(ring_in if fast is None else ()):
         if not isinstance(pos, list) or len(pos) < 2:
             raise ValueError(f"position {j} must be [longitude, latitude], got {_kind(pos)}")
         lon, lat = pos[0], pos[1]
@@ -334,7 +401,7 @@ def _parse_ring(ring_in: Any) -> np.ndarray:
         raise ValueError("encloses no area (all positions on one line)")
     xs = np.ascontiguousarray(pts[:, 0])
     ys = np.ascontiguousarray(pts[:, 1])
-    i, j = gk.ring_self_intersection(xs, ys)
+    i, j = ring_self_intersection(xs, ys)
     if i >= 0:
         raise ValueError(f"crosses or touches itself: the edge from {_fmt(pts[i])} to "
                          f"{_fmt(pts[i + 1])} meets the edge from {_fmt(pts[j])} to "

@@ -150,10 +150,16 @@ class ZoneSet:
         Raises
         ------
         ZoneFileError
-            When the file cannot be read, is not JSON, or fails a check.
+            When the file cannot be read, is not JSON, fails a check, or holds no zone
+            (an empty zone file would advise "clear" for ever; an empty set built in
+            code, :meth:`from_geojson`, stays allowed).
         """
         src = str(path)
-        return cls(zones_from_geojson(read_geojson(path, src), src), src)
+        zones = zones_from_geojson(read_geojson(path, src), src)
+        if not zones:
+            raise ZoneFileError("'features' is empty: a zone file needs at least one zone "
+                                "(an empty file would always advise clear)", source=src)
+        return cls(zones, src)
 
     @classmethod
     def from_geojson(cls, obj: Any, source: str = "<geojson>") -> ZoneSet:

@@ -27,14 +27,17 @@ import math
 import os
 import resource
 import signal
+import threading
 import time
 from types import FrameType
 from typing import Any
 
+from advisory.io.messages import encode_status
 from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
-from advisory.schema import VERSION
+from advisory.schema import REASON_MAX_BYTES, VERSION
 from advisory.service.build import assemble
+from advisory.service.health import clip
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
 from advisory.service.loop import AdvisoryLoop
@@ -263,7 +266,11 @@ def run_service(s: RunSettings) -> int:
 
 def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
     t0 = time.monotonic()
-    svc = build_service(s, logs)
+    try:
+        svc = build_service(s, logs)
+    except ValueError as exc:  # a refused file or setting: exit 2, but say why on the bus
+        _publish_refusal(s.output_url, str(exc))
+        raise
     svc.started_monotonic = t0
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
@@ -291,6 +298,31 @@ def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
     finally:
         for sig, handler in old.items():
             signal.signal(sig, handler)
+
+
+def _publish_refusal(output_url: str, why: str) -> None:
+    """Best effort: one ``unavailable`` status frame saying why the service did not start
+    (so a display shows the reason, not silence); the end of a long reason is kept."""
+    reason = " ".join(f"start refused: {why}".split())
+    if len(reason.encode("utf-8")) > REASON_MAX_BYTES:
+        tail = reason.encode("utf-8")[-(REASON_MAX_BYTES - 20):].decode("utf-8", "ignore")
+        reason = "start refused: ..." + tail
+
+    def send() -> None:
+        try:
+            out = OutputPublisher(output_url)
+            out.open()
+            out.publish(encode_status({"state": "unavailable", "reason": clip(reason)}, 0,
+                                      time.time()))
+            out.close(1.0)
+        except Exception:  # noqa: BLE001, S110 - the refusal goes to stderr regardless
+            pass
+
+    # on its own thread, waited for at most 2 s: an output that blocks in open() (a FIFO
+    # without a reader) must not keep the refused service from exiting
+    sender = threading.Thread(target=send, name="boom-refusal", daemon=True)
+    sender.start()
+    sender.join(2.0)
 
 
 __all__ = ["AdvisoryService", "build_service", "run_service"]

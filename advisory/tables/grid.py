@@ -158,10 +158,19 @@ def load_grid(path: str | Path, with_wind: bool = False) -> TableGrid:
             return None
         vals = doc[key]
         if not isinstance(vals, list) or not all(
-            isinstance(v, (int, float)) and not isinstance(v, bool) for v in vals
+            isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v)
+            for v in vals
         ):
-            raise GridError(f"grid file {path}: {key} must be a list of numbers")
+            raise GridError(f"grid file {path}: {key} must be a list of finite numbers")
         return tuple(float(v) for v in vals)
+
+    def number(key: str, default: float, whole: bool = False) -> float:
+        v = doc.get(key, default)
+        if isinstance(v, bool) or not isinstance(v, int if whole else (int, float)) \
+                or not math.isfinite(v):
+            kind = "a whole number" if whole else "a finite number"
+            raise GridError(f"grid file {path}: {key} = {v!r} must be {kind}")
+        return float(v)
 
     alts = floats("altitudes_ft")
     mex = floats("mach_excess")
@@ -172,9 +181,9 @@ def load_grid(path: str | Path, with_wind: bool = False) -> TableGrid:
         mach_excess=mex or base.mach_excess,
         fpa_rad=tuple(math.radians(f) for f in fpa) if fpa else base.fpa_rad,
         headings_rad=tuple(math.radians(h) for h in hdg) if hdg else base.headings_rad,
-        n_eta=int(doc.get("n_eta", base.n_eta)),
-        mach_max=float(doc.get("mach_max", base.mach_max)),
-        ground_elevation_m=units.ft_to_m(float(doc.get("ground_elevation_ft", 0.0))),
+        n_eta=int(number("n_eta", base.n_eta, whole=True)),
+        mach_max=number("mach_max", base.mach_max),
+        ground_elevation_m=units.ft_to_m(number("ground_elevation_ft", 0.0)),
     )
     try:
         grid.validate()

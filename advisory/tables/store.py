@@ -29,6 +29,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import os
 import struct
 from pathlib import Path
@@ -111,8 +112,10 @@ def read_table_header(path: str | Path) -> tuple[dict, bytes]:
         raise TableFileError(f"table file {path}: header digest mismatch (header corrupted)")
     try:
         header = json.loads(hbytes.decode("utf-8"))
-    except (UnicodeDecodeError, json.JSONDecodeError) as exc:  # pragma: no cover
+    except (UnicodeDecodeError, json.JSONDecodeError, RecursionError) as exc:
         raise TableFileError(f"table file {path}: header is not valid JSON") from exc
+    if not isinstance(header, dict):
+        raise TableFileError(f"table file {path}: header is not a JSON object")
     return header, data[end + 32:]
 
 
@@ -130,7 +133,10 @@ def read_table_file(path: str | Path) -> tuple[dict, dict[str, np.ndarray]]:
         With a message naming the failed check.
     """
     header, payload = read_table_header(path)
-    declared = int(header.get("payload_nbytes", -1))
+    declared = header.get("payload_nbytes", -1)
+    if not _count(declared):
+        raise TableFileError(f"table file {path}: header key 'payload_nbytes' must be a "
+                             f"non-negative integer, got {declared!r}")
     if len(payload) < declared:
         raise TableFileError(
             f"table file {path}: truncated payload ({len(payload)} of {declared} bytes)"
@@ -144,11 +150,51 @@ def read_table_file(path: str | Path) -> tuple[dict, dict[str, np.ndarray]]:
             f"table file {path}: payload SHA-256 mismatch (file corrupted or altered)"
         )
     arrays = {}
-    for entry in header["arrays"]:
-        a = np.frombuffer(payload, dtype=np.dtype(entry["dtype"]), count=int(np.prod(
-            entry["shape"], dtype=np.int64)), offset=entry["offset"])
-        arrays[entry["name"]] = a.reshape(entry["shape"])
+    directory = header.get("arrays")
+    if not isinstance(directory, list):
+        raise TableFileError(f"table file {path}: header key 'arrays' must be a list")
+    for entry in directory:
+        name, dtype, shape, offset = _directory_entry(entry, len(payload), path)
+        a = np.frombuffer(payload, dtype=dtype, count=math.prod(shape), offset=offset)
+        arrays[name] = a.reshape(shape)
     return header, arrays
+
+
+def _directory_entry(entry: object, payload_nbytes: int,
+                     path: str | Path) -> tuple[str, np.dtype, tuple[int, ...], int]:
+    """One checked entry of the header's array directory: (name, dtype, shape, offset).
+
+    The array must be a plain little-endian float or integer array lying wholly inside
+    the payload, with ``nbytes`` equal to its shape times its item size.
+    """
+    where = f"table file {path}: array directory"
+    if not isinstance(entry, dict) or not isinstance(entry.get("name"), str):
+        raise TableFileError(f"{where}: an entry is not an object with a 'name'")
+    name = entry["name"]
+    try:
+        if not isinstance(entry.get("dtype"), str):
+            raise TypeError
+        dtype = np.dtype(entry["dtype"])
+    except TypeError:
+        raise TableFileError(f"{where}: array {name}: dtype {entry.get('dtype')!r} is not "
+                             "a numpy dtype") from None
+    if dtype.kind not in "fiu" or dtype.byteorder == ">":
+        raise TableFileError(f"{where}: array {name}: dtype {dtype.str} is not a "
+                             "little-endian number type")
+    shape, offset, nbytes = entry.get("shape"), entry.get("offset", -1), entry.get("nbytes", -1)
+    if (not isinstance(shape, list) or not all(_count(n) for n in shape)
+            or not _count(offset) or not _count(nbytes)):
+        raise TableFileError(f"{where}: array {name}: shape {shape!r}, offset {offset!r} "
+                             f"or nbytes {nbytes!r} is not made of non-negative integers")
+    if math.prod(shape) * dtype.itemsize != nbytes or offset + nbytes > payload_nbytes:
+        raise TableFileError(f"{where}: array {name}: shape {shape} of {dtype.str} does not "
+                             f"fit nbytes {nbytes} at offset {offset} in a payload of "
+                             f"{payload_nbytes} bytes")
+    return str(name), dtype, tuple(int(n) for n in shape), int(offset)
+
+
+def _count(v: object) -> bool:
+    return isinstance(v, int) and not isinstance(v, bool) and v >= 0
 
 
 #: Atmosphere fields stored in a table's payload, each as the array ``atm_<field>``.

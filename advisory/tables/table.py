@@ -10,10 +10,12 @@ from pathlib import Path
 import numpy as np
 
 from advisory import units
+from advisory.physics.aircraft import AircraftError, aircraft_from_dict
 from advisory.physics.atmosphere import Atmosphere, atmosphere_from_description
 from advisory.tables import lookup as lk
-from advisory.tables.grid import TableGrid
+from advisory.tables.grid import GridError, TableGrid
 from advisory.tables.store import (
+    ATMOSPHERE_FIELDS,
     TableFileError,
     atmosphere_from_arrays,
     read_table_file,
@@ -22,6 +24,15 @@ from advisory.tables.store import (
 
 _REQUIRED = ("axis_altitude_m", "axis_mach_excess", "axis_fpa_rad", "axis_heading_rad",
              "axis_eta", "cutoff_mach", "phi_left", "phi_right", "cells")
+#: Header keys a table needs besides ``kind``, with their JSON types.
+_HEADER_KEYS: dict[str, type | tuple[type, ...]] = {
+    "grid": dict, "aircraft": dict, "atmosphere": dict, "reflection_factor": (int, float)}
+#: Accepted cutoff Mach values: a cutoff Mach is above 1 by definition (a boom needs a
+#: supersonic ground speed of the wave front); 5 is the grid's largest Mach (grid.py).
+CUTOFF_MACH_RANGE = (1.0, 5.0)
+#: Accepted ground reflection factors: 1 (no reflection gain) to 2 (rigid ground; 1.9-2.0
+#: is common practice, see advisory/physics/signature.py).
+REFLECTION_FACTOR_RANGE = (1.0, 2.0)
 
 
 @dataclass
@@ -56,12 +67,13 @@ class BoomTable:
     """
 
     def __init__(self, header: dict, arrays: dict[str, np.ndarray]) -> None:
-        missing = [k for k in _REQUIRED if k not in arrays]
-        if missing:
-            raise TableFileError(f"table: missing arrays {missing}")
+        try:
+            grid = check_contents(header, arrays)
+        except TableFileError as exc:
+            raise TableFileError(f"table: {exc}") from None
         self.header = header
         self.arrays = arrays
-        self.grid = TableGrid.from_dict(header["grid"])
+        self.grid = grid
         self.ax_alt = np.ascontiguousarray(arrays["axis_altitude_m"], dtype=np.float64)
         self.ax_mex = np.ascontiguousarray(arrays["axis_mach_excess"], dtype=np.float64)
         self.ax_fpa = np.ascontiguousarray(arrays["axis_fpa_rad"], dtype=np.float64)
@@ -80,7 +92,11 @@ class BoomTable:
         header, arrays = read_table_file(path)
         if header.get("kind") != "boom-advisory table":
             raise TableFileError(f"table file {path}: header kind is not a boom table")
-        table = cls(header, arrays)
+        try:
+            table = cls(header, arrays)
+        except TableFileError as exc:
+            raise TableFileError(f"table file {path}: {str(exc).removeprefix('table: ')}") \
+                from None
         table.path = str(path)
         return table
 
@@ -162,3 +178,157 @@ class BoomTable:
             f"ground {units.m_to_ft(g.ground_elevation_m):,.0f} ft",
         ]
         return lines
+
+
+# ---- contents check ----------------------------------------------------------------------
+def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
+    """Check a table's header and arrays against each other; returns its grid.
+
+    A table whose digests are valid can still be wrong inside (written by a faulty tool,
+    or crafted). The lookup kernel indexes ``cells`` and ``cutoff_mach`` with indices
+    formed from the axes' lengths and trusts every value, so everything it reads is
+    checked here once, at load:
+
+    * header: ``grid`` (every key, the grid's own rules), ``aircraft`` (what
+      :func:`~advisory.physics.aircraft.aircraft_from_dict` accepts), ``atmosphere``
+      (with its ``kind``), ``reflection_factor`` in :data:`REFLECTION_FACTOR_RANGE`;
+    * every array float64; axes one-dimensional, finite, strictly ascending, equal to
+      the header's grid; altitude and Mach excess at least 2 nodes (interpolated axes),
+      flight-path angle and heading at least 1, heading in [0, 2 pi), ``axis_eta`` the
+      grid's odd number of nodes;
+    * ``cutoff_mach`` shaped (altitude, fpa, heading) with values in
+      :data:`CUTOFF_MACH_RANGE`; ``phi_left`` / ``phi_right`` shaped (altitude, Mach
+      excess, fpa, heading) within [-pi, pi]; ``cells`` shaped (altitude, Mach excess,
+      fpa, heading, eta, N_QUANTITIES) with travel time and overpressure >= 0 and the
+      edge flag in [0, 1];
+    * no NaN or infinity anywhere: no cell may legitimately be NaN, a ray that does not
+      reach the ground is stored as zeros with its edge flag (advisory/tables/build.py);
+    * the atmosphere arrays (``atm_*``), when present: all of them, one length >= 2,
+      finite, altitude ascending, temperature, pressure, density and sound speed > 0;
+      when absent, the header's atmosphere description must rebuild an atmosphere.
+
+    Raises
+    ------
+    TableFileError
+        One line naming the array or header key and the problem.
+    """
+    for key, kind in _HEADER_KEYS.items():
+        v = header.get(key)
+        if not isinstance(v, kind) or isinstance(v, bool):
+            raise TableFileError(f"header key {key!r} is missing or not a "
+                                 f"{'number' if key == 'reflection_factor' else 'JSON object'}")
+    try:
+        aircraft_from_dict(header["aircraft"], "table header")
+    except AircraftError as exc:
+        raise TableFileError(f"header aircraft: {exc}") from None
+    if not isinstance(header["atmosphere"].get("kind"), str):
+        raise TableFileError("header atmosphere: key 'kind' is missing or not text")
+    rf = float(header["reflection_factor"])
+    if not REFLECTION_FACTOR_RANGE[0] <= rf <= REFLECTION_FACTOR_RANGE[1]:
+        raise TableFileError(f"header reflection_factor {rf!r} is outside "
+                             f"[{REFLECTION_FACTOR_RANGE[0]:g}, {REFLECTION_FACTOR_RANGE[1]:g}]")
+    missing = [k for k in _REQUIRED if k not in arrays]
+    if missing:
+        raise TableFileError(f"missing arrays {missing}")
+    for name, a in arrays.items():
+        if np.asarray(a).dtype != np.float64:
+            raise TableFileError(f"array {name}: dtype {np.asarray(a).dtype} is not float64")
+    n_alt = _axis(arrays, "axis_altitude_m", 2)
+    n_mex = _axis(arrays, "axis_mach_excess", 2)
+    n_fpa = _axis(arrays, "axis_fpa_rad", 1)
+    n_hdg = _axis(arrays, "axis_heading_rad", 1)
+    n_eta = _axis(arrays, "axis_eta", 3)
+    hdg = arrays["axis_heading_rad"]
+    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
+        raise TableFileError("array axis_heading_rad: nodes must lie in [0, 2 pi) rad")
+    grid = _header_grid(header, arrays)
+    _values(arrays, "cutoff_mach", (n_alt, n_fpa, n_hdg), *CUTOFF_MACH_RANGE)
+    for name in ("phi_left", "phi_right"):
+        _values(arrays, name, (n_alt, n_mex, n_fpa, n_hdg), -math.pi, math.pi)
+    _values(arrays, "cells", (n_alt, n_mex, n_fpa, n_hdg, n_eta, lk.N_QUANTITIES),
+            -math.inf, math.inf)
+    cells = arrays["cells"]
+    for q, what, lo, hi in ((lk.Q_TIME, "travel time", 0.0, math.inf),
+                            (lk.Q_DP, "overpressure", 0.0, math.inf),
+                            (lk.Q_EDGE, "edge flag", 0.0, 1.0)):
+        v = cells[..., q]
+        if v.min() < lo or v.max() > hi:
+            raise TableFileError(f"array cells: {what} (quantity {q}) outside [{lo:g}, {hi:g}]")
+    _check_atmosphere(arrays, header["atmosphere"])
+    return grid
+
+
+def _axis(arrays: dict[str, np.ndarray], name: str, min_nodes: int) -> int:
+    a = arrays[name]
+    if a.ndim != 1:
+        raise TableFileError(f"array {name}: shape {a.shape} is not one-dimensional")
+    if a.size < min_nodes:
+        raise TableFileError(f"array {name}: {a.size} node(s); this axis needs at least "
+                             f"{min_nodes}" + (" (an interpolated axis)" if min_nodes == 2
+                                               else ""))
+    if not np.all(np.isfinite(a)):
+        raise TableFileError(f"array {name}: nodes are not finite")
+    if np.any(np.diff(a) <= 0.0):
+        raise TableFileError(f"array {name}: nodes must ascend strictly")
+    return int(a.size)
+
+
+def _header_grid(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
+    """The header's grid, checked and equal to the axis arrays."""
+    d = header["grid"]
+    for key in ("altitudes_m", "mach_excess", "fpa_rad", "headings_rad", "n_eta", "mach_max",
+                "ground_elevation_m"):
+        if key not in d:
+            raise TableFileError(f"header grid: key {key!r} is missing")
+    try:
+        grid = TableGrid.from_dict(d)
+        grid.validate()
+    except GridError as exc:
+        raise TableFileError(f"header {exc}") from None
+    except (TypeError, ValueError) as exc:
+        raise TableFileError(f"header grid: bad value ({exc})") from None
+    for name, axis in grid.axes().items():
+        if not np.array_equal(arrays[name], axis):
+            raise TableFileError(f"array {name}: nodes differ from the header's grid")
+    return grid
+
+
+def _values(arrays: dict[str, np.ndarray], name: str, shape: tuple[int, ...], lo: float,
+            hi: float) -> None:
+    """``arrays[name]`` has ``shape`` and finite values in [lo, hi]."""
+    a = arrays[name]
+    if a.shape != shape:
+        raise TableFileError(f"array {name}: shape {a.shape} does not match the axes "
+                             f"{shape}")
+    for plane in a:  # one altitude plane at a time: no temporary as big as the table
+        if not np.all(np.isfinite(plane)):
+            raise TableFileError(f"array {name}: values are not finite (NaN or infinity)")
+        if plane.size and (plane.min() < lo or plane.max() > hi):
+            raise TableFileError(f"array {name}: values outside [{lo:g}, {hi:g}]")
+
+
+def _check_atmosphere(arrays: dict[str, np.ndarray], description: dict) -> None:
+    names = [f"atm_{f}" for f in ATMOSPHERE_FIELDS]
+    present = [n for n in names if n in arrays]
+    if not present:  # the table's atmosphere comes from the header's description
+        try:
+            atmosphere_from_description(description)
+        except (ValueError, TypeError, KeyError, IndexError) as exc:
+            raise TableFileError(f"header atmosphere: cannot be rebuilt ({exc!r})") from None
+        return
+    if len(present) != len(names):
+        raise TableFileError(f"atmosphere arrays incomplete: missing "
+                             f"{sorted(set(names) - set(present))}")
+    n = arrays["atm_z_m"].shape
+    for name in names:
+        a = arrays[name]
+        if a.ndim != 1 or a.shape != n or a.size < 2:
+            raise TableFileError(f"array {name}: shape {a.shape}; the atmosphere arrays "
+                                 f"share one length >= 2 ({n})")
+        if not np.all(np.isfinite(a)):
+            raise TableFileError(f"array {name}: values are not finite (NaN or infinity)")
+        if name in ("atm_temperature_k", "atm_pressure_pa", "atm_density_kgm3",
+                    "atm_sound_speed_mps") and a.min() <= 0.0:
+            raise TableFileError(f"array {name}: values must be > 0")
+    if np.any(np.diff(arrays["atm_z_m"]) <= 0.0):
+        raise TableFileError("array atm_z_m: altitudes must ascend strictly")

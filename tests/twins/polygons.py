@@ -132,30 +132,3 @@ def first_contact_twin(ax, ay, bx, by, x, y, ring_start, part_start, zone_start,
         if first.size:
             out[k] = first[0]
     return out
-
-
-def ring_self_intersection_twin(x, y) -> tuple[int, int]:
-    """numpy twin of :func:`advisory.geo.polygons.ring_self_intersection`: all edge pairs
-    at once."""
-    x = np.asarray(x, dtype=np.float64)
-    y = np.asarray(y, dtype=np.float64)
-    ne = x.size - 1
-    i, j = np.triu_indices(ne, k=1)
-    adjacent = (j == i + 1) | ((i == 0) & (j == ne - 1))
-    hit = segments_intersect_twin(x[i], y[i], x[i + 1], y[i + 1], x[j], y[j], x[j + 1], y[j + 1])
-    # adjacent edges: the shared vertex v with the far ends p, q; fold-back when collinear
-    # and pointing the same way from v
-    seq = j == i + 1
-    v = np.where(seq, j, 0)
-    p = np.where(seq, i, 1)
-    q = np.where(seq, j + 1, ne - 1)
-    cross = (x[v] - x[p]) * (y[q] - y[p]) - (y[v] - y[p]) * (x[q] - x[p])
-    dot = (x[p] - x[v]) * (x[q] - x[v]) + (y[p] - y[v]) * (y[q] - y[v])
-    fold = (cross == 0) & (dot > 0)
-    if ne == 2:
-        fold[:] = True
-    bad = np.where(adjacent, fold, hit)
-    k = np.flatnonzero(bad)
-    if k.size == 0:
-        return -1, -1
-    return int(i[k[0]]), int(j[k[0]])

@@ -113,3 +113,11 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: added still replay byte for byte.
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
                     "log_dropped")
+
+# ----------------------------------------------------------------------------- freshness
+#: Validator reason codes for frames that carry no new data (ICD section 4, "Freshness
+#: and plausibility"): a repeated ``seq``, a ``seq`` behind the last accepted one, a
+#: sender clock that does not advance, a position that does not move with the ground
+#: speed. Each is a counter of its own in the status frames; while the latest rejection
+#: is one of these, the "stale" reason names it.
+FRESHNESS_REASONS = ("seq_repeat", "seq_back", "utc_frozen", "position_frozen")

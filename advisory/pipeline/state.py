@@ -20,7 +20,13 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from advisory.pipeline.airdata import AIR_RANGES, AirDataState, new_state
-from advisory.schema import AIR_OPTIONAL, AIR_REQUIRED, EARTH_MEAN_RADIUS_M, STALE_AFTER_S
+from advisory.schema import (
+    AIR_OPTIONAL,
+    AIR_REQUIRED,
+    EARTH_MEAN_RADIUS_M,
+    SEQ_MAX,
+    STALE_AFTER_S,
+)
 from advisory.units import DEG, FT, KELVIN_OFFSET, KT, wind_from_to_components
 
 __all__ = ["AirDataState", "Rejection", "ValidatorLimits", "StateValidator"]
@@ -32,7 +38,10 @@ class Rejection(str):
     Codes: ``not_a_mapping``, ``missing:<field>``, ``type:<field>``,
     ``nonfinite:<field>``, ``range:<field>``, ``wind_incomplete``, ``stale``,
     ``rx_backwards``, ``utc_backwards``, ``clock_step``, ``jump:<field>``
-    (``jump:position`` for latitude/longitude), ``internal``.
+    (``jump:position`` for latitude/longitude), ``internal``; freshness
+    (:data:`advisory.schema.FRESHNESS_REASONS`): ``seq_repeat``, ``seq_back``,
+    ``utc_frozen``, ``position_frozen``; and ``inconsistent:gs_kt`` (ground speed that
+    Mach and wind cannot explain).
 
     Attributes
     ----------
@@ -74,6 +83,20 @@ class ValidatorLimits:
     fpa_deg_per_s: float = 30.0
     fpa_slack_deg: float = 5.0
     rebaseline_after: int = 3  #: mutually consistent jumped frames that start a new track
+    rebaseline_min_s: float = 1.0  #: ... and the time they must span (a glitch is shorter)
+    seq_restart_after: int = 3  #: frames numbered on from a step back: a sender restart
+    seq_restart_step: int = 16  #: largest seq advance between those frames
+    motion_window_s: float = 0.4  #: position compared with ground speed over this time
+    motion_fraction: float = 0.5  #: ... it must cover this share of ground speed x time
+    position_noise_m: float = 50.0  #: ... less this noise (GNSS, ARINC 429 resolution)
+    max_wind_mps: float = 125.0  #: strongest wind assumed when the frame carries none
+    tas_fraction: float = 0.10  #: Mach -> true airspeed uncertainty without sat_c
+    tas_fraction_sat: float = 0.05  #: ... with sat_c
+    speed_slack_mps: float = 25.0  #: added to the ground-speed consistency tolerance
+
+
+#: gamma R of dry air, J/(kg K): 1.4 x 287.05287 (U.S. Standard Atmosphere 1976).
+_GAMMA_R = 1.4 * 287.05287
 
 
 def _wrap180(d: float) -> float:
@@ -96,8 +119,13 @@ class StateValidator:
         Rejected frames counted by reason code.
     rebaselines : int
         Times a consistent run of jumped frames was taken as the new track.
+    seq_restarts : int
+        Times a step back of ``seq`` was taken as a sender restart.
     last_rejection : Rejection or None
         The most recent rejection (its ``detail`` is the message for the log).
+    not_fresh : Rejection or None
+        The latest freshness rejection (repeated or old ``seq``, frozen clock, frozen
+        position) since the last accepted frame, else None: why the data went stale.
     """
 
     def __init__(self, limits: ValidatorLimits | None = None) -> None:
@@ -126,11 +154,19 @@ class StateValidator:
         self._clock_ref: tuple[float, float] | None = None  # (utc, rx)
         self._candidate: tuple | None = None
         self._run = 0
+        self._run_start = 0.0  # rx of the first frame of the candidate run
+        self.seq_restarts = 0
+        self.not_fresh: Rejection | None = None
+        self._seq: int | None = None  # seq of the last accepted frame
+        self._seq_cand: int | None = None  # last seq of a run that stepped back
+        self._seq_run = 0
+        self._anchor: tuple[float, float, float, float] | None = None  # lat, lon, gs, rx
 
     # -- public -------------------------------------------------------------------
 
     def validate(self, fields: Any, rx_monotonic: float, utc_s: float | None = None,
-                 now_monotonic: float | None = None) -> AirDataState | Rejection:
+                 now_monotonic: float | None = None,
+                 seq: int | None = None) -> AirDataState | Rejection:
         """Validate one frame's fields.
 
         Parameters
@@ -145,6 +181,9 @@ class StateValidator:
         now_monotonic : float, optional
             Current monotonic time for the staleness check; defaults to
             ``time.monotonic()`` (replays pass their own clock).
+        seq : int, optional
+            The frame's sequence number (header ``seq``, 0..2**32-1, wraps); enables the
+            repeat and step-back checks.
 
         Returns
         -------
@@ -153,7 +192,7 @@ class StateValidator:
             the reason (counted in :attr:`rejections`).
         """
         try:
-            return self._validate(fields, rx_monotonic, utc_s, now_monotonic)
+            return self._validate(fields, rx_monotonic, utc_s, now_monotonic, seq)
         except Exception as exc:  # the live loop must never die on bad input
             return self._reject("internal", f"validator error on input {fields!r:.80}: {exc!r}")
 
@@ -163,7 +202,8 @@ class StateValidator:
         if getattr(frame, "type", None) != "air":
             return self._reject("not_a_mapping", f"frame type {getattr(frame, 'type', None)!r}"
                                                  " is not 'air'")
-        return self.validate(frame.fields, rx_monotonic, frame.utc_s, now_monotonic)
+        return self.validate(frame.fields, rx_monotonic, frame.utc_s, now_monotonic,
+                             frame.seq)
 
     def current(self, now_monotonic: float | None = None) -> AirDataState | None:
         """The last accepted state if it is still fresh at ``now_monotonic``, else None."""
@@ -223,7 +263,7 @@ class StateValidator:
         return None
 
     def _validate(self, fields: Any, rx: float, utc_s: float | None,
-                  now: float | None) -> AirDataState | Rejection:
+                  now: float | None, seq: int | None) -> AirDataState | Rejection:
         # One long function on purpose: it runs once per frame on the decode path (budget
         # 100,000 frames/s), and method calls per check cost a measurable share of that.
         lim = self.limits
@@ -306,8 +346,15 @@ class StateValidator:
                 return self._reject("range:utc_s", f"utc_s = {utc_s!r} is outside "
                                                    f"[{u0:.0f}, {u1:.0f}] (years 2000-2100)")
         self._last_rx = rx
+        if seq is not None and self._seq is not None and seq != self._seq + 1:
+            rej = self._seq_problem(seq)
+            if rej is not None:
+                return rej
         if utc_s is not None:
             ref = self._clock_ref
+            if ref is not None and utc_s == ref[0]:
+                return self._stale_data("utc_frozen", f"utc_s = {utc_s!r} has not advanced "
+                                        f"in {rx - ref[1]:.3f} s: the sender's clock is frozen")
             self._clock_ref = (utc_s, rx)
             if ref is not None:
                 d_utc = utc_s - ref[0]
@@ -354,20 +401,38 @@ class StateValidator:
                     self._run += 1
                 else:
                     self._run = 1
+                    self._run_start = rx
                 self._candidate = cur
-                if self._run < lim.rebaseline_after:
+                if (self._run < lim.rebaseline_after
+                        or rx - self._run_start < lim.rebaseline_min_s):
                     return self._reject(f"jump:{bad[0]}", bad[1])
                 self.rebaselines += 1
                 self._candidate = None
                 self._run = 0
+                self._anchor = None
             elif self._candidate is not None:
                 self._candidate = None
                 self._run = 0
-        self._last = cur
         if wkt is None or wfrom is None:  # both or neither (checked above)
             east = north = None
         else:
             east, north = wind_from_to_components(wfrom, wkt * KT)
+        rej = self._speed_problem(alt, mach, hdg, gs, sat, east, north)
+        if rej is not None:
+            return rej
+        anchor = self._anchor
+        if anchor is None or (last_rx is not None and rx - last_rx > lim.max_age_s):
+            self._anchor = (lat, lon, gs, rx)  # first frame, or after a gap in the feed
+        elif rx - anchor[3] >= lim.motion_window_s:
+            rej = self._motion_problem(anchor, lat, lon, gs, rx)
+            if rej is not None:
+                return rej
+            self._anchor = (lat, lon, gs, rx)
+        self._last = cur
+        if seq is not None:
+            self._seq = seq
+            self._seq_cand = None
+        self.not_fresh = None
         st = new_state((
             lat * DEG, lon * DEG, alt * FT, mach, (hdg % 360.0) * DEG, gs * KT, bank * DEG,
             fpa * DEG, None if track is None else (track % 360.0) * DEG, mrate,
@@ -376,6 +441,102 @@ class StateValidator:
         self._last_state = st
         self.accepted += 1
         return st
+
+    def _stale_data(self, code: str, detail: str) -> Rejection:
+        """Refuse a frame that carries no new data (:data:`advisory.schema.FRESHNESS_REASONS`)."""
+        rej = self._reject(code, detail)
+        self.not_fresh = rej
+        return rej
+
+    def _seq_problem(self, seq: int) -> Rejection | None:
+        """Check ``seq`` against the last accepted frame's (ICD section 3: +1 per frame,
+        wraps from 2**32-1 to 0). A forward step (a gap: lost frames) is accepted; a repeat
+        is not new data; a step back is an old or reordered frame, unless
+        ``seq_restart_after`` frames in a row number on from it (each at most
+        ``seq_restart_step`` ahead of the one before): then the sender restarted."""
+        last = self._seq
+        assert last is not None  # noqa: S101 - the caller checks
+        d = (seq - last) & SEQ_MAX
+        if d == 0:
+            return self._stale_data("seq_repeat", f"seq {seq} repeats the last accepted "
+                                    "frame's: the same data again")
+        if d <= SEQ_MAX >> 1:
+            return None  # forward, maybe with a gap
+        cand = self._seq_cand
+        if cand is not None and 1 <= (seq - cand) & SEQ_MAX <= self.limits.seq_restart_step:
+            self._seq_run += 1
+        else:
+            self._seq_run = 1
+        self._seq_cand = seq
+        if self._seq_run < self.limits.seq_restart_after:
+            return self._stale_data("seq_back", f"seq {seq} is {SEQ_MAX + 1 - d} behind the "
+                                    f"last accepted frame's {last}: an old or reordered frame")
+        self.seq_restarts += 1
+        self._seq_cand = None
+        self._seq_run = 0
+        self._clock_ref = None  # a restarted sender may restart its clock as well
+        return None
+
+    def _speed_problem(self, alt_ft: float, mach: float, hdg_deg: float, gs_kt: float,
+                       sat_c: float | None, east: float | None,
+                       north: float | None) -> Rejection | None:
+        """Ground speed that Mach and wind cannot explain (e.g. sent in m/s, not kt).
+
+        True airspeed is Mach times the speed of sound, ``sqrt(gamma R T)`` with T the
+        static air temperature when given, else the U.S. Standard Atmosphere 1976
+        temperature at the pressure altitude (layers to 32 km: lapse 6.5 K/km to 11 km,
+        216.65 K to 20 km, then +1 K/km; NOAA-S/T 76-1562, table 4). The ground speed
+        must be the length of true airspeed along the heading plus the wind, within
+        ``tas_fraction`` (``tas_fraction_sat`` with sat_c) of true airspeed plus
+        ``speed_slack_mps``; without wind, within that plus ``max_wind_mps``.
+        """
+        lim = self.limits
+        if sat_c is None:
+            h = alt_ft * FT
+            t_k = (288.15 - 0.0065 * h if h < 11000.0
+                   else 216.65 if h < 20000.0 else 216.65 + 0.001 * (h - 20000.0))
+            frac = lim.tas_fraction
+        else:
+            t_k = sat_c + KELVIN_OFFSET
+            frac = lim.tas_fraction_sat
+        tas = mach * math.sqrt(_GAMMA_R * t_k)
+        gs = gs_kt * KT
+        tol = frac * tas + lim.speed_slack_mps
+        if east is None or north is None:
+            err = abs(gs - tas) - lim.max_wind_mps
+            explained = f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) and any wind up " \
+                        f"to {lim.max_wind_mps / KT:.0f} kt"
+        else:
+            a = hdg_deg * DEG
+            err = abs(gs - math.hypot(tas * math.sin(a) + east, tas * math.cos(a) + north))
+            explained = f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) with the wind sent"
+        if err <= tol:
+            return None
+        return self._reject("inconsistent:gs_kt", f"air-data field 'gs_kt' = {gs_kt!r} cannot "
+                            f"come from {explained} (is it in m/s?)")
+
+    def _motion_problem(self, anchor: tuple[float, float, float, float], lat: float,
+                        lon: float, gs_kt: float, rx: float) -> Rejection | None:
+        """A position that does not move with the ground speed: frozen data.
+
+        Over at least ``motion_window_s`` since ``anchor`` the position must cover
+        ``motion_fraction`` of (smaller ground speed x time) less ``position_noise_m``
+        (slow or stopped aircraft are never refused: the need is then below zero). The
+        window and the fraction let positions refreshed at 5 Hz or more pass.
+        """
+        lim = self.limits
+        dt = rx - anchor[3]
+        need = lim.motion_fraction * min(gs_kt, anchor[2]) * KT * dt - lim.position_noise_m
+        if need <= 0.0:
+            return None
+        dn = (lat - anchor[0]) * DEG * EARTH_MEAN_RADIUS_M
+        de = _wrap180(lon - anchor[1]) * DEG * EARTH_MEAN_RADIUS_M * math.cos(lat * DEG)
+        dist = math.hypot(dn, de)
+        if dist >= need:
+            return None
+        self._last_state = None  # what came since the anchor is suspect: stale at once
+        return self._stale_data("position_frozen", f"position moved {dist:.0f} m in "
+                                f"{dt:.3f} s at ground speed {gs_kt:.0f} kt: frozen data")
 
     def _jump(self, a: tuple, b: tuple) -> tuple[str, str] | None:
         """First implausible change from sample ``a`` to ``b``, as (field, message).

@@ -364,3 +364,25 @@ def test_run_same_datagram_resent_leaves_ok_within_one_second(tmp_path, small_ta
     assert advs and all(f.fields["status"] == "unavailable" for f in advs)
     assert all(f.fields["time_to_contact_s"] is None for f in advs)
     assert left[-1].fields["counters"]["seq_repeat"] >= 40
+
+
+# ------------------------------------------------------------------------ unknown keys
+
+def test_unknown_keys_are_counted_and_reported_once_per_key(caplog):
+    # ICD section 8: unknown keys are ignored (the frame is decoded) - and now counted
+    # (``unknown_keys``) with one warning per distinct name.
+    import msgpack
+
+    from advisory.io.messages import FrameDecoder
+
+    dec = FrameDecoder()
+    m = {"v": 1, "type": "air", "seq": 1, "utc_s": U0, **fields_at(0.0),
+         "airspeed_kt": 600.0, "flap": 0}
+    with caplog.at_level("WARNING", logger="advisory.io.messages"):
+        for seq in range(5):
+            f = dec.decode(msgpack.packb(dict(m, seq=seq)))
+            assert f is not None and f.fields["mach"] == MACH
+    assert dec.unknown_keys == 10 and dec.counters["decoded"] == 5
+    assert dec.unknown_seen == {"airspeed_kt", "flap"}
+    lines = [r.getMessage() for r in caplog.records]
+    assert len(lines) == 2 and any("'airspeed_kt'" in x for x in lines)

@@ -417,9 +417,24 @@ class StateValidator:
             east = north = None
         else:
             east, north = wind_from_to_components(wfrom, wkt * KT)
-        rej = self._speed_problem(alt, mach, hdg, gs, sat, east, north)
-        if rej is not None:
-            return rej
+        # ground speed against Mach and wind (inline: hot path; see _speed_rejection)
+        if sat is None:
+            h = alt * FT
+            t_k = (288.15 - 0.0065 * h if h < 11000.0
+                   else 216.65 if h < 20000.0 else 216.65 + 0.001 * (h - 20000.0))
+            tol = lim.tas_fraction
+        else:
+            t_k = sat + KELVIN_OFFSET
+            tol = lim.tas_fraction_sat
+        tas = mach * math.sqrt(_GAMMA_R * t_k)
+        tol = tol * tas + lim.speed_slack_mps
+        if east is None or north is None:
+            err = abs(gs * KT - tas) - lim.max_wind_mps
+        else:
+            a = hdg * DEG
+            err = abs(gs * KT - math.hypot(tas * math.sin(a) + east, tas * math.cos(a) + north))
+        if err > tol:
+            return self._speed_rejection(mach, gs, tas, east is not None)
         anchor = self._anchor
         if anchor is None or (last_rx is not None and rx - last_rx > lim.max_age_s):
             self._anchor = (lat, lon, gs, rx)  # first frame, or after a gap in the feed
@@ -477,41 +492,22 @@ class StateValidator:
         self._clock_ref = None  # a restarted sender may restart its clock as well
         return None
 
-    def _speed_problem(self, alt_ft: float, mach: float, hdg_deg: float, gs_kt: float,
-                       sat_c: float | None, east: float | None,
-                       north: float | None) -> Rejection | None:
-        """Ground speed that Mach and wind cannot explain (e.g. sent in m/s, not kt).
+    def _speed_rejection(self, mach: float, gs_kt: float, tas: float,
+                         wind: bool) -> Rejection:
+        """Refuse a ground speed that Mach and wind cannot explain (e.g. sent in m/s).
 
-        True airspeed is Mach times the speed of sound, ``sqrt(gamma R T)`` with T the
-        static air temperature when given, else the U.S. Standard Atmosphere 1976
-        temperature at the pressure altitude (layers to 32 km: lapse 6.5 K/km to 11 km,
-        216.65 K to 20 km, then +1 K/km; NOAA-S/T 76-1562, table 4). The ground speed
-        must be the length of true airspeed along the heading plus the wind, within
-        ``tas_fraction`` (``tas_fraction_sat`` with sat_c) of true airspeed plus
-        ``speed_slack_mps``; without wind, within that plus ``max_wind_mps``.
+        The check (inline in :meth:`_validate`): true airspeed ``tas`` is Mach times the
+        speed of sound ``sqrt(gamma R T)``, T the static air temperature when given, else
+        the U.S. Standard Atmosphere 1976 temperature at the pressure altitude (lapse
+        6.5 K/km to 11 km, 216.65 K to 20 km, then +1 K/km to 32 km; NOAA-S/T 76-1562,
+        table 4). The ground speed must be the length of true airspeed along the heading
+        plus the wind within ``tas_fraction`` (``tas_fraction_sat`` with sat_c) of true
+        airspeed plus ``speed_slack_mps``; without wind, within that plus ``max_wind_mps``.
         """
         lim = self.limits
-        if sat_c is None:
-            h = alt_ft * FT
-            t_k = (288.15 - 0.0065 * h if h < 11000.0
-                   else 216.65 if h < 20000.0 else 216.65 + 0.001 * (h - 20000.0))
-            frac = lim.tas_fraction
-        else:
-            t_k = sat_c + KELVIN_OFFSET
-            frac = lim.tas_fraction_sat
-        tas = mach * math.sqrt(_GAMMA_R * t_k)
-        gs = gs_kt * KT
-        tol = frac * tas + lim.speed_slack_mps
-        if east is None or north is None:
-            err = abs(gs - tas) - lim.max_wind_mps
-            explained = f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) and any wind up " \
-                        f"to {lim.max_wind_mps / KT:.0f} kt"
-        else:
-            a = hdg_deg * DEG
-            err = abs(gs - math.hypot(tas * math.sin(a) + east, tas * math.cos(a) + north))
-            explained = f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) with the wind sent"
-        if err <= tol:
-            return None
+        explained = (f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) "
+                     + ("with the wind sent" if wind else
+                        f"and any wind up to {lim.max_wind_mps / KT:.0f} kt"))
         return self._reject("inconsistent:gs_kt", f"air-data field 'gs_kt' = {gs_kt!r} cannot "
                             f"come from {explained} (is it in m/s?)")
 

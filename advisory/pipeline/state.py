@@ -20,11 +20,11 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from advisory.pipeline.airdata import AIR_RANGES, AirDataState, new_state
+from advisory.pipeline.freshness import SeqTracker, motion_shortfall, speed_text
 from advisory.schema import (
     AIR_OPTIONAL,
     AIR_REQUIRED,
     EARTH_MEAN_RADIUS_M,
-    SEQ_MAX,
     STALE_AFTER_S,
 )
 from advisory.units import DEG, FT, KELVIN_OFFSET, KT, wind_from_to_components
@@ -119,8 +119,6 @@ class StateValidator:
         Rejected frames counted by reason code.
     rebaselines : int
         Times a consistent run of jumped frames was taken as the new track.
-    seq_restarts : int
-        Times a step back of ``seq`` was taken as a sender restart.
     last_rejection : Rejection or None
         The most recent rejection (its ``detail`` is the message for the log).
     not_fresh : Rejection or None
@@ -155,11 +153,8 @@ class StateValidator:
         self._candidate: tuple | None = None
         self._run = 0
         self._run_start = 0.0  # rx of the first frame of the candidate run
-        self.seq_restarts = 0
         self.not_fresh: Rejection | None = None
-        self._seq: int | None = None  # seq of the last accepted frame
-        self._seq_cand: int | None = None  # last seq of a run that stepped back
-        self._seq_run = 0
+        self._seqs = SeqTracker(lim.seq_restart_after, lim.seq_restart_step)
         self._anchor: tuple[float, float, float, float] | None = None  # lat, lon, gs, rx
 
     # -- public -------------------------------------------------------------------
@@ -219,6 +214,11 @@ class StateValidator:
     def is_stale(self, now_monotonic: float | None = None) -> bool:
         """True when no fresh state is available (no frame yet, or the feed stopped)."""
         return self.current(now_monotonic) is None
+
+    @property
+    def seq_restarts(self) -> int:
+        """Times a step back of ``seq`` was taken as a sender restart."""
+        return self._seqs.restarts
 
     @property
     def rejected(self) -> int:
@@ -346,10 +346,14 @@ class StateValidator:
                 return self._reject("range:utc_s", f"utc_s = {utc_s!r} is outside "
                                                    f"[{u0:.0f}, {u1:.0f}] (years 2000-2100)")
         self._last_rx = rx
-        if seq is not None and self._seq is not None and seq != self._seq + 1:
-            rej = self._seq_problem(seq)
-            if rej is not None:
-                return rej
+        seqs = self._seqs
+        if seq is not None and seqs.last is not None and seq != seqs.last + 1:
+            restarts = seqs.restarts
+            bad = seqs.problem(seq)
+            if bad is not None:
+                return self._stale_data(*bad)
+            if seqs.restarts != restarts:
+                self._clock_ref = None  # a restarted sender may restart its clock as well
         if utc_s is not None:
             ref = self._clock_ref
             if ref is not None and utc_s == ref[0]:
@@ -439,14 +443,17 @@ class StateValidator:
         if anchor is None or (last_rx is not None and rx - last_rx > lim.max_age_s):
             self._anchor = (lat, lon, gs, rx)  # first frame, or after a gap in the feed
         elif rx - anchor[3] >= lim.motion_window_s:
-            rej = self._motion_problem(anchor, lat, lon, gs, rx)
-            if rej is not None:
-                return rej
+            short = motion_shortfall(anchor, lat, lon, gs, rx, lim.motion_fraction,
+                                     lim.position_noise_m)
+            if short is not None:
+                self._last_state = None  # what came since the anchor is suspect: stale now
+                return self._stale_data("position_frozen", f"position moved {short[0]:.0f} "
+                                        f"m in {short[1]:.3f} s at ground speed {gs:.0f} kt: "
+                                        "frozen data")
             self._anchor = (lat, lon, gs, rx)
         self._last = cur
         if seq is not None:
-            self._seq = seq
-            self._seq_cand = None
+            seqs.accept(seq)
         self.not_fresh = None
         st = new_state((
             lat * DEG, lon * DEG, alt * FT, mach, (hdg % 360.0) * DEG, gs * KT, bank * DEG,
@@ -463,76 +470,12 @@ class StateValidator:
         self.not_fresh = rej
         return rej
 
-    def _seq_problem(self, seq: int) -> Rejection | None:
-        """Check ``seq`` against the last accepted frame's (ICD section 3: +1 per frame,
-        wraps from 2**32-1 to 0). A forward step (a gap: lost frames) is accepted; a repeat
-        is not new data; a step back is an old or reordered frame, unless
-        ``seq_restart_after`` frames in a row number on from it (each at most
-        ``seq_restart_step`` ahead of the one before): then the sender restarted."""
-        last = self._seq
-        assert last is not None  # noqa: S101 - the caller checks
-        d = (seq - last) & SEQ_MAX
-        if d == 0:
-            return self._stale_data("seq_repeat", f"seq {seq} repeats the last accepted "
-                                    "frame's: the same data again")
-        if d <= SEQ_MAX >> 1:
-            return None  # forward, maybe with a gap
-        cand = self._seq_cand
-        if cand is not None and 1 <= (seq - cand) & SEQ_MAX <= self.limits.seq_restart_step:
-            self._seq_run += 1
-        else:
-            self._seq_run = 1
-        self._seq_cand = seq
-        if self._seq_run < self.limits.seq_restart_after:
-            return self._stale_data("seq_back", f"seq {seq} is {SEQ_MAX + 1 - d} behind the "
-                                    f"last accepted frame's {last}: an old or reordered frame")
-        self.seq_restarts += 1
-        self._seq_cand = None
-        self._seq_run = 0
-        self._clock_ref = None  # a restarted sender may restart its clock as well
-        return None
-
     def _speed_rejection(self, mach: float, gs_kt: float, tas: float,
                          wind: bool) -> Rejection:
-        """Refuse a ground speed that Mach and wind cannot explain (e.g. sent in m/s).
-
-        The check (inline in :meth:`_validate`): true airspeed ``tas`` is Mach times the
-        speed of sound ``sqrt(gamma R T)``, T the static air temperature when given, else
-        the U.S. Standard Atmosphere 1976 temperature at the pressure altitude (lapse
-        6.5 K/km to 11 km, 216.65 K to 20 km, then +1 K/km to 32 km; NOAA-S/T 76-1562,
-        table 4). The ground speed must be the length of true airspeed along the heading
-        plus the wind within ``tas_fraction`` (``tas_fraction_sat`` with sat_c) of true
-        airspeed plus ``speed_slack_mps``; without wind, within that plus ``max_wind_mps``.
-        """
-        lim = self.limits
-        explained = (f"Mach {mach:g} (true airspeed {tas / KT:.0f} kt) "
-                     + ("with the wind sent" if wind else
-                        f"and any wind up to {lim.max_wind_mps / KT:.0f} kt"))
-        return self._reject("inconsistent:gs_kt", f"air-data field 'gs_kt' = {gs_kt!r} cannot "
-                            f"come from {explained} (is it in m/s?)")
-
-    def _motion_problem(self, anchor: tuple[float, float, float, float], lat: float,
-                        lon: float, gs_kt: float, rx: float) -> Rejection | None:
-        """A position that does not move with the ground speed: frozen data.
-
-        Over at least ``motion_window_s`` since ``anchor`` the position must cover
-        ``motion_fraction`` of (smaller ground speed x time) less ``position_noise_m``
-        (slow or stopped aircraft are never refused: the need is then below zero). The
-        window and the fraction let positions refreshed at 5 Hz or more pass.
-        """
-        lim = self.limits
-        dt = rx - anchor[3]
-        need = lim.motion_fraction * min(gs_kt, anchor[2]) * KT * dt - lim.position_noise_m
-        if need <= 0.0:
-            return None
-        dn = (lat - anchor[0]) * DEG * EARTH_MEAN_RADIUS_M
-        de = _wrap180(lon - anchor[1]) * DEG * EARTH_MEAN_RADIUS_M * math.cos(lat * DEG)
-        dist = math.hypot(dn, de)
-        if dist >= need:
-            return None
-        self._last_state = None  # what came since the anchor is suspect: stale at once
-        return self._stale_data("position_frozen", f"position moved {dist:.0f} m in "
-                                f"{dt:.3f} s at ground speed {gs_kt:.0f} kt: frozen data")
+        """Refuse a ground speed that Mach and wind cannot explain (the check, inline in
+        :meth:`_validate`, and its source: :func:`advisory.pipeline.freshness.speed_text`)."""
+        return self._reject("inconsistent:gs_kt", speed_text(
+            mach, gs_kt, tas, wind, self.limits.max_wind_mps))
 
     def _jump(self, a: tuple, b: tuple) -> tuple[str, str] | None:
         """First implausible change from sample ``a`` to ``b``, as (field, message).

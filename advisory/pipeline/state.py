@@ -2,8 +2,11 @@
 
 :class:`StateValidator` decides whether one frame's fields may reach the advisor: it
 checks presence and type, ranges (:data:`advisory.pipeline.airdata.AIR_RANGES`),
-NaN/inf, staleness by monotonic receive time, sender clock steps and implausible jumps
-between consecutive frames. It returns the state (:class:`AirDataState`, SI) or a
+NaN/inf, staleness by monotonic receive time, sender clock steps, implausible jumps
+between consecutive frames, frozen data (a repeated or old ``seq``, a frozen sender
+clock, a position that does not move with the ground speed; helpers in
+:mod:`advisory.pipeline.freshness`) and a ground speed that Mach and wind cannot
+explain. It returns the state (:class:`AirDataState`, SI) or a
 :class:`Rejection` (a ``str`` reason code with a human ``detail`` naming the field and
 the value), counts every rejection by reason, and never raises on any input.
 

@@ -128,3 +128,11 @@ RECORD_MAX_MB_MIN = 0.1  #: smallest cap accepted, MB
 #: 0.5-3 psf (value from memory), so a larger limit almost certainly means pascals typed
 #: as psf (48 Pa is 1 psf) and would silently disable the zone. Common practice, no source.
 ZONE_LIMIT_PSF_PLAUSIBLE_MAX = 10.0
+
+# ----------------------------------------------------------------------------- freshness
+#: Validator reason codes for frames that carry no new data (ICD section 4, "Freshness
+#: and plausibility"): a repeated ``seq``, a ``seq`` behind the last accepted one, a
+#: sender clock that does not advance, a position that does not move with the ground
+#: speed. Each is a counter of its own in the status frames; while the latest rejection
+#: is one of these, the "stale" reason names it.
+FRESHNESS_REASONS = ("seq_repeat", "seq_back", "utc_frozen", "position_frozen")

@@ -344,13 +344,14 @@ def test_clock_steps_backwards_are_counted(small_table) -> None:
 
 def test_implausible_jump_is_refused_until_a_new_track_is_consistent(small_table) -> None:
     # ICD section 4: a position jump beyond (ground speed + 100 m/s) x dt + 300 m is
-    # refused; three mutually consistent jumped frames are taken as the new track.
+    # refused; mutually consistent jumped frames over at least 1 s (three at least) are
+    # taken as the new track.
     loop, seen, sim = make(small_table)
     sim.fly(0.5)
     jumped = lambda s, t: frame_stream(air(s, t, lat_deg=LAT0 + 0.5))  # 55 km north  # noqa: E731
-    sim.fly(0.2, frame=jumped)  # frames at 0.5, 0.55, 0.6, 0.65
+    sim.fly(1.1, frame=jumped)  # frames at 0.5, 0.55, ... 1.55: the one at 1.5 is taken
     c = loop.counters
-    assert c["jump:position"] == 2 and c["rebaselines"] == 1
+    assert c["jump:position"] == 20 and c["rebaselines"] == 1
     got = [s.lat_rad for s in seen.states if s is not None]
     assert math.degrees(got[-1]) == pytest.approx(LAT0 + 0.5)
     assert all(abs(math.degrees(x) - LAT0) < 1e-9 for x in got[:-2])

@@ -77,7 +77,8 @@ def test_state_is_frozen():
 
 def test_validator_state_equals_from_fields():
     v = StateValidator()
-    f = dict(BASE, sat_c=-56.5, wind_from_deg=250.0, wind_kt=40.0, track_deg=359.0)
+    # a head wind: Mach, sat_c, wind and ground speed agree (the ground-speed check)
+    f = dict(BASE, sat_c=-56.5, wind_from_deg=90.0, wind_kt=40.0, track_deg=89.0)
     assert _ok(v, f, 5.0, T0) == AirDataState.from_fields(f, utc_s=T0, rx_monotonic=5.0)
 
 
@@ -207,21 +208,25 @@ def test_heading_wraps_through_north():
     _ok(v, dict(BASE, heading_deg=0.5), 1.02)
 
 
-def test_consistent_new_track_is_taken_after_three_frames():
-    # A genuine step (e.g. the source was reset to a corrected position) is refused
-    # twice, then accepted once three mutually consistent frames agree.
-    v = StateValidator()
+def test_consistent_new_track_is_taken_after_three_frames_and_one_second():
+    # A genuine step (e.g. the source was reset to a corrected position) is refused until
+    # at least three mutually consistent frames agree over at least 1 s (ICD section 4;
+    # a shorter glitch never becomes the track). Motion check off: the invented frames
+    # keep one position.
+    v = StateValidator(ValidatorLimits(motion_fraction=0.0))
     _ok(v, BASE, 1.00)
     moved = dict(BASE, lat_deg=40.5)
-    assert _rej(v, moved, 1.02) == "jump:position"
-    assert _rej(v, moved, 1.04) == "jump:position"
-    _ok(v, moved, 1.06)
+    t = 1.02
+    while t < 2.0:
+        assert _rej(v, moved, t) == "jump:position"
+        t += 0.02
+    _ok(v, moved, 2.02)
     assert v.rebaselines == 1
-    _ok(v, moved, 1.08)
+    _ok(v, moved, 2.04)
 
 
 def test_isolated_spike_never_becomes_the_track():
-    v = StateValidator()
+    v = StateValidator(ValidatorLimits(motion_fraction=0.0))  # one invented position
     t = 1.0
     for i in range(30):
         f = dict(BASE, lat_deg=50.0) if i % 2 else BASE  # every other frame a spike

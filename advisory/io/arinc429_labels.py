@@ -2,11 +2,13 @@
 
 The format (``docs/interface.md``, "ARINC 429 input") is given in
 :func:`parse_label_map`; a file adds to or replaces :data:`advisory.io.arinc429.DEFAULT_LABELS`.
-Bad entries are refused with one message naming the file, the label and the key.
+Bad entries are refused with one message naming the file, the label and the key (numbers
+must be finite: TOML's ``nan`` and ``inf`` are refused).
 """
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
@@ -83,6 +85,8 @@ def _spec_from_entry(num: int, e: Mapping[str, Any], where: str) -> LabelSpec:
         if isinstance(v, bool) or not isinstance(v, (int, float)) or (
                 kind is int and not isinstance(v, int)):
             raise ValueError(f"{where}: {key} must be a {kind.__name__}, got {v!r}")
+        if not math.isfinite(v):  # TOML allows nan and inf; no scaling means them
+            raise ValueError(f"{where}: {key} must be a finite number, got {v!r}")
         return kind(v)
 
     sig = num_of("sig_bits", 18, int)

@@ -21,10 +21,12 @@ from advisory.schema import (
     AIR_REQUIRED,
     COUNTER_NAME_MAX_BYTES,
     CUE_MAX_BYTES,
+    HEADER_KEYS,
     MAX_COUNTERS,
     MAX_DEPTH,
     REASON_MAX_BYTES,
     SEQ_MAX,
+    STATUS_FIELDS,
     STATUS_STATES,
     WIRE_FORMAT_VERSION,
     ZONE_ID_MAX_BYTES,
@@ -201,13 +203,28 @@ def _dec_status(m: dict) -> tuple[dict, int]:
 _DECODERS = {"air": _dec_air, "adv": _dec_adv, "status": _dec_status}
 
 
-def check_map(m: Any) -> tuple[str, int, float, dict, int]:
+_KNOWN_KEYS = {kind: frozenset(HEADER_KEYS + fields) for kind, fields in (
+    ("air", AIR_FIELDS), ("adv", ADV_FIELDS), ("status", STATUS_FIELDS))}
+_KEY_NAME_MAX = 47  #: unknown key names are reported cut to this many characters
+
+
+def unknown_keys(m: dict, kind: str) -> list[str]:
+    """Names of the keys of frame map ``m`` (of type ``kind``) that the ICD does not define
+    (bin keys shown as their ``repr``), each cut to 47 characters."""
+    known = _KNOWN_KEYS[kind]
+    return [(k if type(k) is str else repr(k))[:_KEY_NAME_MAX] for k in m if k not in known]
+
+
+def check_map(m: Any, unknown: list[str] | None = None) -> tuple[str, int, float, dict, int]:
     """Check an unpacked payload against the decoding rules, in the ICD's order.
 
     Parameters
     ----------
     m : object
         What msgpack-python unpacked from the payload.
+    unknown : list of str, optional
+        Receives the names of unknown keys (ignored by the rules, ICD section 8, but
+        counted and reported by :class:`advisory.io.messages.FrameDecoder`).
 
     Returns
     -------
@@ -254,6 +271,9 @@ def check_map(m: Any) -> tuple[str, int, float, dict, int]:
         else:
             raise _bad_type("utc_s", utc, "a number")
     fields, present = dec(m)
-    if len(m) != present + 4 and not depth_ok(m):
-        raise RejectError("malformed", f"containers nested deeper than {MAX_DEPTH}")
+    if len(m) != present + 4:
+        if not depth_ok(m):
+            raise RejectError("malformed", f"containers nested deeper than {MAX_DEPTH}")
+        if unknown is not None:
+            unknown.extend(unknown_keys(m, kind))
     return kind, seq, utc, fields, v

@@ -30,6 +30,7 @@ msgpack-python path (:func:`_dec`), which is also the kernel's twin in the parit
 
 from __future__ import annotations
 
+import logging
 import numbers
 from typing import Any, NamedTuple
 
@@ -58,6 +59,8 @@ from advisory.schema import (
     WIRE_FORMAT_VERSION,
     ZONE_ID_MAX_BYTES,
 )
+
+_log = logging.getLogger("advisory.io.messages")
 
 
 class FrameError(ValueError):
@@ -291,7 +294,7 @@ def encode_status(fields: dict, seq: int, utc_s: float) -> bytes:
 
 # ---------------------------------------------------------------------------- decoding
 
-def decode_frame(payload: bytes) -> Frame:
+def decode_frame(payload: bytes, unknown: list[str] | None = None) -> Frame:
     """Decode one frame payload (MessagePack, CRC already checked and removed).
 
     Checks run in the order the ICD gives (``docs/interface.md``, "Decoding rules"), and
@@ -303,6 +306,8 @@ def decode_frame(payload: bytes) -> Frame:
     ----------
     payload : bytes
         The MessagePack payload.
+    unknown : list of str, optional
+        Receives the names of keys the ICD does not define (the frame is still decoded).
 
     Returns
     -------
@@ -333,7 +338,7 @@ def decode_frame(payload: bytes) -> Frame:
         raise FrameError("malformed", f"payload is not one well-formed MessagePack "
                                       f"object ({type(exc).__name__}: {exc})") from None
     try:
-        return Frame(*check_map(m))
+        return Frame(*check_map(m, unknown))
     except RejectError as rej:
         if rej.reason != "malformed" and not depth_ok(m):
             raise FrameError("malformed", f"containers nested deeper than {MAX_DEPTH}") from None
@@ -347,26 +352,53 @@ class FrameDecoder:
     ----------
     counters : dict of str to int
         ``"decoded"`` plus one entry per reason of :data:`DECODE_REASONS`, and
-        ``"unsupported_version"`` among them ("unknown versions refused and counted").
+        ``"unsupported_version"`` among them ("unknown versions refused and counted"):
+        each payload is counted once, by its outcome.
+    unknown_keys : int
+        Keys the ICD does not define, in frames that were still decoded (ICD section 8:
+        ignored, counted).
     last_error : FrameError or None
         The most recent rejection, for the log (names the field and the value).
+    unknown_seen : set of str
+        Unknown key names already reported (one warning per name, at most
+        ``MAX_UNKNOWN_REPORTED`` names, so a sender of random keys cannot flood the log).
     """
+
+    MAX_UNKNOWN_REPORTED = 32
 
     def __init__(self) -> None:
         self.counters: dict[str, int] = dict.fromkeys(("decoded",) + DECODE_REASONS, 0)
+        self.unknown_keys = 0
         self.last_error: FrameError | None = None
+        self.unknown_seen: set[str] = set()
+        self._unknown: list[str] = []
 
     def decode(self, payload: bytes) -> Frame | None:
         """Decode ``payload``; return the frame, or None (and count why)."""
+        unknown = self._unknown
         try:
-            frame = decode_frame(payload)
+            frame = decode_frame(payload, unknown)
         except FrameError as exc:
+            unknown.clear()
             self.counters[exc.reason] += 1
             self.last_error = exc
             return None
         except Exception as exc:  # not bytes at all, or anything unforeseen
             self.counters["malformed"] += 1
             self.last_error = FrameError("malformed", f"undecodable input: {exc!r}")
+            unknown.clear()
             return None
         self.counters["decoded"] += 1
+        if unknown:
+            self._report_unknown(frame.type, unknown)
         return frame
+
+    def _report_unknown(self, kind: str, names: list[str]) -> None:
+        self.unknown_keys += len(names)
+        seen = self.unknown_seen
+        for name in names:
+            if name not in seen and len(seen) < self.MAX_UNKNOWN_REPORTED:
+                seen.add(name)
+                _log.warning("unknown key %r in %s frames ignored (ICD section 8); further "
+                             "ones are counted as unknown_keys", name, kind)
+        names.clear()

@@ -181,6 +181,10 @@ class Advisor:
             return self.unavailable(
                 f"air data stale ({now - state.rx_monotonic:.1f} s old)", state.utc_s)
         self._learn_atmosphere(state, now)
+        if state.mach <= 0.0:
+            # Standing still (on the ground, or a source reporting 0): no shock at all, and
+            # the trajectory ahead is undefined (it needs Mach > 0). A boom needs Mach > 1.
+            return Advisory("no_boom", tables_stale=self.tables_stale, utc_s=state.utc_s)
         try:
             return self._step(state, now)
         except Exception as exc:  # noqa: BLE001 - the loop must never die on one state

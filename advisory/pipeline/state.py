@@ -2,8 +2,11 @@
 
 :class:`StateValidator` decides whether one frame's fields may reach the advisor: it
 checks presence and type, ranges (:data:`advisory.pipeline.airdata.AIR_RANGES`),
-NaN/inf, staleness by monotonic receive time, sender clock steps and implausible jumps
-between consecutive frames. It returns the state (:class:`AirDataState`, SI) or a
+NaN/inf, staleness by monotonic receive time, sender clock steps, implausible jumps
+between consecutive frames, frozen data (a repeated or old ``seq``, a frozen sender
+clock, a position that does not move with the ground speed; helpers in
+:mod:`advisory.pipeline.freshness`) and a ground speed that Mach and wind cannot
+explain. It returns the state (:class:`AirDataState`, SI) or a
 :class:`Rejection` (a ``str`` reason code with a human ``detail`` naming the field and
 the value), counts every rejection by reason, and never raises on any input.
 
@@ -20,7 +23,13 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from advisory.pipeline.airdata import AIR_RANGES, AirDataState, new_state
-from advisory.schema import AIR_OPTIONAL, AIR_REQUIRED, EARTH_MEAN_RADIUS_M, STALE_AFTER_S
+from advisory.pipeline.freshness import SeqTracker, motion_shortfall, speed_text
+from advisory.schema import (
+    AIR_OPTIONAL,
+    AIR_REQUIRED,
+    EARTH_MEAN_RADIUS_M,
+    STALE_AFTER_S,
+)
 from advisory.units import DEG, FT, KELVIN_OFFSET, KT, wind_from_to_components
 
 __all__ = ["AirDataState", "Rejection", "ValidatorLimits", "StateValidator"]
@@ -32,7 +41,10 @@ class Rejection(str):
     Codes: ``not_a_mapping``, ``missing:<field>``, ``type:<field>``,
     ``nonfinite:<field>``, ``range:<field>``, ``wind_incomplete``, ``stale``,
     ``rx_backwards``, ``utc_backwards``, ``clock_step``, ``jump:<field>``
-    (``jump:position`` for latitude/longitude), ``internal``.
+    (``jump:position`` for latitude/longitude), ``internal``; freshness
+    (:data:`advisory.schema.FRESHNESS_REASONS`): ``seq_repeat``, ``seq_back``,
+    ``utc_frozen``, ``position_frozen``; and ``inconsistent:gs_kt`` (ground speed that
+    Mach and wind cannot explain).
 
     Attributes
     ----------
@@ -74,6 +86,20 @@ class ValidatorLimits:
     fpa_deg_per_s: float = 30.0
     fpa_slack_deg: float = 5.0
     rebaseline_after: int = 3  #: mutually consistent jumped frames that start a new track
+    rebaseline_min_s: float = 1.0  #: ... and the time they must span (a glitch is shorter)
+    seq_restart_after: int = 3  #: frames numbered on from a step back: a sender restart
+    seq_restart_step: int = 16  #: largest seq advance between those frames
+    motion_window_s: float = 0.4  #: position compared with ground speed over this time
+    motion_fraction: float = 0.5  #: ... it must cover this share of ground speed x time
+    position_noise_m: float = 50.0  #: ... less this noise (GNSS, ARINC 429 resolution)
+    max_wind_mps: float = 125.0  #: strongest wind assumed when the frame carries none
+    tas_fraction: float = 0.10  #: Mach -> true airspeed uncertainty without sat_c
+    tas_fraction_sat: float = 0.05  #: ... with sat_c
+    speed_slack_mps: float = 25.0  #: added to the ground-speed consistency tolerance
+
+
+#: gamma R of dry air, J/(kg K): 1.4 x 287.05287 (U.S. Standard Atmosphere 1976).
+_GAMMA_R = 1.4 * 287.05287
 
 
 def _wrap180(d: float) -> float:
@@ -98,6 +124,9 @@ class StateValidator:
         Times a consistent run of jumped frames was taken as the new track.
     last_rejection : Rejection or None
         The most recent rejection (its ``detail`` is the message for the log).
+    not_fresh : Rejection or None
+        The latest freshness rejection (repeated or old ``seq``, frozen clock, frozen
+        position) since the last accepted frame, else None: why the data went stale.
     """
 
     def __init__(self, limits: ValidatorLimits | None = None) -> None:
@@ -126,11 +155,16 @@ class StateValidator:
         self._clock_ref: tuple[float, float] | None = None  # (utc, rx)
         self._candidate: tuple | None = None
         self._run = 0
+        self._run_start = 0.0  # rx of the first frame of the candidate run
+        self.not_fresh: Rejection | None = None
+        self._seqs = SeqTracker(lim.seq_restart_after, lim.seq_restart_step)
+        self._anchor: tuple[float, float, float, float] | None = None  # lat, lon, gs, rx
 
     # -- public -------------------------------------------------------------------
 
     def validate(self, fields: Any, rx_monotonic: float, utc_s: float | None = None,
-                 now_monotonic: float | None = None) -> AirDataState | Rejection:
+                 now_monotonic: float | None = None,
+                 seq: int | None = None) -> AirDataState | Rejection:
         """Validate one frame's fields.
 
         Parameters
@@ -145,6 +179,9 @@ class StateValidator:
         now_monotonic : float, optional
             Current monotonic time for the staleness check; defaults to
             ``time.monotonic()`` (replays pass their own clock).
+        seq : int, optional
+            The frame's sequence number (header ``seq``, 0..2**32-1, wraps); enables the
+            repeat and step-back checks.
 
         Returns
         -------
@@ -153,7 +190,7 @@ class StateValidator:
             the reason (counted in :attr:`rejections`).
         """
         try:
-            return self._validate(fields, rx_monotonic, utc_s, now_monotonic)
+            return self._validate(fields, rx_monotonic, utc_s, now_monotonic, seq)
         except Exception as exc:  # the live loop must never die on bad input
             return self._reject("internal", f"validator error on input {fields!r:.80}: {exc!r}")
 
@@ -163,7 +200,8 @@ class StateValidator:
         if getattr(frame, "type", None) != "air":
             return self._reject("not_a_mapping", f"frame type {getattr(frame, 'type', None)!r}"
                                                  " is not 'air'")
-        return self.validate(frame.fields, rx_monotonic, frame.utc_s, now_monotonic)
+        return self.validate(frame.fields, rx_monotonic, frame.utc_s, now_monotonic,
+                             frame.seq)
 
     def current(self, now_monotonic: float | None = None) -> AirDataState | None:
         """The last accepted state if it is still fresh at ``now_monotonic``, else None."""
@@ -179,6 +217,11 @@ class StateValidator:
     def is_stale(self, now_monotonic: float | None = None) -> bool:
         """True when no fresh state is available (no frame yet, or the feed stopped)."""
         return self.current(now_monotonic) is None
+
+    @property
+    def seq_restarts(self) -> int:
+        """Times a step back of ``seq`` was taken as a sender restart."""
+        return self._seqs.restarts
 
     @property
     def rejected(self) -> int:
@@ -223,7 +266,7 @@ class StateValidator:
         return None
 
     def _validate(self, fields: Any, rx: float, utc_s: float | None,
-                  now: float | None) -> AirDataState | Rejection:
+                  now: float | None, seq: int | None) -> AirDataState | Rejection:
         # One long function on purpose: it runs once per frame on the decode path (budget
         # 100,000 frames/s), and method calls per check cost a measurable share of that.
         lim = self.limits
@@ -306,8 +349,19 @@ class StateValidator:
                 return self._reject("range:utc_s", f"utc_s = {utc_s!r} is outside "
                                                    f"[{u0:.0f}, {u1:.0f}] (years 2000-2100)")
         self._last_rx = rx
+        seqs = self._seqs
+        if seq is not None and seqs.last is not None and seq != seqs.last + 1:
+            restarts = seqs.restarts
+            bad = seqs.problem(seq)
+            if bad is not None:
+                return self._stale_data(*bad)
+            if seqs.restarts != restarts:
+                self._clock_ref = None  # a restarted sender may restart its clock as well
         if utc_s is not None:
             ref = self._clock_ref
+            if ref is not None and utc_s == ref[0]:
+                return self._stale_data("utc_frozen", f"utc_s = {utc_s!r} has not advanced "
+                                        f"in {rx - ref[1]:.3f} s: the sender's clock is frozen")
             self._clock_ref = (utc_s, rx)
             if ref is not None:
                 d_utc = utc_s - ref[0]
@@ -354,20 +408,56 @@ class StateValidator:
                     self._run += 1
                 else:
                     self._run = 1
+                    self._run_start = rx
                 self._candidate = cur
-                if self._run < lim.rebaseline_after:
+                if (self._run < lim.rebaseline_after
+                        or rx - self._run_start < lim.rebaseline_min_s):
                     return self._reject(f"jump:{bad[0]}", bad[1])
                 self.rebaselines += 1
                 self._candidate = None
                 self._run = 0
+                self._anchor = None
             elif self._candidate is not None:
                 self._candidate = None
                 self._run = 0
-        self._last = cur
         if wkt is None or wfrom is None:  # both or neither (checked above)
             east = north = None
         else:
             east, north = wind_from_to_components(wfrom, wkt * KT)
+        # ground speed against Mach and wind (inline: hot path; see _speed_rejection)
+        if sat is None:
+            h = alt * FT
+            t_k = (288.15 - 0.0065 * h if h < 11000.0
+                   else 216.65 if h < 20000.0 else 216.65 + 0.001 * (h - 20000.0))
+            tol = lim.tas_fraction
+        else:
+            t_k = sat + KELVIN_OFFSET
+            tol = lim.tas_fraction_sat
+        tas = mach * math.sqrt(_GAMMA_R * t_k)
+        tol = tol * tas + lim.speed_slack_mps
+        if east is None or north is None:
+            err = abs(gs * KT - tas) - lim.max_wind_mps
+        else:
+            a = hdg * DEG
+            err = abs(gs * KT - math.hypot(tas * math.sin(a) + east, tas * math.cos(a) + north))
+        if err > tol:
+            return self._speed_rejection(mach, gs, tas, east is not None)
+        anchor = self._anchor
+        if anchor is None or (last_rx is not None and rx - last_rx > lim.max_age_s):
+            self._anchor = (lat, lon, gs, rx)  # first frame, or after a gap in the feed
+        elif rx - anchor[3] >= lim.motion_window_s:
+            short = motion_shortfall(anchor, lat, lon, gs, rx, lim.motion_fraction,
+                                     lim.position_noise_m)
+            if short is not None:
+                self._last_state = None  # what came since the anchor is suspect: stale now
+                return self._stale_data("position_frozen", f"position moved {short[0]:.0f} "
+                                        f"m in {short[1]:.3f} s at ground speed {gs:.0f} kt: "
+                                        "frozen data")
+            self._anchor = (lat, lon, gs, rx)
+        self._last = cur
+        if seq is not None:
+            seqs.accept(seq)
+        self.not_fresh = None
         st = new_state((
             lat * DEG, lon * DEG, alt * FT, mach, (hdg % 360.0) * DEG, gs * KT, bank * DEG,
             fpa * DEG, None if track is None else (track % 360.0) * DEG, mrate,
@@ -376,6 +466,19 @@ class StateValidator:
         self._last_state = st
         self.accepted += 1
         return st
+
+    def _stale_data(self, code: str, detail: str) -> Rejection:
+        """Refuse a frame that carries no new data (:data:`advisory.schema.FRESHNESS_REASONS`)."""
+        rej = self._reject(code, detail)
+        self.not_fresh = rej
+        return rej
+
+    def _speed_rejection(self, mach: float, gs_kt: float, tas: float,
+                         wind: bool) -> Rejection:
+        """Refuse a ground speed that Mach and wind cannot explain (the check, inline in
+        :meth:`_validate`, and its source: :func:`advisory.pipeline.freshness.speed_text`)."""
+        return self._reject("inconsistent:gs_kt", speed_text(
+            mach, gs_kt, tas, wind, self.limits.max_wind_mps))
 
     def _jump(self, a: tuple, b: tuple) -> tuple[str, str] | None:
         """First implausible change from sample ``a`` to ``b``, as (field, message).

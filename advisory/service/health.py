@@ -229,6 +229,8 @@ class LoopHealth:
             for k in _DECODE_BAD:
                 out[k] = dc[k]
             out["oversize"] += dc["oversize"]
+            if self.decoder.unknown_keys:  # present once not 0: clean runs keep their frames
+                out["unknown_keys"] = self.decoder.unknown_keys
         elif self.assembler is not None:
             ac = self.assembler.counters
             for k in _ARINC_ALL[2:-1]:

@@ -266,7 +266,7 @@ class AdvisoryLoop:
             if debug:
                 _input_log.debug("frame refused: type %r is not air data", frame.type)
             return
-        res = self.validator.validate(frame.fields, rx, frame.utc_s, rx)
+        res = self.validator.validate(frame.fields, rx, frame.utc_s, rx, frame.seq)
         if type(res) is not Rejection:
             self._last_valid_rx = rx
         elif debug:
@@ -380,7 +380,9 @@ class AdvisoryLoop:
             return None, "ARINC 429 input incomplete: missing " + ", ".join(self._missing)
         last = self._last_valid_rx
         if last is not None:
-            return None, f"air data stale: last valid frame {max(now - last, 0.0):.1f} s ago"
+            why = f"air data stale: last valid frame {max(now - last, 0.0):.1f} s ago"
+            not_fresh = self.validator.not_fresh  # frozen or repeated data: say which
+            return None, why if not_fresh is None else f"{why} ({not_fresh.detail})"
         if not self._any_input:
             return None, "no air data received yet"
         rej = self.validator.last_rejection

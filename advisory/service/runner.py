@@ -157,6 +157,8 @@ class AdvisoryService:
         ext["output_dropped"] = self.out.dropped
         ext["output_errors"] = self.out.errors
         ext["log_dropped"] = self.logs.dropped if self.logs is not None else 0
+        ext.update(self.inp.trust_counters)
+        self.loop.input_note = self.inp.trust_note(time.monotonic())
 
     def run(self) -> int:
         """Run until stopped; returns the exit code."""

@@ -44,6 +44,9 @@ class RunSettings:
     label_map: str | None = None
     heartbeat_s: float = 1.0
     log_level: str = "info"
+    allow_from: str | None = None
+    auth_key: str | None = None
+    learn_atmosphere: bool = False
 
 
 def check_settings(s: RunSettings) -> None:
@@ -61,6 +64,10 @@ def check_settings(s: RunSettings) -> None:
                        "aircraft)")
     if s.label_map and s.input_format != "arinc429":
         raise RunError("--label-map: only with --input-format arinc429")
+    if s.allow_from is not None or s.auth_key is not None:
+        if not s.input_url.startswith("udp:"):
+            opt = "--allow-from" if s.allow_from is not None else "--auth-key"
+            raise RunError(f"{opt}: only with a udp:// input, got --input {s.input_url}")
     if s.log_level not in LOG_LEVELS:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 

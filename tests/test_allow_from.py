@@ -108,6 +108,7 @@ def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_
         n_real, n_spoof = drive(port, real, spoof, 3.0)  # 15 real, 45 spoofed
         t_alone = time.monotonic()
         _, n_alone = drive(port, real, spoof, 2.0, real_too=False)  # the real one silent
+        time.sleep(0.5)  # let the service take the last datagrams before it stops
         code = stop(proc)
     finally:
         if proc.poll() is None:
@@ -149,6 +150,7 @@ def test_allow_from_admits_only_the_named_source(tmp_path, small_table_path,
                           after=0.0)
         # the spoofer sends first: without --allow-from it would have been locked in
         n_real, n_spoof = drive(port, real, spoof, 2.0, first="spoof")
+        time.sleep(0.5)
         code = stop(proc)
     finally:
         if proc.poll() is None:

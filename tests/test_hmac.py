@@ -271,3 +271,23 @@ def test_run_with_a_short_key_is_one_line_and_exit_2(tmp_path, small_table_path,
     assert proc.wait(120) == 2
     err = [x for x in (tmp_path / "run.err").read_text().splitlines() if "CAUTION" not in x]
     assert len(err) == 1 and "--auth-key" in err[0] and "short.key" in err[0], err
+
+
+# ------------------------------------------------- status identity keys (messages.py)
+
+@needs_cc
+def test_status_identity_keys_are_optional_and_ignored_by_old_receivers(cbuild) -> None:
+    # ICD sections 6 and 7: optional keys after `counters`, in the order sw, table_sha,
+    # zones_sha, config_sha; receivers that do not use them decode the frame as before.
+    ident = {"sw": "0.1.0", "table_sha": "0123456789abcdef", "zones_sha": "fedcba9876543210",
+             "config_sha": "00112233445566aa"}
+    plain = encode_status({"state": "ok", "counters": {"steps": 3}}, 4, 1.9e9)
+    full = encode_status({"state": "ok", "counters": {"steps": 3}, **ident}, 4, 1.9e9)
+    assert list(msgpack.unpackb(full))[-5:] == ["counters", *ident]
+    assert full.startswith(b"\x8b") and full[1:].startswith(plain[1:])  # 7 + 4 entries
+    assert decode_frame(full) == decode_frame(plain)
+    assert c_tool(cbuild, [f"dec {full.hex()}"]) == c_tool(cbuild, [f"dec {plain.hex()}"])
+    for key, bad in (("sw", ""), ("sw", "x" * 32), ("table_sha", "0123456789ABCDEF"),
+                     ("zones_sha", "0123"), ("config_sha", 5)):
+        with pytest.raises(ValueError, match=key):
+            encode_status({"state": "ok", key: bad}, 0, 1.9e9)

@@ -158,6 +158,36 @@ def load_auth_key(path: str | Path) -> bytes:
     return key
 
 
+_HEAD_V1_TYPE = b"\xa1v\x01\xa4type"  #: canonical header start after the map header
+_UINT_BYTES = {0xCC: 1, 0xCD: 2, 0xCE: 4}  #: MessagePack uint 8/16/32: value bytes
+
+
+def _type_and_seq(payload: bytes) -> tuple[str, int] | None:
+    """``type`` and ``seq`` of a frame (ICD section 3), or None when they are not there
+    as a str and an integer in 0..2**32-1. The canonical header is read in place; any
+    other layout is decoded whole."""
+    p = payload
+    i = 1 if p[:1] and 0x80 <= p[0] <= 0x8F else 3
+    if p[i:i + 8] == _HEAD_V1_TYPE and len(p) > i + 9 and 0xA0 <= p[i + 8] <= 0xBF:
+        j = i + 9 + (p[i + 8] - 0xA0)
+        if p[j:j + 4] == b"\xa3seq" and len(p) > j + 4:
+            b = p[j + 4]
+            if b < 0x80:
+                return p[i + 9:j].decode("utf-8", "replace"), b
+            n = _UINT_BYTES.get(b)
+            if n is not None and len(p) >= j + 5 + n:
+                return (p[i + 9:j].decode("utf-8", "replace"),
+                        int.from_bytes(p[j + 5:j + 5 + n], "big"))
+    try:
+        m = msgpack.unpackb(payload, raw=False)
+        kind, seq = m["type"], m["seq"]
+    except Exception:  # noqa: BLE001 - not a frame: the decoder counts it
+        return None
+    if isinstance(kind, str) and type(seq) is int and 0 <= seq <= SEQ_MAX:
+        return kind, seq
+    return None
+
+
 class AuthVerifier:
     """Admits only authenticated frames that are newer than the last one (ICD 7.1).
 
@@ -192,13 +222,10 @@ class AuthVerifier:
         if why:
             self.counters[why] += 1
             return False
-        try:
-            m = msgpack.unpackb(payload, raw=False)
-            kind, seq = m["type"], m["seq"]
-            if not (isinstance(kind, str) and isinstance(seq, int) and 0 <= seq <= SEQ_MAX):
-                raise TypeError
-        except Exception:  # noqa: BLE001 - authentic but not a frame: the decoder counts it
+        head = _type_and_seq(payload)
+        if head is None:  # authentic but not a frame: the decoder counts it
             return True
+        kind, seq = head
         last = self._last.get(kind)
         if last is not None and now_monotonic - last[1] < self.resync_s:
             d = (seq - last[0]) & SEQ_MAX

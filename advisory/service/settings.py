@@ -68,6 +68,9 @@ def check_settings(s: RunSettings) -> None:
         if not s.input_url.startswith("udp:"):
             opt = "--allow-from" if s.allow_from is not None else "--auth-key"
             raise RunError(f"{opt}: only with a udp:// input, got --input {s.input_url}")
+    if s.learn_atmosphere and not s.profile:
+        raise RunError("--learn-atmosphere: only with --profile (the profile's table "
+                       "manager does the rebuilds)")
     if s.log_level not in LOG_LEVELS:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 

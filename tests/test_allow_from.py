@@ -26,6 +26,9 @@ from advisory.io.framing import datagram
 from advisory.io.messages import decode_frame, encode_air
 from advisory.io.records import KIND_EVENT, KIND_INPUT, decode_event, read_records
 from advisory.physics.atmosphere import standard_atmosphere
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.airdata import AirDataState
+from advisory.pipeline.zones import ZoneSet
 from tests.test_run_e2e import (
     ALT_FT,
     GS_MPS,
@@ -269,3 +272,43 @@ def test_real_track_helpers_agree() -> None:
     b = decode_frame(air_payload(1, 1.0)).fields
     assert (b["lon_deg"] - a["lon_deg"]) * M_PER_DEG_LON == pytest.approx(GS_MPS, rel=1e-9)
     assert a["alt_ft"] == ALT_FT
+
+
+class SubmitLog:
+    """A table source that only notes the atmospheres the advisor asks to rebuild for
+    (the manager's interface, ``advisory.pipeline.advisor.TableSource``; no I/O)."""
+
+    def __init__(self, table) -> None:
+        self.table = table
+        self.submitted: list = []
+
+    def submit_atmosphere(self, atm) -> None:
+        self.submitted.append(atm)
+
+
+def test_advisor_does_not_learn_from_crafted_frames_by_default(small_table, tmp_path) -> None:
+    # Issue 15 item 8 as measured: 20 s of crafted frames (20 Hz, climbing through
+    # 42,000-48,000 ft with a temperature of the sender's choosing) made the service
+    # rebuild its tables. By default the advisor never asks for a rebuild.
+    zones = tmp_path / "zones.geojson"
+    zones.write_text(json.dumps({"type": "FeatureCollection", "features": [
+        square("millbrook", LAT0, LON0 + 130e3 / M_PER_DEG_LON)]}))
+    std = standard_atmosphere()
+    runs = {}
+    for name, prof in (("default", None),
+                       ("enabled", profile_mod.StreamProfile(enabled=True))):
+        src = SubmitLog(small_table)
+        adv = Advisor(src, ZoneSet.from_file(zones))
+        if prof is not None:
+            adv.stream_profile = prof
+        for k in range(400):
+            alt_ft = 42000.0 + 15.0 * k
+            sat_c = std.at(units.ft_to_m(alt_ft)).temperature_k - 273.15 + 12.0
+            st = AirDataState.from_fields(
+                {"lat_deg": LAT0, "lon_deg": LON0 + GS_MPS * k * 0.05 / M_PER_DEG_LON,
+                 "alt_ft": alt_ft, "mach": 1.6, "heading_deg": 90.0,
+                 "gs_kt": GS_MPS / units.KT, "bank_deg": 0.0, "fpa_deg": 0.0,
+                 "sat_c": sat_c}, rx_monotonic=k * 0.05)
+            adv.step(st, k * 0.05)
+        runs[name] = len(src.submitted)
+    assert runs == {"default": 0, "enabled": 1}  # enabled: ISA+12 K is plausible

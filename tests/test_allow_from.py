@@ -29,6 +29,7 @@ from advisory.physics.atmosphere import standard_atmosphere
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.zones import ZoneSet
+from advisory.service.settings import RunError, RunSettings, check_settings
 from tests.test_run_e2e import (
     ALT_FT,
     GS_MPS,
@@ -312,3 +313,14 @@ def test_advisor_does_not_learn_from_crafted_frames_by_default(small_table, tmp_
             adv.step(st, k * 0.05)
         runs[name] = len(src.submitted)
     assert runs == {"default": 0, "enabled": 1}  # enabled: ISA+12 K is plausible
+
+
+def test_trust_options_need_a_udp_input() -> None:
+    # Project rule: a bad option is one line naming it (exit 2 in the command).
+    for kw in ({"allow_from": "127.0.0.1"}, {"auth_key": "k.hex"}):
+        with pytest.raises(RunError, match="--allow-from|--auth-key"):
+            check_settings(RunSettings("serial:///dev/ttyUSB0", "udp://127.0.0.1:1", "z",
+                                       **kw))
+    with pytest.raises(RunError, match="--learn-atmosphere"):
+        check_settings(RunSettings("udp://127.0.0.1:2", "udp://127.0.0.1:1", "z",
+                                   learn_atmosphere=True))

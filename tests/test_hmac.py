@@ -291,3 +291,24 @@ def test_status_identity_keys_are_optional_and_ignored_by_old_receivers(cbuild) 
                      ("zones_sha", "0123"), ("config_sha", 5)):
         with pytest.raises(ValueError, match=key):
             encode_status({"state": "ok", key: bad}, 0, 1.9e9)
+
+
+def test_verifier_never_raises_on_any_bytes() -> None:
+    # Project rule: the live loop never dies on bad input; it counts. Seeded random and
+    # mutated inputs (common practice, no source).
+    rng = random.Random(99)
+    ver = framing.AuthVerifier(KEY)
+    good = [messages.sign_payload(p, KEY) for p in frames(rng, 12)]
+    n = 0
+    for k in range(3000):
+        if k % 3 == 0:
+            data = rng.randbytes(rng.randrange(0, 300))
+        else:
+            data = bytearray(rng.choice(good))
+            for _ in range(rng.randrange(1, 4)):
+                data[rng.randrange(len(data))] = rng.randrange(256)
+            data = bytes(data)
+        n += ver.admit(data, k * 0.01)
+        ver.admit_datagram(datagram(data) if data else b"", k * 0.01)
+    assert sum(ver.counters.values()) > 0 and n < 3000
+    assert framing._type_and_seq(b"") is None and framing._type_and_seq(b"\xde") is None

@@ -312,3 +312,16 @@ def test_verifier_never_raises_on_any_bytes() -> None:
         ver.admit_datagram(datagram(data) if data else b"", k * 0.01)
     assert sum(ver.counters.values()) > 0 and n < 3000
     assert framing._type_and_seq(b"") is None and framing._type_and_seq(b"\xde") is None
+
+
+def test_icd_signed_example() -> None:
+    # docs/interface.md section 14: the signed status frame's tag is HMAC-SHA256 (Python's
+    # hmac module) under the invented key 00..1f, and the frame checks.
+    text = (ROOT / "docs" / "interface.md").read_text(encoding="utf-8")
+    block = text.split("The same status frame signed", 1)[1].split("```")[1]
+    signed = bytes.fromhex(" ".join(block.split()))
+    key = bytes(range(32))
+    assert len(signed) == 144 and signed[0] == 0x88
+    assert signed[-32:] == hmac.new(key, signed[:-32], hashlib.sha256).digest()
+    assert messages.check_auth(signed, key) == ""
+    assert decode_frame(signed).fields["reason"] == "stale air data"

@@ -132,6 +132,8 @@ def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_
     assert final["source_refused"] == n_spoof + n_alone
     refused = [e.fields for e in events if e.code == "source_refused"]
     assert len(refused) == 1 and refused[0]["source"].startswith("127.0.0.1:")
+    log = (tmp_path / "run.err").read_text()  # one log line per new refused source
+    assert log.count("input: refusing datagrams from " + refused[0]["source"]) == 1, log
     # the real source silent, the other one sending: the status names it, not accepted
     late = [f for f in listener.since(t_alone + 1.0, "status")
             if "SIGTERM" not in f.fields["reason"]]

@@ -51,6 +51,23 @@ ADV_NULLABLE_FLOATS = (
 # ----------------------------------------------------------------------------- status frames
 STATUS_STATES = ("ok", "degraded", "unavailable")
 STATUS_FIELDS = ("state", "reason", "counters")
+#: Optional identity keys a status frame may carry after ``counters`` (ICD section 6):
+#: the software version and 16-hex-digit digests of the table, zone and config files.
+STATUS_IDENTITY_FIELDS = ("sw", "table_sha", "zones_sha", "config_sha")
+
+# ----------------------------------------------------------------------------- trust
+#: Key of the authentication entry, the last of a signed frame's map (ICD section 7.1).
+AUTH_KEY = "auth"
+AUTH_TAG_LEN = 32  #: HMAC-SHA256 tag, bytes (RFC 2104, FIPS 180-4)
+AUTH_KEY_MIN_BYTES = 32  #: shortest shared key (RFC 2104 section 3: not less than L = 32)
+#: With no authenticated frame of a type accepted for this long, the next one re-anchors
+#: the sequence check (a restarted sender starts its ``seq`` again). Engineering choice,
+#: no source: four times the staleness limit, so a replayed capture can get in only after
+#: the real sender has been silent (and the advisory unavailable) for 2 s.
+AUTH_RESYNC_S = 2.0
+#: Distinct refused UDP sources logged (one line each) before further ones are only
+#: counted: a flood from random source ports must not flood the log.
+MAX_LOGGED_SOURCES = 32
 
 # ----------------------------------------------------------------------------- sizes
 MAX_PAYLOAD = 4096  #: largest MessagePack payload, bytes
@@ -103,6 +120,7 @@ EVENT_FIELDS: dict[str, tuple[str, ...]] = {
     "stats": ("kind", "stats"),             # kind "stats" (periodic) or "final"
     "shutdown": (),
     "note": ("text",),                      # free text for people; never acted upon
+    "source_refused": ("source", "allowed"),  # a new UDP source refused (first datagram)
 }
 EVENT_CODES = tuple(EVENT_FIELDS)
 
@@ -112,7 +130,8 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: only those the recorded status frames carry, so records written before a counter was
 #: added still replay byte for byte.
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
-                    "log_dropped", "record_dropped")
+                    "log_dropped", "record_dropped", "source_refused", "auth_missing",
+                    "auth_bad", "auth_replay")
 
 # ----------------------------------------------------------------------------- record size
 #: ``run --record``: size cap of one record file, MB (10^6 bytes), and rotated files kept

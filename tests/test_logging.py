@@ -130,7 +130,10 @@ def test_stuck_stderr_never_stops_the_advisories(tmp_path, small_table_path, zon
     proc = subprocess.Popen(
         [*RUN, "--input", f"udp://127.0.0.1:{port}", "--output", listener.url, "--zones",
          str(zones), "--table", str(small_table_path), "--rate-hz", "10",
-         "--log-level", "debug"], stdout=out, stderr=w, env=_env(tmp_path))
+         "--log-level", "debug",
+         # the flood comes from another socket of this host: admit the address (any
+         # port) so its frames reach the decoder and the validator (ICD section 10)
+         "--allow-from", "127.0.0.1"], stdout=out, stderr=w, env=_env(tmp_path))
     os.close(w)
     tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
     sender = None

@@ -91,7 +91,7 @@ def test_watched_profile_file_triggers_rebuild(tmp_path) -> None:
 
 def test_stream_profile_proposes_only_on_disagreement() -> None:
     std = standard_atmosphere()
-    same, warm = StreamProfile(), StreamProfile()
+    same, warm = StreamProfile(enabled=True), StreamProfile(enabled=True)
     for alt_ft in range(30000, 46000, 200):
         z = units.ft_to_m(alt_ft)
         t = std.at(z).temperature_k

@@ -22,7 +22,7 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                     "frames at a fixed rate, record everything. " + SAFETY_CAUTION)
     p.add_argument("--input", required=True, metavar="URL",
                    help="input transport, e.g. serial:///dev/ttyUSB0?baud=115200 or "
-                        "udp://0.0.0.0:5600")
+                        "udp://127.0.0.1:5600 (bind one interface's address)")
     p.add_argument("--output", required=True, metavar="URL",
                    help="output transport, e.g. udp://127.0.0.1:5601")
     add_zones_option(p, required=True)
@@ -46,6 +46,15 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--profile", metavar="FILE",
                    help="atmosphere profile (CSV/TOML) to rebuild the tables for; watched "
                         "for changes")
+    p.add_argument("--allow-from", metavar="ADDR[:PORT][,...]",
+                   help="UDP input: the only sources accepted (default: the first source "
+                        "seen is locked in; others are counted and refused)")
+    p.add_argument("--auth-key", metavar="FILE",
+                   help="UDP input: accept only frames authenticated with HMAC-SHA256 under "
+                        "this key (hex, at least 32 bytes)")
+    p.add_argument("--learn-atmosphere", action="store_true", default=False,
+                   help="with --profile: also rebuild tables for a plausible atmosphere "
+                        "learned from the air-data stream (off by default)")
     p.add_argument("--duration-s", type=float, default=None,
                    help="stop after this many seconds (tests, soak)")
     p.add_argument("--log-level", choices=LOG_LEVELS, default="info",
@@ -63,6 +72,8 @@ def run_command(args: argparse.Namespace) -> int:
         rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
         duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
         record_max_mb=args.record_max_mb, record_keep=args.record_keep,
+        allow_from=args.allow_from, auth_key=args.auth_key,
+        learn_atmosphere=args.learn_atmosphere,
     )
     return run_service(settings)
 

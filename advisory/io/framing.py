@@ -22,13 +22,24 @@ in ``tests/twins/framing.py`` (parity tests).
 
 from __future__ import annotations
 
+import math
+from pathlib import Path
+
+import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 import numpy as np
 
 from advisory.io.cobs import ERR_NO_ROOM, cobs_decode_into, cobs_encode, cobs_max_encoded_len
 from advisory.io.crc32c import crc32c, crc32c_kernel, crc32c_update
-from advisory.io.messages import FrameError
+from advisory.io.messages import FrameError, check_auth
 from advisory.jit import njit
-from advisory.schema import CRC_LEN, LINK_COUNTERS, MAX_PAYLOAD
+from advisory.schema import (
+    AUTH_KEY_MIN_BYTES,
+    AUTH_RESYNC_S,
+    CRC_LEN,
+    LINK_COUNTERS,
+    MAX_PAYLOAD,
+    SEQ_MAX,
+)
 
 #: Longest encoded stream frame (without delimiter): COBS of payload + CRC, plus one
 #: byte of slack for senders that end a full last block with 0x01.
@@ -116,6 +127,121 @@ class DatagramReader:
             return []
         self.counters["frames_ok"] += 1
         return [payload]
+
+
+# ------------------------------------------------------------------ authenticated frames
+
+#: Counters of :class:`AuthVerifier` (service counters, ``advisory.schema.SERVICE_COUNTERS``).
+AUTH_COUNTERS = ("auth_missing", "auth_bad", "auth_replay")
+
+
+def load_auth_key(path: str | Path) -> bytes:
+    """The shared key of ``--auth-key FILE``: hex digits on one line, at least 32 bytes.
+
+    Raises
+    ------
+    ValueError
+        One line naming the option, the file and what is wrong with it.
+    """
+    try:
+        text = Path(path).read_text(encoding="ascii").strip()
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ValueError(f"--auth-key: {path}: cannot read ({exc})") from None
+    try:
+        key = bytes.fromhex(text)
+    except ValueError:
+        raise ValueError(f"--auth-key: {path}: the key must be hex digits on one line") \
+            from None
+    if len(key) < AUTH_KEY_MIN_BYTES:
+        raise ValueError(f"--auth-key: {path}: key of {len(key)} bytes is shorter than "
+                         f"{AUTH_KEY_MIN_BYTES}")
+    return key
+
+
+_HEAD_V1_TYPE = b"\xa1v\x01\xa4type"  #: canonical header start after the map header
+_UINT_BYTES = {0xCC: 1, 0xCD: 2, 0xCE: 4}  #: MessagePack uint 8/16/32: value bytes
+
+
+def _type_and_seq(payload: bytes) -> tuple[str, int] | None:
+    """``type`` and ``seq`` of a frame (ICD section 3), or None when they are not there
+    as a str and an integer in 0..2**32-1. The canonical header is read in place; any
+    other layout is decoded whole."""
+    p = payload
+    i = 1 if p[:1] and 0x80 <= p[0] <= 0x8F else 3
+    if p[i:i + 8] == _HEAD_V1_TYPE and len(p) > i + 9 and 0xA0 <= p[i + 8] <= 0xBF:
+        j = i + 9 + (p[i + 8] - 0xA0)
+        if p[j:j + 4] == b"\xa3seq" and len(p) > j + 4:
+            b = p[j + 4]
+            if b < 0x80:
+                return p[i + 9:j].decode("utf-8", "replace"), b
+            n = _UINT_BYTES.get(b)
+            if n is not None and len(p) >= j + 5 + n:
+                return (p[i + 9:j].decode("utf-8", "replace"),
+                        int.from_bytes(p[j + 5:j + 5 + n], "big"))
+    try:
+        m = msgpack.unpackb(payload, raw=False)
+        kind, seq = m["type"], m["seq"]
+    except Exception:  # noqa: BLE001 - not a frame: the decoder counts it
+        return None
+    if isinstance(kind, str) and type(seq) is int and 0 <= seq <= SEQ_MAX:
+        return kind, seq
+    return None
+
+
+class AuthVerifier:
+    """Admits only authenticated frames that are newer than the last one (ICD 7.1).
+
+    A payload must end with a valid HMAC-SHA256 entry (:func:`advisory.io.messages.
+    check_auth`, constant-time compare); its ``seq`` must then be newer than the last
+    authenticated frame of its type: ``(seq - last) mod 2**32`` in ``1 .. 2**31 - 1``.
+    When no authenticated frame of that type was admitted for :data:`AUTH_RESYNC_S`,
+    the next one re-anchors the sequence (a restarted sender). Never raises on bad input.
+
+    Parameters
+    ----------
+    key : bytes
+        The shared key.
+    resync_s : float
+        Silence after which the sequence re-anchors, s (monotonic).
+
+    Attributes
+    ----------
+    counters : dict of str to int
+        :data:`AUTH_COUNTERS`: no tag, a wrong tag, a repeated or older ``seq``.
+    """
+
+    def __init__(self, key: bytes, resync_s: float = AUTH_RESYNC_S) -> None:
+        self._key = bytes(key)
+        self.resync_s = float(resync_s)
+        self.counters: dict[str, int] = dict.fromkeys(AUTH_COUNTERS, 0)
+        self._last: dict[str, tuple[int, float]] = {}
+
+    def admit(self, payload: bytes, now_monotonic: float) -> bool:
+        """True when ``payload`` carries a valid tag and a newer ``seq`` (else counted)."""
+        why = check_auth(payload, self._key)
+        if why:
+            self.counters[why] += 1
+            return False
+        head = _type_and_seq(payload)
+        if head is None:  # authentic but not a frame: the decoder counts it
+            return True
+        kind, seq = head
+        last = self._last.get(kind)
+        if last is not None and now_monotonic - last[1] < self.resync_s:
+            d = (seq - last[0]) & SEQ_MAX
+            if d == 0 or d >= 1 << 31:
+                self.counters["auth_replay"] += 1
+                return False
+        self._last[kind] = (seq, now_monotonic if math.isfinite(now_monotonic) else 0.0)
+        return True
+
+    def admit_datagram(self, data: bytes, now_monotonic: float) -> bool:
+        """:meth:`admit` for a datagram; one with a bad CRC is left to the reader's counters."""
+        try:
+            payload = parse_datagram(data)
+        except FrameError:
+            return True
+        return self.admit(payload, now_monotonic)
 
 
 # ------------------------------------------------------------------------- byte streams

@@ -19,12 +19,16 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from advisory import units
+from advisory.io.framing import AuthVerifier, load_auth_key
 from advisory.io.records import Recorder
+from advisory.io.transports import UdpTransport
+from advisory.io.transports.udp import SourceGate, parse_allow_from
 from advisory.physics.aircraft import aircraft_from_dict
 from advisory.physics.atmosphere import load_profile, standard_atmosphere
 from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, load_config
+from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.zones import ZoneSet
 from advisory.service.links import InputLink, OutputPublisher
@@ -62,6 +66,21 @@ def load_tables(s: RunSettings) -> tuple[BoomTable, TableManager | None]:
         mgr.submit_atmosphere(atm)
     mgr.watch_profile_file(s.profile)
     return table, mgr
+
+
+def guard_input(inp: InputLink, s: RunSettings) -> None:
+    """Who may send to a UDP input (``--allow-from``, else the first source) and, with
+    ``--auth-key``, authenticated frames only (``docs/interface.md`` sections 7.1, 10)."""
+    if not isinstance(inp.transport, UdpTransport):
+        return
+    try:
+        allowed = parse_allow_from(s.allow_from) if s.allow_from is not None else ()
+        key = load_auth_key(s.auth_key) if s.auth_key is not None else None
+    except ValueError as exc:
+        raise RunError(str(exc)) from None
+    inp.transport.gate = SourceGate(allowed)
+    if key is not None:
+        inp.transport.auth = AuthVerifier(key)
 
 
 def warm_up(table: BoomTable, zones: ZoneSet, config: AdvisorConfig) -> None:
@@ -116,8 +135,10 @@ def assemble(s: RunSettings) -> ServiceParts:
     if fmt in ("stream", "datagram") and fmt != framing:
         raise RunError(f"--input-format: {fmt} does not fit --input {s.input_url} (a "
                        f"{framing} transport)")
+    guard_input(inp, s)
     out = OutputPublisher(s.output_url)
     advisor = Advisor(manager if manager is not None else table, zones, config)
+    advisor.stream_profile = StreamProfile(enabled=s.learn_atmosphere)
     warm_up(manager.table if manager is not None else table, zones, config)
     loop = AdvisoryLoop(advisor, input_format=fmt, framing=framing, rate_hz=s.rate_hz,
                         heartbeat_s=s.heartbeat_s, label_map=s.label_map)

@@ -53,6 +53,10 @@ _COUNTER_TEXT = {
     "input_lost": "input link lost", "input_reopened": "input link reopened",
     "output_dropped": "outputs dropped",
     "output_errors": "output link errors", "service_errors": "service errors",
+    "source_refused": "datagrams from other sources refused",
+    "auth_missing": "frames without an authentication tag",
+    "auth_bad": "frames with a wrong authentication tag",
+    "auth_replay": "authenticated frames replayed or out of order",
 }
 
 

@@ -110,10 +110,25 @@ class InputLink:
     def receive(self, deadline: float) -> bytes | None:
         """Bytes before the deadline, or None; a failure marks the link down."""
         try:
-            return self.transport.receive(deadline)
+            data = self.transport.receive(deadline)
         except TransportError as exc:
             self.mark_lost(str(exc))
             return None
+        gate = getattr(self.transport, "gate", None)
+        while gate is not None and gate.new_sources:  # one event per new refused source
+            self.on_event("source_refused", source=gate.new_sources.pop(0),
+                          allowed=gate.allowed_text)
+        return data
+
+    @property
+    def trust_counters(self) -> dict[str, int]:
+        """Refused sources and authentication failures (UDP inputs; else empty)."""
+        return dict(getattr(self.transport, "trust_counters", {}))
+
+    def trust_note(self, now: float) -> str:
+        """A status note naming a refused source that is sending now (else ``""``)."""
+        gate = getattr(self.transport, "gate", None)
+        return gate.note(now) if gate is not None else ""
 
     def mark_lost(self, reason: str) -> None:
         """Close the link and schedule a reopen."""

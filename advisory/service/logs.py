@@ -68,6 +68,8 @@ _EVENT_TEXT = {
     "stats": "{kind}",
     "shutdown": "shutdown",
     "note": "{text}",
+    "source_refused": "input: refusing datagrams from {source} (input accepts {allowed}; "
+                      "see --allow-from)",
 }
 #: Log level of each record event (those not listed: INFO).
 _EVENT_LEVEL = {
@@ -75,6 +77,7 @@ _EVENT_LEVEL = {
     "input_lost": logging.WARNING, "output_open_failed": logging.WARNING,
     "output_lost": logging.WARNING, "output_error": logging.ERROR,
     "output_blocked": logging.WARNING, "internal_error": logging.ERROR,
+    "source_refused": logging.WARNING,
 }
 #: Log level of each status state's line.
 _STATE_LEVEL = {"ok": logging.INFO, "degraded": logging.WARNING,

@@ -187,6 +187,9 @@ class AdvisoryLoop:
         self._last_valid_rx: float | None = None
         self._missing: tuple[str, ...] = ()
         self.last_internal_error = ""
+        #: Added to the reason when no state can be given (the driver names a refused
+        #: UDP source here, so a second source never takes over silently).
+        self.input_note = ""
 
     @property
     def recorder(self) -> Recorder | None:
@@ -369,7 +372,13 @@ class AdvisoryLoop:
 
     # ------------------------------------------------------------------ the step
     def _input_state(self, now: float) -> tuple[AirDataState | None, str]:
-        """The state to advise on, or None and why not."""
+        """The state to advise on, or None and why not (with :attr:`input_note`)."""
+        st, why = self._input_state_plain(now)
+        if st is None and self.input_note:
+            why = f"{why}; {self.input_note}"
+        return st, why
+
+    def _input_state_plain(self, now: float) -> tuple[AirDataState | None, str]:
         if not self._link_up:
             detail = f" ({self._link_reason})" if self._link_reason else ""
             return None, f"input link lost{detail}; reconnecting"

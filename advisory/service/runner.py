@@ -162,6 +162,8 @@ class AdvisoryService:
         ext["log_dropped"] = self.logs.dropped if self.logs is not None else 0
         # the size cap at work (write failures are the loop's record_errors)
         ext["record_dropped"] = self.recorder.rotated_out if self.recorder is not None else 0
+        ext.update(self.inp.trust_counters)
+        self.loop.input_note = self.inp.trust_note(time.monotonic())
 
     def run(self) -> int:
         """Run until stopped; returns the exit code."""

@@ -48,6 +48,9 @@ class RunSettings:
     log_level: str = "info"
     record_max_mb: float = RECORD_MAX_MB_DEFAULT
     record_keep: int = RECORD_KEEP_DEFAULT
+    allow_from: str | None = None
+    auth_key: str | None = None
+    learn_atmosphere: bool = False
 
 
 def check_settings(s: RunSettings) -> None:
@@ -71,6 +74,13 @@ def check_settings(s: RunSettings) -> None:
                        f"{RECORD_MAX_MB_MIN}")
     if not (isinstance(s.record_keep, int) and 0 <= s.record_keep <= 1000):
         raise RunError(f"--record-keep: {s.record_keep} must be a whole number in [0, 1000]")
+    if s.allow_from is not None or s.auth_key is not None:
+        if not s.input_url.startswith("udp:"):
+            opt = "--allow-from" if s.allow_from is not None else "--auth-key"
+            raise RunError(f"{opt}: only with a udp:// input, got --input {s.input_url}")
+    if s.learn_atmosphere and not s.profile:
+        raise RunError("--learn-atmosphere: only with --profile (the profile's table "
+                       "manager does the rebuilds)")
     if s.log_level not in LOG_LEVELS:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 

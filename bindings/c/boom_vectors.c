@@ -10,6 +10,11 @@
  *   dgram HEX               parse a datagram: "ok PAYLOAD" or "err REASON"
  *   crc HEX                 CRC-32C, 8 hex digits
  *   cobs HEX / uncobs HEX   COBS encode / decode ("ok HEX" or "err REASON")
+ *   sha256 HEX              SHA-256 digest, 64 hex digits (FIPS 180-4)
+ *   hmac KEYHEX MSGHEX      HMAC-SHA256 tag, 64 hex digits (RFC 2104)
+ *   sign KEYHEX HEX         sign a frame payload: "ok HEX" or "err REASON"
+ *   auth KEYHEX HEX         check a signed payload: "ok", "auth_missing" or "auth_bad"
+ *   rfc4231                 run the RFC 4231 section 4 test cases: "ok 7" or "fail N"
  * Values in "dec" output: doubles as 16 hex digits of their bits, "-" for nil/absent,
  * strings as "s" + hex of their UTF-8 bytes, booleans T/F, integers in decimal.
  *
@@ -244,6 +249,100 @@ static void cmd_deframe(const uint8_t *p, size_t n)
            (unsigned long long)d.too_short, (unsigned long long)d.oversize);
 }
 
+/* RFC 4231 section 4, test cases 1-7 (HMAC-SHA-256); case 5 compares the first 16
+ * bytes (the RFC truncates its output to 128 bits). */
+static int rfc4231(void)
+{
+    static const char *big = "This is a test using a larger than block-size key and a larger "
+                             "than block-size data. The key needs to be hashed before being "
+                             "used by the HMAC algorithm.";
+    static const char *want[7] = {
+        "b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7",
+        "5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843",
+        "773ea91e36800e46854db8ebd09181a72959098b3ef8c122d9635514ced565fe",
+        "82558a389a443c0ea4cc819899f2083a85f0faa3e578f8077a2e3ff46729665b",
+        "a3b6167473100ee06e0c796c2955552b",
+        "60e431591ee0b67f0d8a26aacbf5b77f8e0bc6213728c5140546040f0ee37f54",
+        "9b09ffa71b942fcb27635fbcd5b0e944bfdc63644f0713938a7f51535c3a35e2"};
+    uint8_t key[131], msg[200], tag[32];
+    char hex[65];
+    size_t klen = 0, mlen = 0, i;
+    int t;
+    for (t = 0; t < 7; t++) {
+        switch (t) {
+        case 0: klen = 20; memset(key, 0x0b, klen); mlen = 8; memcpy(msg, "Hi There", 8); break;
+        case 1:
+            klen = 4; memcpy(key, "Jefe", 4);
+            mlen = 28; memcpy(msg, "what do ya want for nothing?", 28);
+            break;
+        case 2: klen = 20; memset(key, 0xaa, klen); mlen = 50; memset(msg, 0xdd, 50); break;
+        case 3:
+            klen = 25;
+            for (i = 0; i < 25; i++)
+                key[i] = (uint8_t)(i + 1);
+            mlen = 50; memset(msg, 0xcd, 50);
+            break;
+        case 4:
+            klen = 20; memset(key, 0x0c, klen);
+            mlen = 20; memcpy(msg, "Test With Truncation", 20);
+            break;
+        case 5:
+            klen = 131; memset(key, 0xaa, klen);
+            mlen = 54; memcpy(msg, "Test Using Larger Than Block-Size Key - Hash Key First", 54);
+            break;
+        default:
+            klen = 131; memset(key, 0xaa, klen);
+            mlen = strlen(big); memcpy(msg, big, mlen);
+            break;
+        }
+        boom_hmac_sha256(key, klen, msg, mlen, tag);
+        for (i = 0; i < 32; i++)
+            sprintf(hex + 2 * i, "%02x", tag[i]);
+        if (strncmp(hex, want[t], strlen(want[t])) != 0)
+            return t + 1;
+    }
+    return 0;
+}
+
+/* Commands with a key and a second hex argument: hmac, sign, auth. */
+static void cmd_keyed(const char *cmd, char *arg)
+{
+    static uint8_t key[LINE_MAX_BYTES / 4];
+    char *second = arg != NULL ? strchr(arg, ' ') : NULL;
+    long kn, n;
+    size_t m;
+    uint8_t tag[32];
+    if (second == NULL) {
+        printf("err bad_argument\n");
+        return;
+    }
+    *second++ = '\0';
+    kn = parse_hex(arg, key, sizeof key);
+    n = parse_hex(second, data, sizeof data - 64);
+    if (kn < 0 || n < 0) {
+        printf("err bad_hex\n");
+        return;
+    }
+    if (strcmp(cmd, "hmac") == 0) {
+        boom_hmac_sha256(key, (size_t)kn, data, (size_t)n, tag);
+        print_hex(tag, 32);
+        printf("\n");
+    } else if (strcmp(cmd, "sign") == 0) {
+        int r = boom_sign_frame(data, (size_t)n, sizeof data, key, (size_t)kn, &m);
+        if (r != BOOM_OK) {
+            printf("err %s\n", boom_result_name(r));
+            return;
+        }
+        printf("ok ");
+        print_hex(data, m);
+        printf("\n");
+    } else {
+        int r = boom_check_auth(data, (size_t)n, key, (size_t)kn);
+        printf("%s\n", r == BOOM_AUTH_OK ? "ok" : r == BOOM_AUTH_MISSING ? "auth_missing"
+                                                                          : "auth_bad");
+    }
+}
+
 int main(void)
 {
     while (fgets(line, sizeof line, stdin) != NULL) {
@@ -256,6 +355,20 @@ int main(void)
         if (cmd == NULL)
             continue;
         arg = strtok(NULL, "");
+        if (strcmp(cmd, "rfc4231") == 0) {
+            int bad = rfc4231();
+            if (bad)
+                printf("fail %d\n", bad);
+            else
+                printf("ok 7\n");
+            fflush(stdout);
+            continue;
+        }
+        if (strcmp(cmd, "hmac") == 0 || strcmp(cmd, "sign") == 0 || strcmp(cmd, "auth") == 0) {
+            cmd_keyed(cmd, arg);
+            fflush(stdout);
+            continue;
+        }
         if (strcmp(cmd, "air") == 0) {
             if (arg == NULL) {
                 printf("err bad_argument\n");
@@ -283,6 +396,11 @@ int main(void)
                 print_hex(data, m);
                 printf("\n");
             }
+        } else if (strcmp(cmd, "sha256") == 0) {
+            uint8_t digest[32];
+            boom_sha256(data, (size_t)n, digest);
+            print_hex(digest, 32);
+            printf("\n");
         } else if (strcmp(cmd, "crc") == 0) {
             printf("%08lx\n", (unsigned long)boom_crc32c(0, data, (size_t)n));
         } else if (strcmp(cmd, "cobs") == 0) {

@@ -188,6 +188,41 @@ void boom_deframer_init(boom_deframer *d);
 int boom_deframer_push(boom_deframer *d, uint8_t byte, const uint8_t **payload,
                        size_t *len);
 
+/* ---- Authenticated frames (docs/interface.md section 7.1; boom_auth.c) -------------
+ * A signed frame ends with the map entry "auth": bin 8 of 32 bytes, the HMAC-SHA256
+ * (RFC 2104, FIPS 180-4) over every payload byte before the tag, under a shared key of
+ * at least BOOM_AUTH_KEY_MIN bytes. Receivers that do not check tags ignore the entry
+ * (an unknown field). */
+#define BOOM_AUTH_TAG_LEN 32
+#define BOOM_AUTH_KEY_MIN 32
+#define BOOM_AUTH_OK 0
+#define BOOM_AUTH_MISSING 1 /* "auth_missing": the payload does not end with the entry */
+#define BOOM_AUTH_BAD 2     /* "auth_bad": the tag does not match */
+
+typedef struct {
+    uint32_t h[8];
+    uint64_t bits;
+    uint8_t block[64];
+    size_t used;
+} boom_sha256_ctx;
+
+void boom_sha256_init(boom_sha256_ctx *c);
+void boom_sha256_update(boom_sha256_ctx *c, const uint8_t *data, size_t len);
+void boom_sha256_final(boom_sha256_ctx *c, uint8_t out[32]);
+void boom_sha256(const uint8_t *data, size_t len, uint8_t out[32]);
+void boom_hmac_sha256(const uint8_t *key, size_t key_len, const uint8_t *msg, size_t len,
+                      uint8_t out[32]);
+
+/* Sign an encoded frame in place: buf holds len bytes, cap is its size. The map header
+ * grows by one entry (a fixmap of 15 becomes a map 16) and the entry is appended.
+ * Returns BOOM_OK and sets *out_len, or BOOM_E_ARG (not a map) / BOOM_E_NO_ROOM. */
+int boom_sign_frame(uint8_t *buf, size_t len, size_t cap, const uint8_t *key,
+                    size_t key_len, size_t *out_len);
+/* BOOM_AUTH_OK, BOOM_AUTH_MISSING or BOOM_AUTH_BAD; the tag compare takes the same time
+ * whatever the bytes. */
+int boom_check_auth(const uint8_t *payload, size_t len, const uint8_t *key,
+                    size_t key_len);
+
 #ifdef __cplusplus
 }
 #endif

@@ -10,8 +10,8 @@ import argparse
 
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
 from advisory.schema import SAFETY_CAUTION
-from advisory.service.runner import run_service
-from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
+from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings, check_settings
+from advisory.service.startup import StartingPhase, StartupInterrupted
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -57,7 +57,19 @@ def run_command(args: argparse.Namespace) -> int:
         rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
         duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
     )
-    return run_service(settings)
+    check_settings(settings)  # a bad option: one line, exit 2, before anything goes out
+    phase = StartingPhase(settings.output_url)
+    phase.install_signals()
+    phase.start()
+    try:
+        # Imported here, after the first starting frame went out: the service loads numpy
+        # and numba and may compile (the starting frames say so meanwhile).
+        from advisory.service.runner import run_service  # noqa: PLC0415
+    except StartupInterrupted as exc:
+        phase.final(f"service stopped ({exc.args[0]})")
+        phase.restore_signals()
+        return 0
+    return run_service(settings, phase)
 
 
 __all__ = ["add_parser", "run_command"]

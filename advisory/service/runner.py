@@ -12,7 +12,9 @@ or stdout never blocks it either; lines lost are counted (``log_dropped``).
   every output, and events (start, link lost/reopened, statistics, shutdown).
 * One log line per change of the status state (``ok`` / ``degraded`` / ``unavailable``,
   with the reason) and one per link or life-cycle event.
-* Stops on SIGINT/SIGTERM, after ``--duration-s``, or when a file input ends: publishes
+* Stops on SIGTERM, SIGINT, SIGHUP, SIGQUIT, SIGUSR1 or SIGUSR2 (all alike, during
+  start-up too: :mod:`advisory.service.startup`), after ``--duration-s``, or when a file
+  input ends: publishes
   a final ``unavailable`` advisory and status, drains the output queue (at most 1 s),
   writes a statistics event, fsyncs and closes the record file, lets the log writers
   finish (at most 1 s).
@@ -26,9 +28,7 @@ from __future__ import annotations
 import math
 import os
 import resource
-import signal
 import time
-from types import FrameType
 from typing import Any
 
 from advisory.io.records import Recorder
@@ -39,6 +39,7 @@ from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
 from advisory.service.loop import AdvisoryLoop
 from advisory.service.settings import EXIT_OK, EXIT_RUNTIME, RunSettings, check_settings
+from advisory.service.startup import StartingPhase, StartupInterrupted
 from advisory.tables.manager import TableManager
 
 MAX_WAIT_S = 0.25  #: longest single wait for input, s (bounds the reaction to signals)
@@ -243,29 +244,55 @@ def build_service(s: RunSettings, logs: ServiceLog | None = None,
                            parts.table_manager, echo, logs)
 
 
-def run_service(s: RunSettings) -> int:
+def run_service(s: RunSettings, phase: StartingPhase | None = None) -> int:
     """Build and run the service with its log and signal handling; the exit code.
 
     The caution comes first (stdout and log); the log writers get at most
     :data:`advisory.service.logs.CLOSE_TIMEOUT_S` to finish after the service stopped.
+
+    Parameters
+    ----------
+    s : RunSettings
+    phase : StartingPhase, optional
+        The starting phase already publishing starting status frames and handling the
+        stop signals (``boom-advisory run`` starts it before it loads this module); a new
+        one is started when None.
     """
     check_settings(s)
+    if phase is None:
+        phase = StartingPhase(s.output_url)
+        phase.install_signals()
+        phase.start()
     logs = ServiceLog(s.log_level)
     logs.start()
     try:
         logs.caution()
-        return _start_and_run(s, logs)
+        return _start_and_run(s, logs, phase)
+    except StartupInterrupted as exc:
+        reason = f"service stopped ({exc.args[0] if exc.args else 'signal'})"
+        log_event("stopping", reason=f"{reason} during start-up")
+        phase.final(reason)
+        return EXIT_OK
     finally:
+        phase.finish()
+        phase.restore_signals()
         logs.close()
 
 
-def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
+def _start_and_run(s: RunSettings, logs: ServiceLog, phase: StartingPhase) -> int:
     t0 = time.monotonic()
-    svc = build_service(s, logs)
+    parts = assemble(s, progress=phase.set_phase)
+    svc = AdvisoryService(parts.loop, parts.inp, parts.out, parts.recorder, s.duration_s,
+                          parts.table_manager, echo=True, logs=logs)
     svc.started_monotonic = t0
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
                "profile": s.profile, **svc.loop.describe()}
+    phase.on_stop = svc.request_stop  # from now on a signal ends the run loop cleanly
+    phase.starting = False
+    if phase.stop_reason:
+        svc.request_stop(phase.stop_reason)
+    phase.finish()  # the service proper takes the output over
     try:
         svc.out.open()
         svc.inp.try_open(time.monotonic())
@@ -277,18 +304,7 @@ def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
         log.error("%s", exc)
         return EXIT_RUNTIME
     svc.event("start", settings=started)
-    old = {}
-
-    def on_signal(signum: int, _frame: FrameType | None) -> None:
-        svc.request_stop(signal.Signals(signum).name)
-
-    for sig in (signal.SIGINT, signal.SIGTERM):
-        old[sig] = signal.signal(sig, on_signal)
-    try:
-        return svc.run()
-    finally:
-        for sig, handler in old.items():
-            signal.signal(sig, handler)
+    return svc.run()
 
 
 __all__ = ["AdvisoryService", "build_service", "run_service"]

@@ -33,7 +33,7 @@ def build_parser(only: Sequence[str] = COMMANDS) -> argparse.ArgumentParser:
     (the other commands load numpy and numba at import).
     """
     parser = argparse.ArgumentParser(
-        prog="boom-advisory",
+        prog="boom-advisory", formatter_class=argparse.RawDescriptionHelpFormatter,
         description="Sonic-boom carpet prediction and crew advisories. " + SAFETY_CAUTION,
     )
     parser.add_argument("--version", action="version",

@@ -222,8 +222,10 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
                      str(small_table_path), "--record", str(record), "--rate-hz", "10")
     sender = None
     try:
-        listener.wait_for(lambda f: f.type == "status", READY_TIMEOUT_S, "first status",
-                          after=0.0)
+        # the first status of the running service (not a starting one, ICD 17.7)
+        listener.wait_for(lambda f: f.type == "status"
+                          and not f.fields["reason"].startswith("starting"),
+                          READY_TIMEOUT_S, "first status", after=0.0)
         tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
         sender = Sender(lambda d: tx.sendto(d, ("127.0.0.1", port)), datagram)
         t_adv, _ = listener.wait_for(lambda f: f.type == "adv" and f.fields["status"]
@@ -270,7 +272,8 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
     assert inputs == sender.sent
     assert sum(r.kind == KIND_RAW_INPUT for r in records) == len(sender.sent) + 2
     recorded = [decode_frame(r.data) for r in records if r.kind == KIND_OUTPUT]
-    received = [f for _, f in listener.frames]
+    received = [f for _, f in listener.frames  # starting frames (ICD 17.7) are not recorded
+                if not (f.type == "status" and f.fields["reason"].startswith("starting"))]
     assert recorded == received  # nothing lost on loopback, nothing reordered
     events = [decode_event(r.data) for r in records if r.kind == KIND_EVENT]
     assert events[0].code == "input_open" and events[1].code == "start"
@@ -536,7 +539,8 @@ def test_profile_rebuilds_tables_off_the_hot_path(tmp_path, small_table_path,
     assert stale_seen, "the first advisories should be flagged tables_stale"
     # ICD section 17.2: stale tables make the status degraded (the first status frame's
     # reason is the start-up caution; a quick rebuild may leave only that one)
-    before = [f.fields for t, f in listener.frames if f.type == "status" and t < t_fresh]
+    before = [f.fields for t, f in listener.frames if f.type == "status" and t < t_fresh
+              and not f.fields["reason"].startswith("starting")]  # ICD 17.7: not recorded
     assert before and {s["state"] for s in before} == {"degraded"}
     assert all("tables stale" in s["reason"] for s in before[1:])
     assert code == 0, (tmp_path / "run.err").read_text()

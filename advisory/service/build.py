@@ -126,7 +126,7 @@ def assemble(s: RunSettings, progress: Callable[[str], None] = _no_progress) -> 
     if fmt in ("stream", "datagram") and fmt != framing:
         raise RunError(f"--input-format: {fmt} does not fit --input {s.input_url} (a "
                        f"{framing} transport)")
-    out = OutputPublisher(s.output_url)
+    out = OutputPublisher(s.output_url, max_age_s=1.0 / s.rate_hz)
     advisor = Advisor(manager if manager is not None else table, zones, config)
     progress("compiling kernels")
     warm_up(manager.table if manager is not None else table, zones, config)

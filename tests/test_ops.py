@@ -6,9 +6,13 @@ and the package version in ``advisory/schema.py`` (one home; pyproject reads it)
 
 from __future__ import annotations
 
+import os
+import shutil
 import subprocess
 import sys
+from pathlib import Path
 
+import advisory
 from advisory.schema import SAFETY_CAUTION, VERSION
 
 
@@ -19,3 +23,34 @@ def test_version_prints_the_version_and_the_caution() -> None:
     assert res.returncode == 0, res.stderr
     assert res.stdout.splitlines()[0] == f"boom-advisory {VERSION}"
     assert SAFETY_CAUTION in res.stdout
+
+
+def _read_only_copy(tmp_path: Path) -> Path:
+    """A copy of the package whose cache directories cannot be made: every
+    ``__pycache__`` is a plain file (works as root too, where permissions do not bind)."""
+    root = tmp_path / "site"
+    shutil.copytree(Path(advisory.__file__).parent, root / "advisory",
+                    ignore=shutil.ignore_patterns("__pycache__"))
+    for d in [root / "advisory", *(p for p in (root / "advisory").rglob("*") if p.is_dir())]:
+        (d / "__pycache__").write_text("not a directory\n")
+    return root
+
+
+def test_read_only_install_without_numba_cache_dir_falls_back(tmp_path) -> None:
+    # the issue's operations list: a read-only install must not crash at import; the
+    # CRC-32C of "123456789" is 0xE3069283 (RFC 3720 check value; value from memory)
+    root = _read_only_copy(tmp_path)
+    blocked = tmp_path / "blocked"
+    blocked.write_text("a file, so nothing can be made under it\n")
+    env = {k: v for k, v in os.environ.items() if k != "NUMBA_CACHE_DIR"}
+    env.update(PYTHONPATH=str(root), HOME=str(blocked / "home"),
+               XDG_CACHE_HOME=str(blocked / "xdg"), TMPDIR=str(tmp_path / "tmp"))
+    (tmp_path / "tmp").mkdir()
+    res = subprocess.run([sys.executable, "-c", "from advisory.io.crc32c import crc32c; "
+                          "print(hex(crc32c(b'123456789')))"], capture_output=True,
+                         text=True, env=env, cwd=tmp_path, timeout=300)
+    assert res.returncode == 0, res.stderr[-2000:]
+    assert res.stdout.strip() == "0xe3069283"
+    notices = [ln for ln in res.stderr.splitlines() if "notice" in ln]
+    assert len(notices) == 1 and str(tmp_path / "tmp") in notices[0], res.stderr
+    assert list((tmp_path / "tmp" / "boom-advisory" / "numba").rglob("*.nbi"))

@@ -15,6 +15,8 @@ import subprocess
 import sys
 import time
 
+import pytest
+
 from advisory.io.cobs import cobs_encode
 from advisory.io.framing import parse_datagram
 from advisory.io.messages import decode_frame, encode_adv, encode_status
@@ -83,3 +85,20 @@ def test_starting_frames_within_a_second_and_a_signal_during_start_up(
 
 def test_parse_check() -> None:
     assert decode_frame(status_payload("ok", "", 0, 0.0)).type == "status"
+
+
+@pytest.mark.slow
+def test_warm_compiles_the_service_kernels_into_the_cache(tmp_path, small_table_path) -> None:
+    # ICD 17.7: `warm` compiles every kernel the service calls into numba's cache
+    # (numba keeps one .nbi index per compiled function and file: numba documentation,
+    # "Cache notes")
+    cache = tmp_path / "numba"
+    env = dict(os.environ, NUMBA_CACHE_DIR=str(cache))
+    res = subprocess.run([sys.executable, "-m", "advisory.cli", "warm", "--table",
+                          str(small_table_path)], capture_output=True, text=True, env=env,
+                         timeout=900)
+    assert res.returncode == 0, res.stderr[-2000:]
+    assert res.stdout.splitlines()[0].startswith("CAUTION:")
+    names = {p.name for p in cache.rglob("*.nbi")}
+    for kernel in ("deframe_kernel", "crc32c_kernel", "air_canonical_kernel"):
+        assert any(kernel in n for n in names), (kernel, sorted(names))

@@ -18,7 +18,7 @@ from advisory.cli.options import EXIT_USAGE, UsageError
 from advisory.schema import SAFETY_CAUTION, VERSION
 
 #: The sub-commands, in the order ``--help`` lists them (one module each).
-COMMANDS = ("predict", "tables", "check", "run", "bench", "replay", "demo",
+COMMANDS = ("predict", "tables", "check", "run", "warm", "bench", "replay", "demo",
             "simulate", "campaign")
 
 __all__ = ["EXIT_USAGE", "UsageError", "build_parser", "main"]

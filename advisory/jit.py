@@ -123,7 +123,7 @@ def choose_cache_dir() -> bool:
         cand = base / "boom-advisory" / "numba"
         if _writable(cand):
             os.environ["NUMBA_CACHE_DIR"] = str(cand)
-            numba.config.CACHE_DIR = str(cand)
+            numba.config.CACHE_DIR = str(cand)  # type: ignore[attr-defined]
             print(f"boom-advisory: notice: {why} is not writable; compiled kernels are "
                   f"cached in {cand}", file=sys.stderr)
             return True

@@ -25,6 +25,7 @@ import fcntl
 import math
 import os
 import queue
+import select
 import socket
 import struct
 import termios
@@ -280,8 +281,8 @@ class OutputPublisher:
 
         A serial port reports its queued bytes (``TIOCOUTQ``); a pseudo-terminal reports
         none, so its queue is flushed before every frame (a receiver that reads keeps it
-        empty: only a backlog is lost). Whatever may have been cut is followed by an
-        extra 0x00 (ICD section 9).
+        empty: only a backlog is lost, and a full one is counted as a drop). Whatever may
+        have been cut is followed by an extra 0x00 (ICD section 9).
         """
         fd = getattr(self.transport, "_fd", None)  # serial transports only
         if fd is None or not self.transport.is_stream:
@@ -291,11 +292,13 @@ class OutputPublisher:
                 return
             pty = os.major(os.fstat(fd).st_rdev) in PTY_SLAVE_MAJORS
             pending = struct.unpack("i", fcntl.ioctl(fd, termios.TIOCOUTQ, b"\0" * 4))[0]
+            full = pty and not select.select([], [fd], [], 0.0)[1]
             if pending > 0 or pty:
                 termios.tcflush(fd, termios.TCOFLUSH)
                 self._resync = True
-                if pending > 0:
-                    self.flushed += 1
+            if pending > 0 or full:  # at least one earlier frame was never delivered
+                self.flushed += 1
+                self.dropped += 1
         except OSError:
             pass  # not a terminal after all, or closed: the write says what is wrong
 

@@ -14,6 +14,7 @@ from pathlib import Path
 
 import advisory
 from advisory.schema import SAFETY_CAUTION, VERSION
+from tests.test_run_e2e import Listener, free_udp_port, zones_file  # noqa: F401
 
 
 def test_version_prints_the_version_and_the_caution() -> None:
@@ -54,3 +55,38 @@ def test_read_only_install_without_numba_cache_dir_falls_back(tmp_path) -> None:
     notices = [ln for ln in res.stderr.splitlines() if "notice" in ln]
     assert len(notices) == 1 and str(tmp_path / "tmp") in notices[0], res.stderr
     assert list((tmp_path / "tmp" / "boom-advisory" / "numba").rglob("*.nbi"))
+
+
+def test_service_config_unknown_key_is_one_line_and_exit_2(tmp_path) -> None:
+    # ICD 17.7: unknown keys refused with one line naming the key, exit code 2 (17.5)
+    cfg = tmp_path / "service.toml"
+    cfg.write_text('input = "udp://127.0.0.1:9"\nrate_hz = 20\n')
+    res = subprocess.run([sys.executable, "-m", "advisory.cli", "run", "--service-config",
+                          str(cfg), "--output", "udp://127.0.0.1:9", "--zones", "z"],
+                         capture_output=True, text=True, timeout=60)
+    assert res.returncode == 2
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "unknown key 'rate_hz'" in lines[0], res.stderr
+
+
+def test_service_config_runs_and_the_command_line_overrides_it(
+        tmp_path, small_table_path, zones_file) -> None:  # noqa: F811
+    # ICD 17.7: every run option may come from the file; a command-line option wins
+    lis = Listener()
+    unused = free_udp_port()
+    (tmp_path / "z.geojson").write_text(zones_file.read_text())
+    cfg = tmp_path / "service.toml"
+    cfg.write_text(f'input = "udp://127.0.0.1:{free_udp_port()}"\n'
+                   f'output = "udp://127.0.0.1:{unused}"\n'
+                   'zones = "z.geojson"\n'  # relative to the file's folder
+                   f'table = "{small_table_path}"\n'
+                   'rate-hz = 20\n'
+                   'duration-s = 4\n')
+    res = subprocess.run([sys.executable, "-m", "advisory.cli", "run", "--service-config",
+                          str(cfg), "--output", lis.url], capture_output=True, text=True,
+                         cwd="/", timeout=300)
+    lis.close()
+    assert res.returncode == 0, res.stderr[-2000:]
+    adv = [f for _, f in lis.frames if f.type == "adv"]
+    # 20 Hz from the file for about 4 s (loose: a loaded machine misses steps)
+    assert len(adv) >= 30, len(adv)

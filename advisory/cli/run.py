@@ -10,7 +10,14 @@ import argparse
 
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
 from advisory.schema import SAFETY_CAUTION
-from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings, check_settings
+from advisory.service.settings import (
+    INPUT_FORMATS,
+    LOG_LEVELS,
+    RunError,
+    RunSettings,
+    check_settings,
+    read_service_config,
+)
 from advisory.service.startup import StartingPhase, StartupInterrupted
 
 
@@ -20,17 +27,21 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
         "run", help="the live service: air data in, advisories and status out",
         description="Read air data from a serial port or UDP, publish advisory and status "
                     "frames at a fixed rate, record everything. " + SAFETY_CAUTION)
-    p.add_argument("--input", required=True, metavar="URL",
+    p.add_argument("--service-config", metavar="FILE",
+                   help="service config (TOML): any of these options as keys, spelled "
+                        "without the leading dashes (rate-hz = 20); options given here "
+                        "override it")
+    p.add_argument("--input", metavar="URL",
                    help="input transport, e.g. serial:///dev/ttyUSB0?baud=115200 or "
                         "udp://0.0.0.0:5600")
-    p.add_argument("--output", required=True, metavar="URL",
+    p.add_argument("--output", metavar="URL",
                    help="output transport, e.g. udp://127.0.0.1:5601")
-    add_zones_option(p, required=True)
+    add_zones_option(p)
     add_aircraft_option(p)
     add_table_option(p)
     p.add_argument("--record", metavar="FILE", help="record file (appended to)")
     p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
-    p.add_argument("--rate-hz", type=float, default=10.0,
+    p.add_argument("--rate-hz", type=float, default=None,
                    help="advisor steps (advisory frames) per second (10)")
     p.add_argument("--input-format", choices=INPUT_FORMATS, default=None,
                    help="air-data frames on a byte stream or datagrams (default: from the "
@@ -42,7 +53,7 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                         "for changes")
     p.add_argument("--duration-s", type=float, default=None,
                    help="stop after this many seconds (tests, soak)")
-    p.add_argument("--log-level", choices=LOG_LEVELS, default="info",
+    p.add_argument("--log-level", choices=LOG_LEVELS, default=None,
                    help="log detail on stderr (info; debug adds a line per refused or "
                         "rejected input)")
     p.set_defaults(func=run_command)
@@ -51,12 +62,7 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 def run_command(args: argparse.Namespace) -> int:
     """``run``: the exit code (0 after a clean stop)."""
 
-    settings = RunSettings(
-        input_url=args.input, output_url=args.output, zones=args.zones,
-        aircraft=args.aircraft, table=args.table, record=args.record, config=args.config,
-        rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
-        duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
-    )
+    settings = settings_from(args)
     check_settings(settings)  # a bad option: one line, exit 2, before anything goes out
     phase = StartingPhase(settings.output_url)
     phase.install_signals()
@@ -72,4 +78,28 @@ def run_command(args: argparse.Namespace) -> int:
     return run_service(settings, phase)
 
 
-__all__ = ["add_parser", "run_command"]
+def settings_from(args: argparse.Namespace) -> RunSettings:
+    """The settings: the service config file's, overridden by the options given.
+
+    Raises
+    ------
+    RunError
+        A bad service config, or ``--input``, ``--output`` or ``--zones`` given nowhere.
+    """
+    values = read_service_config(args.service_config) if args.service_config else {}
+    given = {"input_url": args.input, "output_url": args.output, "zones": args.zones,
+             "aircraft": args.aircraft, "table": args.table, "record": args.record,
+             "config": args.config, "rate_hz": args.rate_hz,
+             "input_format": args.input_format, "profile": args.profile,
+             "duration_s": args.duration_s, "label_map": args.label_map,
+             "log_level": args.log_level}
+    values.update({k: v for k, v in given.items() if v is not None})
+    for field, option in (("input_url", "--input"), ("output_url", "--output"),
+                          ("zones", "--zones")):
+        if field not in values:
+            raise RunError(f"{option}: required (on the command line or in the service "
+                           "config)")
+    return RunSettings(**values)
+
+
+__all__ = ["add_parser", "run_command", "settings_from"]

@@ -8,6 +8,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from advisory.tomlfile import read_toml
 
 #: Input formats the loop reads (``docs/interface.md`` sections 9-11).
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
@@ -46,6 +50,49 @@ class RunSettings:
     log_level: str = "info"
 
 
+#: What a service config file (``run --service-config FILE``, TOML) may set: each key is
+#: a ``run`` option spelled as on the command line without its leading dashes, mapped
+#: to its :class:`RunSettings` field and kind (``str`` or ``float``).
+CONFIG_KEYS: dict[str, tuple[str, type]] = {
+    "input": ("input_url", str), "output": ("output_url", str), "zones": ("zones", str),
+    "aircraft": ("aircraft", str), "table": ("table", str), "record": ("record", str),
+    "config": ("config", str), "rate-hz": ("rate_hz", float),
+    "input-format": ("input_format", str), "label-map": ("label_map", str),
+    "profile": ("profile", str), "duration-s": ("duration_s", float),
+    "log-level": ("log_level", str),
+}
+#: Keys naming files: a relative path is taken from the config file's folder.
+CONFIG_PATH_KEYS = ("zones", "aircraft", "table", "record", "config", "label-map", "profile")
+
+
+def read_service_config(path: str) -> dict[str, Any]:
+    """The :class:`RunSettings` fields a service config file sets.
+
+    Raises
+    ------
+    RunError
+        The file cannot be read, is not TOML, has an unknown key or a value of the wrong
+        kind (one line naming the file, the key and the value).
+    """
+    what = f"--service-config {path}"
+    doc = read_toml(path, what, RunError)
+    base = Path(path).resolve().parent
+    out: dict[str, Any] = {}
+    for key, value in doc.items():
+        if key not in CONFIG_KEYS:
+            raise RunError(f"{what}: unknown key {key!r} (known: {', '.join(CONFIG_KEYS)})")
+        field, kind = CONFIG_KEYS[key]
+        if kind is float:
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise RunError(f"{what}: {key} = {value!r} must be a number")
+            out[field] = float(value)
+        else:
+            if not isinstance(value, str):
+                raise RunError(f"{what}: {key} = {value!r} must be a string")
+            out[field] = str(base / value) if key in CONFIG_PATH_KEYS else value
+    return out
+
+
 def check_settings(s: RunSettings) -> None:
     """Raise :class:`RunError` naming the first bad option and its value."""
     if not (isinstance(s.rate_hz, (int, float)) and math.isfinite(s.rate_hz)
@@ -65,5 +112,6 @@ def check_settings(s: RunSettings) -> None:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 
 
-__all__ = ["EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE", "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS",
-           "RunError", "RunSettings", "check_settings"]
+__all__ = ["CONFIG_KEYS", "CONFIG_PATH_KEYS", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE",
+           "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS", "RunError", "RunSettings",
+           "check_settings", "read_service_config"]

@@ -103,6 +103,7 @@ EVENT_FIELDS: dict[str, tuple[str, ...]] = {
     "stats": ("kind", "stats"),             # kind "stats" (periodic) or "final"
     "shutdown": (),
     "note": ("text",),                      # free text for people; never acted upon
+    "profile_rejected": ("reason",),        # --profile file refused or rebuild failed
 }
 EVENT_CODES = tuple(EVENT_FIELDS)
 
@@ -112,4 +113,4 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: only those the recorded status frames carry, so records written before a counter was
 #: added still replay byte for byte.
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
-                    "log_dropped")
+                    "log_dropped", "profile_rejected")

@@ -10,11 +10,12 @@ import os
 import shutil
 import subprocess
 import sys
+import time
 from pathlib import Path
 
 import advisory
 from advisory.schema import SAFETY_CAUTION, VERSION
-from tests.test_run_e2e import Listener, free_udp_port, zones_file  # noqa: F401
+from tests.test_run_e2e import Listener, free_udp_port, start_run, stop, zones_file  # noqa: F401
 
 
 def test_version_prints_the_version_and_the_caution() -> None:
@@ -90,3 +91,36 @@ def test_service_config_runs_and_the_command_line_overrides_it(
     adv = [f for _, f in lis.frames if f.type == "adv"]
     # 20 Hz from the file for about 4 s (loose: a loaded machine misses steps)
     assert len(adv) >= 30, len(adv)
+
+
+def test_invalid_profile_written_while_running_is_reported(tmp_path, small_table_path,
+                                                          zones_file) -> None:  # noqa: F811
+    # the issue: an invalid --profile file written while running was ignored silently.
+    # ICD 17.2/17.3/17.7: counted (profile_rejected), one log line, status degraded with
+    # the reason; the previous table stays (advisories keep flowing)
+    profile = tmp_path / "day.csv"  # an invented warm day, no wind
+    profile.write_text("alt_ft,temp_c\n0,25\n36000,-50\n60000,-52\n")
+    lis = Listener()
+    proc = start_run(tmp_path, "--input", f"udp://127.0.0.1:{free_udp_port()}",
+                     "--output", lis.url, "--zones", str(zones_file), "--table",
+                     str(small_table_path), "--profile", str(profile))
+    try:
+        lis.wait_for(lambda f: f.type == "adv", 120.0, "the first advisory", after=0.0)
+        time.sleep(0.3)
+        profile.write_text("alt_ft,temp_c\nbanana,hot\n")
+        os.utime(profile, (time.time() + 5, time.time() + 5))  # a new modification time
+        _, st = lis.wait_for(lambda f: f.type == "status"
+                             and f.fields["counters"].get("profile_rejected", 0) >= 1,
+                             20.0, "a status counting the refused profile")
+        assert stop(proc) == 0
+    finally:
+        if proc.poll() is None:
+            proc.kill()
+        lis.close()
+    assert st.fields["state"] in ("degraded", "unavailable")
+    assert "profile refused" in st.fields["reason"] or st.fields["state"] == "unavailable"
+    err = (tmp_path / "run.err").read_text().splitlines()
+    lines = [ln for ln in err if "profile refused" in ln]
+    assert len(lines) == 1 and "warning" in lines[0], lines
+    adv = [f for _, f in lis.frames if f.type == "adv"]
+    assert len(adv) > 5  # the service kept advising

@@ -53,6 +53,7 @@ _COUNTER_TEXT = {
     "input_lost": "input link lost", "input_reopened": "input link reopened",
     "output_dropped": "outputs dropped",
     "output_errors": "output link errors", "service_errors": "service errors",
+    "profile_rejected": "profile refused (previous table kept)",
 }
 
 

@@ -68,6 +68,7 @@ _EVENT_TEXT = {
     "stats": "{kind}",
     "shutdown": "shutdown",
     "note": "{text}",
+    "profile_rejected": "profile refused, previous table kept: {reason}",
 }
 #: Log level of each record event (those not listed: INFO).
 _EVENT_LEVEL = {
@@ -75,6 +76,7 @@ _EVENT_LEVEL = {
     "input_lost": logging.WARNING, "output_open_failed": logging.WARNING,
     "output_lost": logging.WARNING, "output_error": logging.ERROR,
     "output_blocked": logging.WARNING, "internal_error": logging.ERROR,
+    "profile_rejected": logging.WARNING,
 }
 #: Log level of each status state's line.
 _STATE_LEVEL = {"ok": logging.INFO, "degraded": logging.WARNING,

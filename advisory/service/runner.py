@@ -151,7 +151,21 @@ class AdvisoryService:
             del cues[:CUE_LOG_KEEP // 2]
             self._cues_shown -= CUE_LOG_KEEP // 2
 
+    def _check_profile(self) -> None:
+        """Report a refused profile file or a failed rebuild once (the table manager
+        keeps the previous table): counter ``profile_rejected``, a log line and record
+        event, and the status says so (``degraded``, ICD 17.2)."""
+        mgr = self.table_manager
+        err = getattr(mgr, "last_error", "") if mgr is not None else ""
+        if not err:
+            return
+        mgr.last_error = ""  # type: ignore[union-attr]  # consumed: the next one counts
+        ext = self.loop.external_counters
+        ext["profile_rejected"] = ext.get("profile_rejected", 0) + 1
+        self.event("profile_rejected", reason=err)
+
     def _sync_counters(self) -> None:
+        self._check_profile()
         ext = self.loop.external_counters
         ext["input_lost"] = self.inp.lost
         ext["input_reopened"] = self.inp.reopened

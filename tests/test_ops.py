@@ -10,11 +10,13 @@ import os
 import shutil
 import subprocess
 import sys
+import tempfile
 import time
 from pathlib import Path
 
 import advisory
 from advisory.schema import SAFETY_CAUTION, VERSION
+from advisory.tables.cache import cache_dir
 from tests.test_run_e2e import Listener, free_udp_port, start_run, stop, zones_file  # noqa: F401
 
 
@@ -124,3 +126,18 @@ def test_invalid_profile_written_while_running_is_reported(tmp_path, small_table
     assert len(lines) == 1 and "warning" in lines[0], lines
     adv = [f for _, f in lis.frames if f.type == "adv"]
     assert len(adv) > 5  # the service kept advising
+
+
+def test_unwritable_table_cache_falls_back_with_a_notice(tmp_path, monkeypatch,
+                                                         capsys) -> None:
+    # the operations list: an unwritable table cache gave a traceback; now the
+    # user's cache, then the temporary directory, with one notice line (common practice,
+    # no source)
+    blocked = tmp_path / "blocked"
+    blocked.write_text("a file, so nothing can be made under it\n")
+    monkeypatch.setenv("BOOM_ADVISORY_CACHE", str(blocked / "tables"))
+    monkeypatch.setenv("HOME", str(blocked / "home"))
+    monkeypatch.setattr(tempfile, "tempdir", str(tmp_path))
+    assert cache_dir() == tmp_path / "boom-advisory"
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "notice" in err[0] and str(blocked / "tables") in err[0]

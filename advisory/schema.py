@@ -51,6 +51,11 @@ ADV_NULLABLE_FLOATS = (
 # ----------------------------------------------------------------------------- status frames
 STATUS_STATES = ("ok", "degraded", "unavailable")
 STATUS_FIELDS = ("state", "reason", "counters")
+#: Identity of what the service runs with: software version and the first 16 hex digits of
+#: the SHA-256 of the table, zones and config files. Today in the record's ``start`` event
+#: and the start log line; proposed as optional status-frame keys (ICD section 7 allows
+#: new optional fields) once the encoder and the C binding carry them.
+STATUS_IDENTITY_FIELDS = ("sw", "table_sha", "zones_sha", "config_sha")
 
 # ----------------------------------------------------------------------------- sizes
 MAX_PAYLOAD = 4096  #: largest MessagePack payload, bytes

@@ -6,6 +6,7 @@ and the package version in ``advisory/schema.py`` (one home; pyproject reads it)
 
 from __future__ import annotations
 
+import hashlib
 import os
 import shutil
 import subprocess
@@ -15,6 +16,7 @@ import time
 from pathlib import Path
 
 import advisory
+from advisory.io.records import KIND_EVENT, decode_event, read_records
 from advisory.schema import SAFETY_CAUTION, VERSION
 from advisory.tables.cache import cache_dir
 from tests.test_run_e2e import Listener, free_udp_port, start_run, stop, zones_file  # noqa: F401
@@ -83,6 +85,7 @@ def test_service_config_runs_and_the_command_line_overrides_it(
                    f'output = "udp://127.0.0.1:{unused}"\n'
                    'zones = "z.geojson"\n'  # relative to the file's folder
                    f'table = "{small_table_path}"\n'
+                   'record = "run.boomrec"\n'
                    'rate-hz = 20\n'
                    'duration-s = 4\n')
     res = subprocess.run([sys.executable, "-m", "advisory.cli", "run", "--service-config",
@@ -93,6 +96,14 @@ def test_service_config_runs_and_the_command_line_overrides_it(
     adv = [f for _, f in lis.frames if f.type == "adv"]
     # 20 Hz from the file for about 4 s (loose: a loaded machine misses steps)
     assert len(adv) >= 30, len(adv)
+    # the start event names what ran: version and SHA-256 digests (hashlib, FIPS 180-4)
+    records, _ = read_records(tmp_path / "run.boomrec")
+    start = [e for e in (decode_event(r.data) for r in records if r.kind == KIND_EVENT)
+             if e.code == "start"][0]
+    ident = start.fields["settings"]["identity"]
+    assert ident["sw"] == VERSION
+    assert ident["table_sha"] == hashlib.sha256(small_table_path.read_bytes()).hexdigest()[:16]
+    assert ident["zones_sha"] == hashlib.sha256(zones_file.read_bytes()).hexdigest()[:16]
 
 
 def test_invalid_profile_written_while_running_is_reported(tmp_path, small_table_path,

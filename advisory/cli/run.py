@@ -94,6 +94,7 @@ def settings_from(args: argparse.Namespace) -> RunSettings:
              "duration_s": args.duration_s, "label_map": args.label_map,
              "log_level": args.log_level}
     values.update({k: v for k, v in given.items() if v is not None})
+    values["service_config"] = args.service_config
     for field, option in (("input_url", "--input"), ("output_url", "--output"),
                           ("zones", "--zones")):
         if field not in values:

@@ -25,6 +25,7 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import os
 import resource
@@ -33,7 +34,7 @@ from typing import Any
 
 from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
-from advisory.schema import VERSION
+from advisory.schema import STATUS_IDENTITY_FIELDS, VERSION
 from advisory.service.build import assemble
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
@@ -45,6 +46,31 @@ from advisory.tables.manager import TableManager
 MAX_WAIT_S = 0.25  #: longest single wait for input, s (bounds the reaction to signals)
 STATS_INTERVAL_S = 60.0  #: statistics event period in the record, s
 CUE_LOG_KEEP = 10000  #: crew cues kept in memory at most (half are let go beyond this)
+
+
+def file_digest(path: str | None) -> str | None:
+    """First 16 hex digits of the SHA-256 of a file (None: no file, or unreadable)."""
+    if not path:
+        return None
+    h = hashlib.sha256()
+    try:
+        with open(path, "rb") as f:
+            for block in iter(lambda: f.read(1 << 20), b""):
+                h.update(block)
+    except OSError:
+        return None
+    return h.hexdigest()[:16]
+
+
+def identity(s: RunSettings) -> dict[str, str | None]:
+    """What the service runs with (``advisory.schema.STATUS_IDENTITY_FIELDS``): software
+    version, table, zones and config digests (the config digest covers the advisor
+    config and the service config file)."""
+    cfg = [d for d in (file_digest(s.config), file_digest(s.service_config)) if d]
+    config_sha = (hashlib.sha256("".join(cfg).encode()).hexdigest()[:16]
+                  if len(cfg) > 1 else (cfg[0] if cfg else None))
+    values = (VERSION, file_digest(s.table), file_digest(s.zones), config_sha)
+    return dict(zip(STATUS_IDENTITY_FIELDS, values))
 
 
 def _rss_kb() -> int:
@@ -301,7 +327,7 @@ def _start_and_run(s: RunSettings, logs: ServiceLog, phase: StartingPhase) -> in
     svc.started_monotonic = t0
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
-               "profile": s.profile, **svc.loop.describe()}
+               "profile": s.profile, "identity": identity(s), **svc.loop.describe()}
     phase.on_stop = svc.request_stop  # from now on a signal ends the run loop cleanly
     phase.starting = False
     if phase.stop_reason:

@@ -48,6 +48,7 @@ class RunSettings:
     label_map: str | None = None
     heartbeat_s: float = 1.0
     log_level: str = "info"
+    service_config: str | None = None
 
 
 #: What a service config file (``run --service-config FILE``, TOML) may set: each key is

@@ -102,3 +102,22 @@ def test_warm_compiles_the_service_kernels_into_the_cache(tmp_path, small_table_
     names = {p.name for p in cache.rglob("*.nbi")}
     for kernel in ("deframe_kernel", "crc32c_kernel", "air_canonical_kernel"):
         assert any(kernel in n for n in names), (kernel, sorted(names))
+
+
+def test_a_bad_file_at_start_up_ends_with_a_final_frame(tmp_path, small_table_path) -> None:
+    # ICD 17.5: a bad file is one line and exit code 2; ICD 17.1/17.7: the output was told
+    # "starting", so it is also told that the service stopped, and why
+    lis = Listener()
+    res = subprocess.run(
+        [sys.executable, "-m", "advisory.cli", "run", "--input",
+         f"udp://127.0.0.1:{free_udp_port()}", "--output", lis.url, "--zones",
+         str(tmp_path / "missing.geojson"), "--table", str(small_table_path)],
+        capture_output=True, text=True, timeout=300)
+    time.sleep(0.3)
+    lis.close()
+    assert res.returncode == 2
+    errors = [ln for ln in res.stderr.splitlines() if "error" in ln]  # after the caution
+    assert len(errors) == 1 and "--zones" in errors[0], res.stderr
+    status = [f.fields for _, f in lis.frames if f.type == "status"]
+    assert status[-1]["state"] == "unavailable"
+    assert status[-1]["reason"].startswith("service stopped (start failed: --zones")

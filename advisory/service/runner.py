@@ -36,6 +36,7 @@ from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
 from advisory.schema import STATUS_IDENTITY_FIELDS, VERSION
 from advisory.service.build import assemble
+from advisory.service.health import clip
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
 from advisory.service.loop import AdvisoryLoop
@@ -313,6 +314,10 @@ def run_service(s: RunSettings, phase: StartingPhase | None = None) -> int:
         log_event("stopping", reason=f"{reason} during start-up")
         phase.final(reason)
         return EXIT_OK
+    except BaseException as exc:  # a bad file or URL: say so on the output, then exit
+        if phase.starting:
+            phase.final(clip(f"service stopped (start failed: {exc})"))
+        raise
     finally:
         phase.finish()
         phase.restore_signals()

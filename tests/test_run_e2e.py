@@ -397,11 +397,12 @@ def test_full_output_drops_and_counts_without_blocking(tmp_path, small_table_pat
     pty = Pty(tmp_path / "ttyOUT0")
     filled = 0
     os.set_blocking(pty.slave, False)
-    while filled < 1 << 22:  # fill the slave-to-master direction (bounded)
-        try:
-            filled += os.write(pty.slave, b"\x55" * 4096)
-        except BlockingIOError:
-            break
+    for chunk in (4096, 1):  # fill the slave-to-master direction to the last byte
+        while filled < 1 << 22:  # (bounded)
+            try:
+                filled += os.write(pty.slave, b"\x55" * chunk)
+            except BlockingIOError:
+                break
     port = free_udp_port()
     record = tmp_path / "full.boomrec"
     proc = start_run(tmp_path, "--input", f"udp://127.0.0.1:{port}", "--output",

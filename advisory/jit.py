@@ -11,14 +11,20 @@ edited kernel, an upgraded install), all of the package's cache files are delete
 any kernel is loaded, and the new stamp is written. Nothing else in the package touches
 numba's cache.
 
-A read-only install keeps working: when the cache cannot be written, numba compiles in
-memory (set ``NUMBA_CACHE_DIR`` to a writable directory to keep the compiled kernels).
+Where the cache goes (:func:`choose_cache_dir`): ``NUMBA_CACHE_DIR`` when set and
+writable, else beside the sources when writable; otherwise (a read-only install, an
+unwritable ``NUMBA_CACHE_DIR``) the user's cache (``$XDG_CACHE_HOME`` or
+``~/.cache``, then the temporary directory) under ``boom-advisory/numba``, with a
+one-line notice on stderr; when nothing at all is writable the kernels are compiled in
+memory at every start (and a notice says so) instead of failing at import.
 """
 
 from __future__ import annotations
 
 import hashlib
 import os
+import sys
+import tempfile
 from collections.abc import Callable
 from pathlib import Path
 from typing import Any, TypeVar
@@ -83,7 +89,52 @@ def refresh_cache(root: Path = PACKAGE_DIR) -> bool:
     return True
 
 
-refresh_cache()
+def _writable(path: Path) -> bool:
+    """True when files can be created in ``path`` (made if missing)."""
+    try:
+        path.mkdir(parents=True, exist_ok=True)
+        with tempfile.TemporaryFile(dir=path):
+            pass
+    except OSError:
+        return False
+    return True
+
+
+def choose_cache_dir() -> bool:
+    """Pick a writable cache directory for numba (see the module notes).
+
+    Sets ``NUMBA_CACHE_DIR`` (environment, for build processes too, and numba's
+    config) when the cache moves to a fallback, with one notice line on stderr.
+
+    Returns
+    -------
+    bool
+        False when no directory is writable (kernels are then compiled in memory).
+    """
+    custom = os.environ.get("NUMBA_CACHE_DIR")
+    if custom and _writable(Path(custom)):
+        return True
+    if not custom and _writable(PACKAGE_DIR / "__pycache__"):
+        return True
+    xdg = os.environ.get("XDG_CACHE_HOME")
+    user = Path(xdg) if xdg else Path.home() / ".cache"
+    why = f"NUMBA_CACHE_DIR {custom}" if custom else f"the install ({PACKAGE_DIR})"
+    for base in (user, Path(tempfile.gettempdir())):
+        cand = base / "boom-advisory" / "numba"
+        if _writable(cand):
+            os.environ["NUMBA_CACHE_DIR"] = str(cand)
+            numba.config.CACHE_DIR = str(cand)  # type: ignore[attr-defined]
+            print(f"boom-advisory: notice: {why} is not writable; compiled kernels are "
+                  f"cached in {cand}", file=sys.stderr)
+            return True
+    print(f"boom-advisory: notice: {why} is not writable and no cache directory is; "
+          "kernels are compiled in memory at every start", file=sys.stderr)
+    return False
+
+
+CACHING = choose_cache_dir()  #: False: no writable cache anywhere (compile in memory)
+if CACHING:
+    refresh_cache()
 
 
 def njit(*args: Any, **kwargs: Any) -> Any:
@@ -91,7 +142,7 @@ def njit(*args: Any, **kwargs: Any) -> Any:
 
     Use exactly as ``numba.njit``: ``@njit(cache=True)`` or ``@njit``.
     """
-    kwargs["cache"] = True
+    kwargs["cache"] = CACHING
     if args and callable(args[0]) and not kwargs.keys() - {"cache"}:
-        return numba.njit(cache=True)(args[0])
+        return numba.njit(cache=CACHING)(args[0])
     return numba.njit(*args, **kwargs)

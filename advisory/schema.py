@@ -121,6 +121,7 @@ EVENT_FIELDS: dict[str, tuple[str, ...]] = {
     "shutdown": (),
     "note": ("text",),                      # free text for people; never acted upon
     "source_refused": ("source", "allowed"),  # a new UDP source refused (first datagram)
+    "profile_rejected": ("reason",),        # --profile file refused or rebuild failed
 }
 EVENT_CODES = tuple(EVENT_FIELDS)
 
@@ -131,7 +132,7 @@ EVENT_CODES = tuple(EVENT_FIELDS)
 #: added still replay byte for byte.
 SERVICE_COUNTERS = ("input_lost", "input_reopened", "output_dropped", "output_errors",
                     "log_dropped", "record_dropped", "source_refused", "auth_missing",
-                    "auth_bad", "auth_replay")
+                    "auth_bad", "auth_replay", "profile_rejected")
 
 # ----------------------------------------------------------------------------- record size
 #: ``run --record``: size cap of one record file, MB (10^6 bytes), and rotated files kept

@@ -360,10 +360,12 @@ def _wait_datagram(sock: socket.socket, timeout_s: float) -> bool:
     end = time.monotonic() + timeout_s
     while time.monotonic() < end:
         try:
-            sock.recv(8192)
-            return True
+            frame = decode_frame(parse_datagram(sock.recv(8192)))
         except TimeoutError:
             continue
+        # the running service's first frame, not a starting one (ICD 17.7)
+        if not (frame.type == "status" and frame.fields["reason"].startswith("starting")):
+            return True
     return False
 
 

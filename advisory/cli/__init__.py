@@ -10,32 +10,37 @@ argument and the value, and exit code 2.
 from __future__ import annotations
 
 import argparse
+import importlib
 import sys
 from collections.abc import Sequence
 
-from advisory.cli import bench, campaign, check, demo, predict, replay, run, simulate, tables
 from advisory.cli.options import EXIT_USAGE, UsageError
-from advisory.schema import SAFETY_CAUTION
+from advisory.schema import SAFETY_CAUTION, VERSION
+
+#: The sub-commands, in the order ``--help`` lists them (one module each).
+COMMANDS = ("predict", "tables", "check", "run", "warm", "bench", "replay", "demo",
+            "simulate", "campaign")
 
 __all__ = ["EXIT_USAGE", "UsageError", "build_parser", "main"]
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser with every sub-command, in the order ``--help`` lists them."""
+def build_parser(only: Sequence[str] = COMMANDS) -> argparse.ArgumentParser:
+    """The argument parser with the sub-commands ``only`` (default: every one, in the order
+    ``--help`` lists them).
+
+    The command modules are imported here, not at the top, to keep start-up light: ``run``
+    loads only its own module so that its first starting frame goes out within a second
+    (the other commands load numpy and numba at import).
+    """
     parser = argparse.ArgumentParser(
-        prog="boom-advisory",
+        prog="boom-advisory", formatter_class=argparse.RawDescriptionHelpFormatter,
         description="Sonic-boom carpet prediction and crew advisories. " + SAFETY_CAUTION,
     )
+    parser.add_argument("--version", action="version",
+                        version=f"boom-advisory {VERSION}\n{SAFETY_CAUTION}")
     sub = parser.add_subparsers(dest="command", required=True)
-    predict.add_parser(sub)
-    tables.add_parser(sub)
-    check.add_parser(sub)
-    run.add_parser(sub)
-    bench.add_parser(sub)
-    replay.add_parser(sub)
-    demo.add_parser(sub)
-    simulate.add_parser(sub)
-    campaign.add_parser(sub)
+    for name in only:
+        importlib.import_module(f"advisory.cli.{name}").add_parser(sub)
     return parser
 
 
@@ -48,7 +53,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     ``boom-advisory <command>: error: <message>`` on one line of stderr and returns
     :data:`EXIT_USAGE`.
     """
-    parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    light = argv[:1] == ["run"] and not {"-h", "--help"} & set(argv)
+    parser = build_parser(("run",) if light else COMMANDS)
     args = parser.parse_args(argv)
     try:
         return int(args.func(args))

@@ -10,8 +10,15 @@ import argparse
 
 from advisory.cli.options import add_aircraft_option, add_table_option, add_zones_option
 from advisory.schema import RECORD_KEEP_DEFAULT, RECORD_MAX_MB_DEFAULT, SAFETY_CAUTION
-from advisory.service.runner import run_service
-from advisory.service.settings import INPUT_FORMATS, LOG_LEVELS, RunSettings
+from advisory.service.settings import (
+    INPUT_FORMATS,
+    LOG_LEVELS,
+    RunError,
+    RunSettings,
+    check_settings,
+    read_service_config,
+)
+from advisory.service.startup import StartingPhase, StartupInterrupted
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -20,23 +27,27 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
         "run", help="the live service: air data in, advisories and status out",
         description="Read air data from a serial port or UDP, publish advisory and status "
                     "frames at a fixed rate, record everything. " + SAFETY_CAUTION)
-    p.add_argument("--input", required=True, metavar="URL",
+    p.add_argument("--service-config", metavar="FILE",
+                   help="service config (TOML): any of these options as keys, spelled "
+                        "without the leading dashes (rate-hz = 20); options given here "
+                        "override it")
+    p.add_argument("--input", metavar="URL",
                    help="input transport, e.g. serial:///dev/ttyUSB0?baud=115200 or "
                         "udp://127.0.0.1:5600 (bind one interface's address)")
-    p.add_argument("--output", required=True, metavar="URL",
+    p.add_argument("--output", metavar="URL",
                    help="output transport, e.g. udp://127.0.0.1:5601")
-    add_zones_option(p, required=True)
+    add_zones_option(p)
     add_aircraft_option(p)
     add_table_option(p)
     p.add_argument("--record", metavar="FILE", help="record file (appended to)")
-    p.add_argument("--record-max-mb", type=float, default=RECORD_MAX_MB_DEFAULT, metavar="MB",
+    p.add_argument("--record-max-mb", type=float, default=None, metavar="MB",
                    help="size cap of the record file; at the cap it becomes FILE.1 (older "
                         f"ones FILE.2, ...) and a new FILE starts ({RECORD_MAX_MB_DEFAULT:g})")
-    p.add_argument("--record-keep", type=int, default=RECORD_KEEP_DEFAULT, metavar="K",
+    p.add_argument("--record-keep", type=int, default=None, metavar="K",
                    help="rotated record files kept; the oldest beyond is deleted and its "
                         f"records counted as record_dropped ({RECORD_KEEP_DEFAULT})")
     p.add_argument("--config", metavar="FILE", help="advisor thresholds (TOML)")
-    p.add_argument("--rate-hz", type=float, default=10.0,
+    p.add_argument("--rate-hz", type=float, default=None,
                    help="advisor steps (advisory frames) per second (10)")
     p.add_argument("--input-format", choices=INPUT_FORMATS, default=None,
                    help="air-data frames on a byte stream or datagrams (default: from the "
@@ -52,12 +63,12 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--auth-key", metavar="FILE",
                    help="UDP input: accept only frames authenticated with HMAC-SHA256 under "
                         "this key (hex, at least 32 bytes)")
-    p.add_argument("--learn-atmosphere", action="store_true", default=False,
+    p.add_argument("--learn-atmosphere", action="store_true", default=None,
                    help="with --profile: also rebuild tables for a plausible atmosphere "
                         "learned from the air-data stream (off by default)")
     p.add_argument("--duration-s", type=float, default=None,
                    help="stop after this many seconds (tests, soak)")
-    p.add_argument("--log-level", choices=LOG_LEVELS, default="info",
+    p.add_argument("--log-level", choices=LOG_LEVELS, default=None,
                    help="log detail on stderr (info; debug adds a line per refused or "
                         "rejected input)")
     p.set_defaults(func=run_command)
@@ -66,16 +77,47 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
 def run_command(args: argparse.Namespace) -> int:
     """``run``: the exit code (0 after a clean stop)."""
 
-    settings = RunSettings(
-        input_url=args.input, output_url=args.output, zones=args.zones,
-        aircraft=args.aircraft, table=args.table, record=args.record, config=args.config,
-        rate_hz=args.rate_hz, input_format=args.input_format, profile=args.profile,
-        duration_s=args.duration_s, label_map=args.label_map, log_level=args.log_level,
-        record_max_mb=args.record_max_mb, record_keep=args.record_keep,
-        allow_from=args.allow_from, auth_key=args.auth_key,
-        learn_atmosphere=args.learn_atmosphere,
-    )
-    return run_service(settings)
+    settings = settings_from(args)
+    check_settings(settings)  # a bad option: one line, exit 2, before anything goes out
+    phase = StartingPhase(settings.output_url)
+    phase.install_signals()
+    phase.start()
+    try:
+        # Imported here, after the first starting frame went out: the service loads numpy
+        # and numba and may compile (the starting frames say so meanwhile).
+        from advisory.service.runner import run_service  # noqa: PLC0415
+    except StartupInterrupted as exc:
+        phase.final(f"service stopped ({exc.args[0]})")
+        phase.restore_signals()
+        return 0
+    return run_service(settings, phase)
 
 
-__all__ = ["add_parser", "run_command"]
+def settings_from(args: argparse.Namespace) -> RunSettings:
+    """The settings: the service config file's, overridden by the options given.
+
+    Raises
+    ------
+    RunError
+        A bad service config, or ``--input``, ``--output`` or ``--zones`` given nowhere.
+    """
+    values = read_service_config(args.service_config) if args.service_config else {}
+    given = {"input_url": args.input, "output_url": args.output, "zones": args.zones,
+             "aircraft": args.aircraft, "table": args.table, "record": args.record,
+             "config": args.config, "rate_hz": args.rate_hz,
+             "input_format": args.input_format, "profile": args.profile,
+             "duration_s": args.duration_s, "label_map": args.label_map,
+             "log_level": args.log_level, "record_max_mb": args.record_max_mb,
+             "record_keep": args.record_keep, "allow_from": args.allow_from,
+             "auth_key": args.auth_key, "learn_atmosphere": args.learn_atmosphere}
+    values.update({k: v for k, v in given.items() if v is not None})
+    values["service_config"] = args.service_config
+    for field, option in (("input_url", "--input"), ("output_url", "--output"),
+                          ("zones", "--zones")):
+        if field not in values:
+            raise RunError(f"{option}: required (on the command line or in the service "
+                           "config)")
+    return RunSettings(**values)
+
+
+__all__ = ["add_parser", "run_command", "settings_from"]

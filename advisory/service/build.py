@@ -15,6 +15,7 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
@@ -113,8 +114,15 @@ class ServiceParts:
     table_manager: TableManager | None
 
 
-def assemble(s: RunSettings) -> ServiceParts:
+def _no_progress(text: str) -> None:
+    """Progress sink when nobody listens."""
+
+
+def assemble(s: RunSettings, progress: Callable[[str], None] = _no_progress) -> ServiceParts:
     """Load files, open the record and make the links (not yet opened).
+
+    ``progress(text)`` is told what start-up waits for (``loading zones``, ``loading
+    table``, ``compiling kernels``), for the starting status frames.
 
     Raises
     ------
@@ -126,8 +134,10 @@ def assemble(s: RunSettings) -> ServiceParts:
     check_settings(s)
     if not Path(s.zones).is_file():
         raise RunError(f"--zones: {s.zones}: no such file")
+    progress("loading zones")
     zones = ZoneSet.from_file(s.zones)
     config = load_config(s.config)
+    progress("loading table" if s.table else "loading or building the default table")
     table, manager = load_tables(s)
     inp = InputLink(s.input_url)
     fmt = s.input_format or ("stream" if inp.is_stream else "datagram")
@@ -136,9 +146,10 @@ def assemble(s: RunSettings) -> ServiceParts:
         raise RunError(f"--input-format: {fmt} does not fit --input {s.input_url} (a "
                        f"{framing} transport)")
     guard_input(inp, s)
-    out = OutputPublisher(s.output_url)
+    out = OutputPublisher(s.output_url, max_age_s=1.0 / s.rate_hz)
     advisor = Advisor(manager if manager is not None else table, zones, config)
     advisor.stream_profile = StreamProfile(enabled=s.learn_atmosphere)
+    progress("compiling kernels")
     warm_up(manager.table if manager is not None else table, zones, config)
     loop = AdvisoryLoop(advisor, input_format=fmt, framing=framing, rate_hz=s.rate_hz,
                         heartbeat_s=s.heartbeat_s, label_map=s.label_map)

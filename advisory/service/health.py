@@ -57,6 +57,7 @@ _COUNTER_TEXT = {
     "auth_missing": "frames without an authentication tag",
     "auth_bad": "frames with a wrong authentication tag",
     "auth_replay": "authenticated frames replayed or out of order",
+    "profile_rejected": "profile refused (previous table kept)",
 }
 
 

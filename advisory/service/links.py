@@ -10,6 +10,12 @@ from a bounded queue by its own thread.
   the queue is full the oldest frame is dropped and counted (``output_dropped``). A
   serial output that fails, or a FIFO output without a reader yet, is reopened the same
   way as the input.
+* Freshness: a frame older than its step (a frame published at least half a step
+  period, ``max_age_s``, later is already waiting) is dropped and counted, never sent;
+  on a terminal output (serial port, pseudo-terminal) the bytes of earlier frames still
+  queued in the kernel when the next frame is written (the receiver stopped reading, or
+  flow control holds the line) are discarded with ``tcflush(TCOFLUSH)`` first, so after
+  a stall the receiver gets the latest frames, not a backlog.
 
 Both report what happens to them through ``on_event(code, **fields)`` with the record's
 event codes (``advisory.schema.EVENT_FIELDS``); neither writes to a stream itself.
@@ -17,9 +23,14 @@ event codes (``advisory.schema.EVENT_FIELDS``); neither writes to a stream itsel
 
 from __future__ import annotations
 
+import fcntl
 import math
+import os
 import queue
+import select
 import socket
+import struct
+import termios
 import threading
 import time
 from collections.abc import Callable
@@ -40,6 +51,9 @@ BACKOFF_START_S = 0.1  #: first reconnect delay, s
 BACKOFF_MAX_S = 2.0  #: longest reconnect delay, s
 OUTPUT_QUEUE = 32  #: output frames waiting for the writer thread at most (about 3 s)
 UDP_RCVBUF_BYTES = 4 << 20  #: receive buffer asked for on UDP inputs (kernel may cap it)
+#: Device major numbers of Unix98 pseudo-terminal slaves (Linux ``devices.txt``; value
+#: from memory): the kernel reports no output queue for them (``TIOCOUTQ`` is 0).
+PTY_SLAVE_MAJORS = range(136, 144)
 
 
 def no_event(code: str, **fields: Any) -> None:
@@ -182,14 +196,19 @@ class OutputPublisher:
     sent : int
     """
 
-    def __init__(self, url: str, on_event: EventSink = no_event) -> None:
+    def __init__(self, url: str, on_event: EventSink = no_event,
+                 max_age_s: float | None = None) -> None:
         self.url = url
         self.transport = make_transport(url, "output")
         self.link = FramedLink(self.transport)
+        self.max_age_s = max_age_s
         self.dropped = 0
+        self.stale = 0
+        self.flushed = 0
         self.errors = 0
         self.sent = 0
-        self._q: queue.Queue[bytes | None] = queue.Queue(maxsize=OUTPUT_QUEUE)
+        self._q: queue.Queue[tuple[bytes, float] | None] = queue.Queue(maxsize=OUTPUT_QUEUE)
+        self._newest = -math.inf  #: monotonic time of the newest frame published, s
         self.on_event = on_event
         self._up = False
         self._resync = False
@@ -222,9 +241,11 @@ class OutputPublisher:
         When the queue is full the oldest waiting frame is dropped (and counted), so what
         reaches a display after a stall is the latest, not a backlog.
         """
+        item = (payload, time.monotonic())
+        self._newest = item[1]
         for _ in range(2):
             try:
-                self._q.put_nowait(payload)
+                self._q.put_nowait(item)
                 return
             except queue.Full:
                 try:
@@ -236,13 +257,19 @@ class OutputPublisher:
 
     def _run(self) -> None:
         while True:
-            payload = self._q.get()
-            if payload is None:
+            item = self._q.get()
+            if item is None:
                 return
+            payload, queued = item
+            if self.max_age_s is not None and self._newest - queued >= 0.5 * self.max_age_s:
+                self.stale += 1  # a later step's frame is waiting: never send the older
+                self.dropped += 1
+                continue
             if not self._up and not self._reopen():
                 self.dropped += 1
                 continue
             try:
+                self._flush_backlog()
                 if self._resync and self.transport.is_stream:
                     self.transport.send(b"\x00")
                 self._resync = False
@@ -265,6 +292,32 @@ class OutputPublisher:
                 self.errors += 1
                 self.dropped += 1
                 self.on_event("output_error", reason=f"{type(exc).__name__}: {exc}")
+
+    def _flush_backlog(self) -> None:
+        """On a terminal output, discard what earlier frames left queued in the kernel.
+
+        A serial port reports its queued bytes (``TIOCOUTQ``); a pseudo-terminal reports
+        none, so its queue is flushed before every frame (a receiver that reads keeps it
+        empty: only a backlog is lost, and a full one is counted as a drop). Whatever may
+        have been cut is followed by an extra 0x00 (ICD section 9).
+        """
+        fd = getattr(self.transport, "_fd", None)  # serial transports only
+        if fd is None or not self.transport.is_stream:
+            return
+        try:
+            if not os.isatty(fd):
+                return
+            pty = os.major(os.fstat(fd).st_rdev) in PTY_SLAVE_MAJORS
+            pending = struct.unpack("i", fcntl.ioctl(fd, termios.TIOCOUTQ, b"\0" * 4))[0]
+            full = pty and not select.select([], [fd], [], 0.0)[1]
+            if pending > 0 or pty:
+                termios.tcflush(fd, termios.TCOFLUSH)
+                self._resync = True
+            if pending > 0 or full:  # at least one earlier frame was never delivered
+                self.flushed += 1
+                self.dropped += 1
+        except OSError:
+            pass  # not a terminal after all, or closed: the write says what is wrong
 
     def _reopen(self) -> bool:
         now = time.monotonic()

@@ -70,6 +70,7 @@ _EVENT_TEXT = {
     "note": "{text}",
     "source_refused": "input: refusing datagrams from {source} (input accepts {allowed}; "
                       "see --allow-from)",
+    "profile_rejected": "profile refused, previous table kept: {reason}",
 }
 #: Log level of each record event (those not listed: INFO).
 _EVENT_LEVEL = {
@@ -78,6 +79,7 @@ _EVENT_LEVEL = {
     "output_lost": logging.WARNING, "output_error": logging.ERROR,
     "output_blocked": logging.WARNING, "internal_error": logging.ERROR,
     "source_refused": logging.WARNING,
+    "profile_rejected": logging.WARNING,
 }
 #: Log level of each status state's line.
 _STATE_LEVEL = {"ok": logging.INFO, "degraded": logging.WARNING,

@@ -12,7 +12,9 @@ or stdout never blocks it either; lines lost are counted (``log_dropped``).
   every output, and events (start, link lost/reopened, statistics, shutdown).
 * One log line per change of the status state (``ok`` / ``degraded`` / ``unavailable``,
   with the reason) and one per link or life-cycle event.
-* Stops on SIGINT/SIGTERM, after ``--duration-s``, or when a file input ends: publishes
+* Stops on SIGTERM, SIGINT, SIGHUP, SIGQUIT, SIGUSR1 or SIGUSR2 (all alike, during
+  start-up too: :mod:`advisory.service.startup`), after ``--duration-s``, or when a file
+  input ends: publishes
   a final ``unavailable`` advisory and status, drains the output queue (at most 1 s),
   writes a statistics event, fsyncs and closes the record file, lets the log writers
   finish (at most 1 s).
@@ -23,30 +25,53 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import os
 import resource
-import signal
-import threading
 import time
-from types import FrameType
 from typing import Any
 
-from advisory.io.messages import encode_status
 from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
-from advisory.schema import REASON_MAX_BYTES, VERSION
+from advisory.schema import STATUS_IDENTITY_FIELDS, VERSION
 from advisory.service.build import assemble
 from advisory.service.health import clip
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.logs import ServiceLog, log, log_event, log_state, utc_text
 from advisory.service.loop import AdvisoryLoop
 from advisory.service.settings import EXIT_OK, EXIT_RUNTIME, RunSettings, check_settings
+from advisory.service.startup import StartingPhase, StartupInterrupted
 from advisory.tables.manager import TableManager
 
 MAX_WAIT_S = 0.25  #: longest single wait for input, s (bounds the reaction to signals)
 STATS_INTERVAL_S = 60.0  #: statistics event period in the record, s
 CUE_LOG_KEEP = 10000  #: crew cues kept in memory at most (half are let go beyond this)
+
+
+def file_digest(path: str | None) -> str | None:
+    """First 16 hex digits of the SHA-256 of a file (None: no file, or unreadable)."""
+    if not path:
+        return None
+    h = hashlib.sha256()
+    try:
+        with open(path, "rb") as f:
+            for block in iter(lambda: f.read(1 << 20), b""):
+                h.update(block)
+    except OSError:
+        return None
+    return h.hexdigest()[:16]
+
+
+def identity(s: RunSettings) -> dict[str, str | None]:
+    """What the service runs with (``advisory.schema.STATUS_IDENTITY_FIELDS``): software
+    version, table, zones and config digests (the config digest covers the advisor
+    config and the service config file)."""
+    cfg = [d for d in (file_digest(s.config), file_digest(s.service_config)) if d]
+    config_sha = (hashlib.sha256("".join(cfg).encode()).hexdigest()[:16]
+                  if len(cfg) > 1 else (cfg[0] if cfg else None))
+    values = (VERSION, file_digest(s.table), file_digest(s.zones), config_sha)
+    return dict(zip(STATUS_IDENTITY_FIELDS, values))
 
 
 def _rss_kb() -> int:
@@ -153,7 +178,21 @@ class AdvisoryService:
             del cues[:CUE_LOG_KEEP // 2]
             self._cues_shown -= CUE_LOG_KEEP // 2
 
+    def _check_profile(self) -> None:
+        """Report a refused profile file or a failed rebuild once (the table manager
+        keeps the previous table): counter ``profile_rejected``, a log line and record
+        event, and the status says so (``degraded``, ICD 17.2)."""
+        mgr = self.table_manager
+        err = getattr(mgr, "last_error", "") if mgr is not None else ""
+        if not err:
+            return
+        mgr.last_error = ""  # type: ignore[union-attr]  # consumed: the next one counts
+        ext = self.loop.external_counters
+        ext["profile_rejected"] = ext.get("profile_rejected", 0) + 1
+        self.event("profile_rejected", reason=err)
+
     def _sync_counters(self) -> None:
+        self._check_profile()
         ext = self.loop.external_counters
         ext["input_lost"] = self.inp.lost
         ext["input_reopened"] = self.inp.reopened
@@ -250,33 +289,59 @@ def build_service(s: RunSettings, logs: ServiceLog | None = None,
                            parts.table_manager, echo, logs)
 
 
-def run_service(s: RunSettings) -> int:
+def run_service(s: RunSettings, phase: StartingPhase | None = None) -> int:
     """Build and run the service with its log and signal handling; the exit code.
 
     The caution comes first (stdout and log); the log writers get at most
     :data:`advisory.service.logs.CLOSE_TIMEOUT_S` to finish after the service stopped.
+
+    Parameters
+    ----------
+    s : RunSettings
+    phase : StartingPhase, optional
+        The starting phase already publishing starting status frames and handling the
+        stop signals (``boom-advisory run`` starts it before it loads this module); a new
+        one is started when None.
     """
     check_settings(s)
+    if phase is None:
+        phase = StartingPhase(s.output_url)
+        phase.install_signals()
+        phase.start()
     logs = ServiceLog(s.log_level)
     logs.start()
     try:
         logs.caution()
-        return _start_and_run(s, logs)
+        return _start_and_run(s, logs, phase)
+    except StartupInterrupted as exc:
+        reason = f"service stopped ({exc.args[0] if exc.args else 'signal'})"
+        log_event("stopping", reason=f"{reason} during start-up")
+        phase.final(reason)
+        return EXIT_OK
+    except BaseException as exc:  # a bad file or URL: say so on the output, then exit
+        if phase.starting:
+            phase.final(clip(f"service stopped (start failed: {exc})"))
+        raise
     finally:
+        phase.finish()
+        phase.restore_signals()
         logs.close()
 
 
-def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
+def _start_and_run(s: RunSettings, logs: ServiceLog, phase: StartingPhase) -> int:
     t0 = time.monotonic()
-    try:
-        svc = build_service(s, logs)
-    except ValueError as exc:  # a refused file or setting: exit 2, but say why on the bus
-        _publish_refusal(s.output_url, str(exc))
-        raise
+    parts = assemble(s, progress=phase.set_phase)
+    svc = AdvisoryService(parts.loop, parts.inp, parts.out, parts.recorder, s.duration_s,
+                          parts.table_manager, echo=True, logs=logs)
     svc.started_monotonic = t0
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
-               "profile": s.profile, **svc.loop.describe()}
+               "profile": s.profile, "identity": identity(s), **svc.loop.describe()}
+    phase.on_stop = svc.request_stop  # from now on a signal ends the run loop cleanly
+    phase.starting = False
+    if phase.stop_reason:
+        svc.request_stop(phase.stop_reason)
+    phase.finish()  # the service proper takes the output over
     try:
         svc.out.open()
         svc.inp.try_open(time.monotonic())
@@ -288,43 +353,7 @@ def _start_and_run(s: RunSettings, logs: ServiceLog) -> int:
         log.error("%s", exc)
         return EXIT_RUNTIME
     svc.event("start", settings=started)
-    old = {}
-
-    def on_signal(signum: int, _frame: FrameType | None) -> None:
-        svc.request_stop(signal.Signals(signum).name)
-
-    for sig in (signal.SIGINT, signal.SIGTERM):
-        old[sig] = signal.signal(sig, on_signal)
-    try:
-        return svc.run()
-    finally:
-        for sig, handler in old.items():
-            signal.signal(sig, handler)
-
-
-def _publish_refusal(output_url: str, why: str) -> None:
-    """Best effort: one ``unavailable`` status frame saying why the service did not start
-    (so a display shows the reason, not silence); the end of a long reason is kept."""
-    reason = " ".join(f"start refused: {why}".split())
-    if len(reason.encode("utf-8")) > REASON_MAX_BYTES:
-        tail = reason.encode("utf-8")[-(REASON_MAX_BYTES - 20):].decode("utf-8", "ignore")
-        reason = "start refused: ..." + tail
-
-    def send() -> None:
-        try:
-            out = OutputPublisher(output_url)
-            out.open()
-            out.publish(encode_status({"state": "unavailable", "reason": clip(reason)}, 0,
-                                      time.time()))
-            out.close(1.0)
-        except Exception:  # noqa: BLE001, S110 - the refusal goes to stderr regardless
-            pass
-
-    # on its own thread, waited for at most 2 s: an output that blocks in open() (a FIFO
-    # without a reader) must not keep the refused service from exiting
-    sender = threading.Thread(target=send, name="boom-refusal", daemon=True)
-    sender.start()
-    sender.join(2.0)
+    return svc.run()
 
 
 __all__ = ["AdvisoryService", "build_service", "run_service"]

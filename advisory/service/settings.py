@@ -8,8 +8,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
 
 from advisory.schema import RECORD_KEEP_DEFAULT, RECORD_MAX_MB_DEFAULT, RECORD_MAX_MB_MIN
+from advisory.tomlfile import read_toml
 
 #: Input formats the loop reads (``docs/interface.md`` sections 9-11).
 INPUT_FORMATS = ("stream", "datagram", "arinc429")
@@ -51,6 +54,61 @@ class RunSettings:
     allow_from: str | None = None
     auth_key: str | None = None
     learn_atmosphere: bool = False
+    service_config: str | None = None
+
+
+#: What a service config file (``run --service-config FILE``, TOML) may set: each key is
+#: a ``run`` option spelled as on the command line without its leading dashes, mapped
+#: to its :class:`RunSettings` field and kind (``str`` or ``float``).
+CONFIG_KEYS: dict[str, tuple[str, type]] = {
+    "input": ("input_url", str), "output": ("output_url", str), "zones": ("zones", str),
+    "aircraft": ("aircraft", str), "table": ("table", str), "record": ("record", str),
+    "config": ("config", str), "rate-hz": ("rate_hz", float),
+    "input-format": ("input_format", str), "label-map": ("label_map", str),
+    "profile": ("profile", str), "duration-s": ("duration_s", float),
+    "log-level": ("log_level", str), "record-max-mb": ("record_max_mb", float),
+    "record-keep": ("record_keep", int), "allow-from": ("allow_from", str),
+    "auth-key": ("auth_key", str), "learn-atmosphere": ("learn_atmosphere", bool),
+}
+#: Keys naming files: a relative path is taken from the config file's folder.
+CONFIG_PATH_KEYS = ("zones", "aircraft", "table", "record", "config", "label-map", "profile",
+                    "auth-key")
+
+
+def read_service_config(path: str) -> dict[str, Any]:
+    """The :class:`RunSettings` fields a service config file sets.
+
+    Raises
+    ------
+    RunError
+        The file cannot be read, is not TOML, has an unknown key or a value of the wrong
+        kind (one line naming the file, the key and the value).
+    """
+    what = f"--service-config {path}"
+    doc = read_toml(path, what, RunError)
+    base = Path(path).resolve().parent
+    out: dict[str, Any] = {}
+    for key, value in doc.items():
+        if key not in CONFIG_KEYS:
+            raise RunError(f"{what}: unknown key {key!r} (known: {', '.join(CONFIG_KEYS)})")
+        field, kind = CONFIG_KEYS[key]
+        if kind is float:
+            if isinstance(value, bool) or not isinstance(value, (int, float)):
+                raise RunError(f"{what}: {key} = {value!r} must be a number")
+            out[field] = float(value)
+        elif kind is int:
+            if isinstance(value, bool) or not isinstance(value, int):
+                raise RunError(f"{what}: {key} = {value!r} must be a whole number")
+            out[field] = value
+        elif kind is bool:
+            if not isinstance(value, bool):
+                raise RunError(f"{what}: {key} = {value!r} must be true or false")
+            out[field] = value
+        else:
+            if not isinstance(value, str):
+                raise RunError(f"{what}: {key} = {value!r} must be a string")
+            out[field] = str(base / value) if key in CONFIG_PATH_KEYS else value
+    return out
 
 
 def check_settings(s: RunSettings) -> None:
@@ -85,5 +143,6 @@ def check_settings(s: RunSettings) -> None:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 
 
-__all__ = ["EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE", "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS",
-           "RunError", "RunSettings", "check_settings"]
+__all__ = ["CONFIG_KEYS", "CONFIG_PATH_KEYS", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE",
+           "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS", "RunError", "RunSettings",
+           "check_settings", "read_service_config"]

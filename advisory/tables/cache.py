@@ -11,6 +11,7 @@ import hashlib
 import json
 import os
 import sys
+import tempfile
 import time
 from pathlib import Path
 
@@ -23,12 +24,39 @@ from advisory.tables.store import TableFileError, write_table_file
 from advisory.tables.table import BoomTable
 
 
+def _writable(path: Path) -> bool:
+    """True when files can be created in ``path`` (made if missing)."""
+    try:
+        path.mkdir(parents=True, exist_ok=True)
+        with tempfile.TemporaryFile(dir=path):
+            pass
+    except OSError:
+        return False
+    return True
+
+
 def cache_dir() -> Path:
-    """The cache directory (created on demand)."""
+    """The cache directory (created on demand).
+
+    When ``$BOOM_ADVISORY_CACHE`` (or ``~/.cache/boom-advisory``) cannot be written, the
+    user's cache and then the temporary directory are tried, with a one-line notice.
+
+    Raises
+    ------
+    TableFileError
+        No cache directory can be written (one line naming the first one).
+    """
     env = os.environ.get("BOOM_ADVISORY_CACHE")
-    path = Path(env) if env else Path.home() / ".cache" / "boom-advisory"
-    path.mkdir(parents=True, exist_ok=True)
-    return path
+    user = Path.home() / ".cache" / "boom-advisory"
+    first = Path(env) if env else user
+    for path in (first, user, Path(tempfile.gettempdir()) / "boom-advisory"):
+        if _writable(path):
+            if path != first:
+                print(f"boom-advisory: notice: table cache {first} is not writable; "
+                      f"using {path}", file=sys.stderr)
+            return path
+    raise TableFileError(f"table cache {first}: not writable, and no fallback is "
+                         "(set BOOM_ADVISORY_CACHE or pass --table)")
 
 
 def table_key(inputs: BuildInputs) -> str:

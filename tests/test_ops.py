@@ -104,6 +104,13 @@ def test_service_config_runs_and_the_command_line_overrides_it(
     assert ident["sw"] == VERSION
     assert ident["table_sha"] == hashlib.sha256(small_table_path.read_bytes()).hexdigest()[:16]
     assert ident["zones_sha"] == hashlib.sha256(zones_file.read_bytes()).hexdigest()[:16]
+    # ... and every status frame of the running service carries the same identity on the
+    # bus (ICD section 6), so an integrator sees what runs without reading the record
+    running = [f.fields for _, f in lis.frames if f.type == "status"
+               and not str(f.fields.get("reason", "")).startswith("starting")]
+    assert running and all(
+        st.get("sw") == VERSION and st.get("table_sha") == ident["table_sha"]
+        and st.get("zones_sha") == ident["zones_sha"] for st in running), running[:2]
 
 
 def test_invalid_profile_written_while_running_is_reported(tmp_path, small_table_path,

@@ -285,6 +285,8 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
     # shutdown come from the service, not from a poll)
     loop = AdvisoryLoop(Advisor(BoomTable.load(small_table_path), ZoneSet.from_file(zones_file)),
                         input_format="datagram", rate_hz=10.0)
+    # the identity the service put in its status frames (ICD section 6), from its start event
+    loop.identity = {k: v for k, v in events[1].fields["settings"]["identity"].items() if v}
     replayed: list[bytes] = []
     polled: set[tuple[float, float]] = set()
     last_outputs = [r for r in records if r.kind == KIND_OUTPUT][-2:]

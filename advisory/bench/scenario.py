@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -25,6 +25,7 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import load_config
 from advisory.pipeline.state import StateValidator
 from advisory.pipeline.zones import ZoneSet
+from advisory.schema import STATUS_IDENTITY_FIELDS
 from advisory.service.loop import INPUT_FORMATS, AdvisoryLoop
 from advisory.tables.build import BuildInputs
 from advisory.tables.cache import cached_table
@@ -74,6 +75,9 @@ class ReplaySetup:
         ARINC 429 label map file.
     framing : str or None
         ``stream`` or ``datagram`` for ARINC 429 words (None: the loop's default).
+    identity : dict
+        The identity keys a ``run`` put in its status frames (from the record's start
+        event), so that the replay's status frames are the live ones byte for byte.
     title, description : str
         From the scenario file, for people.
     """
@@ -93,6 +97,7 @@ class ReplaySetup:
     clock: str = "auto"
     label_map: str | None = None
     framing: str | None = None
+    identity: dict[str, str] = field(default_factory=dict)
     title: str = ""
     description: str = ""
 
@@ -185,7 +190,7 @@ def _loop_settings(log: Path) -> dict:
 
 #: The type each recorded setting must have (a start event is data from a file).
 _RECORDED_TYPES = {"input_format": str, "framing": str, "zones": str, "tables": str,
-                   "rate_hz": float, "heartbeat_s": float}
+                   "rate_hz": float, "heartbeat_s": float, "identity": dict}
 
 
 def _check_recorded(found: dict, log: Path) -> None:
@@ -195,19 +200,24 @@ def _check_recorded(found: dict, log: Path) -> None:
         if kind is float:
             ok = (isinstance(value, (int, float)) and not isinstance(value, bool)
                   and math.isfinite(value) and value > 0)
+        elif kind is dict:
+            ok = isinstance(value, dict) and all(
+                k in STATUS_IDENTITY_FIELDS and (v is None or isinstance(v, str))
+                for k, v in value.items())
         else:
             ok = isinstance(value, str)
         if not ok:
             text = repr(value)
             text = text if len(text) <= 60 else text[:57] + "..."
-            what = "a positive number" if kind is float else "a string"
+            what = {float: "a positive number", dict: "a table of identity strings"}.get(
+                kind, "a string")
             raise ReplayError(f"{log}: start event: {key} = {text} is not {what}")
 
 
 def _find_settings(doc: dict) -> dict:
     if "input_format" in doc:
         return {k: doc[k] for k in ("input_format", "framing", "rate_hz", "heartbeat_s",
-                                    "zones", "tables") if doc.get(k) is not None}
+                                    "zones", "tables", "identity") if doc.get(k) is not None}
     for v in doc.values():
         if isinstance(v, dict):
             found = _find_settings(v)
@@ -294,6 +304,7 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
         speed=_speed(speed), send=send, collect=collect, clock=clock,
         label_map=_scenario_file(scenario, spath, "label_map"),
         framing=scenario.get("framing") or recorded.get("framing"),
+        identity={k: v for k, v in recorded.get("identity", {}).items() if v},
         title=str(scenario.get("title", "")), description=str(scenario.get("description", "")),
     )
 
@@ -331,7 +342,9 @@ def make_loop(setup: ReplaySetup, recorder: Recorder | None = None) -> AdvisoryL
     """The advisor and loop exactly as ``run`` would build them for this set-up."""
     advisor = Advisor(_load_table(setup.table), ZoneSet.from_file(setup.zones),
                       load_config(setup.config))
-    return AdvisoryLoop(advisor, input_format=setup.input_format, rate_hz=setup.rate_hz,
+    loop = AdvisoryLoop(advisor, input_format=setup.input_format, rate_hz=setup.rate_hz,
                         heartbeat_s=setup.heartbeat_s, recorder=recorder,
                         validator=StateValidator(), label_map=setup.label_map,
                         framing=setup.framing)
+    loop.identity = dict(setup.identity)
+    return loop

@@ -27,12 +27,14 @@ from advisory.schema import (
     REASON_MAX_BYTES,
     SEQ_MAX,
     STATUS_FIELDS,
+    STATUS_IDENTITY_FIELDS,
     STATUS_STATES,
     WIRE_FORMAT_VERSION,
     ZONE_ID_MAX_BYTES,
 )
 
 _MISSING = object()
+IDENTITY_MAX_BYTES = 31  #: longest identity value in a status frame (``sw``; ICD section 6)
 
 
 class RejectError(Exception):
@@ -197,14 +199,22 @@ def _dec_status(m: dict) -> tuple[dict, int]:
         if value < 0:
             raise RejectError("bad_value", f"counter {name!r} is negative: {value}")
         out[name] = value
-    return {"state": state, "reason": reason, "counters": out}, 3
+    fields: dict[str, Any] = {"state": state, "reason": reason, "counters": out}
+    present = 3
+    for name in STATUS_IDENTITY_FIELDS:  # optional (ICD section 6): software, digests
+        value = m.get(name, _MISSING)
+        if value is not _MISSING:
+            fields[name] = _dec_text(name, value, IDENTITY_MAX_BYTES)
+            present += 1
+    return fields, present
 
 
 _DECODERS = {"air": _dec_air, "adv": _dec_adv, "status": _dec_status}
 
 
 _KNOWN_KEYS = {kind: frozenset(HEADER_KEYS + fields) for kind, fields in (
-    ("air", AIR_FIELDS), ("adv", ADV_FIELDS), ("status", STATUS_FIELDS))}
+    ("air", AIR_FIELDS), ("adv", ADV_FIELDS),
+    ("status", STATUS_FIELDS + STATUS_IDENTITY_FIELDS))}
 _KEY_NAME_MAX = 47  #: unknown key names are reported cut to this many characters
 
 

@@ -148,6 +148,9 @@ class AdvisoryLoop:
         self.rate_hz = float(rate_hz)
         self.period_s = 1.0 / self.rate_hz
         self.heartbeat_s = float(heartbeat_s)
+        #: Identity keys every status frame carries (``advisory.schema.STATUS_IDENTITY_FIELDS``:
+        #: software version, table / zones / config digests; ICD section 6); empty: none.
+        self.identity: dict[str, str] = {}
         self.degraded_hold_s = float(degraded_hold_s)
         self.channel = int(channel)
         if validator is None:
@@ -448,7 +451,7 @@ class AdvisoryLoop:
     def _status(self, now: float, utc: float, state: str, reason: str) -> bytes:
         self._c["status_frames"] += 1
         payload = encode_status({"state": state, "reason": clip(reason),
-                                 "counters": self.health.status_counters()},
+                                 "counters": self.health.status_counters(), **self.identity},
                                 self._seq_status, utc)
         self._seq_status = next_seq(self._seq_status)
         self._last_status_t = now

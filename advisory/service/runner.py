@@ -337,6 +337,7 @@ def _start_and_run(s: RunSettings, logs: ServiceLog, phase: StartingPhase) -> in
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
                "profile": s.profile, "identity": identity(s), **svc.loop.describe()}
+    svc.loop.identity = {k: v for k, v in started["identity"].items() if v}
     phase.on_stop = svc.request_stop  # from now on a signal ends the run loop cleanly
     phase.starting = False
     if phase.stop_reason:

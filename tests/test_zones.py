@@ -30,6 +30,7 @@ from advisory.pipeline.zones import ZoneSet
 from advisory.units import FT, PSF
 from tests.twins import polygons as twins
 from tests.twins import rings as ring_twins
+from tests.twins.contact import edge_chunks_twin
 
 DATA = Path(__file__).parent / "data"
 GEOD = Geodesic.WGS84
@@ -572,3 +573,18 @@ def test_zone_file_roundtrip_through_json(tmp_path):
     zs = ZoneSet.from_file(path)
     assert zs.source == str(path) and [z.id for z in zs] == ["alpha", "bravo"]
     assert zs[0].vertex_count == 4
+
+
+@pytest.mark.parametrize("chunk_size", [1, 3, 8, 50])
+def test_edge_chunks_kernel_matches_its_twin(chunk_size) -> None:
+    # Project rule: every kernel has a readable numpy twin (tests/twins/contact.py); the
+    # chunks and their boxes must be the same exactly (min / max are exact operations).
+    rng = np.random.default_rng(7)
+    sizes = [4, 5, 17, 100, 3]  # closed rings (last vertex = first), one degenerate
+    x = rng.normal(size=sum(sizes)) * 1e4
+    y = rng.normal(size=sum(sizes)) * 1e4
+    rs = np.concatenate([[0], np.cumsum(sizes)]).astype(np.int64)
+    got = contact.build_edge_chunks(x, y, rs, chunk_size)
+    want = edge_chunks_twin(x, y, rs, chunk_size)
+    for g, w in zip(got, want, strict=True):
+        np.testing.assert_array_equal(g, w)

@@ -81,23 +81,57 @@ def build_edge_chunks(x: np.ndarray, y: np.ndarray, ring_start: np.ndarray,
     chunk_bbox : ndarray
         float64 (C, 4) ``xmin, ymin, xmax, ymax`` of each chunk, m.
     """
-    starts = []
-    ends = []
-    ring_chunk = [0]
-    for r in range(len(ring_start) - 1):
-        e0 = int(ring_start[r])
-        e1 = int(ring_start[r + 1]) - 1
+    if chunk_size < 1:
+        raise ValueError(f"chunk_size: {chunk_size} must be >= 1")
+    rs = np.ascontiguousarray(ring_start, dtype=np.int64)
+    edges = np.maximum(rs[1:] - rs[:-1] - 1, 0)
+    ring_chunk = np.zeros(rs.size, dtype=np.int64)
+    np.cumsum((edges + chunk_size - 1) // chunk_size, out=ring_chunk[1:])
+    chunk_edges = np.empty((int(ring_chunk[-1]), 2), dtype=np.int64)
+    bbox = np.empty((int(ring_chunk[-1]), 4))
+    edge_chunks_kernel(np.ascontiguousarray(x, dtype=np.float64),
+                       np.ascontiguousarray(y, dtype=np.float64), rs, ring_chunk,
+                       int(chunk_size), chunk_edges, bbox)
+    return ring_chunk, chunk_edges, bbox
+
+
+@njit(cache=True)
+def edge_chunks_kernel(x, y, ring_start, ring_chunk, chunk_size, chunk_edges, bbox):
+    """Fill the chunks of :func:`build_edge_chunks` (``ring_chunk`` already counted).
+
+    Parameters
+    ----------
+    x, y : ndarray
+        float64 (V,) vertices, m (rings closed).
+    ring_start, ring_chunk : ndarray
+        int64 (R + 1,) ring offsets and offsets of each ring's chunks.
+    chunk_size : int
+        Edges per chunk.
+    chunk_edges : ndarray
+        int64 (C, 2) output: first edge and one past the last edge of each chunk.
+    bbox : ndarray
+        float64 (C, 4) output: ``xmin, ymin, xmax, ymax`` of each chunk's vertices, m.
+    """
+    for r in range(ring_start.size - 1):
+        e0 = ring_start[r]
+        e1 = ring_start[r + 1] - 1
+        c = ring_chunk[r]
         for c0 in range(e0, e1, chunk_size):
-            starts.append(c0)
-            ends.append(min(c0 + chunk_size, e1))
-        ring_chunk.append(len(starts))
-    chunk_edges = np.array([starts, ends], dtype=np.int64).T.reshape(-1, 2).copy()
-    bbox = np.empty((len(starts), 4))
-    for c, (c0, c1) in enumerate(zip(starts, ends, strict=True)):
-        xs = x[c0:c1 + 1]
-        ys = y[c0:c1 + 1]
-        bbox[c] = (xs.min(), ys.min(), xs.max(), ys.max())
-    return np.asarray(ring_chunk, dtype=np.int64), chunk_edges, bbox
+            c1 = min(c0 + chunk_size, e1)
+            chunk_edges[c, 0] = c0
+            chunk_edges[c, 1] = c1
+            x_lo = x_hi = x[c0]
+            y_lo = y_hi = y[c0]
+            for v in range(c0 + 1, c1 + 1):
+                x_lo = min(x_lo, x[v])
+                x_hi = max(x_hi, x[v])
+                y_lo = min(y_lo, y[v])
+                y_hi = max(y_hi, y[v])
+            bbox[c, 0] = x_lo
+            bbox[c, 1] = y_lo
+            bbox[c, 2] = x_hi
+            bbox[c, 3] = y_hi
+            c += 1
 
 
 @njit(cache=True)

@@ -37,6 +37,7 @@ from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
     Listener,
     air_payload,
     free_udp_port,
+    running_status,
     start_run,
     stop,
     zones_file,
@@ -45,6 +46,9 @@ from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
 CHILD = r"""
 import json, resource, sys
 from advisory.io.records import Recorder
+warm = Recorder(sys.argv[1] + ".warm", fsync_interval_s=0.0)  # compile / cache the kernels
+warm.write(1, b"x")  # before the limit, so numba's cache writes are not cut short
+warm.close()
 limit = int(sys.argv[2])
 resource.setrlimit(resource.RLIMIT_FSIZE, (limit, limit))
 rec = Recorder(sys.argv[1], fsync_interval_s=0.0)
@@ -104,7 +108,7 @@ def test_run_flooded_over_udp_keeps_its_record_under_the_cap(tmp_path, small_tab
                      str(small_table_path), "--record", str(record),
                      "--record-max-mb", "0.2", "--record-keep", "2", "--duration-s", "300")
     try:
-        listener.wait_for(lambda f: f.type == "status", READY_TIMEOUT_S, "the first status")
+        listener.wait_for(running_status, READY_TIMEOUT_S, "the first status")
         n = 6000
         with socket.socket(socket.AF_INET, socket.SOCK_DGRAM) as s:
             t0 = time.monotonic()

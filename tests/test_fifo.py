@@ -23,6 +23,7 @@ from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
     Listener,
     Sender,
     free_udp_port,
+    running_status,
     start_run,
     stop,
     zones_file,
@@ -70,7 +71,7 @@ def test_input_fifo_without_writer_starts_and_survives_writers(tmp_path, small_t
                      "--record", str(record), "--duration-s", "300")
     try:
         # no writer yet: start-up ends and status frames flow (no hang in open())
-        listener.wait_for(lambda f: f.type == "status", READY_TIMEOUT_S,
+        listener.wait_for(running_status, READY_TIMEOUT_S,
                           "a status frame while the FIFO has no writer")
         for round_ in range(2):  # a writer, it goes away, a new writer
             fd = _writer(fifo)

@@ -31,6 +31,7 @@ from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
     READY_TIMEOUT_S,
     Listener,
     free_udp_port,
+    running_status,
     start_run,
     stop,
     zones_file,
@@ -323,7 +324,7 @@ def test_run_same_datagram_resent_leaves_ok_within_one_second(tmp_path, small_ta
                      str(small_table_path), "--rate-hz", "10")
     tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
     try:
-        listener.wait_for(lambda f: f.type == "status", READY_TIMEOUT_S, "first status",
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status",
                           after=0.0)
         t0 = time.monotonic()
         seq = 0

@@ -82,6 +82,11 @@ def free_udp_port() -> int:
         return s.getsockname()[1]
 
 
+
+def running_status(f) -> bool:
+    """A status frame of the running service, not a starting one (ICD 17.7)."""
+    return f.type == "status" and not f.fields["reason"].startswith("starting")
+
 class Listener(threading.Thread):
     """Collects the service's UDP output: (monotonic receive time, Frame)."""
 

@@ -39,6 +39,7 @@ from tests.test_run_e2e import (  # noqa: F401 - zones_file is a fixture
     RUN,
     Listener,
     free_udp_port,
+    running_status,
     zones_file,
 )
 
@@ -118,7 +119,7 @@ def test_soak_with_faults_keeps_publishing(tmp_path, small_table_path, zones_fil
         stdout=open(tmp_path / "run.out", "w"), stderr=subprocess.PIPE, env=env)
     traffic = Traffic(port)
     try:
-        listener.wait_for(lambda f: f.type == "status", READY_TIMEOUT_S, "first status",
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status",
                           after=0.0)
         t_start = time.monotonic()
         traffic.phase("normal", 5.0)  # settle: the first status ok

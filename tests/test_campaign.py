@@ -58,7 +58,10 @@ from advisory.bench.campaign_stats import (
 from advisory.bench.closed_loop import run_encounter
 from advisory.bench.context import QUICK, Context
 from advisory.bench.sections_campaign import measure_campaign
+from advisory.bench.sim_scenario import scenario_from_dict
+from advisory.bench.sim_world import zone_feature
 from advisory.cli import EXIT_USAGE, main
+from advisory.pipeline.zones import ZoneSet
 from advisory.schema import SAFETY_CAUTION
 
 FT = 0.3048  # m per international foot (exact by definition)
@@ -433,3 +436,19 @@ def test_benchmark_section_measures_both_figures(tmp_path):
         assert report.rows[key].value is not None and report.rows[key].value > 0.0
         assert report.rows[key].status in ("pass", "short")
     assert not list(tmp_path.glob("campaign-tables-*"))  # the fresh caches are removed
+
+
+def test_an_encounter_near_longitude_180_gets_a_zone_that_loads() -> None:
+    # The 1,000-encounter baseline (seed 1) lost encounter 970: its zone, drawn west of
+    # Fiji, straddled longitude 180 and the zone loader rightly refused the ring (RFC 7946
+    # section 3.1.9: cut it there). The sampler moves such an encounter 20 deg of
+    # longitude away; its geodesic distances (geographiclib, WGS84) do not change.
+    doc = sample_encounter(1, 970).doc
+    sc = scenario_from_dict(doc)
+    geo = {"type": "FeatureCollection", "features": [zone_feature(z) for z in sc.zones]}
+    assert len(ZoneSet.from_geojson(geo, source="encounter 970").zones) == 1
+    ring = doc["zones"][0]["polygon"]
+    assert max(lo for _, lo in ring) - min(lo for _, lo in ring) < 10.0
+    start = doc["start"]
+    g = Geodesic.WGS84.Inverse(start["lat_deg"], start["lon_deg"], ring[0][0], ring[0][1])
+    assert 50e3 < g["s12"] < 300e3  # still ahead of the flight, as sampled

@@ -60,6 +60,7 @@ import numpy as np
 from advisory import units
 from advisory.geo.geodesy import direct_deg
 from advisory.physics.atmosphere import ussa1976
+from advisory.schema import EARTH_MEAN_RADIUS_M
 
 GEOMETRIES = ("ahead", "offset", "crossing")
 GEOMETRY_P = (0.40, 0.35, 0.25)
@@ -211,6 +212,36 @@ def _zone(rng: np.random.Generator, start: dict[str, float], duration_s: float
     return geometry, crossing, zone
 
 
+def _crosses_antimeridian(zone: dict[str, Any]) -> bool:
+    """Whether the zone's ring would cross longitude 180 (GeoJSON refuses such rings
+    unless cut, RFC 7946 section 3.1.9)."""
+    if "polygon" in zone:
+        lons = [lo for _la, lo in zone["polygon"]]
+        return max(lons) - min(lons) > 180.0
+    lat_c, lon_c, r_km = zone["circle"]
+    r_deg = math.degrees(r_km * 1000.0 / EARTH_MEAN_RADIUS_M)
+    return abs(lon_c) + 1.05 * r_deg / max(math.cos(math.radians(lat_c)), 0.1) >= 180.0
+
+
+def _off_antimeridian(start: dict[str, float], zone: dict[str, Any]) -> None:
+    """Move an encounter whose zone would cross longitude 180 by 20 deg of longitude away
+    from it (in place). A shift in longitude changes nothing else: the ellipsoid and the
+    campaign's atmospheres do not depend on longitude. Every other encounter is left as
+    sampled (the draws are the same either way)."""
+    if not _crosses_antimeridian(zone):
+        return
+    shift = -20.0 if start["lon_deg"] > 0.0 else 20.0
+
+    def moved(lon: float) -> float:
+        return _r((lon + shift + 180.0) % 360.0 - 180.0, 6)
+
+    start["lon_deg"] = _r(moved(start["lon_deg"]), 5)
+    if "polygon" in zone:
+        zone["polygon"] = [[la, moved(lo)] for la, lo in zone["polygon"]]
+    else:
+        zone["circle"] = [zone["circle"][0], moved(zone["circle"][1]), zone["circle"][2]]
+
+
 @dataclass(frozen=True)
 class Encounter:
     """One sampled encounter.
@@ -259,6 +290,7 @@ def sample_encounter(seed: int, index: int) -> Encounter:
     true_kind, truth = _true_air(rng)
     adv_kind, adv_air = _advisor_air(rng, truth)
     geometry, crossing, zone = _zone(rng, start, duration_s)
+    _off_antimeridian(start, zone)
     faults = []
     if rng.random() < 0.15:
         t0 = rng.uniform(10.0, duration_s - 20.0)

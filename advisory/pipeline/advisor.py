@@ -40,6 +40,12 @@ from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import max_mach_off_ground, turn_resolutions
 from advisory.pipeline.results import Advisory
 from advisory.pipeline.trajectory import SpeedOfSound, Trajectory, predict_trajectory
+from advisory.pipeline.zone_projection import (
+    EARLY_FRACTION,
+    SYNC_VERTICES,
+    ZoneProjector,
+    vertex_count,
+)
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
 from advisory.schema import EARTH_MEAN_RADIUS_M
 from advisory.tables import lookup as lk
@@ -91,6 +97,10 @@ class Advisor:
         self.zones = zones
         self._projected: ProjectedZones | None = None
         self._frame_origin: tuple[float, float] | None = None
+        #: A large zone set's next projection, done a slice per step (zone_projection).
+        self._projector: ZoneProjector | None = None
+        self._projector_origin: tuple[float, float] = (0.0, 0.0)
+        self._large_zones = vertex_count(zones) > SYNC_VERTICES
         self._levels = AlertLevels(self.config)
         self.last_prediction: CarpetPrediction | None = None
         self.last_trajectory: Trajectory | None = None
@@ -131,20 +141,43 @@ class Advisor:
     def _zones_for(self, lat: float, lon: float) -> ProjectedZones:
         """Zones projected about a nearby origin; re-projected past ``reproject_km``.
 
-        The distance test is a haversine on the mean Earth radius (good to 0.5 %, plenty
-        for a re-projection threshold); geodesics proper are for the projection itself.
+        A large zone set's next projection starts at half that distance and goes a slice
+        per step (:mod:`advisory.pipeline.zone_projection`), so no step stalls. The
+        distance test is a haversine on the mean Earth radius (good to 0.5 %, plenty for a
+        re-projection threshold); geodesics proper are for the projection itself.
         """
+        limit_m = self.config.reproject_km * 1e3
         if self._frame_origin is not None and self._projected is not None:
-            lat0, lon0 = self._frame_origin
-            h = (math.sin(0.5 * (lat - lat0)) ** 2
-                 + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
-            d = 2.0 * EARTH_MEAN_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
-            if d < self.config.reproject_km * 1e3:
+            d = _haversine_m(self._frame_origin, lat, lon)
+            if d < limit_m:
+                if self._large_zones:
+                    self._project_ahead(lat, lon, d >= EARLY_FRACTION * limit_m)
                 return self._projected
+            if self._projector is not None:  # not done in time: finish it now
+                self._take(self._projector.finish())
+                if _haversine_m(self._frame_origin, lat, lon) < limit_m:
+                    return self._projected
+        self._projector = None
         frame = LocalFrame(lat, lon)
         self._projected = self.zones.project(frame)
         self._frame_origin = (lat, lon)
         return self._projected
+
+    def _project_ahead(self, lat: float, lon: float, start: bool) -> None:
+        """Start (when ``start``) or continue a large set's next projection."""
+        if self._projector is None:
+            if not start:
+                return
+            self._projector = ZoneProjector(self.zones, LocalFrame(lat, lon))
+            self._projector_origin = (lat, lon)
+        done = self._projector.advance()
+        if done is not None:
+            self._take(done)
+
+    def _take(self, projected: ProjectedZones) -> None:
+        self._projected = projected
+        self._frame_origin = self._projector_origin
+        self._projector = None
 
     # ---- the step ------------------------------------------------------------------
     def unavailable(self, reason: str, utc_s: float | None = None) -> Advisory:
@@ -284,3 +317,12 @@ class Advisor:
                                self._strips, pz, self.zones, pred, ahead, n_past)
         self._resolution_cache = (zone_id, level, now, res)
         return res
+
+
+def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:
+    """Great-circle distance (mean Earth radius) from ``origin`` (rad) to a point, m."""
+    lat0, lon0 = origin
+    h = (math.sin(0.5 * (lat - lat0)) ** 2
+         + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
+    return 2.0 * EARTH_MEAN_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
+

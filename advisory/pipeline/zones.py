@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterator
 from dataclasses import dataclass
+from functools import cached_property
 from pathlib import Path
 from typing import Any
 
@@ -207,6 +208,26 @@ class ZoneSet:
         -------
         ProjectedZones
         """
+        lay = self.layout(max_edge_deg)
+        x, y = project_vertices(lay.lonlat, frame)
+        return self.assemble(lay, frame, x, y)
+
+    def layout(self, max_edge_deg: float = DEFAULT_MAX_EDGE_DEG) -> ZoneLayout:
+        """The frame-independent part of :meth:`project`: the densified vertices and the
+        ring, part and zone offsets (long edges split as :meth:`project` says); the
+        default edge length's is made once and kept (read-only arrays)."""
+        if max_edge_deg == DEFAULT_MAX_EDGE_DEG:
+            return self._default_layout
+        return self._layout(max_edge_deg)
+
+    @cached_property
+    def _default_layout(self) -> ZoneLayout:
+        lay = self._layout(DEFAULT_MAX_EDGE_DEG)
+        for a in (lay.lonlat, lay.ring_start, lay.part_start, lay.zone_start):
+            a.flags.writeable = False
+        return lay
+
+    def _layout(self, max_edge_deg: float) -> ZoneLayout:
         if not (max_edge_deg > 0.0 and math.isfinite(max_edge_deg)):
             raise ValueError(f"max_edge_deg must be a positive number, got {max_edge_deg!r}")
         step = math.radians(max_edge_deg)
@@ -222,18 +243,19 @@ class ZoneSet:
                     ring_start.append(ring_start[-1] + len(dense))
                 part_start.append(len(rings))
             zone_start.append(len(part_start) - 1)
-        n_zone = len(self.zones)
-        if rings:
-            lonlat = np.concatenate(rings)
-            x, y = frame.to_enu(lonlat[:, 1], lonlat[:, 0])
-        else:
-            x = np.zeros(0)
-            y = np.zeros(0)
+        lonlat = np.concatenate(rings) if rings else np.zeros((0, 2))
+        return ZoneLayout(lonlat, np.asarray(ring_start, dtype=np.int64),
+                          np.asarray(part_start, dtype=np.int64),
+                          np.asarray(zone_start, dtype=np.int64))
+
+    def assemble(self, lay: ZoneLayout, frame: LocalFrame, x: np.ndarray, y: np.ndarray
+                 ) -> ProjectedZones:
+        """:class:`ProjectedZones` from the layout's vertices already in ``frame``
+        (``x``, ``y`` in m: :func:`project_vertices`): boxes and edge chunks."""
         x = np.ascontiguousarray(x, dtype=np.float64)
         y = np.ascontiguousarray(y, dtype=np.float64)
-        rs = np.asarray(ring_start, dtype=np.int64)
-        ps = np.asarray(part_start, dtype=np.int64)
-        zs = np.asarray(zone_start, dtype=np.int64)
+        rs, ps, zs = lay.ring_start, lay.part_start, lay.zone_start
+        n_zone = len(self.zones)
         bbox = np.empty((n_zone, 4))
         for k in range(n_zone):
             v0 = rs[ps[zs[k]]]
@@ -259,6 +281,33 @@ class ZoneSet:
             chunk_edges=chunk_edges,
             chunk_bbox=chunk_bbox,
         )
+
+
+@dataclass(frozen=True, eq=False)
+class ZoneLayout:
+    """A zone set's vertices before projection (:meth:`ZoneSet.layout`).
+
+    Attributes
+    ----------
+    lonlat : ndarray
+        float64 (V, 2) densified ring vertices, rad, in the order of the rings.
+    ring_start, part_start, zone_start : ndarray
+        int64 offsets as in :class:`ProjectedZones`.
+    """
+
+    lonlat: np.ndarray
+    ring_start: np.ndarray
+    part_start: np.ndarray
+    zone_start: np.ndarray
+
+
+def project_vertices(lonlat: np.ndarray, frame: LocalFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Frame coordinates (east, north, m) of vertices (rad, as in :class:`ZoneLayout`);
+    element by element, so a slice gives the same numbers as the whole."""
+    if lonlat.shape[0] == 0:
+        return np.zeros(0), np.zeros(0)
+    x, y = frame.to_enu(lonlat[:, 1], lonlat[:, 0])
+    return np.asarray(x, dtype=np.float64), np.asarray(y, dtype=np.float64)
 
 
 def _densify(ring: np.ndarray, step: float) -> np.ndarray:

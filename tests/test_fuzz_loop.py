@@ -20,6 +20,7 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.state import ValidatorLimits
 from advisory.pipeline.zones import ZoneSet
 from advisory.schema import AIR_REQUIRED as REQUIRED_FIELDS
+from advisory.schema import FRESHNESS_REASONS
 from advisory.service.loop import AdvisoryLoop
 
 LIMITS = ValidatorLimits().ranges
@@ -109,7 +110,8 @@ def test_fuzz_frames_through_the_loop(small_table) -> None:
         # every rejection is counted under its reason code
         assert c["valid"] + c["rejected"] == c["decoded"]
         reasons = sum(v for k, v in c.items() if ":" in k or k in (
-            "stale", "clock_step", "utc_backwards", "rx_backwards", "wind_incomplete"))
+            "stale", "clock_step", "utc_backwards", "rx_backwards", "wind_incomplete",
+            *FRESHNESS_REASONS))
         assert reasons == c["rejected"]
 
     run()

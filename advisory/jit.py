@@ -89,7 +89,7 @@ def refresh_cache(root: Path = PACKAGE_DIR) -> bool:
     return True
 
 
-def _writable(path: Path) -> bool:
+def writable_dir(path: Path) -> bool:
     """True when files can be created in ``path`` (made if missing)."""
     try:
         path.mkdir(parents=True, exist_ok=True)
@@ -112,16 +112,16 @@ def choose_cache_dir() -> bool:
         False when no directory is writable (kernels are then compiled in memory).
     """
     custom = os.environ.get("NUMBA_CACHE_DIR")
-    if custom and _writable(Path(custom)):
+    if custom and writable_dir(Path(custom)):
         return True
-    if not custom and _writable(PACKAGE_DIR / "__pycache__"):
+    if not custom and writable_dir(PACKAGE_DIR / "__pycache__"):
         return True
     xdg = os.environ.get("XDG_CACHE_HOME")
     user = Path(xdg) if xdg else Path.home() / ".cache"
     why = f"NUMBA_CACHE_DIR {custom}" if custom else f"the install ({PACKAGE_DIR})"
     for base in (user, Path(tempfile.gettempdir())):
         cand = base / "boom-advisory" / "numba"
-        if _writable(cand):
+        if writable_dir(cand):
             os.environ["NUMBA_CACHE_DIR"] = str(cand)
             numba.config.CACHE_DIR = str(cand)  # type: ignore[attr-defined]
             print(f"boom-advisory: notice: {why} is not writable; compiled kernels are "

@@ -15,6 +15,7 @@ import tempfile
 import time
 from pathlib import Path
 
+from advisory.jit import writable_dir
 from advisory.physics.aircraft import aircraft_document, default_aircraft, load_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.schema import VERSION
@@ -22,17 +23,6 @@ from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import default_grid
 from advisory.tables.store import TableFileError, write_table_file
 from advisory.tables.table import BoomTable
-
-
-def _writable(path: Path) -> bool:
-    """True when files can be created in ``path`` (made if missing)."""
-    try:
-        path.mkdir(parents=True, exist_ok=True)
-        with tempfile.TemporaryFile(dir=path):
-            pass
-    except OSError:
-        return False
-    return True
 
 
 def cache_dir() -> Path:
@@ -50,7 +40,7 @@ def cache_dir() -> Path:
     user = Path.home() / ".cache" / "boom-advisory"
     first = Path(env) if env else user
     for path in (first, user, Path(tempfile.gettempdir()) / "boom-advisory"):
-        if _writable(path):
+        if writable_dir(path):
             if path != first:
                 print(f"boom-advisory: notice: table cache {first} is not writable; "
                       f"using {path}", file=sys.stderr)

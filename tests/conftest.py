@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import subprocess
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -78,3 +81,18 @@ def small_table(small_table_path):
     from advisory.tables.table import BoomTable
 
     return BoomTable.load(small_table_path)
+
+
+@pytest.fixture(scope="session")
+def c_build(tmp_path_factory):
+    """bindings/c built once for the session (``make``, warnings are errors); the build
+    directory. Tests that need it skip without make or a C compiler (their own marks)."""
+    out = tmp_path_factory.mktemp("cbuild")
+    c_dir = Path(__file__).resolve().parent.parent / "bindings" / "c"
+    proc = subprocess.run(["make", "-C", str(c_dir), f"BUILD={out}", "CFLAGS=-O2 -Werror"],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    assert "warning" not in proc.stderr.lower(), proc.stderr
+    assert (out / "libboomwire.a").exists()
+    return out
+

@@ -40,6 +40,7 @@ from tests.test_run_e2e import (
     Listener,
     air_payload,
     free_udp_port,
+    running_status,
     square,
     start_run,
     stop,
@@ -97,11 +98,6 @@ def drive(port: int, real: socket.socket, spoof: socket.socket, seconds: float,
     return n_real, n_spoof
 
 
-
-def _running_status(f) -> bool:
-    """The running service's first status frame, not a starting one (ICD 17.7)."""
-    return f.type == "status" and not f.fields["reason"].startswith("starting")
-
 def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_path,
                                                           zones_file) -> None:
     listener = Listener()
@@ -112,7 +108,7 @@ def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_
                      str(small_table_path), "--record", str(record))
     real, spoof = sock(), sock()
     try:
-        listener.wait_for(_running_status, READY_TIMEOUT_S, "first status",
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status",
                           after=0.0)
         n_real, n_spoof = drive(port, real, spoof, 3.0)  # 15 real, 45 spoofed
         t_alone = time.monotonic()
@@ -157,7 +153,7 @@ def test_allow_from_admits_only_the_named_source(tmp_path, small_table_path,
                      str(small_table_path), "--record", str(record),
                      "--allow-from", f"127.0.0.1:{real.getsockname()[1]},10.0.0.1")
     try:
-        listener.wait_for(_running_status, READY_TIMEOUT_S, "first status",
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status",
                           after=0.0)
         # the spoofer sends first: without --allow-from it would have been locked in
         n_real, n_spoof = drive(port, real, spoof, 2.0, first="spoof")

@@ -34,14 +34,9 @@ pytestmark = pytest.mark.skipif(shutil.which("make") is None or shutil.which("cc
 
 
 @pytest.fixture(scope="module")
-def build(tmp_path_factory) -> Path:
-    out = tmp_path_factory.mktemp("cbuild")
-    proc = subprocess.run(["make", "-C", str(C_DIR), f"BUILD={out}", "CFLAGS=-O2 -Werror"],
-                          capture_output=True, text=True, timeout=300)
-    assert proc.returncode == 0, proc.stdout + proc.stderr
-    assert "warning" not in proc.stderr.lower(), proc.stderr
-    assert (out / "libboomwire.a").exists()
-    return out
+def build(c_build) -> Path:
+    """The session's build of bindings/c (tests/conftest.py)."""
+    return c_build
 
 
 def run_tool(build: Path, lines: list[str]) -> list[str]:

@@ -34,12 +34,9 @@ pytestmark = pytest.mark.skipif(
 
 
 @pytest.fixture(scope="module")
-def cbuild(tmp_path_factory) -> Path:
-    out = tmp_path_factory.mktemp("cudp")
-    proc = subprocess.run(["make", "-C", str(C_DIR), f"BUILD={out}", "CFLAGS=-O2 -Werror"],
-                          capture_output=True, text=True, timeout=300)
-    assert proc.returncode == 0, proc.stdout + proc.stderr
-    return out
+def cbuild(c_build) -> Path:
+    """The session's build of bindings/c (tests/conftest.py)."""
+    return c_build
 
 
 @pytest.mark.parametrize("signed", [False, True], ids=["plain", "hmac"])

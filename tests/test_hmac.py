@@ -16,7 +16,6 @@ import hmac
 import random
 import shutil
 import socket
-import subprocess
 import time
 from pathlib import Path
 
@@ -29,11 +28,13 @@ from advisory.io.framing import datagram
 from advisory.io.messages import decode_frame, encode_adv, encode_air, encode_status
 from advisory.io.records import KIND_INPUT, read_records
 from tests.test_allow_from import zones_file  # noqa: F401 - a fixture
+from tests.test_c_binding import run_tool
 from tests.test_run_e2e import (
     READY_TIMEOUT_S,
     Listener,
     air_payload,
     free_udp_port,
+    running_status,
     start_run,
     stop,
 )
@@ -84,11 +85,6 @@ def frames(rng: random.Random, n: int) -> list[bytes]:
 
 
 # ------------------------------------------------------------------------------ Python
-
-
-def _running_status(f) -> bool:
-    """The running service's first status frame, not a starting one (ICD 17.7)."""
-    return f.type == "status" and not f.fields["reason"].startswith("starting")
 
 @pytest.mark.parametrize("key,data,want", RFC4231)
 def test_tag_is_hmac_sha256_rfc4231(key, data, want) -> None:
@@ -164,27 +160,15 @@ def test_key_file_rules(tmp_path) -> None:
 # ------------------------------------------------------------------------------ C side
 
 @pytest.fixture(scope="module")
-def cbuild(tmp_path_factory) -> Path:
-    out = tmp_path_factory.mktemp("cauth")
-    proc = subprocess.run(["make", "-C", str(C_DIR), f"BUILD={out}", "CFLAGS=-O2 -Werror"],
-                          capture_output=True, text=True, timeout=300)
-    assert proc.returncode == 0, proc.stdout + proc.stderr
-    return out
-
-
-def c_tool(build: Path, lines: list[str]) -> list[str]:
-    proc = subprocess.run([str(build / "boom_vectors")], input="\n".join(lines) + "\n",
-                          capture_output=True, text=True, timeout=120)
-    assert proc.returncode == 0, proc.stderr
-    out = proc.stdout.splitlines()
-    assert len(out) == len(lines)
-    return out
+def cbuild(c_build) -> Path:
+    """The session's build of bindings/c (tests/conftest.py)."""
+    return c_build
 
 
 @needs_cc
 def test_c_rfc4231_and_sha256(cbuild) -> None:
     # RFC 4231 section 4 (all seven cases, inside the C tool); FIPS 180-2 B.1: "abc"
-    assert c_tool(cbuild, ["rfc4231", "sha256 616263"]) == [
+    assert run_tool(cbuild, ["rfc4231", "sha256 616263"]) == [
         "ok 7", "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"]
 
 
@@ -196,10 +180,10 @@ def test_c_tags_equal_python_hmac_for_random_messages(cbuild) -> None:
         key = rng.randbytes(rng.choice([1, 20, 32, 63, 64, 65, 131, 200]))
         msg = rng.randbytes(rng.randrange(0, 600))
         cases.append((key, msg))
-    got = c_tool(cbuild, [f"hmac {k.hex()} {m.hex()}" for k, m in cases])
+    got = run_tool(cbuild, [f"hmac {k.hex()} {m.hex()}" for k, m in cases])
     for (key, msg), line in zip(cases, got, strict=True):
         assert line == hmac.new(key, msg, hashlib.sha256).hexdigest()  # Python's hmac
-    digests = c_tool(cbuild, [f"sha256 {m.hex()}" for _, m in cases if m])
+    digests = run_tool(cbuild, [f"sha256 {m.hex()}" for _, m in cases if m])
     assert digests == [hashlib.sha256(m).hexdigest() for _, m in cases if m]
 
 
@@ -207,15 +191,15 @@ def test_c_tags_equal_python_hmac_for_random_messages(cbuild) -> None:
 def test_c_signs_and_checks_like_python(cbuild) -> None:
     rng = random.Random(7)
     payloads = frames(rng, 60)
-    signed_c = c_tool(cbuild, [f"sign {KEY.hex()} {p.hex()}" for p in payloads])
+    signed_c = run_tool(cbuild, [f"sign {KEY.hex()} {p.hex()}" for p in payloads])
     signed_py = [messages.sign_payload(p, KEY) for p in payloads]
     assert signed_c == [f"ok {s.hex()}" for s in signed_py]
     tampered = [s[:-1] + bytes([s[-1] ^ 1]) for s in signed_py]
-    checks = c_tool(cbuild, [f"auth {KEY.hex()} {s.hex()}" for s in signed_py + tampered]
+    checks = run_tool(cbuild, [f"auth {KEY.hex()} {s.hex()}" for s in signed_py + tampered]
                     + [f"auth {KEY.hex()} {payloads[0].hex()}"])
     assert checks == ["ok"] * len(signed_py) + ["auth_bad"] * len(tampered) + ["auth_missing"]
     # the C decoder reads a signed frame as the unsigned one (an unknown field ignored)
-    dec = c_tool(cbuild, [f"dec {s.hex()}" for s in signed_py[:9]]
+    dec = run_tool(cbuild, [f"dec {s.hex()}" for s in signed_py[:9]]
                  + [f"dec {p.hex()}" for p in payloads[:9]])
     assert dec[:9] == dec[9:] and all(x.startswith("ok ") for x in dec)
 
@@ -236,7 +220,7 @@ def test_run_with_auth_key_admits_only_signed_new_frames(tmp_path, small_table_p
     tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
     sent_signed = replayed = unsigned = 0
     try:
-        listener.wait_for(_running_status, READY_TIMEOUT_S, "first status",
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status",
                           after=0.0)
         t0 = time.monotonic()
         for i in range(30):  # 3 s at 10 Hz, one socket (one source)
@@ -296,7 +280,7 @@ def test_status_identity_keys_are_optional_and_ignored_by_old_receivers(cbuild) 
     assert {k: v for k, v in got.fields.items() if k not in ident} == base.fields
     assert {k: got.fields[k] for k in ident} == ident
     assert got._replace(fields=base.fields) == base
-    assert c_tool(cbuild, [f"dec {full.hex()}"]) == c_tool(cbuild, [f"dec {plain.hex()}"])
+    assert run_tool(cbuild, [f"dec {full.hex()}"]) == run_tool(cbuild, [f"dec {plain.hex()}"])
     for key, bad in (("sw", ""), ("sw", "x" * 32), ("table_sha", "0123456789ABCDEF"),
                      ("zones_sha", "0123"), ("config_sha", 5)):
         with pytest.raises(ValueError, match=key):

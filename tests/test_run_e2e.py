@@ -228,9 +228,7 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
     sender = None
     try:
         # the first status of the running service (not a starting one, ICD 17.7)
-        listener.wait_for(lambda f: f.type == "status"
-                          and not f.fields["reason"].startswith("starting"),
-                          READY_TIMEOUT_S, "first status", after=0.0)
+        listener.wait_for(running_status, READY_TIMEOUT_S, "first status", after=0.0)
         tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
         sender = Sender(lambda d: tx.sendto(d, ("127.0.0.1", port)), datagram)
         t_adv, _ = listener.wait_for(lambda f: f.type == "adv" and f.fields["status"]

@@ -11,12 +11,11 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
-import multiprocessing as mp
 import os
 from collections.abc import Iterator
 from dataclasses import dataclass
 
-from advisory.bench.campaign_engine import Engine
+from advisory.bench.campaign_engine import Engine, PoolEngine
 from advisory.bench.replay import replay_log
 from advisory.bench.replay_truth import add_truth
 from advisory.bench.result import ReplayResult
@@ -59,7 +58,8 @@ def replay_many(setups: list[ReplaySetup], jobs: int | None = None,
     setups : list of ReplaySetup
     jobs : int, optional
         Worker processes (default: one per core, at most one per log). 1 replays in this
-        process. Not used with ``engine``.
+        process. Not used with ``engine``. (A local process pool is the campaigns'
+        :class:`~advisory.bench.campaign_engine.PoolEngine`.)
     truth : TruthRequest, optional
         Also trace each flight's ground truth, in the same worker.
     engine : PoolEngine or DaskEngine, optional
@@ -67,22 +67,10 @@ def replay_many(setups: list[ReplaySetup], jobs: int | None = None,
     """
     order = sorted(range(len(setups)), key=lambda i: -os.path.getsize(setups[i].log))
     work = [(setups[i], truth) for i in order]
-    if engine is not None:
-        done: dict[int, ReplayResult] = {}
-        nxt = 0
-        for k, res in engine.map(_replay_job, work):
-            done[order[k]] = res
-            while nxt in done:
-                yield done.pop(nxt)
-                nxt += 1
-        return
-    jobs = min(jobs or os.cpu_count() or 1, len(setups))
-    if jobs <= 1:
-        for s in setups:
-            yield _replay_job((s, truth))
-        return
-    method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
-    with mp.get_context(method).Pool(jobs) as pool:
-        pending = {order[k]: pool.apply_async(_replay_job, (w,)) for k, w in enumerate(work)}
-        for i in range(len(setups)):
-            yield pending[i].get()
+    done: dict[int, ReplayResult] = {}
+    nxt = 0
+    for k, res in (engine or PoolEngine(jobs)).map(_replay_job, work):
+        done[order[k]] = res
+        while nxt in done:
+            yield done.pop(nxt)
+            nxt += 1

@@ -13,7 +13,11 @@ flight itself, the digests are regenerated with ``python tests/test_replay_golde
 --write`` and the commit says why; a refactor must never need that. Retaken so far:
 ``demo/coastal_approach`` once, when its scenario changed (the crew now slows after the
 advisory, because the truth harness showed that slowing after the caution still puts
-booms on the town; issue 12, item 9). The other eight are the originals.
+booms on the town; issue 12, item 9). All nine once more for issue 15's heartbeat:
+status frames are now due 0.1 s before the heartbeat on the step schedule, so a replay
+carries about one status frame more every ten seconds; every advisory frame stayed the
+same (checked by comparing the decoded advisory frames of all nine replays before and
+after, field for field).
 """
 
 from __future__ import annotations

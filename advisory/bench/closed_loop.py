@@ -175,7 +175,7 @@ class _Flight:
         loop, offset = self.loop, START_UTC_S - MONO_START_S
         while True:
             t_feed = self.pending[0][0] if self.pending else math.inf
-            t_poll = loop.next_due()
+            t_poll = loop.next_wake()
             if min(t_feed, t_poll) > until:
                 return
             if t_feed <= t_poll:

@@ -239,11 +239,12 @@ class _Run:
         self.loop.feed(data, mono, utc)
 
     def poll_due(self, until: float, offset: float, inclusive: bool) -> None:
-        """Poll on the loop's own schedule up to ``until`` (UTC = monotonic + offset)."""
-        due = self.loop.next_due()
+        """Poll on the loop's own schedule (steps and heartbeats) up to ``until``
+        (UTC = monotonic + offset)."""
+        due = self.loop.next_wake()
         while due < until or (inclusive and due == until):
             self.poll(due, due + offset)
-            due = self.loop.next_due()
+            due = self.loop.next_wake()
 
     def drive(self, inputs: Iterator[InputEvent], offset: float, last_input: float,
               controls: list[Control], polls: list[Poll] | None) -> int:

@@ -234,7 +234,7 @@ class AdvisoryService:
         if inp.up != link_up:
             link_up = inp.up
             loop.set_input_link(link_up, inp.reason)
-        wait_until = min(loop.next_due(), now + MAX_WAIT_S, end)
+        wait_until = min(loop.next_wake(), now + MAX_WAIT_S, end)
         if inp.up:
             data = inp.receive(wait_until)
             if data:

@@ -32,6 +32,7 @@ from advisory.bench.context import (
     zones_file,
 )
 from advisory.bench.machine import one_core
+from advisory.bench.section_zones import reprojection_figures
 from advisory.bench.workload import (
     CRUISE_ALT_FT,
     CRUISE_MACH,
@@ -117,6 +118,7 @@ def section_advisor(ctx: Context) -> None:
     if not any(k in CONFLICT_STATUSES for k in statuses):
         r.note("advisor", "no conflict was seen, so the resolution search may not have run: "
                           "the step figures may be optimistic")
+    reprojection_figures(ctx, table)
 
 
 # ------------------------------------------------------------------------ decode

@@ -32,102 +32,45 @@ file with a torn tail is safe for the same reason.
 
 from __future__ import annotations
 
-import mmap
 import os
 import struct
 import threading
 import time
-from collections.abc import Iterator
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, NamedTuple
-
-import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
+from typing import Any
 
 from advisory.io.crc32c import crc32c
-from advisory.io.records_v1 import decode_v1_event
-from advisory.schema import EVENT_FIELDS
+from advisory.io.record_format import (
+    HEADER,
+    HEADER_LEN,
+    KIND_EVENT,
+    KIND_INPUT,
+    KIND_OUTPUT,
+    KIND_RAW_INPUT,
+    KINDS,
+    MAGIC,
+    MAX_RECORD_DATA,
+    READABLE_VERSIONS,
+    RECORD_HEAD,
+    RECORD_OVERHEAD,
+    SYNC,
+    VERSION,
+    Event,
+    RecordFormatError,
+    check_header,
+    decode_event,
+    encode_event,
+    header_bytes,
+)
+from advisory.io.record_reader import ReadReport, Record, RecordReader, read_records
 
-MAGIC = b"\x8bBOOMREC"
-VERSION = 2  #: the version this code writes
-READABLE_VERSIONS = (1, 2)  #: the versions this code reads
-SYNC = b"\xa5\x5a"
-HEADER = struct.Struct(">8sHHd")  # + uint32 CRC
-HEADER_LEN = HEADER.size + 4  # 24
-RECORD_HEAD = struct.Struct(">2sIBBdd")  # 24 bytes
-RECORD_OVERHEAD = RECORD_HEAD.size + 4  # 28
-MAX_RECORD_DATA = 1 << 20  #: largest data field, bytes (1 MiB)
-
-KIND_INPUT = 1  #: one input frame payload (CRC checked and removed)
-KIND_OUTPUT = 2  #: one output frame payload
-KIND_RAW_INPUT = 3  #: raw bytes as received from a stream (garbage included)
-KIND_EVENT = 4  #: a typed event (see :func:`encode_event`): link lost, reopened, shutdown
-KINDS = {KIND_INPUT: "input", KIND_OUTPUT: "output", KIND_RAW_INPUT: "raw_input",
-         KIND_EVENT: "event"}
-
-
-class RecordFormatError(ValueError):
-    """The file is not a record file this code can read (the message says why)."""
-
-
-class Event(NamedTuple):
-    """One record-file event: its code (a key of ``advisory.schema.EVENT_FIELDS``, or
-    ``"unknown"`` for one this code cannot read) and its fields."""
-
-    code: str
-    fields: dict[str, Any]
-
-
-def encode_event(code: str, **fields: Any) -> bytes:
-    """The data of one event record: a MessagePack map ``{"code": code, **fields}``.
-
-    Raises
-    ------
-    ValueError
-        ``code`` is not in ``EVENT_FIELDS`` or the fields are not the ones it lists.
-    """
-    want = EVENT_FIELDS.get(code)
-    if want is None:
-        raise ValueError(f"event code {code!r} is not one of {', '.join(EVENT_FIELDS)}")
-    if set(fields) != set(want):
-        raise ValueError(f"event {code!r} takes the fields {want}, got {tuple(fields)}")
-    return msgpack.packb({"code": code, **fields}, use_bin_type=True)
-
-
-def decode_event(data: bytes, version: int = VERSION) -> Event:
-    """The event held in one event record's data (never raises).
-
-    Parameters
-    ----------
-    data : bytes
-    version : int
-        The record file's version (:attr:`ReadReport.version`): 2 reads MessagePack
-        maps, 1 the text lines older records hold.
-
-    Returns
-    -------
-    Event
-        ``Event("unknown", {"data": data})`` for data this code cannot read.
-    """
-    data = bytes(data)
-    if version == 1:
-        return Event(*decode_v1_event(data.decode("utf-8", "replace")))
-    try:
-        doc = msgpack.unpackb(data, raw=False, strict_map_key=True)
-    except Exception:  # noqa: BLE001 - any undecodable event is reported as unknown
-        return Event("unknown", {"data": data})
-    if not isinstance(doc, dict) or not isinstance(doc.get("code"), str):
-        return Event("unknown", {"data": data})
-    code = doc.pop("code")
-    if code not in EVENT_FIELDS:
-        return Event("unknown", {"data": data})
-    return Event(code, doc)
-
-
-def _header_bytes(created_utc: float) -> bytes:
-    head = HEADER.pack(MAGIC, VERSION, 0, created_utc)
-    return head + crc32c(head).to_bytes(4, "big")
-
+__all__ = [
+    "HEADER", "HEADER_LEN", "KINDS", "KIND_EVENT", "KIND_INPUT", "KIND_OUTPUT",
+    "KIND_RAW_INPUT", "MAGIC", "MAX_RECORD_DATA", "READABLE_VERSIONS", "RECORD_HEAD",
+    "RECORD_OVERHEAD", "SYNC", "VERSION", "Event", "ReadReport", "Record", "RecordFormatError",
+    "RecordReader", "Recorder", "decode_event", "encode_event", "encode_record",
+    "read_records",
+]
 
 def _write_all(fd: int, data: bytes, size: int) -> int:
     """Write ``data`` in one call at the end of a file of ``size`` bytes; the new size.
@@ -236,7 +179,7 @@ class Recorder:
         try:
             size = os.fstat(fd).st_size
             if size >= HEADER_LEN:
-                _created, version = _check_header(os.pread(fd, HEADER_LEN, 0), str(self.path))
+                _created, version = check_header(os.pread(fd, HEADER_LEN, 0), str(self.path))
                 if version != VERSION:
                     raise RecordFormatError(
                         f"{self.path}: record file version {version} can be read but not "
@@ -248,7 +191,7 @@ class Recorder:
                 os.ftruncate(fd, 0)  # a torn header: nothing recorded yet, start again
                 size = 0
             if size == 0:
-                _write_all(fd, _header_bytes(time.time()), 0)
+                _write_all(fd, header_bytes(time.time()), 0)
                 os.fsync(fd)
                 size = HEADER_LEN
         except BaseException:
@@ -383,180 +326,3 @@ class Recorder:
 
     def __exit__(self, *exc) -> None:
         self.close()
-
-
-def _check_header(head: bytes, where: str) -> tuple[float, int]:
-    """(created UTC, version) of a record file header; raises if it cannot be read."""
-    magic, version, _flags, created = HEADER.unpack_from(head)
-    if magic != MAGIC:
-        raise RecordFormatError(f"{where}: not a record file (bad magic {magic!r})")
-    if crc32c(head[:HEADER.size]) != int.from_bytes(head[HEADER.size:HEADER_LEN], "big"):
-        raise RecordFormatError(f"{where}: record file header is damaged (CRC mismatch)")
-    if version not in READABLE_VERSIONS:
-        raise RecordFormatError(f"{where}: record file version {version} is not supported "
-                                f"(this reads {', '.join(map(str, READABLE_VERSIONS))})")
-    return created, version
-
-
-@dataclass(frozen=True)
-class Record:
-    """One record read back.
-
-    Attributes
-    ----------
-    kind : int
-        ``KIND_INPUT``, ``KIND_OUTPUT``, ``KIND_RAW_INPUT`` or ``KIND_EVENT``.
-    channel : int
-    utc_s : float
-        UTC time, s since 1970.
-    mono_s : float
-        Monotonic time, s.
-    data : bytes
-    offset : int
-        Byte offset of the record in the file.
-    """
-
-    kind: int
-    channel: int
-    utc_s: float
-    mono_s: float
-    data: bytes
-    offset: int
-
-
-@dataclass
-class ReadReport:
-    """What the reader found besides the records.
-
-    Attributes
-    ----------
-    created_utc : float or None
-        From the header (None for a torn header).
-    version : int
-        The file's format version (pass it to :func:`decode_event`).
-    records : int
-        Good records read.
-    torn_tail : bool
-        The file ends in an incomplete or damaged record (e.g. power cut mid-write),
-        which was skipped.
-    torn_bytes : int
-        Size of that tail.
-    corrupt_regions : int
-        Damaged stretches inside the file that were skipped (good records follow each).
-    skipped_bytes : int
-        Bytes in those stretches.
-    """
-
-    created_utc: float | None = None
-    version: int = VERSION
-    records: int = 0
-    torn_tail: bool = False
-    torn_bytes: int = 0
-    corrupt_regions: int = 0
-    skipped_bytes: int = 0
-
-
-class RecordReader:
-    """Read a record file, skipping a torn tail and damaged stretches.
-
-    Iterate for :class:`Record` objects; :attr:`report` is complete once iteration ends.
-
-    Parameters
-    ----------
-    path : str or Path
-
-    Raises
-    ------
-    RecordFormatError
-        Not a record file, damaged header or unsupported version.
-    """
-
-    def __init__(self, path: str | Path) -> None:
-        self.path = Path(path)
-        self.report = ReadReport()
-        with open(self.path, "rb") as f:
-            size = os.fstat(f.fileno()).st_size
-            if size < HEADER_LEN:
-                head = f.read()
-                if not MAGIC.startswith(head[:8]):
-                    raise RecordFormatError(f"{self.path}: not a record file (bad magic)")
-                self.report.torn_tail = True
-                self.report.torn_bytes = size
-                self._mm = None
-                return
-            self._mm = mmap.mmap(f.fileno(), 0, access=mmap.ACCESS_READ)
-        try:
-            self.report.created_utc, self.report.version = _check_header(
-                self._mm[:HEADER_LEN], str(self.path))
-        except RecordFormatError:
-            self.close()
-            raise
-
-    def _valid_at(self, pos: int) -> int:
-        """End offset of a complete, CRC-good record at ``pos``, or -1."""
-        mm = self._mm
-        if mm is None:  # closed
-            return -1
-        end = len(mm)
-        if end - pos < RECORD_OVERHEAD or mm[pos:pos + 2] != SYNC:
-            return -1
-        length = int.from_bytes(mm[pos + 2:pos + 6], "big")
-        if length > MAX_RECORD_DATA:
-            return -1
-        stop = pos + RECORD_HEAD.size + length
-        if stop + 4 > end:
-            return -1
-        if crc32c(mm[pos:stop]) != int.from_bytes(mm[stop:stop + 4], "big"):
-            return -1
-        return stop + 4
-
-    def __iter__(self) -> Iterator[Record]:
-        return self.records_from(HEADER_LEN)
-
-    def records_from(self, offset: int) -> Iterator[Record]:
-        """The records from byte ``offset`` on (a record's :attr:`Record.offset`, or the
-        end of the header); the report counts what this iteration finds."""
-        mm = self._mm
-        if mm is None:
-            return
-        rep = self.report
-        end = len(mm)
-        pos = max(HEADER_LEN, offset)
-        while pos < end:
-            stop = self._valid_at(pos)
-            if stop < 0:
-                nxt = mm.find(SYNC, pos + 1)
-                while nxt >= 0 and self._valid_at(nxt) < 0:
-                    nxt = mm.find(SYNC, nxt + 1)
-                if nxt < 0:
-                    rep.torn_tail = True
-                    rep.torn_bytes = end - pos
-                    break
-                rep.corrupt_regions += 1
-                rep.skipped_bytes += nxt - pos
-                pos = nxt
-                continue
-            _sync, length, kind, channel, utc_s, mono_s = RECORD_HEAD.unpack_from(mm, pos)
-            data = mm[pos + RECORD_HEAD.size:pos + RECORD_HEAD.size + length]
-            rep.records += 1
-            yield Record(kind, channel, utc_s, mono_s, data, pos)
-            pos = stop
-
-    def close(self) -> None:
-        """Release the file mapping (safe twice)."""
-        mm, self._mm = self._mm, None
-        if mm is not None:
-            mm.close()
-
-    def __enter__(self) -> RecordReader:
-        return self
-
-    def __exit__(self, *exc) -> None:
-        self.close()
-
-
-def read_records(path: str | Path) -> tuple[list[Record], ReadReport]:
-    """All good records of a file and the report (torn tail, damaged stretches)."""
-    with RecordReader(path) as reader:
-        records = list(reader)
-        return records, reader.report

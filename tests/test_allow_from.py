@@ -15,7 +15,6 @@ from __future__ import annotations
 import json
 import socket
 import time
-from pathlib import Path
 
 import pytest
 
@@ -39,21 +38,14 @@ from tests.test_run_e2e import (
     READY_TIMEOUT_S,
     Listener,
     air_payload,
+    end_run,
     free_udp_port,
     running_status,
     square,
     start_run,
     stop,
+    zones_file,  # noqa: F401 - the fixture: an invented town 130 km ahead of the track
 )
-
-
-@pytest.fixture()
-def zones_file(tmp_path) -> Path:
-    """An invented town 130 km ahead of the real track (as in test_run_e2e)."""
-    path = tmp_path / "zones.geojson"
-    path.write_text(json.dumps({"type": "FeatureCollection", "features": [
-        square("millbrook", LAT0, LON0 + 130e3 / M_PER_DEG_LON)]}))
-    return path
 
 
 def spoof_payload(seq: int, t: float) -> bytes:
@@ -99,7 +91,7 @@ def drive(port: int, real: socket.socket, spoof: socket.socket, seconds: float,
 
 
 def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_path,
-                                                          zones_file) -> None:
+                                                          zones_file) -> None:  # noqa: F811
     listener = Listener()
     port = free_udp_port()
     record = tmp_path / "trust.boomrec"
@@ -116,12 +108,7 @@ def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_
         time.sleep(0.5)  # let the service take the last datagrams before it stops
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        listener.close()
-        real.close()
-        spoof.close()
+        end_run(proc, listener, real, spoof)
     assert code == 0, (tmp_path / "run.err").read_text()
     inputs, events = recorded(record)
     # ICD section 10: only the first source is admitted; every real frame got through
@@ -143,7 +130,7 @@ def test_spoofer_at_three_times_the_rate_never_takes_over(tmp_path, small_table_
 
 
 def test_allow_from_admits_only_the_named_source(tmp_path, small_table_path,
-                                                 zones_file) -> None:
+                                                 zones_file) -> None:  # noqa: F811
     listener = Listener()
     port = free_udp_port()
     record = tmp_path / "allow.boomrec"
@@ -160,12 +147,7 @@ def test_allow_from_admits_only_the_named_source(tmp_path, small_table_path,
         time.sleep(0.5)
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        listener.close()
-        real.close()
-        spoof.close()
+        end_run(proc, listener, real, spoof)
     assert code == 0, (tmp_path / "run.err").read_text()
     inputs, _ = recorded(record)
     assert len(inputs) == n_real and all(f.fields["lat_deg"] == LAT0 for f in inputs)
@@ -174,7 +156,7 @@ def test_allow_from_admits_only_the_named_source(tmp_path, small_table_path,
 
 
 def test_bad_allow_from_is_one_line_and_exit_2(tmp_path, small_table_path,
-                                               zones_file) -> None:
+                                               zones_file) -> None:  # noqa: F811
     # Project rule: bad option -> one line naming it and the value, exit code 2.
     proc = start_run(tmp_path, "--input", "udp://127.0.0.1:9", "--output",
                      "udp://127.0.0.1:9", "--zones", str(zones_file), "--tables",

@@ -158,6 +158,12 @@ def test_label_map_toml_overrides_and_errors():
         ('[labels.203]\nfield = "alt_ft"\nrange = 1.0\ncolour = "red"\n', "colour"),
         ('byte_order = "middle"\n', "byte_order"),
         ("not toml [", "TOML"),
+        # issue 15 (Low): label maps with NaN / inf scaling were accepted; a zero scale
+        # reads every value as 0 (common practice, no source: a scale is never 0)
+        ('[labels.203]\nfield = "alt_ft"\nrange = nan\n', "range must be a finite"),
+        ('[labels.203]\nfield = "alt_ft"\nrange = 1.0\nscale = inf\n', "scale must be a"),
+        ('[labels.203]\nfield = "alt_ft"\nrange = 1.0\noffset = nan\n', "offset must"),
+        ('[labels.203]\nfield = "alt_ft"\nrange = 1.0\nscale = 0\n', "scale must not"),
     ]:
         with pytest.raises(ValueError, match=match):
             parse_label_map(text)

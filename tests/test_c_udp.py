@@ -20,7 +20,7 @@ from pathlib import Path
 import pytest
 
 from advisory.schema import CONFLICT_STATUSES
-from tests.test_run_e2e import READY_TIMEOUT_S, free_udp_port, square, start_run, stop
+from tests.test_run_e2e import READY_TIMEOUT_S, end_run, free_udp_port, square, start_run, stop
 
 ROOT = Path(__file__).resolve().parent.parent
 C_DIR = ROOT / "bindings" / "c"
@@ -59,9 +59,11 @@ def test_c_sender_drives_run_and_c_receiver_decodes(cbuild, tmp_path, small_tabl
                      f"udp://127.0.0.1:{port_out}", "--zones", str(zones), "--tables",
                      str(small_table_path), *extra)
     try:
-        # wait (bounded) for the service's first status frame at the C receiver
+        # wait (bounded) for the running service's first status frame at the C
+        # receiver (the starting frames come first, ICD 17.1)
         waited = 0.0
-        while "status " not in (tmp_path / "rx.out").read_text():
+        while not any(x.startswith("status ") and " starting" not in x
+                      for x in (tmp_path / "rx.out").read_text().splitlines()):
             assert proc.poll() is None, (tmp_path / "run.err").read_text()
             assert waited < READY_TIMEOUT_S, "no status frame from run"
             time.sleep(0.2)
@@ -73,9 +75,7 @@ def test_c_sender_drives_run_and_c_receiver_decodes(cbuild, tmp_path, small_tabl
         assert tx.stdout.split() == ["sent", "100"]
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
+        end_run(proc)
         receiver.terminate()
         receiver.wait(10)
     assert code == 0, (tmp_path / "run.err").read_text()

@@ -33,6 +33,7 @@ from tests.test_run_e2e import (
     READY_TIMEOUT_S,
     Listener,
     air_payload,
+    end_run,
     free_udp_port,
     running_status,
     start_run,
@@ -236,11 +237,7 @@ def test_run_with_auth_key_admits_only_signed_new_frames(tmp_path, small_table_p
         time.sleep(0.5)  # let the service take the last datagrams before it stops
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        listener.close()
-        tx.close()
+        end_run(proc, listener, tx)
     assert code == 0, (tmp_path / "run.err").read_text()
     records, _ = read_records(record)
     inputs = [decode_frame(r.data) for r in records if r.kind == KIND_INPUT]

@@ -206,6 +206,16 @@ def stop(proc: subprocess.Popen, sig: int = signal.SIGTERM, timeout_s: float = 2
         raise AssertionError("run did not stop on the signal") from None
 
 
+def end_run(proc: subprocess.Popen, *closing) -> None:
+    """Tear-down of an end-to-end test: kill the service if it still runs, then close
+    each of ``closing`` (sockets, listeners)."""
+    if proc.poll() is None:
+        proc.kill()
+        proc.wait()
+    for thing in closing:
+        thing.close()
+
+
 def outputs_in(path: Path) -> list:
     records, _ = read_records(path)
     return [decode_frame(r.data) for r in records if r.kind == KIND_OUTPUT]
@@ -241,9 +251,7 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
         t_end = time.monotonic()
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
+        end_run(proc)
         if sender is not None:
             sender.close()
         listener.close()
@@ -374,12 +382,7 @@ def test_serial_end_to_end_with_pulled_cable(tmp_path, small_table_path, zones_f
         sender.close()
         code = stop(proc, signal.SIGINT)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        sender.close()
-        listener.close()
-        pty.close()
+        end_run(proc, sender, listener, pty)
     assert code == 0, (tmp_path / "run.err").read_text()
     between = [f for t, f in listener.frames if t_pull + 0.6 < t < t_plug + 0.05]
     assert between, "nothing published while the cable was out"
@@ -442,11 +445,7 @@ def test_full_output_drops_and_counts_without_blocking(tmp_path, small_table_pat
         sender.close()
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        sender.close()
-        pty.close()
+        end_run(proc, sender, pty)
     assert filled > 0
     assert rate > 15.0  # 20 advisory frames a second plus status: the loop never blocked
     # ICD 17.5: a terminal output's stale backlog is flushed before each frame (the bytes
@@ -544,11 +543,7 @@ def test_profile_rebuilds_tables_off_the_hot_path(tmp_path, small_table_path,
                                        "advisories on the rebuilt table")
         code = stop(proc)
     finally:
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait()
-        sender.close()
-        listener.close()
+        end_run(proc, sender, listener)
     assert stale_seen, "the first advisories should be flagged tables_stale"
     # ICD section 17.2: stale tables make the status degraded (the first status frame's
     # reason is the start-up caution; a quick rebuild may leave only that one)

@@ -110,8 +110,11 @@ def _spec_from_entry(num: int, e: Mapping[str, Any], where: str) -> LabelSpec:
     wrap = e.get("wrap_360", False)
     if not isinstance(wrap, bool):
         raise ValueError(f"{where}: wrap_360 must be true or false, got {wrap!r}")
+    scale = num_of("scale", 1.0)
+    if scale == 0.0:
+        raise ValueError(f"{where}: scale must not be 0 (every value would read 0)")
     return LabelSpec(num, name, enc, sig, rng, digits, res, sdi, wrap,
-                     num_of("scale", 1.0), num_of("offset", 0.0))
+                     scale, num_of("offset", 0.0))
 
 
 def load_label_map(path: str | Path | None = None) -> LabelMap:

@@ -171,3 +171,85 @@ def test_pull_up_predicts_no_false_focus(pitch_table) -> None:
     adv = advise_at(pitch_table, samples[i], pitch_rate_dps=rate)
     t_pred, _, _, pred = predicted_folds(adv, samples[i]["t_s"])
     assert t_pred.size == 0, f"false focus predicted at {t_pred[:5]} s"
+
+
+# ------------------------------------------------------------------ trajectory, fast checks
+
+def test_pitching_kernel_matches_numpy_twin() -> None:
+    # numba kernel with a flight-path-angle rate (params of 14) against its numpy twin
+    # (tests/twins/trajectory.py) and against its own Python run
+    from advisory.pipeline.trajectory import propagate_kernel
+    from tests.test_trajectory import G, python_twin
+    from tests.twins.trajectory import propagate_kernel_twin
+
+    rng = np.random.default_rng(13)
+    for _ in range(6):
+        n = int(rng.integers(2, 200))
+        t = np.cumsum(np.r_[0.0, rng.uniform(0.5, 3.0, n - 1)]) - rng.uniform(0.0, 20.0)
+        mach = rng.uniform(0.9, 2.0) + rng.uniform(-0.003, 0.003) * t
+        a = 295.0 + rng.uniform(-5, 5) * np.sin(t / 50.0)
+        g0 = rng.uniform(-0.1, 0.1)
+        params = np.array([rng.uniform(0, 15000), math.sin(g0), math.cos(g0),
+                           rng.uniform(-0.6, 0.6), math.nan, rng.uniform(0, 6.3),
+                           *rng.uniform(-30, 30, 2), *rng.uniform(-3e5, 3e5, 2), 6.37e6, G,
+                           rng.uniform(-0.05, 0.05), rng.uniform(0.0, 30.0)])
+        got = propagate_kernel(t, mach, a, params)
+        np.testing.assert_allclose(got, propagate_kernel_twin(t, mach, a, params), rtol=1e-9,
+                                   atol=1e-6)
+        np.testing.assert_allclose(got, python_twin(propagate_kernel)(t, mach, a, params),
+                                   rtol=1e-12, atol=1e-9)
+
+
+def _level_start(**kw):
+    from advisory.pipeline.trajectory import predict_trajectory
+
+    c = 295.07  # speed of sound, m/s, held (the closed forms take the speed constant)
+    args = dict(speed_of_sound=c, wind_east_mps=0.0, wind_north_mps=0.0, lookahead_s=20.0,
+                step_s=0.25)
+    args.update(kw)
+    return predict_trajectory(math.radians(LAT0), math.radians(LON0), 15000.0, MACH, 0.0,
+                              MACH * c, **args), MACH * c
+
+
+def test_push_over_altitude_follows_the_closed_form() -> None:
+    # Constant speed V and flight-path rate w from level flight: gamma = w t and
+    # h(t) = h0 + V (1 - cos(w t)) / w (integral of V sin(gamma); closed form), until
+    # the hold ends (PITCH_HOLD_S), then a straight line at the angle reached.
+    from advisory.pipeline.pitch import PITCH_HOLD_S
+
+    w = math.radians(-1.5)
+    tr, v = _level_start(pitch_rate_rad_s=w)
+    t = tr.t_s
+    tc = np.minimum(t, PITCH_HOLD_S)
+    expect = 15000.0 + v * (1.0 - np.cos(w * tc)) / w
+    expect += v * np.sin(w * PITCH_HOLD_S) * (t - tc)
+    np.testing.assert_allclose(tr.alt_m, expect, atol=0.5)
+    np.testing.assert_allclose(tr.fpa_rad, w * tc, atol=1e-12)
+
+
+@pytest.mark.parametrize("bank_deg", [0.0, 30.0])
+def test_load_factor_and_pitch_rate_of_a_level_turn_give_no_pitch(bank_deg) -> None:
+    # A level coordinated turn has load factor 1 / cos(bank) and body pitch rate
+    # psi_dot sin(bank) (Euler-angle kinematics; Flight Dynamics, Princeton University
+    # Press 2004, ch. 2, value from memory): neither is a pull-up.
+    from advisory.pipeline.pitch import flight_path_rate
+
+    b = math.radians(bank_deg)
+    v = MACH * 295.07
+    psi_dot = 9.80665 * math.tan(b) / v
+    assert flight_path_rate(0.0, b, v, None, 1.0 / math.cos(b)) == 0.0
+    assert flight_path_rate(0.0, b, v, psi_dot * math.sin(b), None) == 0.0
+    # and a wings-level pull-up at n g climbs at g (n - 1) / V (point-mass equations)
+    assert flight_path_rate(0.0, 0.0, v, None, 1.3) == pytest.approx(9.80665 * 0.3 / v)
+
+
+def test_load_factor_is_preferred_and_the_hold_is_bounded() -> None:
+    # Load factor over pitch rate (module notes of advisory.pipeline.pitch); the angle
+    # stops at the documented limit (10 deg) before the hold time when it gets there.
+    from advisory.pipeline.pitch import PITCH_FPA_LIMIT_RAD
+
+    tr, v = _level_start(pitch_rate_rad_s=math.radians(5.0), load_factor=1.0)
+    assert np.all(tr.fpa_rad == 0.0)
+    tr, v = _level_start(pitch_rate_rad_s=math.radians(-5.0))
+    assert tr.fpa_rad.min() == pytest.approx(-PITCH_FPA_LIMIT_RAD, abs=1e-12)
+    assert tr.fpa_rad[tr.t_s >= 2.0].max() == pytest.approx(-PITCH_FPA_LIMIT_RAD, abs=1e-12)

@@ -75,7 +75,7 @@ def far_zone() -> ZoneSet:
 def fly(rate_dps: float, after_s: float = 30.0):
     """The bench simulator flying level, then a pitch manoeuvre at ``rate_dps`` for
     PITCH_S, then holding the flight-path angle; samples and the true track."""
-    state = FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH, HDG)
+    state = FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH, HDG, pitch_load=True)
     pilot = Pilot([Segment("hold", duration_s=LEAD_S),
                    Segment("pitch", pitch_rate_deg_s=rate_dps, duration_s=PITCH_S)])
     track, samples = FlightTrack(), []
@@ -98,10 +98,9 @@ def truth_folds(track: FlightTrack, half_width_deg: float = 10.0):
     return ev.emission_time_s[sel], ev.lat_deg[sel], ev.lon_deg[sel]
 
 
-def advise_at(table, sample: dict, **extra):
-    """The advisor's prediction from one simulator sample (plus ``extra`` fields)."""
-    fields = {k: v for k, v in sample.items() if k != "t_s"}
-    fields.update(extra)
+def advise_at(table, sample: dict, drop: str | None = None):
+    """The advisor's prediction from one simulator sample (without field ``drop``)."""
+    fields = {k: v for k, v in sample.items() if k not in ("t_s", drop)}
     adv = Advisor(table, far_zone(), AdvisorConfig(look_ahead_s=40.0, step_s=1.0,
                                                    in_air_s=0.0, caution_lead_s=30.0,
                                                    warning_lead_s=15.0))
@@ -130,11 +129,13 @@ def _distance_km(lat1, lon1, lat2, lon2) -> float:
 
 
 @pytest.mark.slow
-def test_push_over_focus_is_predicted_near_the_truths(pitch_table) -> None:
+@pytest.mark.parametrize("drop", ["load_factor", "pitch_rate_dps"])
+def test_push_over_focus_is_predicted_near_the_truths(pitch_table, drop) -> None:
     # Why 6. Truth: the bench simulator flies a push-over at -1.5 deg/s from level flight
     # at Mach 1.6, 50,000 ft; the direct tracer (bench/truth.py) finds the fold of the
     # ray map. The advisor, given the pitch rate at the start of the push-over, must
-    # predict a fold near the truth's: emitted within 3 s of it, on the ground within
+    # predict a fold near the truth's (from the pitch rate alone, and from the load
+    # factor alone): emitted within 3 s of it, on the ground within
     # 5 km of it (tolerances: common practice, no source; the 1 s emission step, the
     # 4 deg fpa nodes of the table and the assumed length of the manoeuvre).
     rate = -1.5
@@ -143,7 +144,7 @@ def test_push_over_focus_is_predicted_near_the_truths(pitch_table) -> None:
     assert t_truth.size > 0, "truth: no fold for the push-over (the test's premise)"
     i = int(round((LEAD_S + 0.5) / DT))  # half a second into the push-over
     sample = samples[i]
-    adv = advise_at(pitch_table, sample, pitch_rate_dps=rate)
+    adv = advise_at(pitch_table, sample, drop)
     t_pred, lat_pred, lon_pred, pred = predicted_folds(adv, sample["t_s"])
     assert t_pred.size > 0, (
         f"no focus predicted for a push-over at {rate} deg/s (Mach {MACH}, {ALT_FT:.0f} ft): "
@@ -168,7 +169,7 @@ def test_pull_up_predicts_no_false_focus(pitch_table) -> None:
     t_truth, _, _ = truth_folds(track)
     assert t_truth.size == 0, f"truth: a fold for the pull-up at {t_truth[:5]} s"
     i = int(round((LEAD_S + 0.5) / DT))
-    adv = advise_at(pitch_table, samples[i], pitch_rate_dps=rate)
+    adv = advise_at(pitch_table, samples[i])
     t_pred, _, _, pred = predicted_folds(adv, samples[i]["t_s"])
     assert t_pred.size == 0, f"false focus predicted at {t_pred[:5]} s"
 
@@ -253,3 +254,39 @@ def test_load_factor_is_preferred_and_the_hold_is_bounded() -> None:
     tr, v = _level_start(pitch_rate_rad_s=math.radians(-5.0))
     assert tr.fpa_rad.min() == pytest.approx(-PITCH_FPA_LIMIT_RAD, abs=1e-12)
     assert tr.fpa_rad[tr.t_s >= 2.0].max() == pytest.approx(-PITCH_FPA_LIMIT_RAD, abs=1e-12)
+
+
+# ------------------------------------------------------------------ simulator and feed
+
+def test_simulator_writes_pitch_rate_and_load_factor() -> None:
+    # Wings-level push-over at rate w: body pitch rate w and load factor
+    # cos(gamma) + V w / g (point-mass equation normal to the path; closed form: negative
+    # here, -0.26 g, the push-over of Why 6 is a negative-g manoeuvre); a level
+    # coordinated turn: q = psi_dot sin(bank), n = 1 / cos(bank) (closed forms). Samples
+    # go through the feed's encoder and the decoder unchanged (real bytes).
+    from advisory.io.messages import decode_frame, encode_air
+
+    state = FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH, HDG, pitch_load=True)
+    pilot = Pilot([Segment("pitch", pitch_rate_deg_s=-1.5, duration_s=4.0)])
+    samples = []
+    for i in range(40):
+        pilot.update(state, DT)
+        samples.append(state.step(DT, i * DT))
+    s = samples[20]
+    v = MACH * float(standard_atmosphere().at(units.ft_to_m(ALT_FT)).sound_speed_mps)
+    w = math.radians(-1.5)
+    assert s["pitch_rate_dps"] == pytest.approx(-1.5, abs=1e-9)
+    n = math.cos(math.radians(s["fpa_deg"])) + v * w / 9.80665
+    assert s["load_factor"] == pytest.approx(n, rel=1e-3) and n < 0.0
+    fields = {k: x for k, x in s.items() if k != "t_s"}
+    assert decode_frame(encode_air(fields, 7, 1.8e9)).fields == fields
+    state = FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH, HDG, bank_deg=30.0,
+                        pitch_load=True)
+    s = state.step(DT, 0.0)
+    b = math.radians(30.0)
+    assert s["pitch_rate_dps"] == pytest.approx(
+        math.degrees(9.80665 * math.tan(b) / v * math.sin(b)), rel=1e-3)
+    assert s["load_factor"] == pytest.approx(1.0 / math.cos(b), rel=1e-9)
+    # off by default: the demo flights' records keep their bytes
+    assert "pitch_rate_dps" not in FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH,
+                                               HDG).step(DT)

@@ -290,3 +290,33 @@ def test_simulator_writes_pitch_rate_and_load_factor() -> None:
     # off by default: the demo flights' records keep their bytes
     assert "pitch_rate_dps" not in FlightState(standard_atmosphere(), LAT0, LON0, ALT_FT, MACH,
                                                HDG).step(DT)
+
+
+# ------------------------------------------------------------------ validation
+
+def test_validator_accepts_and_refuses_the_new_fields() -> None:
+    # Accepted ranges (ICD section 4; common practice, no source): |pitch rate| <= 30
+    # deg/s, load factor -3 .. 9 g. Bad input gets one line naming the field and value.
+    from advisory.pipeline.state import Rejection, StateValidator
+
+    base = {"lat_deg": LAT0, "lon_deg": LON0, "alt_ft": ALT_FT, "mach": MACH,
+            "heading_deg": HDG, "gs_kt": 917.0, "bank_deg": 0.0, "fpa_deg": 0.0}
+    st = StateValidator().validate(dict(base, pitch_rate_dps=-1.5, load_factor=-0.25), 1.0,
+                                   now_monotonic=1.0)
+    assert isinstance(st, AirDataState)
+    assert st.pitch_rate_rad_s == pytest.approx(math.radians(-1.5), rel=1e-15)
+    assert st.load_factor == -0.25
+    st = StateValidator().validate(base, 1.0, now_monotonic=1.0)
+    assert isinstance(st, AirDataState) and st.pitch_rate_rad_s is None
+    assert st.load_factor is None
+    for field, value, code in [("pitch_rate_dps", 45.0, "range:pitch_rate_dps"),
+                               ("load_factor", 9.5, "range:load_factor"),
+                               ("load_factor", math.nan, "nonfinite:load_factor"),
+                               ("pitch_rate_dps", "up", "type:pitch_rate_dps")]:
+        rej = StateValidator().validate(dict(base, **{field: value}), 1.0, now_monotonic=1.0)
+        assert isinstance(rej, Rejection) and rej == code, rej
+        assert field in rej.detail and repr(value)[:4] in rej.detail, rej.detail
+    # the state's fields round-trip (AirDataState.to_fields / from_fields)
+    st = AirDataState.from_fields(dict(base, pitch_rate_dps=2.5, load_factor=1.2))
+    back = st.to_fields()
+    assert back["pitch_rate_dps"] == pytest.approx(2.5) and back["load_factor"] == 1.2

@@ -28,7 +28,14 @@ AIR_REQUIRED = (
     "lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg", "fpa_deg",
 )
 #: Air-data fields a frame may carry (nil or absent when the source does not have them).
-AIR_OPTIONAL = ("track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt")
+#: ``pitch_rate_dps`` (body pitch rate, deg/s, nose up positive) and ``load_factor``
+#: (normal load factor, g) were appended later under the ICD's version rule (section 7).
+AIR_OPTIONAL = ("track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt",
+                "pitch_rate_dps", "load_factor")
+#: The optional fields appended after the first release, last in AIR_OPTIONAL: encoders
+#: write both keys (nil for one not sent) when the sender has either, and neither when it
+#: has none, so a frame without them is the earlier 13-field frame byte for byte.
+AIR_LATER_OPTIONAL = ("pitch_rate_dps", "load_factor")
 AIR_FIELDS = AIR_REQUIRED + AIR_OPTIONAL  #: canonical order after the header
 
 # ----------------------------------------------------------------------------- advisories

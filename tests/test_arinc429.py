@@ -229,3 +229,34 @@ def test_assembler_never_raises(word):
     asm = a429.Arinc429Assembler()
     asm.feed_word(word, 0.0)
     assert sum(v for k, v in asm.counters.items() if k != "words") <= 1
+
+
+def test_pitch_rate_and_normal_acceleration_labels_by_hand():
+    # Label 326 body pitch rate: BNR, 13 significant bits, range 128 deg/s (0.015625
+    # deg/s per count); label 333 body normal acceleration: BNR, 12 significant bits,
+    # range 4 g (1/1024 g per count). Both values from memory of attachment 2 (ICD
+    # section 11). Words built by hand: two's complement over sign + the bits, the MSB of
+    # the data in bit 28, so 13 bits sit in bits 16-28 and 12 bits in bits 17-28.
+    q = _word_by_hand("326", 0, ((-96) & ((1 << 14) - 1)) << 5, 3)  # -1.5 deg/s
+    n = _word_by_hand("333", 0, ((-256) & ((1 << 13) - 1)) << 6, 3)  # -0.25 g
+    asm = a429.Arinc429Assembler()
+    assert asm.feed_word(q, 1.0) == "pitch_rate_dps"
+    assert asm.feed_word(n, 1.0) == "load_factor"
+    fields = asm.fields(1.1)
+    assert fields["pitch_rate_dps"] == -1.5
+    assert fields["load_factor"] == -0.25
+    assert a429.encode_bnr(0o326, -1.5, 13, 128.0) == q
+    assert a429.encode_bnr(0o333, -0.25, 12, 4.0) == n
+
+
+def test_pitch_rate_and_load_factor_words_reach_the_state():
+    # End to end: the flight's words plus labels 326 and 333 assembled and validated; the
+    # state carries the SI pitch rate and the load factor.
+    words = _flight_words(40.25, -99.75, 45000.0, 1.4, 270.0, 740.0, 0.0, 0.0)
+    words += [a429.encode_bnr(0o326, 2.0, 13, 128.0), a429.encode_bnr(0o333, 1.5, 12, 4.0)]
+    asm = a429.Arinc429Assembler()
+    asm.feed_payload(a429.payload_from_words(words), 10.0)
+    st_ = StateValidator().validate(asm.fields(10.1), rx_monotonic=10.0, now_monotonic=10.1)
+    assert isinstance(st_, AirDataState), st_
+    assert st_.pitch_rate_rad_s == pytest.approx(math.radians(2.0))
+    assert st_.load_factor == pytest.approx(1.5, abs=1e-3)

@@ -30,6 +30,7 @@ from advisory.io.messages import (
 from advisory.schema import (
     ADV_FIELDS,
     AIR_FIELDS,
+    AIR_LATER_OPTIONAL,
     AIR_OPTIONAL,
     AIR_REQUIRED,
     CRC_LEN,
@@ -43,6 +44,11 @@ from tests.twins.framing import deframe_twin, unstuff_check_twin
 VECTORS = json.loads((Path(__file__).parent / "vectors" / "wire_vectors.json").read_text(
     encoding="utf-8"))
 ICD = Path(__file__).parent.parent / "docs" / "interface.md"
+
+#: The air fields of the first release of the ICD (section 4 as first published).
+FIRST_RELEASE_AIR = ("lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt",
+                     "bank_deg", "fpa_deg", "track_deg", "mach_rate_per_s", "sat_c",
+                     "wind_from_deg", "wind_kt")
 
 AIR = {"lat_deg": 40.0, "lon_deg": -100.0, "alt_ft": 45000.0, "mach": 1.4,
        "heading_deg": 90.0, "gs_kt": 740.0, "bank_deg": 0.0, "fpa_deg": 0.0}
@@ -59,9 +65,15 @@ def _general(payload: bytes) -> Frame:
 def test_air_payload_is_what_msgpack_python_packs():
     # Reference: msgpack-python itself, use_bin_type=True, keys in the canonical order
     # (ICD "Canonical key order"): floats as float 64, ints in their smallest format.
+    # Without pitch rate and load factor the later pair is left out (ICD section 4).
     fields = dict(AIR, sat_c=-56.5)
     p = encode_air(fields, 7, 1893456000.0)
     ref = {"v": 1, "type": "air", "seq": 7, "utc_s": 1893456000.0}
+    ref.update({k: fields.get(k) for k in AIR_FIELDS if k not in AIR_LATER_OPTIONAL})
+    assert p == msgpack.packb(ref, use_bin_type=True)
+    assert list(msgpack.unpackb(p)) == list(HEADER_KEYS + FIRST_RELEASE_AIR)
+    fields = dict(AIR, sat_c=-56.5, load_factor=1.25)
+    p = encode_air(fields, 7, 1893456000.0)
     ref.update({k: fields.get(k) for k in AIR_FIELDS})
     assert p == msgpack.packb(ref, use_bin_type=True)
     assert list(msgpack.unpackb(p)) == list(HEADER_KEYS + AIR_FIELDS)
@@ -121,16 +133,52 @@ def test_shared_invalid_vectors_python_side():
 
 def test_air_round_trip_with_optional_fields():
     fields = dict(AIR, track_deg=91.0, mach_rate_per_s=0.001, sat_c=-50.0,
-                  wind_from_deg=270.0, wind_kt=30.0)
+                  wind_from_deg=270.0, wind_kt=30.0, pitch_rate_dps=-1.5, load_factor=-0.25)
     f = decode_frame(encode_air(fields, 42, 1893456000.25))
     assert f == Frame("air", 42, 1893456000.25, fields, 1)
+    fields.update(pitch_rate_dps=None)  # one of the pair: the other is sent as nil
+    p = encode_air(fields, 43, 1893456000.25)
+    assert b"\xaepitch_rate_dps\xc0" in p
+    assert decode_frame(p) == Frame("air", 43, 1893456000.25, fields, 1) == _general(p)
 
 
 def test_air_absent_optionals_decode_as_none():
     f = decode_frame(encode_air(AIR, 1, 1893456000.0))
     assert f.fields == dict(AIR, track_deg=None, mach_rate_per_s=None, sat_c=None,
-                            wind_from_deg=None, wind_kt=None)
+                            wind_from_deg=None, wind_kt=None, pitch_rate_dps=None,
+                            load_factor=None)
     assert list(f.fields) == list(AIR_FIELDS)
+
+
+def test_frames_without_the_later_pair_keep_their_bytes_and_decode():
+    # Version rule (ICD section 7): a new optional field keeps v = 1. A frame without
+    # the pair is the first release's frame byte for byte (the shared vectors predate
+    # the pair and are still what the encoder writes, test_shared_vectors_python_side),
+    # and it decodes on both paths with the pair None.
+    for case in VECTORS["air"]:
+        p = bytes.fromhex(case["payload"])
+        assert list(msgpack.unpackb(p))[4:] == list(FIRST_RELEASE_AIR)
+        f = decode_frame(p)
+        assert f == _general(p) and f.fields["pitch_rate_dps"] is None
+        assert f.fields["load_factor"] is None
+
+
+def test_a_first_release_reader_sees_the_same_entries_and_ignores_the_pair():
+    # Version rule (ICD section 7): receivers ignore unknown fields. A first-release
+    # reader knows FIRST_RELEASE_AIR only: in a frame with the pair it finds the very
+    # same entries (same order, same bytes) plus two keys it does not know. The decoder
+    # treats a key it does not know the same way (decoded, counted as unknown), shown
+    # here with a key no release defines.
+    fields = dict(AIR, sat_c=-56.5, pitch_rate_dps=2.0, load_factor=1.1)
+    new = msgpack.unpackb(encode_air(fields, 9, 1893456000.0))
+    old = msgpack.unpackb(encode_air(dict(AIR, sat_c=-56.5), 9, 1893456000.0))
+    assert {k: v for k, v in new.items() if k not in AIR_LATER_OPTIONAL} == old
+    assert list(new)[:len(old)] == list(old)
+    m = dict(new, roll_rate_dps=3.0)
+    unknown: list[str] = []
+    f = Frame(*frame_rules.check_map(m, unknown))
+    assert unknown == ["roll_rate_dps"]
+    assert f.fields == {k: fields.get(k) for k in AIR_FIELDS}
 
 
 def test_adv_round_trip_and_defaults():

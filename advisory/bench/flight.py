@@ -84,13 +84,14 @@ class FlightState:
 
     Attributes (edge units, see the module notes): ``t_s``, ``lat_deg``, ``lon_deg``,
     ``alt_m`` (geometric, m), ``mach``, ``heading_deg`` (air-relative), ``bank_deg``,
-    ``fpa_deg``; targets ``mach_target``, ``mach_rate`` (1/s), ``bank_target``,
+    ``fpa_deg``; ``pitch_load`` (samples carry the body pitch rate and the load
+    factor, :meth:`_pitch_and_load`); targets ``mach_target``, ``mach_rate`` (1/s), ``bank_target``,
     ``roll_rate`` (deg/s), ``fpa_target``, ``pitch_rate`` (deg/s).
     """
 
     def __init__(self, atmosphere: Atmosphere, lat_deg: float, lon_deg: float, alt_ft: float,
                  mach: float, heading_deg: float, fpa_deg: float = 0.0, bank_deg: float = 0.0,
-                 roll_rate_deg_s: float = 5.0) -> None:
+                 roll_rate_deg_s: float = 5.0, pitch_load: bool = False) -> None:
         self.atmosphere = atmosphere
         self.t_s = 0.0
         self.lat_deg, self.lon_deg = float(lat_deg), float(lon_deg)
@@ -101,6 +102,9 @@ class FlightState:
         self.bank_target, self.roll_rate = self.bank_deg, float(roll_rate_deg_s)
         self.fpa_target, self.pitch_rate = self.fpa_deg, 1.0
         self.step_index = 0
+        #: Whether samples carry ``pitch_rate_dps`` and ``load_factor`` (off: the demo
+        #: flights' records stay as they were synthesized).
+        self.pitch_load = bool(pitch_load)
         self._air_at: tuple[float, AtmosphereSample] | None = None
 
     def air(self) -> AtmosphereSample:
@@ -147,6 +151,8 @@ class FlightState:
             "wind_from_deg": wind_from if wind_speed > 0.0 else 0.0,
             "wind_kt": units.mps_to_kt(wind_speed),
         }
+        if self.pitch_load:
+            sample.update(self._pitch_and_load(tas, dt_s))
         self.heading_deg = (self.heading_deg + math.degrees(
             units.G0 * math.tan(math.radians(self.bank_deg)) / tas) * dt_s) % 360.0
         p = direct_deg(self.lat_deg, self.lon_deg, track, gs * dt_s)
@@ -158,6 +164,28 @@ class FlightState:
         self.t_s = t + dt_s
         self.step_index += 1
         return sample
+
+    def _pitch_and_load(self, tas: float, dt_s: float) -> dict[str, float]:
+        """Body pitch rate (deg/s) and normal load factor of the step about to be flown.
+
+        The flight-path angle's rate is that of the coming step; the pitch attitude is
+        taken to move with the flight-path angle (angle of attack held), so the body
+        pitch rate is ``q = gamma_dot cos(phi) + psi_dot cos(gamma) sin(phi)`` (Euler-angle
+        kinematics), and the load factor is the lift over the weight of the point mass,
+        lift along the body normal (coordinated flight), whose part in the vertical plane
+        of the path supplies ``V gamma_dot + g cos(gamma)``:
+        ``n = (V gamma_dot + g cos(gamma)) / (g cos(phi))`` (point-mass equations of
+        motion; any flight-mechanics text, common practice, no source). It is negative in
+        a push-over steeper than ``g cos(gamma) / V`` (-1.2 deg/s at Mach 1.6, 50,000 ft).
+        """
+        gam = math.radians(self.fpa_deg)
+        phi = math.radians(self.bank_deg)
+        nxt = toward(self.fpa_deg, self.fpa_target, self.pitch_rate * dt_s)
+        gam_dot = math.radians(nxt - self.fpa_deg) / dt_s if dt_s > 0.0 else 0.0
+        psi_dot = units.G0 * math.tan(phi) / tas
+        q = gam_dot * math.cos(phi) + psi_dot * math.cos(gam) * math.sin(phi)
+        n = (tas * gam_dot + units.G0 * math.cos(gam)) / (units.G0 * math.cos(phi))
+        return {"pitch_rate_dps": math.degrees(q), "load_factor": n}
 
 
 def fly_timed(state: FlightState, duration_s: float, rate_hz: float,

@@ -1,8 +1,10 @@
 """Canonical air frames read without a general MessagePack unpacker (the hot path).
 
-An air-data frame written by :func:`advisory.io.messages.encode_air` has one exact byte
-layout: a map 16 of the header keys and :data:`advisory.schema.AIR_FIELDS` in canonical
-order, every number a float 64, each optional field a float 64 or nil. The kernel here
+An air-data frame written by :func:`advisory.io.messages.encode_air` has one of two exact
+byte layouts: a map 16 of the header keys and :data:`advisory.schema.AIR_FIELDS` in
+canonical order, every number a float 64, each optional field a float 64 or nil; the
+later optional pair (:data:`advisory.schema.AIR_LATER_OPTIONAL`) is either written or
+left out together. The kernel here
 reads that layout straight from the bytes; anything else (a different key order, ints,
 float 32, extra keys) makes it answer "not canonical" and the caller falls back to the
 general decoder, which applies every rule of the ICD (``docs/interface.md``, "Decoding
@@ -27,13 +29,13 @@ import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 import numpy as np
 
 from advisory.jit import njit
-from advisory.schema import AIR_FIELDS, AIR_REQUIRED, WIRE_FORMAT_VERSION
+from advisory.schema import AIR_FIELDS, AIR_LATER_OPTIONAL, AIR_REQUIRED, WIRE_FORMAT_VERSION
 
 
 def _air_template() -> tuple[np.ndarray, np.ndarray]:
-    """Canonical bytes of an air frame's keys: header prefix, then each field's key."""
-    head = (b"\xde" + (4 + len(AIR_FIELDS)).to_bytes(2, "big")
-            + msgpack.packb("v") + msgpack.packb(WIRE_FORMAT_VERSION)
+    """Canonical bytes of an air frame's keys: header prefix (after the 3-byte map 16
+    head), then each field's key."""
+    head = (msgpack.packb("v") + msgpack.packb(WIRE_FORMAT_VERSION)
             + msgpack.packb("type") + msgpack.packb("air") + msgpack.packb("seq"))
     keys = [head, msgpack.packb("utc_s")] + [msgpack.packb(k) for k in AIR_FIELDS]
     offsets = np.cumsum([0] + [len(k) for k in keys]).astype(np.int64)
@@ -45,6 +47,11 @@ _AIR_KEYS, _AIR_KEY_OFFSETS = _air_template()
 AIR_FULL_MASK = (1 << len(AIR_FIELDS)) - 1
 #: Indices in AIR_FIELDS of the optional fields (nil allowed).
 AIR_OPTIONAL_IDX = tuple(range(len(AIR_REQUIRED), len(AIR_FIELDS)))
+#: Map sizes of the two canonical layouts: header + the first-release fields, and header
+#: + every field (the later optional pair written, ICD section 4).
+_N_ALL = len(AIR_FIELDS)
+_N_FIRST = _N_ALL - len(AIR_LATER_OPTIONAL)
+_N_REQ = len(AIR_REQUIRED)
 
 
 @njit(cache=True)
@@ -59,18 +66,29 @@ def air_canonical_kernel(buf):  # pragma: no cover - compiled
     Returns
     -------
     tuple
-        ``(mask, seq, utc_s, f0 .. f12)``: ``mask`` is -1 when ``buf`` is not in the
-        exact canonical layout (the caller then uses the general decoder), else bit i set
-        when field i of ``AIR_FIELDS`` is a float (clear: nil, value NaN placeholder).
+        ``(mask, seq, utc_s, f0 .. f14)``: ``mask`` is -1 when ``buf`` is not in one of
+        the two exact canonical layouts (map 16 of 17 entries without the later optional
+        pair, or of 19 with it; the caller then uses the general decoder), else bit i
+        set when field i of ``AIR_FIELDS`` is a float (clear: nil or absent, value NaN
+        placeholder).
     """
     keys = _AIR_KEYS
     offs = _AIR_KEY_OFFSETS
     n = len(buf)
-    bits = np.zeros(14, dtype=np.uint64)
+    bits = np.zeros(_N_ALL + 1, dtype=np.uint64)
     vals = bits.view(np.float64)
+    bits[_N_FIRST + 1:] = np.uint64(0x7FF8000000000000)  # NaN: the later pair absent
     bad = (-1, 0, vals[0], vals[1], vals[2], vals[3], vals[4], vals[5], vals[6], vals[7],
-           vals[8], vals[9], vals[10], vals[11], vals[12], vals[13])
-    p = 0
+           vals[8], vals[9], vals[10], vals[11], vals[12], vals[13], vals[14], vals[15])
+    if n < 3 or buf[0] != 0xDE or buf[1] != 0:
+        return bad
+    if buf[2] == 4 + _N_FIRST:
+        nf = _N_FIRST
+    elif buf[2] == 4 + _N_ALL:
+        nf = _N_ALL
+    else:
+        return bad
+    p = 3
     # header prefix up to the seq key
     for j in range(offs[0], offs[1]):
         if p >= n or buf[p] != keys[j]:
@@ -93,7 +111,7 @@ def air_canonical_kernel(buf):  # pragma: no cover - compiled
     else:
         return bad
     mask = 0
-    for k in range(14):  # utc_s then the 13 fields
+    for k in range(nf + 1):  # utc_s then the fields
         for j in range(offs[k + 1], offs[k + 2]):
             if p >= n or buf[p] != keys[j]:
                 return bad
@@ -112,11 +130,12 @@ def air_canonical_kernel(buf):  # pragma: no cover - compiled
             p += 8
             if k > 0:
                 mask |= 1 << (k - 1)
-        elif c == 0xC0 and k > 8:  # nil allowed for the optional fields only
+        elif c == 0xC0 and k > _N_REQ:  # nil allowed for the optional fields only
             pass
         else:
             return bad
     if p != n:
         return bad
     return (mask, seq, vals[0], vals[1], vals[2], vals[3], vals[4], vals[5], vals[6],
-            vals[7], vals[8], vals[9], vals[10], vals[11], vals[12], vals[13])
+            vals[7], vals[8], vals[9], vals[10], vals[11], vals[12], vals[13], vals[14],
+            vals[15])

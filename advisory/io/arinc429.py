@@ -276,6 +276,10 @@ DEFAULT_LABELS: dict[int, LabelSpec] = {s.label: s for s in (
     _spec("316", "wind_from_deg", 8, 180.0, wrap=True),  # wind direction true, deg
     _spec("322", "fpa_deg", 12, 180.0),  # flight path angle, deg
     _spec("325", "bank_deg", 14, 180.0),  # roll angle, deg, right wing down positive
+    _spec("326", "pitch_rate_dps", 13, 128.0),  # body pitch rate, deg/s, nose up positive
+    # body normal acceleration, g, read as the load factor (1 in level flight): confirm
+    # the equipment's sign and zero (scale = -1 or offset = 1 in a label map fix them)
+    _spec("333", "load_factor", 12, 4.0),
 )}
 
 

@@ -17,6 +17,7 @@ from advisory.schema import (
     ADV_FIELDS,
     ADV_STATUSES,
     AIR_FIELDS,
+    AIR_LATER_OPTIONAL,
     AIR_OPTIONAL,
     AIR_REQUIRED,
     COUNTER_NAME_MAX_BYTES,
@@ -87,20 +88,28 @@ def _dec_text(name: str, value: Any, max_bytes: int) -> str:
     return value
 
 
-_AIR_GETTER = operator.itemgetter(*AIR_FIELDS)
+#: The fields of the first release (every air frame an encoder writes has these keys).
+_AIR_FIRST = AIR_FIELDS[:len(AIR_FIELDS) - len(AIR_LATER_OPTIONAL)]
+_AIR_GETTER = operator.itemgetter(*_AIR_FIRST)
 _FLOAT_ONLY = frozenset((float,))
 _FLOAT_OR_NIL = frozenset((float, type(None)))
+_NONE_LATER = (None,) * len(AIR_LATER_OPTIONAL)
 
 
 def _dec_air(m: dict) -> tuple[dict, int]:
-    try:  # fast path: every key present, required all float, optional float or nil
-        vals = _AIR_GETTER(m)
+    try:  # fast path: every first-release key present, required all float, optional
+        vals = _AIR_GETTER(m)  # float or nil; the later pair both absent or float/nil
     except KeyError:
         pass
     else:
         if (_FLOAT_ONLY.issuperset(map(type, vals[:8]))
                 and _FLOAT_OR_NIL.issuperset(map(type, vals[8:]))):
-            return dict(zip(AIR_FIELDS, vals)), 13
+            later = tuple(m.get(k, _MISSING) for k in AIR_LATER_OPTIONAL)
+            if _MISSING not in later:
+                if _FLOAT_OR_NIL.issuperset(map(type, later)):
+                    return dict(zip(AIR_FIELDS, vals + later)), len(AIR_FIELDS)
+            elif later == (_MISSING,) * len(later):
+                return dict(zip(AIR_FIELDS, vals + _NONE_LATER)), len(_AIR_FIRST)
     out: dict[str, Any] = {}
     present = 0
     get = m.get

@@ -44,6 +44,7 @@ from advisory.schema import (
     ADV_FIELDS,
     ADV_STATUSES,
     AIR_FIELDS,
+    AIR_LATER_OPTIONAL,
     AIR_OPTIONAL,
     AIR_REQUIRED,
     AUTH_KEY,
@@ -164,8 +165,10 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     fields : dict
         Wire names to values: ``lat_deg``, ``lon_deg``, ``alt_ft``, ``mach``,
         ``heading_deg``, ``gs_kt``, ``bank_deg``, ``fpa_deg`` (required numbers) and
-        ``track_deg``, ``mach_rate_per_s``, ``sat_c``, ``wind_from_deg``, ``wind_kt``
-        (optional: missing or ``None`` is sent as nil). Ranges are not checked here
+        ``track_deg``, ``mach_rate_per_s``, ``sat_c``, ``wind_from_deg``, ``wind_kt``,
+        ``pitch_rate_dps``, ``load_factor`` (optional: missing or ``None`` is sent as
+        nil; the last two, :data:`advisory.schema.AIR_LATER_OPTIONAL`, are left out
+        together when neither is given, ICD section 4). Ranges are not checked here
         (the receiver's :class:`advisory.pipeline.state.StateValidator` does); NaN is sendable
         so that fault tests can send it.
     seq : int
@@ -176,7 +179,8 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     Returns
     -------
     bytes
-        MessagePack payload in canonical key order (header, then :data:`AIR_FIELDS`).
+        MessagePack payload in canonical key order (header, then :data:`AIR_FIELDS`,
+        without the later optional pair when neither is given).
 
     Raises
     ------
@@ -190,8 +194,11 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
         if value is None:
             raise ValueError(f"air-data field {name!r} is required")
         m[name] = _num(name, value)
+    later = any(fields.get(name) is not None for name in AIR_LATER_OPTIONAL)
     for name in AIR_OPTIONAL:
         value = fields.get(name)
+        if value is None and not later and name in AIR_LATER_OPTIONAL:
+            continue  # neither later field: the earlier 13-field frame, byte for byte
         m[name] = None if value is None else _num(name, value)
     return _pack(m)
 

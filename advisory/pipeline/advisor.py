@@ -247,15 +247,17 @@ class Advisor:
     def _trajectory(self, s: AirDataState, pz: ProjectedZones) -> Trajectory:
         """The trajectory ahead from state ``s``, in the zones' frame."""
         # Level flight keeps the altitude, hence the sound speed: pass the value.
+        level = s.fpa_rad == 0.0 and s.pitch_rate_rad_s is None and s.load_factor is None
         sound: SpeedOfSound = (
             float(np.interp(s.alt_m, self._atm.z_m, self._atm.sound_speed_mps))
-            if s.fpa_rad == 0.0 else self._sound)
+            if level else self._sound)
         return predict_trajectory(
             s.lat_rad, s.lon_rad, s.alt_m, s.mach, s.heading_rad, s.gs_mps,
             speed_of_sound=sound, track_rad=s.track_rad, bank_rad=s.bank_rad,
             fpa_rad=s.fpa_rad, mach_rate_per_s=s.mach_rate_per_s or 0.0,
             wind_east_mps=s.wind_east_mps, wind_north_mps=s.wind_north_mps,
             lookahead_s=self.config.look_ahead_s, step_s=self.config.step_s, frame=pz.frame,
+            pitch_rate_rad_s=s.pitch_rate_rad_s, load_factor=s.load_factor,
         )
 
     def _step(self, s: AirDataState, now: float) -> Advisory:

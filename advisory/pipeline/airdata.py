@@ -39,6 +39,12 @@ AIR_RANGES: dict[str, tuple[float, float]] = {
     "sat_c": (-100.0, 60.0),
     "wind_from_deg": (0.0, 360.0),
     "wind_kt": (0.0, 400.0),
+    # body pitch rate: well beyond what a transport or business aircraft flies (a few
+    # deg/s) and inside a fighter's; load factor: -3 .. 9 g, the envelope of aerobatic
+    # and military aircraft, outside any airliner's -1 .. 2.5 g (common practice, no
+    # source; these only refuse nonsense, the trajectory bounds what it predicts)
+    "pitch_rate_dps": (-30.0, 30.0),
+    "load_factor": (-3.0, 9.0),
 }
 
 #: The state attribute of each required wire field and the factor from wire units to SI.
@@ -81,6 +87,11 @@ class AirDataState:
         Sender's UTC time of the sample, s since 1970.
     rx_monotonic : float or None
         ``time.monotonic()`` when the frame was received, s.
+    pitch_rate_rad_s : float or None
+        Body-axis pitch rate, rad/s, positive nose up; None when not sent.
+    load_factor : float or None
+        Normal load factor (lift over weight), g units: 1 in level unaccelerated flight;
+        None when not sent.
     """
 
     lat_rad: float
@@ -98,6 +109,8 @@ class AirDataState:
     wind_north_mps: float | None = None
     utc_s: float | None = None
     rx_monotonic: float | None = None
+    pitch_rate_rad_s: float | None = None
+    load_factor: float | None = None
 
     @classmethod
     def from_fields(cls, fields: Mapping[str, Any], *, utc_s: float | None = None,
@@ -163,6 +176,9 @@ class AirDataState:
             "sat_c": None if self.sat_k is None else self.sat_k - KELVIN_OFFSET,
             "wind_from_deg": wind_from,
             "wind_kt": wind_kt,
+            "pitch_rate_dps": (None if self.pitch_rate_rad_s is None
+                               else self.pitch_rate_rad_s / DEG),
+            "load_factor": self.load_factor,
         }
 
 
@@ -171,7 +187,7 @@ _object_new = object.__new__
 
 
 def new_state(values: tuple) -> AirDataState:
-    """An :class:`AirDataState` from its 15 values in field order, without the generated
+    """An :class:`AirDataState` from its 17 values in field order, without the generated
     ``__init__`` (half the cost on the hot path; same object, still frozen)."""
     st = _object_new(AirDataState)
     st.__dict__.update(zip(_STATE_NAMES, values))
@@ -183,6 +199,7 @@ def _build(v: Mapping[str, float], o: Mapping[str, float | None], utc_s: float |
     """The state of required wire values ``v`` and optional ones ``o`` (None: not sent)."""
     track = o["track_deg"]
     sat = o["sat_c"]
+    pitch = o["pitch_rate_dps"]
     wind_from = o["wind_from_deg"]
     wind_kt = o["wind_kt"]
     east = north = None
@@ -196,6 +213,7 @@ def _build(v: Mapping[str, float], o: Mapping[str, float | None], utc_s: float |
         o["mach_rate_per_s"],
         None if sat is None else sat + KELVIN_OFFSET,
         east, north, utc_s, rx_monotonic,
+        None if pitch is None else pitch * DEG, o["load_factor"],
     )
 
 

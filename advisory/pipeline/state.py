@@ -303,6 +303,8 @@ class StateValidator:
             sat = get("sat_c")
             wfrom = get("wind_from_deg")
             wkt = get("wind_kt")
+            prate = get("pitch_rate_dps")
+            nload = get("load_factor")
         except Exception:
             return self._field_problem(fields) or self._reject(
                 "internal", "required fields unreadable")
@@ -319,19 +321,22 @@ class StateValidator:
             lat, lon, alt, mach, hdg, gs, bank, fpa = (
                 float(fields[n]) for n in AIR_REQUIRED)
         # optional fields
-        (p0, p1, q0, q1, r0, r1, s0, s1, t0, t1) = self._opt_flat
+        (p0, p1, q0, q1, r0, r1, s0, s1, t0, t1, u0, u1, v0, v1) = self._opt_flat
         if not ((track is None or (type(track) is float and p0 <= track <= p1))
                 and (mrate is None or (type(mrate) is float and q0 <= mrate <= q1))
                 and (sat is None or (type(sat) is float and r0 <= sat <= r1))
                 and (wfrom is None or (type(wfrom) is float and s0 <= wfrom <= s1))
-                and (wkt is None or (type(wkt) is float and t0 <= wkt <= t1))):
+                and (wkt is None or (type(wkt) is float and t0 <= wkt <= t1))
+                and (prate is None or (type(prate) is float and u0 <= prate <= u1))
+                and (nload is None or (type(nload) is float and v0 <= nload <= v1))):
             opt = []
-            for (name, lo, hi), x in zip(self._opt, (track, mrate, sat, wfrom, wkt)):
+            for (name, lo, hi), x in zip(self._opt, (track, mrate, sat, wfrom, wkt, prate,
+                                                     nload)):
                 rej = self._check_value(name, x, lo, hi, required=False)
                 if rej is not None:
                     return rej
                 opt.append(None if x is None else float(x))
-            track, mrate, sat, wfrom, wkt = opt
+            track, mrate, sat, wfrom, wkt, prate, nload = opt
         if (wfrom is None) is not (wkt is None):
             return self._reject("wind_incomplete", "air-data fields 'wind_from_deg' and "
                                 "'wind_kt' must come together, got wind_from_deg="
@@ -462,6 +467,7 @@ class StateValidator:
             lat * DEG, lon * DEG, alt * FT, mach, (hdg % 360.0) * DEG, gs * KT, bank * DEG,
             fpa * DEG, None if track is None else (track % 360.0) * DEG, mrate,
             None if sat is None else sat + KELVIN_OFFSET, east, north, utc_s, rx,
+            None if prate is None else prate * DEG, nload,
         ))
         self._last_state = st
         self.accepted += 1

@@ -1,10 +1,12 @@
 """Trajectory ahead: where the aircraft will be over the next minutes, from one state.
 
 The prediction holds the present manoeuvre: a coordinated turn at the current bank,
-a constant Mach rate and a constant flight-path angle, in a wind that is constant over
-the look-ahead. It is propagated in a :class:`~advisory.geo.frame.LocalFrame` plane
-(about the start point unless another frame is given), where straight flight is a
-geodesic on WGS 84, then turned into latitude and longitude with the direct problem.
+a constant Mach rate and the flight-path angle (changing at the present pitch rate for a
+bounded time when the air data carry a pitch rate or a load factor, then held), in a
+wind that is constant over the look-ahead. It is propagated in a
+:class:`~advisory.geo.frame.LocalFrame` plane (about the start point unless another
+frame is given), where straight flight is a geodesic on WGS 84, then turned into
+latitude and longitude with the direct problem.
 
 Physics
 -------
@@ -17,6 +19,9 @@ Physics
   ``g`` is standard gravity, 9.80665 m/s^2 (U.S. Standard Atmosphere 1976).
 * Climb: vertical speed ``V sin(gamma)``, ``gamma`` the (air-relative) flight-path
   angle; horizontal airspeed ``V cos(gamma)``.
+* Pitch (push-over, pull-up): the flight-path angle changes at the rate
+  :func:`advisory.pipeline.pitch.flight_path_rate` gives (from the load factor or the
+  pitch rate, sources there) for a bounded time, then holds (:mod:`advisory.pipeline.pitch`).
 * Mach: ``M(t) = M0 + Mdot t`` (held at or above :data:`MIN_MACH`), ``V = M a(h)``.
 * Wind: ground velocity = air velocity + wind. Without a wind, it is inferred from the
   ground track and ground speed when a track is given (``wind = ground velocity - air
@@ -52,6 +57,7 @@ import numpy as np
 
 from advisory.geo.frame import FramePoints, LocalFrame
 from advisory.jit import njit
+from advisory.pipeline.pitch import flight_path_rate, fpa_profile, pitch_end_s
 from advisory.units import G0
 
 __all__ = [
@@ -216,9 +222,11 @@ def _sound_speed(speed_of_sound: SpeedOfSound, alt: np.ndarray) -> np.ndarray:
 #: Rows of the array returned by :func:`propagate_kernel`.
 PROPAGATE_ROWS = ("east_m", "north_m", "alt_m", "tas_mps", "heading_grid_rad",
                   "turn_rate_rad_s", "bank_rad", "track_grid_rad", "ground_speed_mps")
-#: Order of the entries of the ``params`` argument of :func:`propagate_kernel`.
+#: Order of the entries of the ``params`` argument of :func:`propagate_kernel`; the last
+#: two are optional (12 entries: the flight-path angle is held).
 PROPAGATE_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank", "turn_limit", "psi0", "wind_e",
-                    "wind_n", "e0", "n0", "radius", "g")
+                    "wind_n", "e0", "n0", "radius", "g", "fpa_rate", "pitch_end_s")
+
 
 
 @njit(cache=True)
@@ -233,12 +241,16 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
     mach, a : ndarray
         float64 (N,) Mach number and speed of sound (m/s) at those times.
     params : ndarray
-        float64 (12,) in the order of :data:`PROPAGATE_PARAMS`: altitude at t = 0 (m);
-        sine and cosine of the flight-path angle; bank (rad, positive right); signed
-        heading change at which the turn ends (rad, NaN for none); grid heading at
+        float64 (12,) or (14,) in the order of :data:`PROPAGATE_PARAMS`: altitude at
+        t = 0 (m); sine and cosine of the flight-path angle; bank (rad, positive right);
+        signed heading change at which the turn ends (rad, NaN for none); grid heading at
         t = 0 (rad); wind grid components east and north (m/s); start position in the
         frame (m, m); the frame's Gaussian radius (m; map scales
-        ``h = sqrt(1 - (rho/2R)**2)`` radial, ``1/h`` transverse); gravity (m/s^2).
+        ``h = sqrt(1 - (rho/2R)**2)`` radial, ``1/h`` transverse); gravity (m/s^2);
+        optionally the flight-path angle's rate (rad/s) and the time it is held to (s):
+        the angle is then ``gamma0 + rate min(max(t, 0), end)``
+        (:func:`advisory.pipeline.pitch.fpa_profile`),
+        stepped with its mean over each step (12 entries: held constant, as before).
 
     Returns
     -------
@@ -268,6 +280,10 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
     bank_out = out[6]
     tan_b = math.tan(bank)
     has_limit = not math.isnan(turn_limit)
+    pitching = params.shape[0] > 13 and params[12] != 0.0 and params[13] > 0.0
+    g_rate = params[12] if pitching else 0.0
+    g_end = params[13] if pitching else 0.0
+    gam0 = math.atan2(sin_g, cos_g)
     for i in range(n):
         tas[i] = mach[i] * a[i]
         omega[i] = g * tan_b / tas[i]
@@ -283,7 +299,14 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         bank_out[0] = 0.0
     for i in range(1, n):
         dt = t[i] - t[i - 1]
-        alt[i] = alt[i - 1] + 0.5 * (tas[i] + tas[i - 1]) * sin_g * dt
+        sg = sin_g
+        cg = cos_g
+        if pitching:
+            gm = gam0 + 0.5 * g_rate * (min(max(t[i - 1], 0.0), g_end)
+                                        + min(max(t[i], 0.0), g_end))
+            sg = math.sin(gm)
+            cg = math.cos(gm)
+        alt[i] = alt[i - 1] + 0.5 * (tas[i] + tas[i - 1]) * sg * dt
         if rolled:
             dpsi = 0.0
         else:
@@ -298,7 +321,7 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         psi[i] = psi0 + turned
         x = 0.5 * dpsi
         sinc = 1.0 - x * x / 6.0 if abs(x) < 1e-4 else math.sin(x) / x
-        chord = 0.5 * (tas[i] + tas[i - 1]) * cos_g * dt * sinc
+        chord = 0.5 * (tas[i] + tas[i - 1]) * cg * dt * sinc
         mid = psi[i - 1] + x
         de = chord * math.sin(mid) + wind_e * dt
         dn = chord * math.cos(mid) + wind_n * dt
@@ -320,7 +343,10 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         north[i] = north[i - 1] + dn
     two_pi = 2.0 * math.pi
     for i in range(n):
-        vh = tas[i] * cos_g
+        cg = cos_g
+        if pitching:
+            cg = math.cos(gam0 + g_rate * min(max(t[i], 0.0), g_end))
+        vh = tas[i] * cg
         ge = vh * math.sin(psi[i]) + wind_e
         gn = vh * math.cos(psi[i]) + wind_n
         out[7, i] = math.atan2(ge, gn) % two_pi
@@ -348,6 +374,8 @@ def predict_trajectory(
     step_s: float = DEFAULT_STEP_S,
     roll_out_heading_rad: float | None = None,
     frame: LocalFrame | None = None,
+    pitch_rate_rad_s: float | None = None,
+    load_factor: float | None = None,
 ) -> Trajectory:
     """Predict the trajectory ahead from one air-data state.
 
@@ -390,6 +418,11 @@ def predict_trajectory(
         Plane to propagate and report positions in (e.g. the zones' frame); default a
         frame about the start point. Accuracy is best within a few hundred km of its
         origin.
+    pitch_rate_rad_s : float, optional
+        Body pitch rate, rad/s, nose up positive (|q| <= 30 deg/s).
+    load_factor : float, optional
+        Normal load factor, g units (-3 .. 9). With either, the flight-path angle
+        changes for a bounded time (module notes, "Pitch").
 
     Returns
     -------
@@ -412,6 +445,9 @@ def predict_trajectory(
     horizon = _check("lookahead_s", lookahead_s, 0.0, open_lo=True)
     dt_nom = _check("step_s", step_s, 0.0, open_lo=True)
     trk0 = None if track_rad is None else _check("track_rad", track_rad)
+    q = None if pitch_rate_rad_s is None else _check(
+        "pitch_rate_rad_s", pitch_rate_rad_s, -math.radians(30.0), math.radians(30.0))
+    n_load = None if load_factor is None else _check("load_factor", load_factor, -3.0, 9.0)
     if (wind_east_mps is None) != (wind_north_mps is None):
         raise ValueError("wind_east_mps and wind_north_mps must be given together, got "
                          f"{wind_east_mps!r} and {wind_north_mps!r}")
@@ -430,14 +466,26 @@ def predict_trajectory(
     m = np.maximum(m0 + mdot * t, MIN_MACH)
     sin_g = math.sin(fpa)
     cos_g = math.cos(fpa)
+    a0 = (float(_sound_speed(speed_of_sound, np.array([h0]))[0]) if callable(speed_of_sound)
+          else float(speed_of_sound))
+    g_rate = flight_path_rate(fpa, bank, m0 * a0, q, n_load)
+    g_end = pitch_end_s(fpa, g_rate)
+    pitching = g_end > 0.0
+    fpa_t = fpa_profile(t, fpa, g_rate, g_end) if pitching else np.full_like(t, fpa)
     if callable(speed_of_sound):
-        a0 = float(_sound_speed(speed_of_sound, np.array([h0]))[0])
+        if pitching:  # the kernel's climb: mean angle over each step
+            sin_mid = np.sin(0.5 * (fpa_t[1:] + fpa_t[:-1]))
         alt = h0 + (m0 * a0 * sin_g) * t
         a = _sound_speed(speed_of_sound, alt)
-        if sin_g != 0.0:  # fixed-point passes until the altitudes settle to 1 mm
+        if sin_g != 0.0 or pitching:  # fixed-point passes until the altitudes settle
             dt = np.diff(t)
             for _ in range(PICARD_PASSES):
-                new_alt = h0 + _cumtrapz(m * a * sin_g, dt)
+                if pitching:
+                    v = m * a
+                    new_alt = np.concatenate(([h0], h0 + np.cumsum(
+                        0.5 * (v[1:] + v[:-1]) * sin_mid * dt)))
+                else:
+                    new_alt = h0 + _cumtrapz(m * a * sin_g, dt)
                 a = _sound_speed(speed_of_sound, new_alt)
                 settled = np.abs(new_alt - alt).max() < 1e-3
                 alt = new_alt
@@ -486,7 +534,7 @@ def predict_trajectory(
         wg_e, wg_n = we, wn
 
     params = np.array([h0, sin_g, cos_g, bank, turn_limit, psi_g0, wg_e, wg_n, float(e0),
-                       float(n0), frame.radius_m, G0])
+                       float(n0), frame.radius_m, G0] + ([g_rate, g_end] if pitching else []))
     out = propagate_kernel(t, m, a, params)
     return Trajectory(
         t_s=t,
@@ -497,7 +545,7 @@ def predict_trajectory(
         track_grid_rad=out[7],
         ground_speed_mps=out[8],
         bank_rad=out[6],
-        fpa_rad=np.full_like(t, fpa),
+        fpa_rad=fpa_t,
         turn_rate_rad_s=out[5],
         east_m=out[0],
         north_m=out[1],

@@ -2,7 +2,7 @@
  * boom_vectors.c - test-vector tool for the C binding (used by tests/test_c_binding.py).
  *
  * Reads one command per line on stdin and writes one result line per command:
- *   air SEQ UTC F1 .. F13   encode an air frame; UTC and Fi are the 16 hex digits of a
+ *   air SEQ UTC F1 .. F15   encode an air frame; UTC and Fi are the 16 hex digits of a
  *                           double's IEEE 754 bits, "-" for an absent optional field;
  *                           prints "PAYLOAD STREAM DATAGRAM" in hex
  *   dec HEX                 decode a payload: "ok TYPE key=value ..." or "err REASON"
@@ -106,8 +106,8 @@ static int parse_double(const char *tok, double *d, bool *has)
 static void cmd_air(char *rest)
 {
     boom_air a;
-    double v[14];
-    bool has[14];
+    double v[16];
+    bool has[16];
     unsigned long seq;
     char *tok = strtok(rest, " ");
     size_t n = 0, m = 0;
@@ -118,7 +118,7 @@ static void cmd_air(char *rest)
         return;
     }
     seq = strtoul(tok, NULL, 10);
-    for (i = 0; i < 14; i++) {
+    for (i = 0; i < 16; i++) {
         if (parse_double(strtok(NULL, " "), &v[i], &has[i]) != 0 || (i < 9 && !has[i])) {
             printf("err bad_argument\n");
             return;
@@ -143,6 +143,10 @@ static void cmd_air(char *rest)
     a.wind_from_deg = v[12];
     a.has_wind_kt = has[13];
     a.wind_kt = v[13];
+    a.has_pitch_rate_dps = has[14];
+    a.pitch_rate_dps = v[14];
+    a.has_load_factor = has[15];
+    a.load_factor = v[15];
     if (boom_encode_air(&a, (uint32_t)seq, v[0], payload, sizeof payload, &n) != BOOM_OK) {
         printf("err encode\n");
         return;
@@ -191,6 +195,8 @@ static void cmd_dec(const uint8_t *p, size_t n)
         print_opt("sat_c", a->has_sat_c, a->sat_c);
         print_opt("wind_from_deg", a->has_wind_from_deg, a->wind_from_deg);
         print_opt("wind_kt", a->has_wind_kt, a->wind_kt);
+        print_opt("pitch_rate_dps", a->has_pitch_rate_dps, a->pitch_rate_dps);
+        print_opt("load_factor", a->has_load_factor, a->load_factor);
     } else if (f.type == BOOM_FRAME_ADV) {
         const boom_adv *a = &f.u.adv;
         printf(" status=%s", boom_adv_status_name(a->status));

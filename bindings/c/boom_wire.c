@@ -391,15 +391,17 @@ int boom_encode_air(const boom_air *a, uint32_t seq, double utc_s, uint8_t *out,
                     size_t cap, size_t *out_len)
 {
     writer w;
+    bool later;
     if (a == NULL || out == NULL || out_len == NULL)
         return BOOM_E_ARG;
     w.p = out;
     w.n = 0;
     w.cap = cap;
     w.full = false;
-    w_byte(&w, 0xDE); /* map 16: 4 header keys + 13 fields */
+    later = a->has_pitch_rate_dps || a->has_load_factor;
+    w_byte(&w, 0xDE); /* map 16: 4 header keys + 13 fields (+ 2 later optional ones) */
     w_byte(&w, 0x00);
-    w_byte(&w, 17);
+    w_byte(&w, later ? 19 : 17);
     w_str(&w, "v");
     w_uint(&w, BOOM_WIRE_FORMAT_VERSION);
     w_str(&w, "type");
@@ -434,6 +436,12 @@ int boom_encode_air(const boom_air *a, uint32_t seq, double utc_s, uint8_t *out,
     w_opt_double(&w, a->has_wind_from_deg, a->wind_from_deg);
     w_str(&w, "wind_kt");
     w_opt_double(&w, a->has_wind_kt, a->wind_kt);
+    if (later) {
+        w_str(&w, "pitch_rate_dps");
+        w_opt_double(&w, a->has_pitch_rate_dps, a->pitch_rate_dps);
+        w_str(&w, "load_factor");
+        w_opt_double(&w, a->has_load_factor, a->load_factor);
+    }
     if (w.full)
         return BOOM_E_NO_ROOM;
     *out_len = w.n;
@@ -720,6 +728,7 @@ enum {
     KEY_V, KEY_TYPE, KEY_SEQ, KEY_UTC,
     KEY_LAT, KEY_LON, KEY_ALT, KEY_MACH, KEY_HDG, KEY_GS, KEY_BANK, KEY_FPA,
     KEY_TRACK, KEY_MRATE, KEY_SAT, KEY_WFROM, KEY_WKT,
+    KEY_PITCH, KEY_LOAD,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
     KEY_STALE, KEY_CUE,
     KEY_STATE, KEY_REASON, KEY_COUNTERS,
@@ -730,6 +739,7 @@ static const char *const key_names[N_KEYS] = {
     "v", "type", "seq", "utc_s",
     "lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg", "fpa_deg",
     "track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt",
+    "pitch_rate_dps", "load_factor",
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
     "state", "reason", "counters",
@@ -876,6 +886,8 @@ static int decode_air(const keymap *km, boom_air *a)
     OPT(KEY_SAT, sat_c);
     OPT(KEY_WFROM, wind_from_deg);
     OPT(KEY_WKT, wind_kt);
+    OPT(KEY_PITCH, pitch_rate_dps);
+    OPT(KEY_LOAD, load_factor);
     return BOOM_OK;
 }
 

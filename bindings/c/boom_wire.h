@@ -84,6 +84,12 @@ typedef struct {
     double wind_from_deg; /* direction the wind blows from, deg true */
     bool has_wind_kt;
     double wind_kt; /* wind speed, kt */
+    /* Added later (ICD section 4): both keys are written when either has_ flag is set,
+     * neither otherwise (the earlier 13-field frame, byte for byte). */
+    bool has_pitch_rate_dps;
+    double pitch_rate_dps; /* body pitch rate, deg/s, nose up positive */
+    bool has_load_factor;
+    double load_factor; /* normal load factor, g (1 in level unaccelerated flight) */
 } boom_air;
 
 typedef enum {

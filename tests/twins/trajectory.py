@@ -18,10 +18,20 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
                  ) -> np.ndarray:
     """numpy twin of :func:`advisory.pipeline.trajectory.propagate_kernel` (same arguments
     and result)."""
-    h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params
+    h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params[:12]
     dt = np.diff(t)
     tas = mach * a
-    alt = h0 + _cumtrapz(tas * sin_g, dt)
+    # flight-path angle: held, or changing at a rate until a time (entries 12 and 13)
+    rate, end = (params[12], params[13]) if params.size > 13 else (0.0, 0.0)
+    gamma = math.atan2(sin_g, cos_g) + rate * np.clip(t, 0.0, end)
+    if rate != 0.0 and end > 0.0:
+        mean = 0.5 * (gamma[1:] + gamma[:-1])  # the angle's mean over each step
+        alt = np.concatenate(([h0], h0 + np.cumsum(
+            0.5 * (tas[1:] + tas[:-1]) * np.sin(mean) * dt)))
+        cos_step, cos_point = np.cos(mean), np.cos(gamma)
+    else:
+        alt = h0 + _cumtrapz(tas * sin_g, dt)
+        cos_step = cos_point = cos_g
     omega = g * math.tan(bank) / tas
     turned = _cumtrapz(omega, dt)
     bank_out = np.full_like(t, bank)
@@ -35,7 +45,7 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
             bank_out[first:] = 0.0
     psi = psi0 + turned
     dpsi = np.diff(psi)
-    chord = 0.5 * (tas[1:] + tas[:-1]) * cos_g * dt * np.sinc(dpsi / (2.0 * math.pi))
+    chord = 0.5 * (tas[1:] + tas[:-1]) * cos_step * dt * np.sinc(dpsi / (2.0 * math.pi))
     mid = psi[:-1] + 0.5 * dpsi
     de = chord * np.sin(mid) + wind_e * dt
     dn = chord * np.cos(mid) + wind_n * dt
@@ -56,7 +66,7 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
             step = h * radial * u + (step - radial * u) / h
         east[i] = east[i - 1] + step[0]
         north[i] = north[i - 1] + step[1]
-    vh = tas * cos_g
+    vh = tas * cos_point
     ge = vh * np.sin(psi) + wind_e
     gn = vh * np.cos(psi) + wind_n
     return np.stack([east, north, alt, tas, np.mod(psi, 2.0 * math.pi), omega, bank_out,

@@ -42,6 +42,7 @@ from advisory.io.air_fastpath import AIR_FULL_MASK, AIR_OPTIONAL_IDX, air_canoni
 from advisory.io.frame_rules import RejectError, check_map, depth_ok
 from advisory.schema import (
     ADV_FIELDS,
+    ADV_FORMAT_VERSION,
     ADV_STATUSES,
     AIR_FIELDS,
     AIR_OPTIONAL,
@@ -97,7 +98,7 @@ class Frame(NamedTuple):
         The type's fields with their wire names, in canonical order; absent nullable
         fields are ``None``; numbers are ``float``; unknown fields are dropped.
     version : int
-        Format version (always :data:`WIRE_FORMAT_VERSION`).
+        Format version of the frame (:data:`advisory.schema.READ_VERSIONS`).
     """
 
     type: str
@@ -135,11 +136,11 @@ def _text(name: str, value: Any, max_bytes: int, nullable: bool = False) -> str 
     return value
 
 
-def _header(kind: str, seq: Any, utc_s: Any) -> dict:
+def _header(kind: str, seq: Any, utc_s: Any, version: int = WIRE_FORMAT_VERSION) -> dict:
     if (not isinstance(seq, numbers.Integral) or isinstance(seq, (bool, np.bool_))
             or not 0 <= int(seq) <= SEQ_MAX):
         raise ValueError(f"field 'seq' must be an integer in 0..{SEQ_MAX}, got {seq!r}")
-    return {"v": WIRE_FORMAT_VERSION, "type": kind, "seq": int(seq),
+    return {"v": version, "type": kind, "seq": int(seq),
             "utc_s": _num("utc_s", utc_s)}
 
 
@@ -196,7 +197,8 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     return _pack(m)
 
 
-def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
+def encode_adv(fields: dict, seq: int, utc_s: float,
+               version: int = ADV_FORMAT_VERSION) -> bytes:
     """Encode an advisory frame.
 
     Parameters
@@ -205,11 +207,19 @@ def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
         ``time_to_contact_s``, ``overpressure_psf``, ``max_mach_off_ground``,
         ``turn_left_deg``, ``turn_right_deg`` (number or None); ``focus``,
-        ``tables_stale`` (bool, default False); ``cue`` (str, default ``""``).
+        ``tables_stale`` (bool, default False); ``cue`` (str, default ``""``); and the
+        optional keys of issue 13, ``act_by_s``, ``resolve_mach``, ``turn_left_hdg``,
+        ``turn_right_hdg`` (number or None) and ``combined`` (bool, default False).
     seq : int
         Sequence number, 0..2**32-1.
     utc_s : float
         UTC time of the advisory, seconds since 1970.
+    version : int
+        Format version to write: :data:`ADV_FORMAT_VERSION` (2), or 1 for receivers
+        that read only version 1 (ICD section 7: "a service may be configured to send an
+        older version"): the status ``unavoidable``, which version 1 lacks, is then
+        sent as ``warning`` (its most urgent level; the zone and times are the same) and
+        the issue-13 keys go along as optional keys, which version-1 receivers ignore.
 
     Returns
     -------
@@ -222,11 +232,14 @@ def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
         Bad or unknown field (the message names the field and the value).
     """
     _unknown("advisory", fields, ADV_FIELDS)
-    m = _header("adv", seq, utc_s)
+    if version not in (1, ADV_FORMAT_VERSION):
+        raise ValueError(f"advisory frame version must be 1 or {ADV_FORMAT_VERSION}, "
+                         f"got {version!r}")
+    m = _header("adv", seq, utc_s, version)
     status = fields.get("status")
     if status not in ADV_STATUSES:
         raise ValueError(f"field 'status' must be one of {ADV_STATUSES}, got {status!r}")
-    m["status"] = status
+    m["status"] = "warning" if version == 1 and status == "unavoidable" else status
     m["zone_id"] = _text("zone_id", fields.get("zone_id"), ZONE_ID_MAX_BYTES, nullable=True)
     for name in ("time_to_contact_s", "overpressure_psf"):
         value = fields.get(name)
@@ -237,6 +250,10 @@ def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
         m[name] = None if value is None else _num(name, value)
     m["tables_stale"] = _flag("tables_stale", fields.get("tables_stale", False))
     m["cue"] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
+    for name in ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg"):
+        value = fields.get(name)
+        m[name] = None if value is None else _num(name, value)
+    m["combined"] = _flag("combined", fields.get("combined", False))
     return _pack(m)
 
 

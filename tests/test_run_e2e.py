@@ -262,7 +262,8 @@ def test_udp_end_to_end_and_sigterm(tmp_path, small_table_path, zones_file) -> N
     assert {f.fields["state"] for _, f in st} <= {"ok", "degraded"}
     assert "degraded" in {f.fields["state"] for _, f in st}  # after the garbage
     # the last frames say the service stopped (never leave a display on a stale level)
-    assert adv[-1].fields["status"] == "unavailable" and "SIGTERM" in adv[-1].fields["cue"]
+    assert adv[-1].fields["status"] == "unavailable"
+    assert adv[-1].fields["cue"] == "BOOM PREDICTION OFF - STOPPED"  # SIGTERM: status reason
     final = last_status(listener.since(0.0))
     assert final["state"] == "unavailable" and "SIGTERM" in final["reason"]
     c = final["counters"]

@@ -13,7 +13,10 @@ flight itself, the digests are regenerated with ``python tests/test_replay_golde
 --write`` and the commit says why; a refactor must never need that. Retaken so far:
 ``demo/coastal_approach`` once, when its scenario changed (the crew now slows after the
 advisory, because the truth harness showed that slowing after the caution still puts
-booms on the town; issue 12, item 9). The other eight are the originals.
+booms on the town; issue 12, item 9); then all of them for issue 13: crew line (every
+advisory frame changed: the crew line of at most 40 characters is in every frame, the
+frame is format version 2 and carries the five new optional keys; the advisor itself
+was not changed by that retake).
 """
 
 from __future__ import annotations

@@ -27,7 +27,7 @@ words. What the line holds, by status (issue 13, "the crew's line"):
   DATA``, ``... - SYSTEM FAULT``, ``... - STOPPED``, ``... - STARTING`` or ``BOOM
   PREDICTION OFF``. The detail
   (error text, URL, errno) is the advisory's ``reason``, which the status frame's
-  ``reason`` carries (:meth:`advisory.service.health.Health.assess`).
+  ``reason`` carries (:meth:`advisory.service.health.LoopHealth.assess`).
 * ``no_boom``: ``NO BOOM ON GROUND``; ``clear``: ``BOOM ON GROUND, ZONES CLEAR``.
 
 Focus and overpressure in conflict lines: left to the display. A focus boom changes how

@@ -74,7 +74,8 @@ def test_why5_focus_is_not_an_unexplained_word() -> None:
     cue = wire_cue(f)
     assert not re.search(r"\bFOCUS\b", cue), cue
     adv = Advisory("caution", zone_id="zone-7", zone_name="Larkmoor", time_to_contact_s=60.0,
-                   overpressure_pa=1.5 * 47.880258980335840, focus=True)
+                   overpressure_pa=1.5 * 47.880258980335840,  # NIST SP 811: Pa per psf
+                   focus=True)
     fields = adv.to_fields()
     assert fields["focus"] is True and fields["overpressure_psf"] == 1.5
 

@@ -205,21 +205,15 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
     ----------
     fields : dict
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
-        ``time_to_contact_s``, ``overpressure_psf``, ``max_mach_off_ground``,
-        ``turn_left_deg``, ``turn_right_deg`` (number or None); ``focus``,
-        ``tables_stale`` (bool, default False); ``cue`` (str, default ``""``); and the
-        optional keys of issue 13, ``act_by_s``, ``resolve_mach``, ``turn_left_hdg``,
-        ``turn_right_hdg`` (number or None) and ``combined`` (bool, default False).
+        ``focus``, ``tables_stale``, ``combined`` (bool, default False); ``cue`` (str,
+        default ``""``); the other :data:`ADV_FIELDS` are numbers or None.
     seq : int
         Sequence number, 0..2**32-1.
     utc_s : float
         UTC time of the advisory, seconds since 1970.
     version : int
-        Format version to write: :data:`ADV_FORMAT_VERSION` (2), or 1 for receivers
-        that read only version 1 (ICD section 7: "a service may be configured to send an
-        older version"): the status ``unavoidable``, which version 1 lacks, is then
-        sent as ``warning`` (its most urgent level; the zone and times are the same) and
-        the issue-13 keys go along as optional keys, which version-1 receivers ignore.
+        :data:`ADV_FORMAT_VERSION`, or 1 for older receivers (ICD section 7): the status
+        ``unavoidable``, which version 1 lacks, then goes as ``warning``.
 
     Returns
     -------
@@ -241,19 +235,14 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
         raise ValueError(f"field 'status' must be one of {ADV_STATUSES}, got {status!r}")
     m["status"] = "warning" if version == 1 and status == "unavoidable" else status
     m["zone_id"] = _text("zone_id", fields.get("zone_id"), ZONE_ID_MAX_BYTES, nullable=True)
-    for name in ("time_to_contact_s", "overpressure_psf"):
-        value = fields.get(name)
-        m[name] = None if value is None else _num(name, value)
-    m["focus"] = _flag("focus", fields.get("focus", False))
-    for name in ("max_mach_off_ground", "turn_left_deg", "turn_right_deg"):
-        value = fields.get(name)
-        m[name] = None if value is None else _num(name, value)
-    m["tables_stale"] = _flag("tables_stale", fields.get("tables_stale", False))
-    m["cue"] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
-    for name in ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg"):
-        value = fields.get(name)
-        m[name] = None if value is None else _num(name, value)
-    m["combined"] = _flag("combined", fields.get("combined", False))
+    for name in ADV_FIELDS[2:]:
+        if name in ("focus", "tables_stale", "combined"):
+            m[name] = _flag(name, fields.get(name, False))
+        elif name == "cue":
+            m[name] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
+        else:
+            value = fields.get(name)
+            m[name] = None if value is None else _num(name, value)
     return _pack(m)
 
 

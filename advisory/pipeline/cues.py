@@ -18,8 +18,9 @@ words. What the line holds, by status (issue 13, "the crew's line"):
     said as one). ``NOTHING CLEARS`` when no resolution was found.
   - *time*: ``ACT 42S`` is the time left to **start** the action (``act_by_s``), cut
     down to the whole second; ``ACT NOW`` under one second. Without an act-by time (no
-    action clears) the line gives the time until the boom reaches the zone instead:
-    ``BOOM IN 42S``. Ten minutes or more read ``ACT 12MIN`` (whole minutes, cut down).
+    action clears) the time until the boom reaches the zone follows the zone instead:
+    ``CAUTION Larkmoor IN 64S NOTHING CLEARS``. Ten minutes or more read ``12MIN``
+    (whole minutes, cut down).
 * ``unavoidable``: ``BOOM DUE <zone> IN <time> <psf> PSF``, the arrival time and the
   overpressure so the crew can tell the ground, e.g. ``BOOM DUE Larkmoor IN 42S 2.9 PSF``
   (``99+ PSF`` from 99.95 psf).
@@ -128,12 +129,10 @@ def crew_cue(a: CueFacts) -> str:
     act_by = _finite(a.act_by_s)
     ttc = _finite(a.time_to_contact_s)
     if act_by is not None:
-        when = "ACT NOW" if act_by < 1.0 else "ACT " + _seconds(act_by)
-    elif ttc is not None:
-        when = "BOOM IN " + _seconds(ttc)
-    else:
-        when = ""
-    return _assemble(level, name, " ".join(p for p in (action or _NO_ACTION, when) if p))
+        parts = [action or _NO_ACTION, "ACT NOW" if act_by < 1.0 else "ACT " + _seconds(act_by)]
+    else:  # no act-by time: when the boom gets there, then what (if anything) clears
+        parts = ["" if ttc is None else "IN " + _seconds(ttc), action or _NO_ACTION]
+    return _assemble(level, name, " ".join(p for p in parts if p))
 
 
 def action_text(a: CueFacts) -> str:

@@ -19,7 +19,14 @@ SAFETY_CAUTION = (
 )
 
 # ----------------------------------------------------------------------------- wire
-WIRE_FORMAT_VERSION = 1  #: the only wire format version this code reads and writes
+#: Format version of air-data and status frames (ICD section 7).
+WIRE_FORMAT_VERSION = 1
+#: Format version of advisory frames: 2 since the status ``unavoidable`` (issue 13), an
+#: incompatible change under the ICD's version rule (section 7). Version 1 advisory
+#: frames are still read, and written on request for older receivers.
+ADV_FORMAT_VERSION = 2
+#: Format versions this code reads, by frame type (ICD section 7).
+READ_VERSIONS = {"air": (1,), "adv": (1, 2), "status": (1,)}
 FRAME_TYPES = ("air", "adv", "status")
 HEADER_KEYS = ("v", "type", "seq", "utc_s")
 
@@ -41,18 +48,27 @@ AIR_FIELDS = AIR_REQUIRED + AIR_OPTIONAL  #: canonical order after the header
 # ----------------------------------------------------------------------------- advisories
 #: Advisory statuses, from "nothing to say" to the highest crew-alerting level, and the
 #: status published when no advice can be given.
-ADV_STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavailable")
+ADV_STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavoidable",
+                "unavailable")
 #: The statuses that name a zone in conflict (the three crew-alerting levels).
-CONFLICT_STATUSES = ("advisory", "caution", "warning")
+CONFLICT_STATUSES = ("advisory", "caution", "warning", "unavoidable")
 #: Alert rank of each status that is not ``unavailable`` (higher is more urgent).
-STATUS_RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3}
-ADV_FIELDS = (
+STATUS_RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3,
+               "unavoidable": 4}
+#: The statuses of advisory frame version 1 (``unavoidable`` came with version 2).
+ADV_STATUSES_V1 = ("no_boom", "clear", "advisory", "caution", "warning", "unavailable")
+#: Advisory fields of format version 1, in canonical order after the header.
+ADV_FIELDS_V1 = (
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
 )
+#: Optional advisory fields added by issue 13 (after the version-1 ones; nil / false
+#: when absent): act-by time, resolution Mach, target headings of the turns, combined.
+ADV_OPTIONAL = ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined")
+ADV_FIELDS = ADV_FIELDS_V1 + ADV_OPTIONAL  #: canonical order after the header
 ADV_NULLABLE_FLOATS = (
     "time_to_contact_s", "overpressure_psf", "max_mach_off_ground", "turn_left_deg",
-    "turn_right_deg",
+    "turn_right_deg", "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg",
 )
 
 # ----------------------------------------------------------------------------- status frames

@@ -79,7 +79,12 @@ def python_line(payload: bytes) -> str:
                   _fmt_num("turn_left_deg", d["turn_left_deg"]),
                   _fmt_num("turn_right_deg", d["turn_right_deg"]),
                   f"tables_stale={'T' if d['tables_stale'] else 'F'}",
-                  _fmt_text("cue", d["cue"])]
+                  _fmt_text("cue", d["cue"]),
+                  _fmt_num("act_by_s", d["act_by_s"]),
+                  _fmt_num("resolve_mach", d["resolve_mach"]),
+                  _fmt_num("turn_left_hdg", d["turn_left_hdg"]),
+                  _fmt_num("turn_right_hdg", d["turn_right_hdg"]),
+                  f"combined={'T' if d['combined'] else 'F'}", f"v={f.version}"]
     else:
         counters = ",".join(f"{k.encode().hex()}:{v}" for k, v in d["counters"].items())
         parts += [f"state={d['state']}", _fmt_text("reason", d["reason"]),
@@ -208,7 +213,14 @@ def _random_payloads(rng: random.Random) -> list[bytes]:
             "turn_left_deg": None if rng.random() < 0.5 else _rand_float(rng),
             "turn_right_deg": None if rng.random() < 0.5 else _rand_float(rng),
             "tables_stale": rng.random() < 0.2,
-            "cue": _rand_text(rng, 127)}, rng.randrange(2**32), _rand_float(rng)))
+            "cue": _rand_text(rng, 127),
+            # issue 13: the optional keys, in version-2 and version-1 frames
+            "act_by_s": None if rng.random() < 0.4 else _rand_float(rng),
+            "resolve_mach": None if rng.random() < 0.4 else _rand_float(rng),
+            "turn_left_hdg": None if rng.random() < 0.4 else _rand_float(rng),
+            "turn_right_hdg": None if rng.random() < 0.4 else _rand_float(rng),
+            "combined": rng.random() < 0.3}, rng.randrange(2**32), _rand_float(rng),
+            version=rng.choice((1, 2))))
     for _ in range(60):
         counters = {_rand_text(rng, 47) or "n": rng.randrange(2**64)
                     for _ in range(rng.randrange(0, 20))}
@@ -383,3 +395,48 @@ def test_example_sender_output_reads_back_in_python(build, tmp_path):
     assert [f.seq for f in frames] == list(range(25))
     assert all(f.type == "air" and f.fields["mach"] == 1.4 for f in frames)
     assert frames[0].fields["wind_kt"] == 25.0 and frames[0].fields["track_deg"] is None
+
+
+# ------------------------------------------------------------------- issue 13: old receivers
+
+#: The last commit whose C binding read only format version 1 (before issue 13).
+V1_BINDING_COMMIT = "53621f175eaf6a26149f0686114a13e9b372fcce"
+
+
+@pytest.fixture(scope="module")
+def v1_build(tmp_path_factory) -> Path:
+    """The version-1 C binding, as integrators have it installed, built from git history."""
+    if shutil.which("git") is None:
+        pytest.skip("needs git to fetch the version-1 binding")
+    src = tmp_path_factory.mktemp("cv1src")
+    for name in ("Makefile", "boom_wire.h", "boom_wire.c", "boom_auth.c", "boom_vectors.c",
+                 "example_sender.c", "example_udp_sender.c", "example_udp_receiver.c"):
+        proc = subprocess.run(["git", "-C", str(ROOT), "show",
+                               f"{V1_BINDING_COMMIT}:bindings/c/{name}"],
+                              capture_output=True, timeout=60)
+        if proc.returncode != 0:
+            pytest.skip(f"version-1 binding not in this checkout's history ({name})")
+        (src / name).write_bytes(proc.stdout)
+    out = tmp_path_factory.mktemp("cv1build")
+    proc = subprocess.run(["make", "-C", str(src), f"BUILD={out}", "CFLAGS=-O2"],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    return out
+
+
+def test_an_old_c_receiver_reads_version_1_frames_with_the_new_keys(v1_build):
+    # ICD section 7: the new keys are compatible additions (ignored by old receivers); the
+    # new status is not, so version-2 frames are refused by a version-1 receiver, never
+    # misread, and a service can send version 1 to it ("unavoidable" as "warning").
+    new = {"status": "unavoidable", "zone_id": "zone-7", "time_to_contact_s": 42.0,
+           "overpressure_psf": 2.9, "cue": "BOOM DUE zone-7 IN 42S 2.9 PSF",
+           "act_by_s": 15.5, "resolve_mach": 1.08, "turn_left_hdg": 320.0,
+           "combined": True}
+    v1 = encode_adv(new, 3, 1893456000.0, version=1)
+    v2 = encode_adv(new, 4, 1893456000.0)
+    warning_v1 = encode_adv(dict(new, status="warning"), 5, 1893456000.0, version=1)
+    out = run_tool(v1_build, [f"dec {p.hex()}" for p in (v1, v2, warning_v1)])
+    assert out[0].startswith("ok adv seq=3") and " status=warning " in out[0], out[0]
+    assert "zone_id=s" + b"zone-7".hex() in out[0] and "act_by_s" not in out[0]
+    assert out[1] == "err unsupported_version", out[1]
+    assert out[2].startswith("ok adv seq=5") and " status=warning " in out[2], out[2]

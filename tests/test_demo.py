@@ -133,8 +133,8 @@ def test_demo_prints_cues_summary_and_caution(tmp_path) -> None:
                             "turn_onto_park"])
     assert code == 0
     assert text.count(SAFETY_CAUTION) == 2
-    assert "BOOM CAUTION: Kelvane Wilds Park" in text
-    assert "Boom not reaching the ground" in text
+    assert "CAUTION Kelvane" in text  # issue 13 crew line (zone may be shortened)
+    assert "NO BOOM ON GROUND" in text
     assert "first warning" in text and "match" in text
     assert (tmp_path / "rep" / "report.html").is_file()
     code, _ = _run_demo(["demo", "--only", "nowhere"])

@@ -17,7 +17,10 @@ booms on the town; issue 12, item 9). All nine once more for issue 15's heartbea
 status frames are now due 0.1 s before the heartbeat on the step schedule, so a replay
 carries about one status frame more every ten seconds; every advisory frame stayed the
 same (checked by comparing the decoded advisory frames of all nine replays before and
-after, field for field).
+after, field for field). Then all of them for issue 13: crew line (every advisory frame
+changed: the crew line of at most 40 characters is in every frame, the frame is format
+version 2 and carries the five new optional keys; the advisor itself was not changed by
+that retake).
 """
 
 from __future__ import annotations

@@ -42,7 +42,7 @@ def test_light_encoders_match_the_wire_format() -> None:
     assert status_payload("unavailable", "starting: x", 7, 1.5) == encode_status(
         {"state": "unavailable", "reason": "starting: x", "counters": {}}, 7, 1.5)
     assert unavailable_adv_payload("r", 3, 2.0) == encode_adv(
-        {"status": "unavailable", "cue": "BOOM ADVISORY UNAVAILABLE: r"}, 3, 2.0)
+        {"status": "unavailable", "cue": "BOOM PREDICTION OFF"}, 3, 2.0)
     assert parse_datagram(status_payload("ok", "", 0, 0.0)
                           + crc32c_py(status_payload("ok", "", 0, 0.0)).to_bytes(4, "big"))
 

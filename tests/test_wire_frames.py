@@ -264,7 +264,7 @@ def test_reject_messages_name_field_and_value():
 def test_order_of_checks_version_before_fields():
     # ICD, "Decoding rules": the first failing check is reported.
     with pytest.raises(FrameError) as err:
-        decode_frame(_raw(v=2, mach="x", type="nope"))
+        decode_frame(_raw(v=3, mach="x", type="nope"))
     assert err.value.reason == "unsupported_version"
 
 
@@ -547,3 +547,80 @@ def test_vector_file_is_what_the_generator_writes():
     mod = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(mod)
     assert json.loads(json.dumps(mod.build(), ensure_ascii=False)) == VECTORS
+
+
+# ---------------------------------------------------------------- issue 13: new keys, version 2
+
+#: The advisory frame example of the interface document as it stood for version 1
+#: (docs/interface.md section 14 before issue 13; an outside record of the old bytes).
+ICD_V1_ADV_EXAMPLE = bytes.fromhex(
+    "8ea17601a474797065a3616476a373657105a57574635f73cb41dc36f62040000"
+    "0a6737461747573a763617574696f6ea77a6f6e655f6964a67a6f6e652d37b174"
+    "696d655f746f5f636f6e746163745f73cb405e000000000000b06f766572707265"
+    "73737572655f707366cb3ff8000000000000a5666f637573c2b36d61785f6d6163"
+    "685f6f66665f67726f756e64cb3ff1eb851eb851ecad7475726e5f6c6566745f64"
+    "6567c0ae7475726e5f72696768745f646567cb4034000000000000ac7461626c65"
+    "735f7374616c65c2a3637565a9534c4f5720312e3132")
+
+NEW_KEYS = {"act_by_s": 15.5, "resolve_mach": 1.08, "turn_left_hdg": 320.0,
+            "turn_right_hdg": None, "combined": True}
+
+
+def test_a_version_1_frame_without_the_new_keys_decodes_with_the_new_code() -> None:
+    # ICD section 7: the new keys are optional; absent, they decode as nil / false.
+    f = decode_frame(ICD_V1_ADV_EXAMPLE)
+    assert f.version == 1 and f.fields["status"] == "caution"
+    assert f.fields["max_mach_off_ground"] == 1.12 and f.fields["cue"] == "SLOW 1.12"
+    assert f.fields["act_by_s"] is None and f.fields["resolve_mach"] is None
+    assert f.fields["turn_left_hdg"] is None and f.fields["turn_right_hdg"] is None
+    assert f.fields["combined"] is False
+
+
+def test_new_keys_round_trip_in_canonical_order_after_the_old_ones() -> None:
+    p = encode_adv({"status": "unavoidable", "zone_id": "zone-7", "time_to_contact_s": 42.0,
+                    "overpressure_psf": 2.9, "cue": "BOOM DUE Larkmoor IN 42S 2.9 PSF",
+                    **NEW_KEYS}, 6, 1893456005.0)
+    m = msgpack.unpackb(p)
+    assert m["v"] == 2  # ICD section 7: a new status value increases v (advisory frames)
+    old = ["status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
+           "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue"]
+    assert list(m)[4:] == old + list(NEW_KEYS)  # appended after the version-1 keys
+    f = decode_frame(p)
+    assert f.version == 2 and f.fields["status"] == "unavoidable"
+    assert {k: f.fields[k] for k in NEW_KEYS} == NEW_KEYS
+
+
+def test_the_unavoidable_status_needs_version_2() -> None:
+    m = msgpack.unpackb(encode_adv({"status": "unavoidable", "cue": ""}, 1, 1.0))
+    m["v"] = 1
+    with pytest.raises(FrameError) as err:
+        decode_frame(msgpack.packb(m))
+    assert err.value.reason == "bad_value" and "unavoidable" in str(err.value)
+    m["v"] = 3
+    with pytest.raises(FrameError) as err:
+        decode_frame(msgpack.packb(m))
+    assert err.value.reason == "unsupported_version"
+    air = msgpack.unpackb(encode_air(AIR, 1, 1893456000.0))
+    air["v"] = 2  # version 2 is an advisory-frame version only
+    with pytest.raises(FrameError) as err:
+        decode_frame(msgpack.packb(air))
+    assert err.value.reason == "unsupported_version"
+
+
+def test_a_version_1_frame_for_older_receivers() -> None:
+    # ICD section 7: "a service may be configured to send an older version". Version 1
+    # has no "unavoidable": it goes as "warning" (its most urgent level), and the new keys
+    # go along as optional keys, which a version-1 receiver ignores (section 8).
+    p = encode_adv({"status": "unavoidable", "zone_id": "zone-7", "cue": "x", **NEW_KEYS},
+                   2, 1.0, version=1)
+    m = msgpack.unpackb(p)
+    assert m["v"] == 1 and m["status"] == "warning" and m["combined"] is True
+    v1_keys = set(HEADER_KEYS) | {"status", "zone_id", "time_to_contact_s",
+                                  "overpressure_psf", "focus", "max_mach_off_ground",
+                                  "turn_left_deg", "turn_right_deg", "tables_stale", "cue"}
+    unknown: list[str] = []
+    f = decode_frame(p, unknown)
+    assert sorted(unknown) == [] and f.fields["status"] == "warning"
+    assert set(m) - v1_keys == set(NEW_KEYS)  # what a version-1 receiver skips
+    with pytest.raises(ValueError, match="version"):
+        encode_adv({"status": "clear"}, 1, 1.0, version=3)

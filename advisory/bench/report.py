@@ -57,7 +57,7 @@ pre{font-size:12px;background:#f7f7f7;padding:6px;overflow-x:auto}
 
 def _status_badge(status: str) -> str:
     c = STATUS_COLOURS.get(status, "#ccc")
-    fg = "#fff" if status in ("warning", "unavailable", "clear") else "#111"
+    fg = "#fff" if status in ("warning", "unavoidable", "unavailable", "clear") else "#111"
     return f'<span class="status" style="background:{c};color:{fg}">{esc(status)}</span>'
 
 

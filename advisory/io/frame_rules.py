@@ -15,7 +15,9 @@ from typing import Any
 
 from advisory.schema import (
     ADV_FIELDS,
+    ADV_OPTIONAL,
     ADV_STATUSES,
+    ADV_STATUSES_V1,
     AIR_FIELDS,
     AIR_LATER_OPTIONAL,
     AIR_OPTIONAL,
@@ -25,12 +27,12 @@ from advisory.schema import (
     HEADER_KEYS,
     MAX_COUNTERS,
     MAX_DEPTH,
+    READ_VERSIONS,
     REASON_MAX_BYTES,
     SEQ_MAX,
     STATUS_FIELDS,
     STATUS_IDENTITY_FIELDS,
     STATUS_STATES,
-    WIRE_FORMAT_VERSION,
     ZONE_ID_MAX_BYTES,
 )
 
@@ -141,15 +143,16 @@ def _dec_air(m: dict) -> tuple[dict, int]:
     return out, present
 
 
-def _dec_adv(m: dict) -> tuple[dict, int]:
+def _dec_adv(m: dict, version: int = 2) -> tuple[dict, int]:
     out: dict[str, Any] = {}
     present = 0
     status = _need(m, "status")
     if type(status) is not str:
         raise _bad_type("status", status, "a string")
-    if status not in ADV_STATUSES:
-        raise RejectError("bad_value", f"field 'status' must be one of {', '.join(ADV_STATUSES)}, "
-                                   f"got {_short(status)}")
+    statuses = ADV_STATUSES if version >= 2 else ADV_STATUSES_V1
+    if status not in statuses:
+        raise RejectError("bad_value", f"field 'status' must be one of {', '.join(statuses)}"
+                                   f" (version {version}), got {_short(status)}")
     out["status"] = status
     present += 1
     for name in ADV_FIELDS[1:]:
@@ -159,8 +162,11 @@ def _dec_adv(m: dict) -> tuple[dict, int]:
         if name == "zone_id":
             out[name] = None if x is None or x is _MISSING else _dec_text(
                 name, x, ZONE_ID_MAX_BYTES)
-        elif name in ("focus", "tables_stale"):
+        elif name in ("focus", "tables_stale", "combined"):
             if x is _MISSING:
+                if name in _ADV_OPTIONAL:  # issue 13: absent means false
+                    out[name] = False
+                    continue
                 raise RejectError("missing_field", f"field {name!r} is missing")
             if type(x) is not bool:
                 raise _bad_type(name, x, "true or false")
@@ -180,6 +186,9 @@ def _dec_adv(m: dict) -> tuple[dict, int]:
             else:
                 raise _bad_type(name, x, "a number or nil")
     return out, present
+
+
+_ADV_OPTIONAL = frozenset(ADV_OPTIONAL)
 
 
 def _dec_status(m: dict) -> tuple[dict, int]:
@@ -224,6 +233,8 @@ _DECODERS = {"air": _dec_air, "adv": _dec_adv, "status": _dec_status}
 _KNOWN_KEYS = {kind: frozenset(HEADER_KEYS + fields) for kind, fields in (
     ("air", AIR_FIELDS), ("adv", ADV_FIELDS),
     ("status", STATUS_FIELDS + STATUS_IDENTITY_FIELDS))}
+_ANY_VERSION = frozenset(v for vs in READ_VERSIONS.values() for v in vs)
+_VERSIONS_TEXT = ", ".join(f"{k} {'/'.join(map(str, vs))}" for k, vs in READ_VERSIONS.items())
 _KEY_NAME_MAX = 47  #: unknown key names are reported cut to this many characters
 
 
@@ -262,9 +273,9 @@ def check_map(m: Any, unknown: list[str] | None = None) -> tuple[str, int, float
         if v is _MISSING:
             raise RejectError("missing_field", "field 'v' is missing")
         raise _bad_type("v", v, "an integer")
-    if v != WIRE_FORMAT_VERSION:
+    if v not in _ANY_VERSION:
         raise RejectError("unsupported_version", f"field 'v' = {v}: format version not "
-                                                  f"supported (this reads {WIRE_FORMAT_VERSION})")
+                                                  f"supported (this reads {_VERSIONS_TEXT})")
     kind = m.get("type", _MISSING)
     if type(kind) is not str:
         if kind is _MISSING:
@@ -273,6 +284,10 @@ def check_map(m: Any, unknown: list[str] | None = None) -> tuple[str, int, float
     dec = _DECODERS.get(kind)
     if dec is None:
         raise RejectError("unknown_type", f"field 'type' = {_short(kind)}: unknown frame type")
+    if v not in READ_VERSIONS[kind]:
+        raise RejectError("unsupported_version", f"field 'v' = {v}: format version not "
+                                                  f"supported for {kind!r} frames (this "
+                                                  f"reads {_VERSIONS_TEXT})")
     seq = m.get("seq", _MISSING)
     if type(seq) is not int:
         if seq is _MISSING:
@@ -289,7 +304,7 @@ def check_map(m: Any, unknown: list[str] | None = None) -> tuple[str, int, float
             raise RejectError("missing_field", "field 'utc_s' is missing")
         else:
             raise _bad_type("utc_s", utc, "a number")
-    fields, present = dec(m)
+    fields, present = _dec_adv(m, v) if kind == "adv" else dec(m)
     if len(m) != present + 4:
         if not depth_ok(m):
             raise RejectError("malformed", f"containers nested deeper than {MAX_DEPTH}")

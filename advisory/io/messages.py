@@ -42,6 +42,7 @@ from advisory.io.air_fastpath import AIR_FULL_MASK, AIR_OPTIONAL_IDX, air_canoni
 from advisory.io.frame_rules import RejectError, check_map, depth_ok
 from advisory.schema import (
     ADV_FIELDS,
+    ADV_FORMAT_VERSION,
     ADV_STATUSES,
     AIR_FIELDS,
     AIR_LATER_OPTIONAL,
@@ -98,7 +99,7 @@ class Frame(NamedTuple):
         The type's fields with their wire names, in canonical order; absent nullable
         fields are ``None``; numbers are ``float``; unknown fields are dropped.
     version : int
-        Format version (always :data:`WIRE_FORMAT_VERSION`).
+        Format version of the frame (:data:`advisory.schema.READ_VERSIONS`).
     """
 
     type: str
@@ -136,11 +137,11 @@ def _text(name: str, value: Any, max_bytes: int, nullable: bool = False) -> str 
     return value
 
 
-def _header(kind: str, seq: Any, utc_s: Any) -> dict:
+def _header(kind: str, seq: Any, utc_s: Any, version: int = WIRE_FORMAT_VERSION) -> dict:
     if (not isinstance(seq, numbers.Integral) or isinstance(seq, (bool, np.bool_))
             or not 0 <= int(seq) <= SEQ_MAX):
         raise ValueError(f"field 'seq' must be an integer in 0..{SEQ_MAX}, got {seq!r}")
-    return {"v": WIRE_FORMAT_VERSION, "type": kind, "seq": int(seq),
+    return {"v": version, "type": kind, "seq": int(seq),
             "utc_s": _num("utc_s", utc_s)}
 
 
@@ -203,20 +204,23 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     return _pack(m)
 
 
-def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
+def encode_adv(fields: dict, seq: int, utc_s: float,
+               version: int = ADV_FORMAT_VERSION) -> bytes:
     """Encode an advisory frame.
 
     Parameters
     ----------
     fields : dict
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
-        ``time_to_contact_s``, ``overpressure_psf``, ``max_mach_off_ground``,
-        ``turn_left_deg``, ``turn_right_deg`` (number or None); ``focus``,
-        ``tables_stale`` (bool, default False); ``cue`` (str, default ``""``).
+        ``focus``, ``tables_stale``, ``combined`` (bool, default False); ``cue`` (str,
+        default ``""``); the other :data:`ADV_FIELDS` are numbers or None.
     seq : int
         Sequence number, 0..2**32-1.
     utc_s : float
         UTC time of the advisory, seconds since 1970.
+    version : int
+        :data:`ADV_FORMAT_VERSION`, or 1 for older receivers (ICD section 7): the status
+        ``unavoidable``, which version 1 lacks, then goes as ``warning``.
 
     Returns
     -------
@@ -229,21 +233,23 @@ def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
         Bad or unknown field (the message names the field and the value).
     """
     _unknown("advisory", fields, ADV_FIELDS)
-    m = _header("adv", seq, utc_s)
+    if version not in (1, ADV_FORMAT_VERSION):
+        raise ValueError(f"advisory frame version must be 1 or {ADV_FORMAT_VERSION}, "
+                         f"got {version!r}")
+    m = _header("adv", seq, utc_s, version)
     status = fields.get("status")
     if status not in ADV_STATUSES:
         raise ValueError(f"field 'status' must be one of {ADV_STATUSES}, got {status!r}")
-    m["status"] = status
+    m["status"] = "warning" if version == 1 and status == "unavoidable" else status
     m["zone_id"] = _text("zone_id", fields.get("zone_id"), ZONE_ID_MAX_BYTES, nullable=True)
-    for name in ("time_to_contact_s", "overpressure_psf"):
-        value = fields.get(name)
-        m[name] = None if value is None else _num(name, value)
-    m["focus"] = _flag("focus", fields.get("focus", False))
-    for name in ("max_mach_off_ground", "turn_left_deg", "turn_right_deg"):
-        value = fields.get(name)
-        m[name] = None if value is None else _num(name, value)
-    m["tables_stale"] = _flag("tables_stale", fields.get("tables_stale", False))
-    m["cue"] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
+    for name in ADV_FIELDS[2:]:
+        if name in ("focus", "tables_stale", "combined"):
+            m[name] = _flag(name, fields.get(name, False))
+        elif name == "cue":
+            m[name] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
+        else:
+            value = fields.get(name)
+            m[name] = None if value is None else _num(name, value)
     return _pack(m)
 
 

@@ -67,6 +67,16 @@ class Advisory:
         Every zone in conflict, soonest first.
     utc_s : float or None
         UTC time of the air data the advisory is based on.
+    act_by_s : float or None
+        Seconds from the state's time to the latest moment the crew can start the
+        offered action (None: no conflict, or nothing clears). Issue 13 contract.
+    resolve_mach : float or None
+        Largest Mach, reached by decelerating at the configured rate, whose booms stay
+        off every zone (None: no Mach clears alone).
+    turn_left_hdg_deg, turn_right_hdg_deg : float or None
+        Target headings (deg true) of the left / right turn resolutions.
+    combined : bool
+        Neither Mach nor a turn clears alone: the resolution is both together.
     """
 
     status: str
@@ -84,6 +94,11 @@ class Advisory:
     reason: str = ""
     conflicts: tuple[Conflict, ...] = field(default_factory=tuple)
     utc_s: float | None = None
+    act_by_s: float | None = None
+    resolve_mach: float | None = None
+    turn_left_hdg_deg: float | None = None
+    turn_right_hdg_deg: float | None = None
+    combined: bool = False
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -111,6 +126,12 @@ class Advisory:
             "turn_right_deg": r(self.turn_right_deg, 0),
             "tables_stale": bool(self.tables_stale),
             "cue": clip_utf8(self.cue, CUE_MAX_BYTES),
+            # issue 13: optional keys after the version-1 ones (ICD sections 5 and 7)
+            "act_by_s": r(self.act_by_s, 1),
+            "resolve_mach": _mach_down(self.resolve_mach),
+            "turn_left_hdg": _heading(self.turn_left_hdg_deg),
+            "turn_right_hdg": _heading(self.turn_right_hdg_deg),
+            "combined": bool(self.combined),
         }
 
     def to_record(self) -> dict:
@@ -132,6 +153,21 @@ class Advisory:
             "caution": SAFETY_CAUTION,
         })
         return d
+
+
+def _mach_down(mach: float | None) -> float | None:
+    """``resolve_mach`` to the hundredth, cut down: the Mach sent never exceeds the one
+    that clears (the crew line shows the same digits, :mod:`advisory.pipeline.cues`)."""
+    if mach is None or not math.isfinite(mach):
+        return None
+    return math.floor(mach * 100.0 + 1e-6) / 100.0
+
+
+def _heading(hdg: float | None) -> float | None:
+    """A target heading to the whole degree in [0, 360)."""
+    if hdg is None or not math.isfinite(hdg):
+        return None
+    return float(round(hdg) % 360)
 
 
 def clip_utf8(text: str | None, limit: int) -> str | None:

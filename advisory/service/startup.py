@@ -37,7 +37,8 @@ from urllib.parse import parse_qs, unquote, urlsplit
 
 import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 
-from advisory.schema import WIRE_FORMAT_VERSION
+from advisory.pipeline.cues import unavailable_cue
+from advisory.schema import ADV_FORMAT_VERSION, WIRE_FORMAT_VERSION
 
 STARTING_PERIOD_S = 0.5  #: one starting status frame this often, s
 #: Signals that stop the service (all cleanly, with final frames and exit code 0).
@@ -99,13 +100,14 @@ def status_payload(state: str, reason: str, seq: int, utc_s: float) -> bytes:
 
 def unavailable_adv_payload(reason: str, seq: int, utc_s: float) -> bytes:
     """An ``unavailable`` advisory frame payload (``docs/interface.md`` section 5)."""
-    cue = f"BOOM ADVISORY UNAVAILABLE: {reason}".encode()[:127].decode("utf-8", "ignore")
-    return msgpack.packb({"v": WIRE_FORMAT_VERSION, "type": "adv", "seq": seq,
+    return msgpack.packb({"v": ADV_FORMAT_VERSION, "type": "adv", "seq": seq,
                           "utc_s": float(utc_s), "status": "unavailable", "zone_id": None,
                           "time_to_contact_s": None, "overpressure_psf": None,
                           "focus": False, "max_mach_off_ground": None,
                           "turn_left_deg": None, "turn_right_deg": None,
-                          "tables_stale": False, "cue": cue}, use_bin_type=True)
+                          "tables_stale": False, "cue": unavailable_cue(reason),
+                          "act_by_s": None, "resolve_mach": None, "turn_left_hdg": None,
+                          "turn_right_hdg": None, "combined": False}, use_bin_type=True)
 
 
 class _LightOutput:

@@ -212,6 +212,11 @@ static void cmd_dec(const uint8_t *p, size_t n)
         print_opt("turn_right_deg", a->has_turn_right_deg, a->turn_right_deg);
         printf(" tables_stale=%c", a->tables_stale ? 'T' : 'F');
         print_text("cue", a->cue);
+        print_opt("act_by_s", a->has_act_by_s, a->act_by_s);
+        print_opt("resolve_mach", a->has_resolve_mach, a->resolve_mach);
+        print_opt("turn_left_hdg", a->has_turn_left_hdg, a->turn_left_hdg);
+        print_opt("turn_right_hdg", a->has_turn_right_hdg, a->turn_right_hdg);
+        printf(" combined=%c v=%u", a->combined ? 'T' : 'F', f.version);
     } else {
         const boom_status *s = &f.u.status;
         printf(" state=%s", boom_state_name(s->state));

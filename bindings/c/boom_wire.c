@@ -86,13 +86,14 @@ const char *boom_result_name(int result)
     }
 }
 
-static const char *const adv_status_names[] = {"no_boom", "clear", "advisory",
-                                               "caution", "warning", "unavailable"};
+/* In boom_adv_status order; the last one only in version-2 advisory frames. */
+static const char *const adv_status_names[] = {"no_boom", "clear", "advisory", "caution",
+                                               "warning", "unavailable", "unavoidable"};
 static const char *const state_names[] = {"ok", "degraded", "unavailable"};
 
 const char *boom_adv_status_name(boom_adv_status s)
 {
-    return ((unsigned)s < 6u) ? adv_status_names[s] : "?";
+    return ((unsigned)s < 7u) ? adv_status_names[s] : "?";
 }
 
 const char *boom_state_name(boom_state s)
@@ -730,7 +731,7 @@ enum {
     KEY_TRACK, KEY_MRATE, KEY_SAT, KEY_WFROM, KEY_WKT,
     KEY_PITCH, KEY_LOAD,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
-    KEY_STALE, KEY_CUE,
+    KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB,
     KEY_STATE, KEY_REASON, KEY_COUNTERS,
     N_KEYS
 };
@@ -742,6 +743,7 @@ static const char *const key_names[N_KEYS] = {
     "pitch_rate_dps", "load_factor",
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
+    "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
     "state", "reason", "counters",
 };
 
@@ -891,11 +893,11 @@ static int decode_air(const keymap *km, boom_air *a)
     return BOOM_OK;
 }
 
-static int decode_adv(const keymap *km, boom_adv *a)
+static int decode_adv(const keymap *km, boom_adv *a, unsigned version)
 {
     int r, status = 0;
     memset(a, 0, sizeof *a);
-    if ((r = get_enum(km, KEY_STATUS, adv_status_names, 6, &status)) != BOOM_OK)
+    if ((r = get_enum(km, KEY_STATUS, adv_status_names, version >= 2u ? 7 : 6, &status)))
         return r;
     a->status = (boom_adv_status)status;
     if ((r = get_text(km, KEY_ZONE, true, BOOM_ZONE_ID_MAX, a->zone_id, &a->has_zone_id)))
@@ -909,7 +911,15 @@ static int decode_adv(const keymap *km, boom_adv *a)
     OPT(KEY_TR, turn_right_deg);
     if ((r = get_bool(km, KEY_STALE, &a->tables_stale)) != BOOM_OK)
         return r;
-    return get_text(km, KEY_CUE, false, BOOM_CUE_MAX, a->cue, NULL);
+    if ((r = get_text(km, KEY_CUE, false, BOOM_CUE_MAX, a->cue, NULL)) != BOOM_OK)
+        return r;
+    OPT(KEY_ACTBY, act_by_s);
+    OPT(KEY_RMACH, resolve_mach);
+    OPT(KEY_TLH, turn_left_hdg);
+    OPT(KEY_TRH, turn_right_hdg);
+    if (km->pos[KEY_COMB] == NULL)
+        return BOOM_OK; /* optional: absent means false */
+    return get_bool(km, KEY_COMB, &a->combined);
 #undef REQ
 #undef OPT
 }
@@ -1028,8 +1038,9 @@ int boom_decode_frame(const uint8_t *payload, size_t len, boom_frame *out)
     value_at(&km, KEY_V, &v);
     if (v.k != K_UINT && v.k != K_NINT)
         return BOOM_E_BAD_TYPE;
-    if (v.k != K_UINT || v.u != BOOM_WIRE_FORMAT_VERSION)
+    if (v.k != K_UINT || v.u < 1u || v.u > BOOM_ADV_FORMAT_VERSION)
         return BOOM_E_UNSUPPORTED_VERSION;
+    out->version = (unsigned)v.u;
     /* type */
     if (km.pos[KEY_TYPE] == NULL)
         return BOOM_E_MISSING_FIELD;
@@ -1044,6 +1055,8 @@ int boom_decode_frame(const uint8_t *payload, size_t len, boom_frame *out)
         out->type = BOOM_FRAME_STATUS;
     else
         return BOOM_E_UNKNOWN_TYPE;
+    if (out->type != BOOM_FRAME_ADV && out->version != BOOM_WIRE_FORMAT_VERSION)
+        return BOOM_E_UNSUPPORTED_VERSION; /* version 2 is an advisory-frame version */
     /* seq */
     if (km.pos[KEY_SEQ] == NULL)
         return BOOM_E_MISSING_FIELD;
@@ -1059,7 +1072,7 @@ int boom_decode_frame(const uint8_t *payload, size_t len, boom_frame *out)
     out->utc_s = utc;
     switch (out->type) {
     case BOOM_FRAME_AIR: return decode_air(&km, &out->u.air);
-    case BOOM_FRAME_ADV: return decode_adv(&km, &out->u.adv);
+    case BOOM_FRAME_ADV: return decode_adv(&km, &out->u.adv, out->version);
     default: return decode_status(&km, &out->u.status);
     }
 }

@@ -27,7 +27,9 @@
 extern "C" {
 #endif
 
-#define BOOM_WIRE_FORMAT_VERSION 1
+#define BOOM_WIRE_FORMAT_VERSION 1 /* air-data and status frames (ICD section 7) */
+#define BOOM_ADV_FORMAT_VERSION 2  /* advisory frames: 2 since the status "unavoidable";
+                                      version-1 advisory frames are read as well */
 #define BOOM_MAX_PAYLOAD 4096 /* largest MessagePack payload, bytes */
 #define BOOM_CRC_LEN 4        /* CRC-32C trailer, big-endian */
 /* longest encoded stream frame without its delimiter (one byte of slack included) */
@@ -98,7 +100,8 @@ typedef enum {
     BOOM_ADV_ADVISORY,
     BOOM_ADV_CAUTION,
     BOOM_ADV_WARNING,
-    BOOM_ADV_UNAVAILABLE
+    BOOM_ADV_UNAVAILABLE,
+    BOOM_ADV_UNAVOIDABLE /* version 2: a boom that will reach a zone whatever is done */
 } boom_adv_status;
 
 typedef struct {
@@ -118,6 +121,16 @@ typedef struct {
     double turn_right_deg;
     bool tables_stale;
     char cue[BOOM_CUE_MAX + 1]; /* UTF-8, NUL-terminated */
+    /* optional keys (issue 13; absent: has_ false, combined false) */
+    bool has_act_by_s;
+    double act_by_s; /* s left to start the offered action */
+    bool has_resolve_mach;
+    double resolve_mach; /* Mach to decelerate to that clears every zone */
+    bool has_turn_left_hdg;
+    double turn_left_hdg; /* target heading of the left turn, deg true, 0..360 */
+    bool has_turn_right_hdg;
+    double turn_right_hdg; /* target heading of the right turn, deg true, 0..360 */
+    bool combined;         /* the resolution is the Mach and the turn together */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;
@@ -138,6 +151,7 @@ typedef struct {
     boom_frame_type type;
     uint32_t seq;
     double utc_s; /* sender's UTC, s since 1970 */
+    unsigned version; /* the frame's format version (1, or 2 for an advisory frame) */
     union {
         boom_air air;
         boom_adv adv;

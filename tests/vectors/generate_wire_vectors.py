@@ -60,6 +60,18 @@ ADV = [
         "status": "unavailable", "cue": "air data stale", "tables_stale": False}},
     {"seq": 5, "utc_s": 1893456004.0, "fields": {
         "status": "no_boom", "zone_id": "z" * 63, "cue": "c" * 127}},
+    # issue 13: the optional keys and the status "unavoidable" (format version 2)
+    {"seq": 6, "utc_s": 1893456005.0, "fields": {
+        "status": "warning", "zone_id": "zone-7", "time_to_contact_s": 48.0,
+        "overpressure_psf": 1.9, "focus": False, "max_mach_off_ground": 1.1,
+        "turn_left_deg": 40.0, "turn_right_deg": None,
+        "cue": "WARNING Larkmoor M1.08+L TO 320 ACT 15S", "act_by_s": 15.5,
+        "resolve_mach": 1.08, "turn_left_hdg": 320.0,
+        "turn_right_hdg": None, "combined": True}},
+    {"seq": 7, "utc_s": 1893456006.0, "fields": {
+        "status": "unavoidable", "zone_id": "zone-7", "time_to_contact_s": 42.0,
+        "overpressure_psf": 2.9, "cue": "BOOM DUE Larkmoor IN 42S 2.9 PSF",
+        "turn_right_hdg": 75.0}},
 ]
 
 STATUS = [
@@ -163,6 +175,34 @@ INVALID = [
     ("adv minimal ok", _pack({"v": 1, "type": "adv", "seq": 1, "utc_s": 0.0,
                               "status": "clear", "focus": False, "tables_stale": False,
                               "cue": ""}), None),
+    ("adv version 1 ok", _pack({"v": 1, "type": "adv", "seq": 1, "utc_s": 0.0,
+                                "status": "warning", "focus": False,
+                                "tables_stale": False, "cue": ""}), None),
+    ("adv version 1 with the issue-13 keys ok", _pack({
+        "v": 1, "type": "adv", "seq": 1, "utc_s": 0.0, "status": "warning", "focus": False,
+        "tables_stale": False, "cue": "", "act_by_s": 3.5, "combined": True}), None),
+    ("unavoidable in version 1", _pack({"v": 1, "type": "adv", "seq": 1, "utc_s": 0.0,
+                                        "status": "unavoidable", "focus": False,
+                                        "tables_stale": False, "cue": ""}), "bad_value"),
+    ("adv version 2 without the issue-13 keys ok", _pack({
+        "v": 2, "type": "adv", "seq": 1, "utc_s": 0.0, "status": "unavoidable",
+        "focus": False, "tables_stale": False, "cue": ""}), None),
+    ("adv version 3", _pack({"v": 3, "type": "adv", "seq": 1, "utc_s": 0.0,
+                             "status": "clear", "focus": False, "tables_stale": False,
+                             "cue": ""}), "unsupported_version"),
+    ("status version 2", _pack({"v": 2, "type": "status", "seq": 1, "utc_s": 0.0,
+                                "state": "ok", "reason": "", "counters": {}}),
+     "unsupported_version"),
+    ("combined int", _pack({"v": 2, "type": "adv", "seq": 1, "utc_s": 0.0,
+                            "status": "clear", "focus": False, "tables_stale": False,
+                            "cue": "", "combined": 1}), "bad_type"),
+    ("act_by_s string", _pack({"v": 2, "type": "adv", "seq": 1, "utc_s": 0.0,
+                               "status": "clear", "focus": False, "tables_stale": False,
+                               "cue": "", "act_by_s": "soon"}), "bad_type"),
+    ("turn_left_hdg int ok", _pack({"v": 2, "type": "adv", "seq": 1, "utc_s": 0.0,
+                                    "status": "caution", "focus": False,
+                                    "tables_stale": False, "cue": "",
+                                    "turn_left_hdg": 245}), None),
     ("counters not a map", _pack({"v": 1, "type": "status", "seq": 1, "utc_s": 0.0,
                                   "state": "ok", "reason": "", "counters": [1]}), "bad_type"),
     ("counter negative", _pack({"v": 1, "type": "status", "seq": 1, "utc_s": 0.0,

@@ -32,20 +32,25 @@ AIR_OPTIONAL = ("track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_
 AIR_FIELDS = AIR_REQUIRED + AIR_OPTIONAL  #: canonical order after the header
 
 # ----------------------------------------------------------------------------- advisories
-#: Advisory statuses, from "nothing to say" to the highest crew-alerting level, and the
-#: status published when no advice can be given.
-ADV_STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavailable")
-#: The statuses that name a zone in conflict (the three crew-alerting levels).
-CONFLICT_STATUSES = ("advisory", "caution", "warning")
+#: Advisory statuses, from "nothing to say" to the highest crew-alerting level, then
+#: ``unavoidable`` (a boom already emitted, or emitted before any action can take effect,
+#: will reach a zone), and the status published when no advice can be given.
+ADV_STATUSES = ("no_boom", "clear", "advisory", "caution", "warning", "unavoidable",
+                "unavailable")
+#: The statuses that name a zone in conflict (the three crew-alerting levels, then
+#: ``unavoidable``).
+CONFLICT_STATUSES = ("advisory", "caution", "warning", "unavoidable")
 #: Alert rank of each status that is not ``unavailable`` (higher is more urgent).
-STATUS_RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3}
+STATUS_RANK = {"no_boom": 0, "clear": 0, "advisory": 1, "caution": 2, "warning": 3,
+               "unavoidable": 4}
 ADV_FIELDS = (
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
+    "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
 )
 ADV_NULLABLE_FLOATS = (
     "time_to_contact_s", "overpressure_psf", "max_mach_off_ground", "turn_left_deg",
-    "turn_right_deg",
+    "turn_right_deg", "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg",
 )
 
 # ----------------------------------------------------------------------------- status frames

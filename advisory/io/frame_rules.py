@@ -156,6 +156,13 @@ def _dec_adv(m: dict) -> tuple[dict, int]:
             if type(x) is not bool:
                 raise _bad_type(name, x, "true or false")
             out[name] = x
+        elif name == "combined":  # optional (issue 13): absent reads as False
+            if x is _MISSING:
+                out[name] = False
+                continue
+            if type(x) is not bool:
+                raise _bad_type(name, x, "true or false")
+            out[name] = x
         elif name == "cue":
             if x is _MISSING:
                 raise RejectError("missing_field", f"field {name!r} is missing")

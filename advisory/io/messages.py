@@ -237,6 +237,13 @@ def encode_adv(fields: dict, seq: int, utc_s: float) -> bytes:
         m[name] = None if value is None else _num(name, value)
     m["tables_stale"] = _flag("tables_stale", fields.get("tables_stale", False))
     m["cue"] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)
+    # optional keys appended after the cue (issue 13): sent only when present
+    for name in ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg"):
+        if name in fields:
+            value = fields[name]
+            m[name] = None if value is None else _num(name, value)
+    if "combined" in fields:
+        m["combined"] = _flag("combined", fields["combined"])
     return _pack(m)
 
 

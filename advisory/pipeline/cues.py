@@ -63,5 +63,6 @@ def crew_cue(a: CueFacts) -> str:
     psf = a.overpressure_psf or 0.0
     focus = " FOCUS" if a.focus else ""
     stale = " [tables stale]" if a.tables_stale else ""
-    head = {"advisory": "Boom advisory", "caution": "BOOM CAUTION", "warning": "BOOM WARNING"}
+    head = {"advisory": "Boom advisory", "caution": "BOOM CAUTION", "warning": "BOOM WARNING",
+            "unavoidable": "BOOM UNAVOIDABLE"}
     return f"{head[a.status]}: {where} in {ttc:.0f} s, {psf:.1f} psf{focus}{fix}{stale}"

@@ -67,6 +67,19 @@ class Advisory:
         Every zone in conflict, soonest first.
     utc_s : float or None
         UTC time of the air data the advisory is based on.
+    act_by_s : float or None
+        Seconds from the state's time to the latest moment the crew can start the
+        offered action (after which it no longer clears); None: no conflict, or nothing
+        clears.
+    resolve_mach : float or None
+        Largest Mach, reached by decelerating at the configured rate, whose booms
+        (trial-flown, deceleration focus included) stay off every zone; None: no Mach
+        clears alone.
+    turn_left_hdg_deg, turn_right_hdg_deg : float or None
+        Target heading (deg true, [0, 360)) of the left / right turn resolutions.
+    combined : bool
+        Neither Mach nor a turn clears alone: the offered resolution is
+        ``resolve_mach`` and the turn together.
     """
 
     status: str
@@ -84,6 +97,11 @@ class Advisory:
     reason: str = ""
     conflicts: tuple[Conflict, ...] = field(default_factory=tuple)
     utc_s: float | None = None
+    act_by_s: float | None = None
+    resolve_mach: float | None = None
+    turn_left_hdg_deg: float | None = None
+    turn_right_hdg_deg: float | None = None
+    combined: bool = False
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -111,6 +129,11 @@ class Advisory:
             "turn_right_deg": r(self.turn_right_deg, 0),
             "tables_stale": bool(self.tables_stale),
             "cue": clip_utf8(self.cue, CUE_MAX_BYTES),
+            "act_by_s": r(self.act_by_s, 1),
+            "resolve_mach": r(self.resolve_mach, 2),
+            "turn_left_hdg": _heading(self.turn_left_hdg_deg),
+            "turn_right_hdg": _heading(self.turn_right_hdg_deg),
+            "combined": bool(self.combined),
         }
 
     def to_record(self) -> dict:
@@ -132,6 +155,13 @@ class Advisory:
             "caution": SAFETY_CAUTION,
         })
         return d
+
+
+def _heading(deg: float | None) -> float | None:
+    """A heading rounded to whole degrees in [0, 360) (None stays None)."""
+    if deg is None or not math.isfinite(deg):
+        return None
+    return float(round(float(deg)) % 360)
 
 
 def clip_utf8(text: str | None, limit: int) -> str | None:

@@ -10,13 +10,15 @@ reaction time; booms emitted earlier are the advisor's "unavoidable" ones).
   ``roll_rate_deg_s``) to a target Mach. A slower aircraft covers less ground in the
   look-ahead, so these trials are flown ``M0 / M`` times longer (the same ground as the
   prediction): a target above cutoff that only delays a contact beyond the look-ahead is
-  not offered. The lowest candidate is the present cutoff Mach
-  less ``cutoff_margin_mach`` (rounded down to 0.01: every boom after it stays off the
-  ground); when it clears, the largest clearing target between it and the present Mach is
-  found by bisection on a 0.01 grid (every offered value is a trial that cleared; the
-  bisection assumes that a lower target clears when a higher one does, which holds
-  except near odd geometry, where the value offered is still one that cleared). When the
-  lowest candidate does not clear, no Mach alone clears (None).
+  not offered. Booms emitted just above cutoff travel far ahead (and focus), so these
+  trials also emit where the deceleration passes cutoff plus small excesses
+  (:data:`NEAR_CUTOFF_EXCESS`), not only every ``step_s``. The lowest candidate is the
+  present cutoff Mach less ``cutoff_margin_mach`` (rounded down to 0.01: every boom
+  after it stays off the ground); when it clears, the largest clearing target between
+  it and the present Mach is found by bisection on a 0.01 grid (every offered value is
+  a trial that cleared; the bisection assumes that a lower target clears when a higher
+  one does, which holds except near odd geometry, where the value offered is still one
+  that cleared). When the lowest candidate does not clear, no Mach alone clears (None).
 * **Turns** (``turn_left_deg`` / ``turn_right_deg``): roll at ``roll_rate_deg_s`` to
   ``turn_bank_deg``, hold, roll out at the heading change; heading changes are tried on
   a coarse list (10, 20, 30, 45, 60, 90, 135, 180 deg up to ``max_turn_deg``) and refined
@@ -61,6 +63,10 @@ ACT_BY_TOLERANCE_S = 1.0
 MACH_GRID = 0.01  #: resolution of the offered Mach
 #: Longest stretch of a Mach trial's look-ahead (:meth:`TrialBase.stretch`).
 MAX_STRETCH = 2.0
+#: Mach excesses over cutoff at which a deceleration's trial also emits (the table's
+#: near-cutoff rows are this fine too; project choice).
+NEAR_CUTOFF_EXCESS = np.array([0.0005, 0.001, 0.002, 0.003, 0.005, 0.008, 0.012, 0.02,
+                               0.03, 0.05])
 
 
 def max_mach_off_ground(cutoff_mach: float, margin_mach: float) -> float:
@@ -105,6 +111,8 @@ class TrialBase:
         self.params = _base_params(ahead, cfg)
         self.trials = 0
         self.t_long = self.t
+        #: Cutoff Mach at the present state (set by :func:`search`; 0 when unknown).
+        self.cutoff_now = 0.0
 
     def stretch(self, slowest_mach: float) -> None:
         """Make the trials that change the Mach cover the same ground as the prediction:
@@ -118,6 +126,21 @@ class TrialBase:
         end = self.horizon_s * factor
         extra = np.arange(self.horizon_s + step, end + 0.5 * step, step)
         self.t_long = np.ascontiguousarray(np.concatenate([self.t, extra]))
+
+    def _near_cutoff_times(self, onset: float, target_mach: float) -> np.ndarray:
+        """The stretched emission times plus the moments the deceleration passes the
+        cutoff Mach plus each of :data:`NEAR_CUTOFF_EXCESS` (booms emitted just above
+        cutoff travel far ahead, and a few seconds of emissions span them all)."""
+        m_on = self.mach0 + self.params[5] * onset
+        if not (self.cutoff_now > 0.0 and target_mach < m_on):
+            return self.t_long
+        rate = self.cfg.decel_mach_per_s
+        ts = onset + (m_on - (self.cutoff_now + NEAR_CUTOFF_EXCESS)) / rate
+        end = onset + (m_on - target_mach) / rate
+        ts = ts[(ts > onset) & (ts < min(end, float(self.t_long[-1])))]
+        if ts.size == 0:
+            return self.t_long
+        return np.ascontiguousarray(np.unique(np.concatenate([self.t_long, ts])))
 
     @property
     def horizon_s(self) -> float:
@@ -137,9 +160,12 @@ class TrialBase:
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         pz = self.pz
         tb = self.table
-        t = self.t if math.isnan(target_mach) else self.t_long
+        t, k0 = self.t, self.k0
+        if not math.isnan(target_mach):
+            t = self._near_cutoff_times(onset, target_mach)
+            k0 = int(np.searchsorted(t, self.cfg.reaction_s, side="right"))
         return bool(trial_clears_kernel(
-            t, self.k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
+            t, k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, self.strips, pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, self.focus_cap,
@@ -213,6 +239,7 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
     hi = math.floor(base.mach0 / MACH_GRID + 1e-9) * MACH_GRID
     lo = min(lo, hi)
     base.stretch(lo)
+    base.cutoff_now = cutoff_now
     mach: float | None = None
     if (yield from trial(target_mach=lo)):
         good, bad = lo, hi + MACH_GRID

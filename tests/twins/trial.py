@@ -114,6 +114,7 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
     s = k0 - lo
     pred = CarpetPrediction(
         t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],
-        arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP], duration_s=rows[s:, :, lk.Q_DURATION],
+        arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],
+        duration_s=rows[s:, :, lk.Q_DURATION],
         focus_factor=amp[s:], edge_flag=rows[s:, :, lk.Q_EDGE] > 0.5)
     return not find_conflicts_twin(pred, pz, zones, strips, focus_threshold, first_only=True)

@@ -13,7 +13,11 @@ flight itself, the digests are regenerated with ``python tests/test_replay_golde
 --write`` and the commit says why; a refactor must never need that. Retaken so far:
 ``demo/coastal_approach`` once, when its scenario changed (the crew now slows after the
 advisory, because the truth harness showed that slowing after the caution still puts
-booms on the town; issue 12, item 9). The other eight are the originals.
+booms on the town; issue 12, item 9); then every record once for issue 13's act-by
+levels and checked resolutions (levels on the time left to act, the Mach resolution
+trial-flown, turns with roll-in after the reaction time, the ``unavoidable`` status, and
+the advisory frame's new optional keys ``act_by_s``, ``resolve_mach``,
+``turn_left_hdg``, ``turn_right_hdg``, ``combined``).
 """
 
 from __future__ import annotations

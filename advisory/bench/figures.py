@@ -24,7 +24,7 @@ from advisory.schema import CONFLICT_STATUSES, EARTH_MEAN_RADIUS_M, STATUS_RANK
 KM_PER_DEG = math.pi * (EARTH_MEAN_RADIUS_M / 1e3) / 180.0  #: km per degree of arc
 STATUS_COLOURS = {
     "no_boom": "#9db4c0", "clear": "#5aa469", "advisory": "#e9c12e", "caution": "#f2994a",
-    "warning": "#d64545", "unavailable": "#4f4f4f",
+    "warning": "#d64545", "unavoidable": "#7b2d8e", "unavailable": "#4f4f4f",
 }
 #: Top of the FIXED overpressure scale of the truth's booms, psf: the same for every flight
 #: of every report, so colours compare across flights (higher values take the top colour).

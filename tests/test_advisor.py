@@ -125,6 +125,10 @@ def test_resolutions_clear_and_mach_is_below_cutoff(small_table) -> None:
     assert a.status in ("advisory", "caution", "warning")
     assert a.max_mach_off_ground == pytest.approx(1.13, abs=0.011)  # cutoff 1.153 - 0.02
     assert a.turn_left_deg is not None and a.turn_right_deg is not None
+    # target headings (issue 13 contract): the heading at the onset (straight flight: the
+    # present 090) turned by the change, deg true in [0, 360)
+    assert a.turn_right_hdg_deg == pytest.approx((90.0 + a.turn_right_deg) % 360.0, abs=0.5)
+    assert a.turn_left_hdg_deg == pytest.approx((90.0 - a.turn_left_deg) % 360.0, abs=0.5)
     # after the suggested turn, holding the new heading clears the zone
     for turn in (-a.turn_left_deg, a.turn_right_deg):
         after = Advisor(small_table, zones).step(state(heading=90.0 + turn), 0.0)

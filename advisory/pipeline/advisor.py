@@ -313,7 +313,8 @@ class Advisor:
         self._held_zone = first.zone_id if first else None
         self._held_name = first.zone_name if first else None
         r = res or Resolution()
-        hdg = self._onset_heading_deg(ahead)
+        turning = r.turn_left_deg is not None or r.turn_right_deg is not None
+        hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
         return Advisory(
             status=status,
             zone_id=named.zone_id if named else None,

@@ -20,7 +20,10 @@ same (checked by comparing the decoded advisory frames of all nine replays befor
 after, field for field). Then all of them for issue 13: crew line (every advisory frame
 changed: the crew line of at most 40 characters is in every frame, the frame is format
 version 2 and carries the five new optional keys; the advisor itself was not changed by
-that retake).
+that retake). Then every record once
+for issue 13's act-by levels and checked resolutions (levels on the time left to act,
+the Mach resolution trial-flown, turns with roll-in after the reaction time, the
+``unavoidable`` status).
 """
 
 from __future__ import annotations

@@ -160,7 +160,8 @@ class _Flight:
             t = i * dt
             action = self.crew.due(t)
             if action is not None:
-                self.pilot.take_over(action.segment, self.state)
+                for segment in action.segments():  # a combined one: slow down and turn
+                    self.pilot.take_over(segment, self.state)
             self.pilot.update(self.state, dt)
             self.track.add(self.state)
             sample = self.state.step(dt, t)

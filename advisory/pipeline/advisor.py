@@ -2,18 +2,24 @@
 
 One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`) and the
 recent past (:mod:`.history`), lays the boom carpet on the ground from the tables
-(:mod:`.footprint`), finds the first no-boom zone it reaches (:mod:`.conflicts`),
-sets the alert level from the time to contact with hysteresis (:mod:`.levels`), and
-offers resolutions (:mod:`.resolutions`): the highest Mach at the present altitude
-whose boom stays off the ground, and the smallest left and right heading changes that
-clear every zone over the look-ahead. The advisory and its crew line are in
-:mod:`.results` and :mod:`.cues`.
+(:mod:`.footprint`), and finds the zones it reaches (:mod:`.conflicts`), split into the
+booms emitted before the crew can act (within ``reaction_s``: nothing changes them) and
+the later ones. For the later ones it flies the resolutions as trials
+(:mod:`.resolutions`, :mod:`.trial`): the largest Mach reached by decelerating that
+clears, the smallest left and right turns (with roll-in) that clear, both together when
+neither alone does, and the act-by time, the latest moment the offered action can start
+and still clear; the level is set on the act-by time with hysteresis (:mod:`.levels`).
+The advisory and its crew line are in :mod:`.results` and :mod:`.cues`.
 
 Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
 the ground over the look-ahead), ``clear`` (carpet on the ground, no conflict),
-``advisory`` (a conflict within the look-ahead), ``caution`` and ``warning`` (contact
-sooner than the caution and warning lead times) and ``unavailable`` (no valid, fresh air
-data, or no table): never a clear status on an invalid or stale state.
+``advisory`` (an avoidable conflict within the look-ahead), ``caution`` and ``warning``
+(the act-by time within the caution and warning leads, or nothing clears),
+``unavoidable`` (a boom emitted before the crew can act reaches a zone: the zone, its
+arrival time and overpressure are named, and the resolution fields still carry the
+action for any avoidable conflict) and ``unavailable`` (no valid, fresh air data, or no
+table): never a clear status on an invalid or stale state, nor while a boom is on its
+way into a zone.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
@@ -32,13 +38,20 @@ from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import Atmosphere
 from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.conflicts import find_conflicts
+from advisory.pipeline.conflicts import split_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.history import join_trajectories, past_trajectory
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.profile import StreamProfile
-from advisory.pipeline.resolutions import max_mach_off_ground, turn_resolutions
-from advisory.pipeline.results import Advisory
+from advisory.pipeline.resolutions import (
+    Resolution,
+    Search,
+    TrialBase,
+    max_mach_off_ground,
+    run_search,
+    search,
+)
+from advisory.pipeline.results import Advisory, Conflict
 from advisory.pipeline.trajectory import SpeedOfSound, Trajectory, predict_trajectory
 from advisory.pipeline.zone_projection import (
     EARLY_FRACTION,
@@ -53,7 +66,9 @@ from advisory.tables.table import BoomTable
 
 __all__ = ["Advisor", "TableSource"]
 
-Turns = tuple[float | None, float | None]  #: left and right heading changes, deg
+#: Trials a refresh of the resolution search may fly per step (a new conflict is searched
+#: in full at once); about 0.1 ms each (project choice for the step budget).
+TRIALS_PER_STEP = 4
 
 
 class TableSource(Protocol):
@@ -106,10 +121,15 @@ class Advisor:
         self.last_trajectory: Trajectory | None = None
         self._ahead: Trajectory | None = None  # the last trajectory ahead (no past)
         self.steps = 0
-        #: Steps on which the turn-resolution search ran (for the benchmark).
+        #: Resolution searches started (for the benchmark).
         self.resolution_searches = 0
-        #: (zone id, level, monotonic time, turns) of the last turn search.
-        self._resolution_cache: tuple[str, int, float, Turns] | None = None
+        #: The last finished search, the monotonic time and zone it was made for, and the
+        #: refresh in progress (:meth:`_resolution`).
+        self._result: Resolution | None = None
+        self._result_t0 = 0.0
+        self._result_zone: str | None = None
+        self._search: Search | None = None
+        self._search_t0 = 0.0
         #: The zone named while a level is held with no present conflict.
         self._held_zone: str | None = None
         self._held_name: str | None = None
@@ -268,57 +288,99 @@ class Advisor:
         traj = join_trajectories(past, ahead)
         pred = self._predictor.predict(traj)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        conflicts = find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold)
-        first = conflicts[0] if conflicts else None
-        level = self._levels.update(first.time_to_contact_s if first else None, now)
         now_k = past.t_s.size  # the present emission point in the prediction
+        fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
+                                                  cfg.focus_threshold, cfg.reaction_s)
+        first = later[0] if later else None
         cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
+        res, act_by = self._resolution(pz, ahead, cut_now, first, now)
+        # an avoidable contact with nothing that clears is a warning (act-by 0)
+        level = self._levels.update(
+            None if first is None else (0.0 if act_by is None else act_by), now)
         max_mach = max_mach_off_ground(cut_now, cfg.cutoff_margin_mach)
         reaches_now = bool(pred.on_ground[now_k])
-        if level == 0:
+        if fixed:
+            status = "unavoidable"  # never clear while a boom is on its way into a zone
+        elif level == 0:
             status = "clear" if pred.on_ground.any() else "no_boom"
         else:
             status = level_status(level)
-        left = right = None
-        if level > 0 and first is not None:
-            left, right = self._cached_resolutions(pz, pred, ahead, now_k, first.zone_id,
-                                                   level, now)
-        if level > 0 and first is None:
+        if level > 0 and first is None and not fixed:
             # held level (hysteresis) with no present conflict: keep the cue informative
             return Advisory(status, max_mach_off_ground=max_mach, reaches_ground=reaches_now,
                             cutoff_mach=cut_now, tables_stale=self.tables_stale,
                             utc_s=s.utc_s, zone_id=self._held_zone,
                             zone_name=self._held_name)
+        named = fixed[0] if fixed else first
         self._held_zone = first.zone_id if first else None
         self._held_name = first.zone_name if first else None
+        r = res or Resolution()
+        turning = r.turn_left_deg is not None or r.turn_right_deg is not None
+        hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
         return Advisory(
             status=status,
-            zone_id=first.zone_id if first else None,
-            zone_name=first.zone_name if first else None,
-            time_to_contact_s=first.time_to_contact_s if first else None,
-            overpressure_pa=first.overpressure_pa if first else None,
-            focus=bool(first.focus) if first else False,
+            zone_id=named.zone_id if named else None,
+            zone_name=named.zone_name if named else None,
+            time_to_contact_s=named.time_to_contact_s if named else None,
+            overpressure_pa=named.overpressure_pa if named else None,
+            focus=bool(named.focus) if named else False,
             max_mach_off_ground=max_mach,
-            turn_left_deg=left, turn_right_deg=right,
+            turn_left_deg=r.turn_left_deg, turn_right_deg=r.turn_right_deg,
             reaches_ground=reaches_now, cutoff_mach=cut_now,
             tables_stale=self.tables_stale, conflicts=tuple(conflicts), utc_s=s.utc_s,
+            act_by_s=act_by, resolve_mach=r.resolve_mach, combined=r.combined,
+            turn_left_hdg_deg=None if r.turn_left_deg is None
+            else (hdg - r.turn_left_deg) % 360.0,
+            turn_right_hdg_deg=None if r.turn_right_deg is None
+            else (hdg + r.turn_right_deg) % 360.0,
         )
 
-    def _cached_resolutions(self, pz: ProjectedZones, pred: CarpetPrediction,
-                            ahead: Trajectory, n_past: int, zone_id: str, level: int,
-                            now: float) -> Turns:
-        """Turn resolutions, searched again after ``refresh_s`` or when the zone in
-        conflict or the level changes (they change slowly; the search is the costly
-        part of a step)."""
-        c = self._resolution_cache
-        if (c is not None and c[0] == zone_id and c[1] == level
-                and 0.0 <= now - c[2] < self.config.refresh_s):
-            return c[3]
-        self.resolution_searches += 1
-        res = turn_resolutions(self.config, self._predictor, not self._table.has_wind,
-                               self._strips, pz, self.zones, pred, ahead, n_past)
-        self._resolution_cache = (zone_id, level, now, res)
-        return res
+    def _onset_heading_deg(self, ahead: Trajectory) -> float:
+        """True heading (deg) at the onset of the crew's action (after the reaction time,
+        the present manoeuvre held): the heading the turn resolutions turn from."""
+        t = ahead.t_s
+        k = int(np.searchsorted(t, self.config.reaction_s))
+        k = min(max(k, 1), t.size - 1) if t.size > 1 else 0
+        # the grid-to-true difference at the start, applied to the grid heading there
+        offset = float(ahead.heading_rad[0] - ahead.heading_grid_rad[0])
+        h = np.unwrap(ahead.heading_grid_rad[: k + 1]) if t.size > 1 else ahead.heading_grid_rad
+        grid = float(np.interp(self.config.reaction_s, t[: h.size], h))
+        return math.degrees(grid + offset) % 360.0
+
+    def _resolution(self, pz: ProjectedZones, ahead: Trajectory, cut_now: float,
+                    first: Conflict | None, now: float) -> tuple[Resolution | None,
+                                                                 float | None]:
+        """The resolutions and the act-by time (counted down since their search).
+
+        A new zone in conflict is searched at once, in full; afterwards the search is
+        renewed every ``refresh_s``, :data:`TRIALS_PER_STEP` trials per step (so no step
+        carries a whole search), and the act-by time counts down in between.
+        """
+        if first is None:
+            self._search = None
+            self._result = None
+            return None, None
+        cfg = self.config
+        if self._result is None or self._result_zone != first.zone_id:
+            self.resolution_searches += 1
+            gen = search(TrialBase(cfg, self._predictor, self._strips, pz, ahead), cut_now,
+                         first.time_to_contact_s)
+            self._result, self._result_t0 = run_search(gen), now
+            self._result_zone, self._search = first.zone_id, None
+        else:
+            if self._search is None and not 0.0 <= now - self._result_t0 < cfg.refresh_s:
+                self.resolution_searches += 1
+                self._search = search(TrialBase(cfg, self._predictor, self._strips, pz, ahead),
+                                      cut_now, first.time_to_contact_s)
+                self._search_t0 = now
+            if self._search is not None:
+                done = run_search(self._search, TRIALS_PER_STEP)
+                if done is not None:
+                    self._result, self._result_t0, self._search = done, self._search_t0, None
+        r = self._result
+        if r is None or r.act_by_s is None:
+            return r, None
+        return r, max(0.0, r.act_by_s - (now - self._result_t0))
 
 
 def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:

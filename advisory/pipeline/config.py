@@ -8,13 +8,15 @@ operators tune them in a config file::
     step_s = 3              # emission spacing along the predicted trajectory
     in_air_s = 150          # booms emitted this long ago may still be on their way down
 
-    [levels]
-    caution_lead_s = 120    # contact sooner than this -> caution
-    warning_lead_s = 60     # contact sooner than this -> warning
-                            # any contact within the look-ahead -> advisory
+    [levels]                # set on the time left to act (act-by), issue 13
+    caution_act_s = 60      # the offered action must start within this -> caution
+    warning_act_s = 20      # ... within this -> warning (also when nothing clears)
+                            # any avoidable contact within the look-ahead -> advisory
+    caution_lead_s = 120    # deprecated (levels were set on the time to contact):
+    warning_lead_s = 60     # still accepted and checked, no longer used
 
     [hysteresis]
-    band_s = 10             # a level is left only when contact is this much later
+    band_s = 10             # a level is left only when act-by is this much later
     release_s = 8           # ... and the lower level has held this long
     warning_hold_s = 20     # a warning is held until clear for this long
 
@@ -23,14 +25,22 @@ operators tune them in a config file::
     turn_bank_deg = 25          # bank assumed for the resolution turn
     max_turn_deg = 90           # largest heading change searched
     turn_step_deg = 5           # resolution of the heading-change answer
-    refresh_s = 1.0             # resolutions are searched again after this long, or at
-                                # once when the zone in conflict or the level changes
+    refresh_s = 1.0             # resolutions are searched again after this long (the
+                                # act-by time counts down in between), or at once when
+                                # the zone in conflict changes
+    reaction_s = 5              # crew reaction: the action starts this long after a cue
+    decel_mach_per_s = 0.01     # deceleration the Mach resolution assumes
+    roll_rate_deg_s = 5         # roll rate of the turn resolutions (roll-in and out)
 
     [focus]
     threshold = 1.25        # amplification above which a focus boom is flagged
 
     [input]
     stale_after_s = 0.5     # air data older than this is stale -> unavailable (ICD 4)
+
+The crew behaviour (reaction, deceleration, roll rate) matches the bench's crew model
+defaults; the act-by leads (60 s caution, 20 s warning) leave a crew that reacts in
+5 s several chances to act before the last moment (common practice, no source).
 """
 
 from __future__ import annotations
@@ -65,6 +75,11 @@ class AdvisorConfig:
     max_turn_deg: float = 90.0
     turn_step_deg: float = 5.0
     refresh_s: float = 1.0
+    reaction_s: float = 5.0
+    decel_mach_per_s: float = 0.01
+    roll_rate_deg_s: float = 5.0
+    caution_act_s: float = 60.0
+    warning_act_s: float = 20.0
     focus_threshold: float = 1.25
     stale_after_s: float = STALE_AFTER_S
     strips: int = 6
@@ -78,7 +93,9 @@ class AdvisorConfig:
             "band_s": (0.0, 120.0), "release_s": (0.0, 300.0), "warning_hold_s": (0.0, 600.0),
             "cutoff_margin_mach": (0.0, 0.5), "turn_bank_deg": (5.0, 60.0),
             "max_turn_deg": (5.0, 180.0), "turn_step_deg": (1.0, 45.0),
-            "refresh_s": (0.0, 30.0),
+            "refresh_s": (0.0, 30.0), "reaction_s": (0.0, 60.0),
+            "decel_mach_per_s": (0.001, 0.1), "roll_rate_deg_s": (1.0, 30.0),
+            "caution_act_s": (1.0, 1800.0), "warning_act_s": (1.0, 1800.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
         }
@@ -92,16 +109,18 @@ class AdvisorConfig:
                 raise ConfigError(f"advisor config: {f.name} = {v!r} is outside [{lo}, {hi}]")
         if self.warning_lead_s > self.caution_lead_s:
             raise ConfigError("advisor config: warning_lead_s must not exceed caution_lead_s")
+        if self.warning_act_s > self.caution_act_s:
+            raise ConfigError("advisor config: warning_act_s must not exceed caution_act_s")
         if self.caution_lead_s > self.look_ahead_s:
             raise ConfigError("advisor config: caution_lead_s must not exceed look_ahead_s")
 
 
 _SECTIONS = {
     "prediction": ("look_ahead_s", "step_s", "in_air_s", "strips", "reproject_km"),
-    "levels": ("caution_lead_s", "warning_lead_s"),
+    "levels": ("caution_act_s", "warning_act_s", "caution_lead_s", "warning_lead_s"),
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
-                   "refresh_s"),
+                   "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),
 }

@@ -27,7 +27,8 @@ from advisory.pipeline.footprint import CarpetPrediction
 from advisory.pipeline.results import Conflict
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
 
-__all__ = ["find_conflicts", "conflicts_from", "conflict_kernel"]
+__all__ = ["find_conflicts", "conflicts_from", "conflict_kernel", "split_conflicts",
+           "prediction_part"]
 
 
 def find_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
@@ -48,6 +49,44 @@ def find_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
         bool(first_only), best_t, best_dp, best_focus,
     )
     return conflicts_from(zones, best_t, best_dp, best_focus)
+
+
+def prediction_part(pred: CarpetPrediction, start: int, stop: int) -> CarpetPrediction:
+    """The emissions ``start:stop`` of a prediction (views)."""
+    sl = slice(start, stop)
+    return CarpetPrediction(
+        t_emit_s=pred.t_emit_s[sl], codes=pred.codes[sl], cutoff_mach=pred.cutoff_mach[sl],
+        east_m=pred.east_m[sl], north_m=pred.north_m[sl], arrival_s=pred.arrival_s[sl],
+        overpressure_pa=pred.overpressure_pa[sl], duration_s=pred.duration_s[sl],
+        focus_factor=pred.focus_factor[sl], edge_flag=pred.edge_flag[sl],
+    )
+
+
+def split_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
+                    strip_nodes: np.ndarray, focus_threshold: float, fixed_s: float
+                    ) -> tuple[list[Conflict], list[Conflict], list[Conflict]]:
+    """Conflicts of the booms emitted up to ``fixed_s`` (s after the state: the past and
+    the reaction time, which no action changes), of the later ones, and of all (each zone
+    at its soonest), each soonest first.
+
+    The two parts are searched apart, so the band between the last fixed and the first
+    later emission (one emission step) is in neither: a zone narrower than the carpet
+    moves in one step and lying exactly there is found one step later, when that
+    emission has become a fixed one.
+    """
+    k = int(np.searchsorted(pred.t_emit_s, fixed_s, side="right"))
+    n = pred.t_emit_s.size
+    fixed = find_conflicts(prediction_part(pred, 0, k), pz, zones, strip_nodes,
+                           focus_threshold) if k > 0 else []
+    later = find_conflicts(prediction_part(pred, k, n), pz, zones, strip_nodes,
+                           focus_threshold) if k < n else []
+    soonest: dict[int, Conflict] = {}
+    for c in fixed + later:
+        known = soonest.get(c.zone_index)
+        if known is None or c.time_to_contact_s < known.time_to_contact_s:
+            soonest[c.zone_index] = c
+    every = sorted(soonest.values(), key=lambda c: (c.time_to_contact_s, c.zone_index))
+    return fixed, later, every
 
 
 def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,

@@ -1,12 +1,16 @@
-"""Alert levels with hysteresis: from the time to the first contact to a crew level.
+"""Alert levels with hysteresis: from the time left to act to a crew level.
 
-Levels (the three standard crew-alerting levels): 1 advisory (any contact within the
-look-ahead), 2 caution (contact sooner than ``caution_lead_s``), 3 warning (sooner than
-``warning_lead_s``); 0 when there is no contact. A level is raised at once; it is left
-only when the contact is ``band_s`` later than the lead that raised it, and the lower
-level has then held for ``release_s`` (``warning_hold_s`` from a warning), so a cue does
-not flicker at a threshold. The lead times and hold times are project choices (common
-practice, no source), documented in :mod:`advisory.pipeline.config`.
+Levels (the three standard crew-alerting levels) are set on the act-by time, the
+seconds left before the latest moment the offered action can start and still clear
+(:mod:`advisory.pipeline.resolutions`), not on the time until the boom arrives (a boom
+takes a minute or two to reach the ground, so the arrival time says little about how
+long the crew has): 1 advisory (an avoidable contact within the look-ahead), 2 caution
+(act-by ``caution_act_s`` or less), 3 warning (``warning_act_s`` or less, or no action
+found that clears); 0 when there is no avoidable contact. A level is raised at once; it
+is left only when the act-by time is ``band_s`` later than the lead that raised it, and
+the lower level has then held for ``release_s`` (``warning_hold_s`` from a warning), so
+a cue does not flicker at a threshold. The leads and hold times are project choices
+(common practice, no source), documented in :mod:`advisory.pipeline.config`.
 """
 
 from __future__ import annotations
@@ -28,7 +32,7 @@ class AlertLevels:
     Parameters
     ----------
     cfg : AdvisorConfig
-        Lead times, band and hold times, s.
+        Act-by leads, band and hold times, s.
 
     Attributes
     ----------
@@ -43,25 +47,26 @@ class AlertLevels:
         self.level = 0
         self.lower_since: float | None = None
 
-    def raw(self, ttc: float | None, current: int) -> int:
-        """The level a time to contact ``ttc`` (s, None for no contact) calls for, with
-        the band added to the leads of the levels at or below ``current``."""
+    def raw(self, act_by: float | None, current: int) -> int:
+        """The level an act-by time ``act_by`` (s; None for no avoidable contact; 0 when
+        nothing clears) calls for, with the band added to the leads of the levels at or
+        below ``current``."""
         c = self.cfg
-        if ttc is None:
+        if act_by is None:
             return 0
 
         def lead(level: int) -> float:
-            base = {3: c.warning_lead_s, 2: c.caution_lead_s}[level]
+            base = {3: c.warning_act_s, 2: c.caution_act_s}[level]
             return base + (c.band_s if current >= level else 0.0)
 
         for level in (3, 2):
-            if ttc <= lead(level):
+            if act_by <= lead(level):
                 return level
-        return 1  # any predicted contact is at least an advisory
+        return 1  # any avoidable contact is at least an advisory
 
-    def update(self, ttc: float | None, now: float) -> int:
-        """The level after one step with time to contact ``ttc`` (s) at monotonic ``now`` (s)."""
-        target = self.raw(ttc, self.level)
+    def update(self, act_by: float | None, now: float) -> int:
+        """The level after one step with act-by time ``act_by`` (s) at monotonic ``now`` (s)."""
+        target = self.raw(act_by, self.level)
         if target >= self.level:
             self.level = target
             self.lower_since = None

@@ -1,192 +1,353 @@
-"""Resolutions: the highest Mach whose boom stays off the ground, and the smallest left
-and right turns that clear every zone, each tried before it is offered.
+"""Resolutions, each flown as a trial before it is offered, and the time left to act.
 
-Mach: the cutoff Mach at the present state (from the table lookup of the present
-emission) less a configured margin, rounded down to 0.01. Turns: a coordinated turn at
-the configured bank that rolls out after the heading change, flown from the present
-state with the same Mach and climb schedule and wind; the carpet of that trajectory
-ahead is laid and searched for conflicts like the advisor's own. Heading changes are
-tried on a coarse list (10, 20, 30, 45, 60, 90, 135, 180 deg up to the limit) and then
-refined in ``turn_step_deg`` steps between the last failing and the first clearing one.
-Booms already emitted cannot be moved: when they alone reach a zone no turn clears.
+Every candidate is a trial flight (:mod:`advisory.pipeline.trial`): the trajectory ahead
+re-flown from the present state with the crew's action starting after the configured
+reaction time, its carpet laid from the table with the focus of its own trajectory, and
+the zones searched for the emissions the action can still change (those after the
+reaction time; booms emitted earlier are the advisor's "unavoidable" ones).
 
-When the table has no wind the trials share the altitude and Mach schedule, hence the
-table rows, and each trial is one compiled call (:func:`trial_clears_kernel`); its
-readable twin is the composition :func:`advisory.pipeline.history.turned_trajectory`,
-:meth:`advisory.pipeline.footprint.FootprintPredictor.predict` and
-:func:`advisory.pipeline.conflicts.find_conflicts`, checked in a parity test. The
-search order and lists are project choices (common practice, no source).
+* **Mach** (``resolve_mach``): decelerate at ``decel_mach_per_s`` (wings rolled level at
+  ``roll_rate_deg_s``) to a target Mach. A slower aircraft covers less ground in the
+  look-ahead, so these trials are flown ``M0 / M`` times longer (the same ground as the
+  prediction): a target above cutoff that only delays a contact beyond the look-ahead is
+  not offered. Booms emitted just above cutoff travel far ahead (and focus), so these
+  trials also emit where the deceleration passes cutoff plus small excesses
+  (:data:`NEAR_CUTOFF_EXCESS`), not only every ``step_s``. The lowest candidate is the
+  present cutoff Mach less ``cutoff_margin_mach`` (rounded down to 0.01: every boom
+  after it stays off the ground); when it clears, the largest clearing target between
+  it and the present Mach is found by bisection on a 0.01 grid (every offered value is
+  a trial that cleared; the bisection assumes that a lower target clears when a higher
+  one does, which holds except near odd geometry, where the value offered is still one
+  that cleared). When the lowest candidate does not clear, no Mach alone clears (None).
+* **Turns** (``turn_left_deg`` / ``turn_right_deg``): roll at ``roll_rate_deg_s`` to
+  ``turn_bank_deg``, hold, roll out at the heading change; heading changes are tried on
+  a coarse list (10, 20, 30, 45, 60, 90, 135, 180 deg up to ``max_turn_deg``) and refined
+  in ``turn_step_deg`` steps between the last failing and the first clearing one.
+* **Combined**: when neither alone clears, the lowest Mach candidate together with the
+  smallest turn each way that clears with it (``combined`` True).
+* **Act-by** (``act_by_s``): for the action the crew is offered first (the Mach when it
+  clears alone, else the smaller turn, left on a tie, else the combination), the latest
+  onset that still clears, by bisection to :data:`ACT_BY_TOLERANCE_S` between the
+  reaction time (clears) and the first contact (the action must begin before the
+  emission that reaches the zone); assumes a later onset never clears when an earlier one
+  does not (common practice, no source). The value returned is an onset that cleared.
+
+The search is a generator (:func:`search`) that yields after every trial, so the advisor
+can spread a refresh over several steps with a bounded number of trials each; the number
+of trials is fixed by the inputs (no clock), so replays stay deterministic. The lists,
+tolerances and the crew's preference are project choices (common practice, no source).
 """
 
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Generator
+from dataclasses import dataclass
 
 import numpy as np
 
-from advisory.jit import njit
+from advisory import units
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.conflicts import conflict_kernel, find_conflicts
-from advisory.pipeline.footprint import (
-    CarpetPrediction,
-    FootprintPredictor,
-    focus_kernel,
-    place_kernel,
-)
-from advisory.pipeline.history import kernel_inputs, turned_trajectory
-from advisory.pipeline.trajectory import Trajectory, propagate_kernel
-from advisory.pipeline.zones import ProjectedZones, ZoneSet
-from advisory.tables import lookup as lk
+from advisory.pipeline.footprint import FootprintPredictor
+from advisory.pipeline.trajectory import Trajectory
+from advisory.pipeline.trial import TRIAL_PARAMS, trial_clears_kernel
+from advisory.pipeline.zones import ProjectedZones
 
-__all__ = ["max_mach_off_ground", "turn_resolutions", "trial_clears_kernel"]
+__all__ = ["max_mach_off_ground", "TrialBase", "Resolution", "search", "run_search",
+           "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
 
 #: Heading changes tried first, deg (then refined between the last fail and first clear).
 COARSE_TURNS_DEG = (10.0, 20.0, 30.0, 45.0, 60.0, 90.0, 135.0, 180.0)
+#: Precision of the act-by bisection, s.
+ACT_BY_TOLERANCE_S = 1.0
+MACH_GRID = 0.01  #: resolution of the offered Mach
+#: Longest stretch of a Mach trial's look-ahead (:meth:`TrialBase.stretch`).
+MAX_STRETCH = 2.0
+#: Mach excesses over cutoff at which a deceleration's trial also emits (the table's
+#: near-cutoff rows are this fine too; project choice).
+NEAR_CUTOFF_EXCESS = np.array([0.0005, 0.001, 0.002, 0.003, 0.005, 0.008, 0.012, 0.02,
+                               0.03, 0.05])
 
 
 def max_mach_off_ground(cutoff_mach: float, margin_mach: float) -> float:
     """Highest Mach (rounded down to 0.01) whose boom stays off the ground: the cutoff
     Mach less the configured margin."""
-    return math.floor(100.0 * (cutoff_mach - margin_mach)) / 100.0
+    return math.floor(100.0 * (cutoff_mach - margin_mach) + 1e-9) / 100.0
 
 
-def turn_resolutions(cfg: AdvisorConfig, predictor: FootprintPredictor, reuse_rows: bool,
-                     strips: np.ndarray, pz: ProjectedZones, zones: ZoneSet,
-                     base: CarpetPrediction, ahead: Trajectory, n_past: int
-                     ) -> tuple[float | None, float | None]:
-    """Smallest left and right heading changes (deg) that clear every zone.
+class TrialBase:
+    """Everything the trials of one search share: the trajectory ahead's start state, the
+    table, the zones and the first emission judged.
 
     Parameters
     ----------
     cfg : AdvisorConfig
-        Bank of the turn, largest heading change, refinement step, focus threshold.
+        Reaction time, deceleration, roll rate, bank, focus threshold.
     predictor : FootprintPredictor
-        Lays the carpet from the live table.
-    reuse_rows : bool
-        The table has no wind, so the trials may reuse the rows of ``ahead``'s lookup
-        and run as one compiled call each.
+        The live table (and its focus cap).
     strips : ndarray
         int64 azimuth nodes of the carpet strips.
-    pz, zones : ProjectedZones, ZoneSet
-        The zones, projected in the trajectory's frame.
-    base : CarpetPrediction
-        The present prediction: the extrapolated past (``n_past`` emissions) then
-        ``ahead``.
+    pz : ProjectedZones
+        The zones in the trajectory's frame.
     ahead : Trajectory
         The trajectory ahead from the present state (t = 0 first).
-    n_past : int
-        Emissions of the past in ``base``.
-
-    Returns
-    -------
-    (left, right) : float or None
-        Heading changes, deg; None when none up to ``max_turn_deg`` clears, or when the
-        booms already emitted alone reach a zone.
     """
-    if n_past and find_conflicts(_head(base, n_past + 1), pz, zones, strips,
-                                 cfg.focus_threshold, first_only=True):
-        return None, None
+
+    def __init__(self, cfg: AdvisorConfig, predictor: FootprintPredictor,
+                 strips: np.ndarray, pz: ProjectedZones, ahead: Trajectory) -> None:
+        self.cfg = cfg
+        self.table = predictor.table
+        self.focus_cap = predictor.focus_cap
+        self.strips = np.ascontiguousarray(strips, dtype=np.int64)
+        self.pz = pz
+        self.ahead = ahead
+        self.t = np.ascontiguousarray(ahead.t_s, dtype=np.float64)
+        self.k0 = int(np.searchsorted(self.t, cfg.reaction_s, side="right"))
+        self.mach0 = float(ahead.mach[0])
+        self.fpa = float(ahead.fpa_rad[0])
+        self.has_wind = bool(self.table.has_wind)
+        self.hdg_offset = (float(ahead.heading_rad[0] - ahead.heading_grid_rad[0])
+                           if self.has_wind else 0.0)
+        self.params = _base_params(ahead, cfg)
+        self.trials = 0
+        self.t_long = self.t
+        #: Cutoff Mach at the present state (set by :func:`search`; 0 when unknown).
+        self.cutoff_now = 0.0
+
+    def stretch(self, slowest_mach: float) -> None:
+        """Make the trials that change the Mach cover the same ground as the prediction:
+        flown down to ``slowest_mach``, the aircraft needs ``M0 / M`` times longer (at most
+        :data:`MAX_STRETCH` times), and a Mach above cutoff only delays a contact beyond
+        the look-ahead rather than avoiding it."""
+        factor = min(max(self.mach0 / max(slowest_mach, 0.1), 1.0), MAX_STRETCH)
+        if factor <= 1.0 or self.t.size < 2:
+            return
+        step = float(self.t[1] - self.t[0])
+        end = self.horizon_s * factor
+        extra = np.arange(self.horizon_s + step, end + 0.5 * step, step)
+        self.t_long = np.ascontiguousarray(np.concatenate([self.t, extra]))
+
+    def _near_cutoff_times(self, onset: float, target_mach: float) -> np.ndarray:
+        """The stretched emission times plus the moments the deceleration passes the
+        cutoff Mach plus each of :data:`NEAR_CUTOFF_EXCESS` (booms emitted just above
+        cutoff travel far ahead, and a few seconds of emissions span them all)."""
+        m_on = self.mach0 + self.params[5] * onset
+        if not (self.cutoff_now > 0.0 and target_mach < m_on):
+            return self.t_long
+        rate = self.cfg.decel_mach_per_s
+        ts = onset + (m_on - (self.cutoff_now + NEAR_CUTOFF_EXCESS)) / rate
+        end = onset + (m_on - target_mach) / rate
+        ts = ts[(ts > onset) & (ts < min(end, float(self.t_long[-1])))]
+        if ts.size == 0:
+            return self.t_long
+        return np.ascontiguousarray(np.unique(np.concatenate([self.t_long, ts])))
+
+    @property
+    def horizon_s(self) -> float:
+        """The last emission time of the trials, s."""
+        return float(self.t[-1])
+
+    def clears(self, onset: float, target_mach: float = math.nan,
+               bank: float = math.nan, turn: float = math.nan) -> bool:
+        """One trial: action at ``onset`` (s) toward ``target_mach`` (NaN: present
+        schedule), bank ``bank`` (rad, NaN: wings level) rolling out after the heading
+        change ``turn`` (rad, signed; NaN: none). True when no judged boom reaches a zone.
+        """
+        self.trials += 1
+        if self.k0 >= self.t.size:
+            return True  # nothing after the reaction time within the look-ahead
+        p = self.params.copy()
+        p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
+        pz = self.pz
+        tb = self.table
+        t, k0 = self.t, self.k0
+        if not math.isnan(target_mach):
+            t = self._near_cutoff_times(onset, target_mach)
+            k0 = int(np.searchsorted(t, self.cfg.reaction_s, side="right"))
+        return bool(trial_clears_kernel(
+            t, k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
+            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, self.strips, pz.x, pz.y,
+            pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
+            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, self.focus_cap,
+            self.cfg.focus_threshold))
+
+
+def _base_params(ahead: Trajectory, cfg: AdvisorConfig) -> np.ndarray:
+    """The trial parameters (:data:`TRIAL_PARAMS`) of ``ahead``'s start state; the action
+    entries are filled per trial."""
+    mdot = 0.0
+    if ahead.t_s.size > 1:
+        mdot = float((ahead.mach[-1] - ahead.mach[0]) / (ahead.t_s[-1] - ahead.t_s[0]))
+    fpa = float(ahead.fpa_rad[0])
+    vh = float(ahead.tas_mps[0]) * math.cos(fpa)
+    psi0 = float(ahead.heading_grid_rad[0])
+    ge = float(ahead.ground_speed_mps[0]) * math.sin(float(ahead.track_grid_rad[0]))
+    gn = float(ahead.ground_speed_mps[0]) * math.cos(float(ahead.track_grid_rad[0]))
+    p = np.zeros(len(TRIAL_PARAMS))
+    p[:14] = (float(ahead.alt_m[0]), math.sin(fpa), math.cos(fpa), float(ahead.bank_rad[0]),
+              float(ahead.mach[0]), mdot, float(ahead.tas_mps[0] / ahead.mach[0]), psi0,
+              ge - vh * math.sin(psi0), gn - vh * math.cos(psi0), float(ahead.east_m[0]),
+              float(ahead.north_m[0]), ahead.frame.radius_m, units.G0)
+    p[14:] = (cfg.reaction_s, math.nan, cfg.decel_mach_per_s, math.nan, math.nan,
+              math.radians(cfg.roll_rate_deg_s))
+    return p
+
+
+@dataclass(frozen=True)
+class Resolution:
+    """What a search found (times from the state the search started on).
+
+    ``kind`` is the action offered first: ``mach``, ``left``, ``right``, ``combined_left``,
+    ``combined_right`` or None (nothing clears); ``act_by_s`` the latest onset of that
+    action that still clears (None when nothing clears); ``trials`` the trials flown.
+    """
+
+    resolve_mach: float | None = None
+    turn_left_deg: float | None = None
+    turn_right_deg: float | None = None
+    combined: bool = False
+    kind: str | None = None
+    act_by_s: float | None = None
+    trials: int = 0
+
+
+Search = Generator[None, None, Resolution]
+
+
+def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
+    """The resolution search (module notes); yields after every trial.
+
+    Parameters
+    ----------
+    base : TrialBase
+    cutoff_now : float
+        Cutoff Mach at the present state.
+    contact_s : float
+        Time to the first avoidable contact, s (the act-by search's upper end).
+    """
+    cfg = base.cfg
+    onset = cfg.reaction_s
+    found: list[bool] = []
+
+    def trial(**kw: float) -> Generator[None, None, bool]:
+        ok = base.clears(onset, **kw)
+        found.append(ok)
+        yield
+        return ok
+
+    lo = max_mach_off_ground(cutoff_now, cfg.cutoff_margin_mach)
+    hi = math.floor(base.mach0 / MACH_GRID + 1e-9) * MACH_GRID
+    lo = min(lo, hi)
+    base.stretch(lo)
+    base.cutoff_now = cutoff_now
+    mach: float | None = None
+    if (yield from trial(target_mach=lo)):
+        good, bad = lo, hi + MACH_GRID
+        while bad - good > MACH_GRID * 1.5:
+            mid = round(math.floor(0.5 * (good + bad) / MACH_GRID + 1e-9) * MACH_GRID, 2)
+            if mid <= good:
+                break
+            if (yield from trial(target_mach=mid)):
+                good = mid
+            else:
+                bad = mid
+        mach = round(good, 2)
     bank = math.radians(cfg.turn_bank_deg)
-    if reuse_rows:  # the trials share the altitude and Mach schedule, hence the table rows
-        rows, codes, _ = (x.copy() for x in predictor.lookup(ahead))
-        t, mach, sound, params = kernel_inputs(ahead, ahead.t_s, 0.0, math.nan)
-        dp = np.ascontiguousarray(rows[:, :, lk.Q_DP])
-
-        def clears(delta_deg: float, side: int) -> bool:  # one compiled call per trial
-            params[3] = side * bank
-            params[4] = math.radians(delta_deg) * side
-            return bool(trial_clears_kernel(
-                t, mach, sound, params, rows, codes, dp, strips, pz.x, pz.y,
-                pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
-                pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa,
-                predictor.focus_cap, cfg.focus_threshold))
-    else:
-        def clears(delta_deg: float, side: int) -> bool:
-            traj = turned_trajectory(ahead, side * bank, math.radians(delta_deg) * side)
-            pred = predictor.predict(traj)
-            return not find_conflicts(pred, pz, zones, strips, cfg.focus_threshold,
-                                      first_only=True)
-
     coarse = [a for a in COARSE_TURNS_DEG if a <= cfg.max_turn_deg]
     if not coarse or coarse[-1] < cfg.max_turn_deg:
         coarse.append(cfg.max_turn_deg)
-    left = _smallest_clearing(clears, -1, coarse, cfg.turn_step_deg)
-    right = _smallest_clearing(clears, 1, coarse, cfg.turn_step_deg)
-    return left, right
+
+    def turn_trial(target_mach: float) -> Callable[[float, int], Generator[None, None, bool]]:
+        def f(delta_deg: float, side: int) -> Generator[None, None, bool]:
+            return trial(target_mach=target_mach, bank=side * bank,
+                         turn=side * math.radians(delta_deg))
+        return f
+
+    turns = turn_trial(math.nan)
+    left = yield from _smallest_clearing(turns, -1, coarse, cfg.turn_step_deg)
+    right = yield from _smallest_clearing(turns, 1, coarse, cfg.turn_step_deg)
+    combined = False
+    if mach is None and left is None and right is None:
+        with_mach = turn_trial(lo)
+        left = yield from _smallest_clearing(with_mach, -1, coarse, cfg.turn_step_deg)
+        right = yield from _smallest_clearing(with_mach, 1, coarse, cfg.turn_step_deg)
+        if left is not None or right is not None:
+            combined, mach = True, lo
+    kind, action = _first_action(mach, left, right, combined, bank)
+    act_by = None
+    if action is not None:
+        act_by = yield from _latest_onset(base, action, onset, contact_s)
+    return Resolution(mach, left, right, combined, kind, act_by, base.trials)
 
 
-def _smallest_clearing(clears: Callable[[float, int], bool], side: int, coarse: list[float],
-                       step: float) -> float | None:
+def _first_action(mach: float | None, left: float | None, right: float | None,
+                  combined: bool, bank: float) -> tuple[str | None, dict | None]:
+    """The action the crew is offered first, as trial keywords (module notes)."""
+    turns = [(v, side, name) for v, side, name in ((left, -1, "left"), (right, 1, "right"))
+             if v is not None]
+    if mach is not None and not combined:
+        return "mach", {"target_mach": mach}
+    if not turns:
+        return None, None
+    change, side, name = min(turns, key=lambda x: (x[0], x[1]))
+    kw = {"bank": side * bank, "turn": side * math.radians(change)}
+    if combined:
+        kw["target_mach"] = mach if mach is not None else math.nan
+        name = f"combined_{name}"
+    return name, kw
+
+
+def _latest_onset(base: TrialBase, action: dict, onset: float, contact_s: float
+                  ) -> Generator[None, None, float]:
+    """The latest onset (s) of ``action`` that still clears, by bisection (module notes)."""
+    good = onset
+    bad = min(max(contact_s, onset), base.horizon_s)  # the contact is within the look-ahead
+    if bad - good <= ACT_BY_TOLERANCE_S:
+        return good
+    ok = base.clears(bad, **action)
+    yield
+    if ok:
+        return bad
+    while bad - good > ACT_BY_TOLERANCE_S:
+        mid = 0.5 * (good + bad)
+        ok = base.clears(mid, **action)
+        yield
+        if ok:
+            good = mid
+        else:
+            bad = mid
+    return good
+
+
+def _smallest_clearing(clears: Callable[[float, int], Generator[None, None, bool]], side: int,
+                       coarse: list[float], step: float
+                       ) -> Generator[None, None, float | None]:
     """The first clearing heading change of the coarse list on one side, refined in
     ``step`` between the last failing one and it (deg); None when none clears."""
     lo, found = 0.0, None
     for a in coarse:
-        if clears(a, side):
+        if (yield from clears(a, side)):
             found = a
             break
         lo = a
     if found is not None:
         a = lo + step
         while a < found - 1e-9:  # refine between the last fail and first clear
-            if clears(a, side):
+            if (yield from clears(a, side)):
                 found = a
                 break
             a += step
     return found
 
 
-def _head(pred: CarpetPrediction, stop: int) -> CarpetPrediction:
-    """The first ``stop`` emissions of a prediction."""
-    return CarpetPrediction(
-        t_emit_s=pred.t_emit_s[:stop], codes=pred.codes[:stop],
-        cutoff_mach=pred.cutoff_mach[:stop], east_m=pred.east_m[:stop],
-        north_m=pred.north_m[:stop], arrival_s=pred.arrival_s[:stop],
-        overpressure_pa=pred.overpressure_pa[:stop], duration_s=pred.duration_s[:stop],
-        focus_factor=pred.focus_factor[:stop], edge_flag=pred.edge_flag[:stop],
-    )
-
-
-@njit(cache=True)
-def trial_clears_kernel(t, mach, a, params, rows, codes, dp, strip_nodes, x, y, ring_start,
-                        part_start, zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox,
-                        margins, limits, focus_cap, focus_threshold):
-    """One resolution trial in compiled code: trajectory, carpet, focus, zone contact.
-
-    Same steps as :func:`turned_trajectory`, :meth:`FootprintPredictor.predict` and
-    :func:`find_conflicts` (their composition is the readable twin, checked in a parity
-    test). Returns True when no zone is reached.
-    """
-    out = propagate_kernel(t, mach, a, params)
-    nk = t.size
-    nj = rows.shape[1]
-    e = np.empty((nk, nj))
-    n = np.empty((nk, nj))
-    ta = np.empty((nk, nj))
-    de = np.empty((nk, nj))
-    dn = np.empty((nk, nj))
-    place_kernel(t, out[0], out[1], out[4], rows, codes, e, n, ta, de, dn)
-    vg_e = np.empty(nk)
-    vg_n = np.empty(nk)
-    for k in range(nk):
-        vg_e[k] = out[8, k] * math.sin(out[7, k])
-        vg_n[k] = out[8, k] * math.cos(out[7, k])
-    amp = np.ones((nk, nj))
-    focus_kernel(t, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp)
-    on_ground = np.empty(nk, dtype=np.bool_)
-    eff = np.empty((nk, nj))
-    for k in range(nk):
-        on_ground[k] = codes[k] != lk.NO_BOOM
-        for j in range(nj):
-            eff[k, j] = dp[k, j] * amp[k, j] if on_ground[k] else 0.0
-    nz = limits.size
-    best_t = np.full(nz, np.inf)
-    best_dp = np.zeros(nz)
-    best_focus = np.zeros(nz, dtype=np.bool_)
-    conflict_kernel(e, n, ta, eff, amp, on_ground, strip_nodes, x, y, ring_start, part_start,
-                    zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
-                    focus_threshold, True, best_t, best_dp, best_focus)
-    for z in range(nz):
-        if best_t[z] < np.inf:
-            return False
-    return True
+def run_search(gen: Search, budget: int | None = None) -> Resolution | None:
+    """Advance ``gen`` by at most ``budget`` trials (None: to the end); its result when it
+    has finished, else None."""
+    n = 0
+    try:
+        while budget is None or n < budget:
+            next(gen)
+            n += 1
+    except StopIteration as stop:
+        return stop.value  # type: ignore[no-any-return]
+    return None

@@ -69,14 +69,17 @@ class Advisory:
         UTC time of the air data the advisory is based on.
     act_by_s : float or None
         Seconds from the state's time to the latest moment the crew can start the
-        offered action (None: no conflict, or nothing clears). Issue 13 contract.
+        offered action (after which it no longer clears); None: no conflict, or nothing
+        clears.
     resolve_mach : float or None
-        Largest Mach, reached by decelerating at the configured rate, whose booms stay
-        off every zone (None: no Mach clears alone).
+        Largest Mach, reached by decelerating at the configured rate, whose booms
+        (trial-flown, deceleration focus included) stay off every zone; None: no Mach
+        clears alone.
     turn_left_hdg_deg, turn_right_hdg_deg : float or None
-        Target headings (deg true) of the left / right turn resolutions.
+        Target heading (deg true, [0, 360)) of the left / right turn resolutions.
     combined : bool
-        Neither Mach nor a turn clears alone: the resolution is both together.
+        Neither Mach nor a turn clears alone: the offered resolution is
+        ``resolve_mach`` and the turn together.
     """
 
     status: str

@@ -1,0 +1,280 @@
+"""Trial flights for the resolutions: the crew's action flown ahead, and its boom carpet.
+
+A trial re-flies the trajectory ahead from the present state with a crew action that
+begins at ``onset`` seconds (the configured reaction time, or later for the act-by
+search):
+
+* before the onset, the present manoeuvre: the present bank (a coordinated turn) and
+  Mach rate, as :func:`advisory.pipeline.trajectory.predict_trajectory` holds them;
+* from the onset, the Mach moves toward ``target_mach`` at ``decel`` per second (NaN
+  target: the present Mach rate goes on), and the bank rolls at ``roll_rate`` toward
+  ``target_bank`` (NaN: wings level, the Mach-only action), holds it until the heading
+  has turned to within the roll-out lead of ``turn_limit`` (half the turn rate times the
+  roll-out time, so the turn ends near the asked change), then rolls level.
+
+The coordinated turn ``psi_dot = g tan(bank) / V`` and the climb ``V sin(gamma)`` are the
+point-mass relations of :mod:`advisory.pipeline.trajectory` (any flight-mechanics
+text); the roll-out lead and the constant roll rate are common practice, no source. The
+speed of sound is held at its present value (the altitude changes little over a trial)
+and the flight-path angle is held. The integration takes sub-steps of at most
+:data:`SUBSTEP_S` between the emission times while the bank changes or a roll-out is
+awaited (one step per interval otherwise) (trapezoidal heading, position along the
+step's mid heading plus the wind, corrected for the frame's map scale as
+:func:`advisory.pipeline.trajectory.propagate_kernel` does).
+
+:func:`trial_clears_kernel` flies a trial, looks the emissions after the onset up in the
+table (a lookup is reused while altitude, Mach and heading stay the same), places them on
+the ground, applies the ray-tube focus factor of the trial's own trajectory (so a
+deceleration through cutoff carries its focus, :mod:`advisory.pipeline.footprint`) and
+searches the zones (:func:`advisory.pipeline.conflicts.conflict_kernel`), on the strip
+azimuths only (the conflict search reads no other column, so the answer is the same).
+Both kernels have readable numpy twins in ``tests/twins/trial.py`` with parity tests in
+``tests/test_checked_resolutions.py``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from advisory.jit import njit
+from advisory.pipeline.conflicts import conflict_kernel
+from advisory.pipeline.footprint import focus_kernel, place_kernel
+from advisory.tables import lookup as lk
+
+__all__ = ["TRIAL_PARAMS", "TRIAL_ROWS", "SUBSTEP_S", "fly_trial_kernel",
+           "trial_clears_kernel"]
+
+SUBSTEP_S = 0.5  #: longest integration sub-step of a trial, s
+
+#: Order of the entries of the ``params`` argument of :func:`fly_trial_kernel`.
+TRIAL_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank0", "mach0", "mach_rate0", "a", "psi0",
+                "wind_e", "wind_n", "e0", "n0", "radius", "g", "onset", "target_mach",
+                "decel", "target_bank", "turn_limit", "roll_rate")
+#: Rows of the array returned by :func:`fly_trial_kernel`.
+TRIAL_ROWS = ("east_m", "north_m", "alt_m", "mach", "tas_mps", "heading_grid_rad",
+              "bank_rad", "track_grid_rad", "ground_speed_mps", "turn_rate_rad_s")
+
+P_ONSET, P_TARGET_MACH, P_DECEL, P_TARGET_BANK, P_TURN_LIMIT, P_ROLL_RATE = range(14, 20)
+
+
+@njit(cache=True)
+def _toward(value, target, step):
+    """``value`` moved toward ``target`` by at most ``step`` (>= 0)."""
+    if abs(target - value) <= step:
+        return target
+    return value + step if target > value else value - step
+
+
+@njit(cache=True)
+def _mach_at(tau, p):
+    """Mach at time ``tau`` (s) of the trial ``p`` (see the module notes)."""
+    m_free = max(p[4] + p[5] * tau, 0.1)
+    onset = p[P_ONSET]
+    target = p[P_TARGET_MACH]
+    if tau <= onset or math.isnan(target):
+        return m_free
+    m_on = max(p[4] + p[5] * onset, 0.1)
+    return max(_toward(m_on, target, p[P_DECEL] * (tau - onset)), 0.1)
+
+
+@njit(cache=True)
+def fly_trial_kernel(t, p):
+    """Fly a trial (module notes) and sample it at the times ``t``.
+
+    Parameters
+    ----------
+    t : ndarray
+        float64 (N,) times from the present state, s, increasing from 0.
+    p : ndarray
+        float64 (20,) in the order of :data:`TRIAL_PARAMS`: altitude (m); sine and
+        cosine of the flight-path angle; present bank (rad, positive right); present
+        Mach and Mach rate (1/s); speed of sound (m/s); grid heading at t = 0 (rad);
+        wind grid components east and north (m/s); start position in the frame (m, m);
+        the frame's Gaussian radius (m); gravity (m/s^2); onset of the action (s);
+        target Mach (NaN: the present schedule); Mach rate of the change (1/s, > 0);
+        target bank (rad, NaN: wings level); signed heading change at which the turn
+        rolls out (rad, NaN: none); roll rate (rad/s).
+
+    Returns
+    -------
+    ndarray
+        float64 (10, N), rows named by :data:`TRIAL_ROWS`.
+    """
+    n = t.shape[0]
+    out = np.empty((10, n))
+    sin_g, cos_g, a, g, radius = p[1], p[2], p[6], p[13], p[12]
+    onset, target_bank, limit, roll = p[P_ONSET], p[P_TARGET_BANK], p[P_TURN_LIMIT], p[P_ROLL_RATE]
+    wings_level = math.isnan(target_bank)
+    has_limit = not math.isnan(limit)
+    east, north, alt, psi, bank = p[10], p[11], p[0], p[7], p[3]
+    turned = 0.0  # heading turned since the onset, rad
+    phase = 0  # 0 before the onset, 1 rolling in / holding, 2 rolling level
+    tau = 0.0
+    for i in range(n):
+        while tau < t[i] - 1e-12:
+            if phase == 0 and tau >= onset - 1e-12:
+                phase = 2 if wings_level else 1
+            rolling = (phase == 1) or (phase == 2 and bank != 0.0)
+            # sub-steps only while the bank changes or a roll-out is awaited; otherwise
+            # the step's arc is exact (constant bank) and the Mach is linear in time
+            h = min(SUBSTEP_S, t[i] - tau) if rolling else t[i] - tau
+            if phase == 0 and tau + h > onset + 1e-12:
+                h = onset - tau  # land a sub-step on the onset
+            m0 = _mach_at(tau, p)
+            m1 = _mach_at(tau + h, p)
+            v0 = m0 * a
+            v1 = m1 * a
+            b1 = bank
+            if phase == 1:
+                b1 = _toward(bank, target_bank, roll * h)
+            elif phase == 2:
+                b1 = _toward(bank, 0.0, roll * h)
+            w0 = g * math.tan(bank) / v0
+            w1 = g * math.tan(b1) / v1
+            dpsi = 0.5 * (w0 + w1) * h
+            if phase > 0:
+                turned += dpsi
+            mid = psi + 0.5 * dpsi
+            x = 0.5 * dpsi
+            sinc = 1.0 - x * x / 6.0 if abs(x) < 1e-4 else math.sin(x) / x
+            chord = 0.5 * (v0 + v1) * cos_g * h * sinc
+            de = chord * math.sin(mid) + p[8] * h
+            dn = chord * math.cos(mid) + p[9] * h
+            me = east + 0.5 * de
+            mn = north + 0.5 * dn
+            rho = math.hypot(me, mn)
+            if rho > 0.0:  # ground lengths -> plane lengths (the frame's map scales)
+                q = 0.5 * rho / radius
+                hs = math.sqrt(max(1.0 - q * q, 1e-300))
+                ue = me / rho
+                un = mn / rho
+                rad = de * ue + dn * un
+                te = de - rad * ue
+                tn = dn - rad * un
+                de = hs * rad * ue + te / hs
+                dn = hs * rad * un + tn / hs
+            east += de
+            north += dn
+            alt += 0.5 * (v0 + v1) * sin_g * h
+            psi += dpsi
+            bank = b1
+            tau += h
+            if phase == 1 and has_limit:  # roll out with the lead of the roll-out
+                w = abs(g * math.tan(bank) / v1)
+                lead = 0.5 * w * abs(bank) / max(roll, 1e-9)
+                if abs(limit) - abs(turned) <= lead:
+                    phase = 2
+        m = _mach_at(t[i], p)
+        v = m * a
+        out[0, i] = east
+        out[1, i] = north
+        out[2, i] = alt
+        out[3, i] = m
+        out[4, i] = v
+        out[5, i] = psi % (2.0 * math.pi)
+        out[6, i] = bank
+        vh = v * cos_g
+        ge = vh * math.sin(psi) + p[8]
+        gn = vh * math.cos(psi) + p[9]
+        out[7, i] = math.atan2(ge, gn) % (2.0 * math.pi)
+        out[8, i] = math.hypot(ge, gn)
+        out[9, i] = g * math.tan(bank) / v
+    return out
+
+
+@njit(cache=True)
+def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                        cutoff, cells, strips, x, y, ring_start, part_start, zone_start,
+                        zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
+                        focus_cap, focus_threshold):
+    """Whether the trial ``p`` keeps the booms of emissions ``k0`` on off every zone.
+
+    Parameters
+    ----------
+    t : ndarray
+        float64 (N,) emission times from the present state, s (0 first).
+    k0 : int
+        First emission judged (the earlier ones are not changed by the action).
+    p : ndarray
+        The trial (:func:`fly_trial_kernel`).
+    fpa : float
+        Flight-path angle, rad (held).
+    hdg_offset : float
+        True minus grid heading at the aircraft, rad (for a table with wind).
+    has_wind : bool
+        The table has a heading axis (wind): look rows up by true heading.
+    ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells
+        The table (:func:`advisory.tables.lookup.lookup_kernel`).
+    strips : ndarray
+        int64 azimuth nodes of the carpet strips.
+    x, y, ring_start, ... limits
+        The projected zones (:func:`advisory.pipeline.conflicts.conflict_kernel`).
+    focus_cap, focus_threshold : float
+        Largest focus amplification; amplification flagged as a focus.
+
+    Returns
+    -------
+    bool
+        True when no judged boom reaches a zone.
+    """
+    fl = fly_trial_kernel(t, p)
+    k_lo = k0 - 1 if k0 > 0 else 0  # one emission before, for the focus differences
+    nk = t.size - k_lo
+    ns = strips.size
+    nj_all = cells.shape[4]
+    rows = np.zeros((nk, ns, lk.N_QUANTITIES))
+    codes = np.zeros(nk, dtype=np.int64)
+    scratch = np.zeros((nj_all, lk.N_QUANTITIES))
+    last_alt = math.nan
+    last_mach = math.nan
+    last_hdg = math.nan
+    last_code = 0
+    for kk in range(nk):
+        k = k_lo + kk
+        hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
+        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
+            last_code, _ = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
+                                            ax_fpa, ax_hdg, cutoff, cells, scratch)
+            last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
+        codes[kk] = last_code
+        for s in range(ns):
+            for q in range(lk.N_QUANTITIES):
+                rows[kk, s, q] = scratch[strips[s], q]
+    tk = t[k_lo:].copy()
+    e = np.empty((nk, ns))
+    n = np.empty((nk, ns))
+    ta = np.empty((nk, ns))
+    de = np.empty((nk, ns))
+    dn = np.empty((nk, ns))
+    place_kernel(tk, fl[0, k_lo:].copy(), fl[1, k_lo:].copy(), fl[5, k_lo:].copy(), rows,
+                 codes, e, n, ta, de, dn)
+    vg_e = np.empty(nk)
+    vg_n = np.empty(nk)
+    for kk in range(nk):
+        vg_e[kk] = fl[8, k_lo + kk] * math.sin(fl[7, k_lo + kk])
+        vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
+    amp = np.ones((nk, ns))
+    focus_kernel(tk, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp)
+    skip = k0 - k_lo  # the emission before k0 is only for the focus
+    m = nk - skip
+    on_ground = np.empty(m, dtype=np.bool_)
+    eff = np.empty((m, ns))
+    for i in range(m):
+        on_ground[i] = codes[i + skip] != lk.NO_BOOM
+        for j in range(ns):
+            eff[i, j] = rows[i + skip, j, lk.Q_DP] * amp[i + skip, j] if on_ground[i] else 0.0
+    nodes = np.arange(ns)
+    nz = limits.size
+    best_t = np.full(nz, np.inf)
+    best_dp = np.zeros(nz)
+    best_focus = np.zeros(nz, dtype=np.bool_)
+    conflict_kernel(e[skip:].copy(), n[skip:].copy(), ta[skip:].copy(), eff,
+                    amp[skip:].copy(), on_ground, nodes, x, y, ring_start, part_start,
+                    zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins,
+                    limits, focus_threshold, True, best_t, best_dp, best_focus)
+    for z in range(nz):
+        if best_t[z] < np.inf:
+            return False
+    return True

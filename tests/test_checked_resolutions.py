@@ -1,0 +1,203 @@
+"""Issue 13, Why 4 and Build 3-4: resolutions flown as trials before they are offered, and
+booms no action can stop named as unavoidable.
+
+Expectations come from closed forms (the coordinated turn, a constant deceleration), the
+truth harness (direct tracing along the path flown, :mod:`advisory.bench.truth`, through
+:mod:`advisory.bench.closed_loop`) and the readable twins of the kernels; none is taken
+from the code under test.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from geographiclib.geodesic import Geodesic
+
+from advisory import units
+from advisory.bench.closed_loop import simulate
+from advisory.bench.crew import Crew
+from advisory.bench.sim_scenario import CrewSpec, scenario_from_dict
+from advisory.bench.sim_world import build_world
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.physics.carpet import compute_carpet
+from advisory.physics.rays import FlightCondition, RayTracer
+from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.resolutions import TrialBase
+from advisory.pipeline.state import AirDataState
+from advisory.pipeline.trial import TRIAL_PARAMS, fly_trial_kernel, trial_clears_kernel
+from advisory.schema import ADV_STATUSES, CONFLICT_STATUSES, STATUS_RANK
+from tests.test_act_by import DECEL, encounter, town_exposure
+from tests.test_advisor import ALT_FT, C_45K, point_along, square, state, zoneset
+from tests.twins.trial import fly_trial_kernel_twin, trial_clears_twin
+
+G0 = 9.80665  #: standard gravity, m/s^2 (U.S. Standard Atmosphere 1976)
+
+
+def trial_params(**over) -> np.ndarray:
+    """A trial of level flight at Mach 1.6, 45,000 ft, heading north, from the origin."""
+    p = dict(h0=units.ft_to_m(ALT_FT), sin_fpa=0.0, cos_fpa=1.0, bank0=0.0, mach0=1.6,
+             mach_rate0=0.0, a=C_45K, psi0=0.0, wind_e=0.0, wind_n=0.0, e0=0.0, n0=0.0,
+             radius=6.371e6, g=G0, onset=5.0, target_mach=math.nan, decel=0.01,
+             target_bank=math.nan, turn_limit=math.nan, roll_rate=math.radians(5.0))
+    p.update(over)
+    return np.array([p[k] for k in TRIAL_PARAMS], dtype=np.float64)
+
+
+@pytest.mark.parametrize("over", [
+    {},
+    {"target_mach": 1.12},
+    {"onset": 4.2, "target_bank": math.radians(25.0), "turn_limit": math.radians(30.0)},
+    {"onset": 7.0, "target_bank": -math.radians(25.0), "turn_limit": -math.radians(90.0),
+     "target_mach": 1.3, "bank0": math.radians(10.0)},
+    {"bank0": math.radians(-20.0), "mach_rate0": 0.002, "wind_e": 20.0, "e0": 3e4},
+])
+def test_trial_flight_matches_its_twin(over) -> None:
+    # Parity: compiled trial flight vs its readable twin (tests/twins/trial.py).
+    t = np.arange(0.0, 301.0, 3.0)
+    p = trial_params(**over)
+    np.testing.assert_allclose(fly_trial_kernel(t, p), fly_trial_kernel_twin(t, p),
+                               rtol=1e-9, atol=1e-6)
+
+
+def test_trial_turn_and_deceleration_against_closed_forms() -> None:
+    # Coordinated turn held at bank phi: radius V^2 / (g tan phi) (point-mass relation,
+    # any flight-mechanics text); heading rate g tan(phi) / V.
+    v = 1.6 * C_45K
+    phi = math.radians(25.0)
+    t = np.arange(0.0, 121.0, 1.0)
+    out = fly_trial_kernel(t, trial_params(bank0=phi, onset=1e6, radius=1e12))
+    radius = v * v / (G0 * math.tan(phi))
+    # centre of the circle to the right of a northbound start: (radius, 0)
+    dist = np.hypot(out[0] - radius, out[1])
+    assert np.max(np.abs(dist - radius)) < 1e-4 * radius
+    assert out[9][0] == pytest.approx(G0 * math.tan(phi) / v, rel=1e-12)
+    # Constant deceleration: the target is reached (M0 - Mt) / rate after the onset.
+    out = fly_trial_kernel(t, trial_params(target_mach=1.2))
+    reached = t[np.argmax(out[3] <= 1.2 + 1e-12)]
+    assert reached == pytest.approx(5.0 + (1.6 - 1.2) / 0.01, abs=1.0)
+    # A turn rolls in at the roll rate: 25 deg of bank 5 s after the onset, and rolls
+    # out near the asked heading change (30 deg, within a few degrees).
+    out = fly_trial_kernel(t, trial_params(target_bank=phi, turn_limit=math.radians(30.0)))
+    assert out[6][t == 10.0][0] == pytest.approx(phi, abs=1e-9)
+    assert math.degrees(out[5][-1]) == pytest.approx(30.0, abs=3.0)
+
+
+def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
+    # Parity: the compiled trial (strip azimuths only) equals the composition of the
+    # readable twins of lookup, placement, focus and conflict search on every azimuth.
+    feats = [square(f"z{i}", *point_along(90e3 + 25e3 * i, 90.0 + 3.0 * (i - 1)),
+                    half_km=2.0, margin_km=1.0) for i in range(3)]
+    zones = zoneset(*feats)
+    adv = Advisor(small_table, zones)
+    adv.step(state(), 0.0)
+    base = TrialBase(adv.config, adv._predictor, adv._strips, adv._projected, adv._ahead)
+    tb, pz = small_table, adv._projected
+    outcomes = set()
+    for onset, mach, bank, turn in [(5.0, math.nan, math.nan, math.nan),
+                                    (5.0, 1.13, math.nan, math.nan),
+                                    (60.0, 1.13, math.nan, math.nan),
+                                    (5.0, math.nan, 0.44, 0.5), (5.0, math.nan, -0.44, -1.5),
+                                    (12.0, 1.4, 0.44, 0.3)]:
+        p = base.params.copy()
+        p[14], p[15], p[17], p[18] = onset, mach, bank, turn
+        fast = trial_clears_kernel(base.t, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
+                                   tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, base.strips,
+                                   pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start,
+                                   pz.zone_bbox, pz.ring_chunk, pz.chunk_edges, pz.chunk_bbox,
+                                   pz.margin_m, pz.limit_pa, base.focus_cap, 1.25)
+        slow = trial_clears_twin(base.t, base.k0, p, 0.0, 0.0, False, tb, base.strips, pz,
+                                 zones, base.focus_cap, 1.25)
+        assert bool(fast) == slow, (onset, mach, bank, turn)
+        outcomes.add(slow)
+    assert outcomes == {True, False}  # both kinds of trial were exercised
+
+
+def test_statuses_follow_the_contract() -> None:
+    # The shared contract of issue 13 (the interface change every helper builds to).
+    assert ADV_STATUSES == ("no_boom", "clear", "advisory", "caution", "warning",
+                            "unavoidable", "unavailable")
+    assert "unavoidable" in CONFLICT_STATUSES and STATUS_RANK["unavoidable"] == 4
+
+
+def test_a_boom_already_emitted_into_a_zone_is_unavoidable(small_table) -> None:
+    # A zone under the centreline landing point of the boom emitted now: its boom
+    # arrives after the centreline travel time (direct tracing, no tables), and no action
+    # can stop it. The status names it; never clear while the boom is on its way.
+    carpet = compute_carpet(RayTracer(standard_atmosphere()),
+                            FlightCondition(1.6, units.ft_to_m(ALT_FT), math.radians(90.0)))
+    lat, lon = point_along(carpet.centerline_along_m)
+    adv = Advisor(small_table, zoneset(square("harbour", lat, lon, half_km=1.0)))
+    a = adv.step(state(), 0.0)
+    assert a.status == "unavoidable" and a.zone_id == "harbour"
+    assert a.time_to_contact_s == pytest.approx(carpet.centerline_travel_time_s, abs=4.0)
+    # a boom of the usual strength (typically 0.5-3 psf: value from memory)
+    assert a.overpressure_psf is not None and 0.3 < a.overpressure_psf < 5.0
+
+
+def test_crew_flies_the_checked_mach_and_reads_old_frames() -> None:
+    # docs/scenarios.md: the crew flies resolve_mach; a frame of an old log (no such key)
+    # offers max_mach_off_ground; a combined resolution is flown as both at once.
+    crew = Crew(CrewSpec(mode="follow", reaction_s=4.0, bank_deg=25.0))
+    frame = {"status": "caution", "zone_id": "z", "max_mach_off_ground": 1.13,
+             "resolve_mach": None, "turn_left_deg": 20.0, "turn_right_deg": None,
+             "combined": False}
+    kind, seg = crew.choose(frame)
+    assert kind == "turn" and seg.heading_change_deg == -20.0
+    kind, seg = crew.choose({**frame, "resolve_mach": 1.15})
+    assert kind == "mach" and seg.target_mach == 1.15
+    old = {k: v for k, v in frame.items() if k not in ("resolve_mach", "combined")}
+    assert crew.choose(old)[0] == "mach"
+    kind, turn, slow = crew.choose({**frame, "resolve_mach": 1.12, "combined": True})
+    assert kind == "combined" and turn.kind == "turn" and slow.target_mach == 1.12
+    crew.see(1.0, {**frame, "resolve_mach": 1.12, "combined": True})
+    action = crew.due(5.0)
+    assert action is not None and [s.kind for s in action.segments()] == ["mach", "turn"]
+
+
+LATE_S = 70.0  #: the moment of Why 4: 70 s into the encounter of tests/test_act_by.py
+
+
+@pytest.fixture(scope="module")
+def late_advice():
+    """The advice 70 s into the encounter (straight and level, 48 km short of the town)."""
+    sc = scenario_from_dict(encounter())
+    world = build_world(sc)
+    st = sc.start
+    c = world.advisor_atmosphere.at(units.ft_to_m(st.alt_ft)).sound_speed_mps
+    gs = st.mach * c
+    g = Geodesic.WGS84.Direct(st.lat_deg, st.lon_deg, st.heading_deg, gs * LATE_S)
+    s = AirDataState.from_fields(
+        {"lat_deg": g["lat2"], "lon_deg": g["lon2"], "alt_ft": st.alt_ft, "mach": st.mach,
+         "heading_deg": g["azi2"] % 360.0, "gs_kt": units.mps_to_kt(gs), "bank_deg": 0.0,
+         "fpa_deg": 0.0}, rx_monotonic=0.0)
+    return Advisor(world.table, world.zones).step(s, 0.0)
+
+
+def slowed_exposure(mach: float) -> dict | None:
+    """Truth: the encounter flown straight, slowing to ``mach`` at the configured rate
+    from 5 s (the reaction time) after :data:`LATE_S`; the town's exposure or None."""
+    sc = scenario_from_dict(encounter(schedule=[
+        {"kind": "mach", "at_s": LATE_S + 5.0, "target_mach": mach,
+         "mach_rate_per_s": DECEL}]))
+    return town_exposure(simulate(sc))
+
+
+@pytest.mark.slow
+def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
+    # Why 4: the Mach offered was cutoff minus 0.02, never tried. 70 s into the encounter
+    # a crew slowing to it after 5 s still puts near-cutoff booms on the town (truth). The
+    # Mach offered now is one the truth confirms; when none is offered, the truth confirms
+    # that slowing down no longer clears.
+    a = late_advice
+    offered = a.resolve_mach if hasattr(a, "resolve_mach") else a.max_mach_off_ground
+    if offered is None:
+        assert a.status in ("warning", "unavoidable")  # the crew is told to act now
+        assert slowed_exposure(a.max_mach_off_ground) is not None
+        return
+    exposure = slowed_exposure(offered)
+    assert exposure is None, (
+        f"slowing to the offered M{offered:.2f} from T+{LATE_S + 5.0:.0f} s: the truth has "
+        f"booms in the town (peak {exposure['peak_psf']:.2f} psf at "
+        f"T+{exposure['first_arrival_s']:.0f} s)")

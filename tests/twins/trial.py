@@ -1,0 +1,120 @@
+"""Readable twins of the trial kernels (``advisory/pipeline/trial.py``).
+
+:func:`fly_trial_kernel_twin` flies the crew's action with plain Python: a control law
+(:func:`_controls`) says the Mach and the bank the crew flies at each moment, and the
+point-mass coordinated turn is integrated in the same sub-steps. :func:`trial_clears_twin`
+is the composition of the readable twins of the table lookup, the footprint placement,
+the focus factor and the conflict search, on every azimuth (the kernel keeps only the
+strip azimuths).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from advisory.pipeline.footprint import CarpetPrediction
+from advisory.pipeline.trial import SUBSTEP_S, TRIAL_PARAMS
+from advisory.tables import lookup as lk
+from tests.twins.conflicts import find_conflicts_twin
+from tests.twins.footprint import focus_kernel_twin, place_kernel_twin
+from tests.twins.lookup import lookup_twin
+
+
+def _mach(tau: float, p: dict) -> float:
+    """Mach at ``tau``: the present schedule, then toward the target at the set rate."""
+    free = max(p["mach0"] + p["mach_rate0"] * tau, 0.1)
+    if tau <= p["onset"] or math.isnan(p["target_mach"]):
+        return free
+    start = max(p["mach0"] + p["mach_rate0"] * p["onset"], 0.1)
+    change = p["target_mach"] - start
+    reach = p["decel"] * (tau - p["onset"])
+    return max(p["target_mach"] if abs(change) <= reach else start + math.copysign(reach, change),
+               0.1)
+
+
+def _roll(bank: float, target: float, step: float) -> float:
+    return target if abs(target - bank) <= step else bank + math.copysign(step, target - bank)
+
+
+def fly_trial_kernel_twin(t: np.ndarray, params: np.ndarray) -> np.ndarray:
+    """Twin of :func:`advisory.pipeline.trial.fly_trial_kernel` (same arguments, result)."""
+    p = dict(zip(TRIAL_PARAMS, (float(v) for v in params)))
+    a, g, rad = p["a"], p["g"], p["radius"]
+    pos = [p["e0"], p["n0"]]
+    alt, psi, bank, turned, tau = p["h0"], p["psi0"], p["bank0"], 0.0, 0.0
+    phase = "before"
+    out = np.empty((10, t.size))
+    for i, t_i in enumerate(t):
+        while tau < t_i - 1e-12:
+            if phase == "before" and tau >= p["onset"] - 1e-12:
+                phase = "level" if math.isnan(p["target_bank"]) else "turn"
+            rolling = phase == "turn" or (phase == "level" and bank != 0.0)
+            h = min(SUBSTEP_S, t_i - tau) if rolling else t_i - tau
+            if phase == "before" and tau + h > p["onset"] + 1e-12:
+                h = p["onset"] - tau
+            v0, v1 = _mach(tau, p) * a, _mach(tau + h, p) * a
+            target = {"before": bank, "turn": p["target_bank"], "level": 0.0}[phase]
+            new_bank = _roll(bank, target, p["roll_rate"] * h)
+            dpsi = 0.5 * (g * math.tan(bank) / v0 + g * math.tan(new_bank) / v1) * h
+            if phase != "before":
+                turned += dpsi
+            chord = 0.5 * (v0 + v1) * p["cos_fpa"] * h * (
+                np.sinc(dpsi / (2.0 * math.pi)) if abs(dpsi) >= 2e-4 else 1.0 - dpsi ** 2 / 24.0)
+            de = chord * math.sin(psi + 0.5 * dpsi) + p["wind_e"] * h
+            dn = chord * math.cos(psi + 0.5 * dpsi) + p["wind_n"] * h
+            mid = np.array([pos[0] + 0.5 * de, pos[1] + 0.5 * dn])
+            rho = float(np.hypot(*mid))
+            if rho > 0.0:  # radial lengths shrink by h, transverse grow by 1/h
+                hs = math.sqrt(max(1.0 - (0.5 * rho / rad) ** 2, 1e-300))
+                u = mid / rho
+                d = np.array([de, dn])
+                radial = float(d @ u)
+                d = hs * radial * u + (d - radial * u) / hs
+                de, dn = float(d[0]), float(d[1])
+            pos = [pos[0] + de, pos[1] + dn]
+            alt += 0.5 * (v0 + v1) * p["sin_fpa"] * h
+            psi += dpsi
+            bank = new_bank
+            tau += h
+            if phase == "turn" and not math.isnan(p["turn_limit"]):
+                lead = 0.5 * abs(g * math.tan(bank) / v1) * abs(bank) / max(p["roll_rate"], 1e-9)
+                if abs(p["turn_limit"]) - abs(turned) <= lead:
+                    phase = "level"
+        v = _mach(float(t_i), p) * a
+        ge = v * p["cos_fpa"] * math.sin(psi) + p["wind_e"]
+        gn = v * p["cos_fpa"] * math.cos(psi) + p["wind_n"]
+        out[:, i] = (pos[0], pos[1], alt, v / a, v, psi % (2 * math.pi), bank,
+                     math.atan2(ge, gn) % (2 * math.pi), math.hypot(ge, gn),
+                     g * math.tan(bank) / v)
+    return out
+
+
+def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, pz, zones,
+                      focus_cap, focus_threshold) -> bool:
+    """Twin of :func:`advisory.pipeline.trial.trial_clears_kernel`: the trial flown by
+    its twin, every emission from ``k0 - 1`` looked up on every azimuth, placed, its focus
+    factor computed, and the conflict twin run on the emissions from ``k0``."""
+    fl = fly_trial_kernel_twin(t, params)
+    lo = max(k0 - 1, 0)
+    ks = range(lo, t.size)
+    rows = np.zeros((len(ks), table.eta.size, lk.N_QUANTITIES))
+    codes = np.zeros(len(ks), dtype=np.int64)
+    cut = np.zeros(len(ks))
+    for i, k in enumerate(ks):
+        hdg = (fl[5, k] + hdg_offset) % (2 * math.pi) if has_wind else 0.0
+        codes[i], cut[i] = lookup_twin(fl[2, k], fl[3, k], fpa, hdg, table.ax_alt,
+                                       table.ax_mex, table.ax_fpa, table.ax_hdg, table.cutoff,
+                                       table.cells, rows[i])
+    tk = t[lo:]
+    e, n, ta, de, dn = place_kernel_twin(tk, fl[0, lo:], fl[1, lo:], fl[5, lo:], rows, codes)
+    amp = focus_kernel_twin(tk, e, n, de, dn, fl[8, lo:] * np.sin(fl[7, lo:]),
+                            fl[8, lo:] * np.cos(fl[7, lo:]), codes, focus_cap)
+    s = k0 - lo
+    pred = CarpetPrediction(
+        t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],
+        arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],
+        duration_s=rows[s:, :, lk.Q_DURATION],
+        focus_factor=amp[s:], edge_flag=rows[s:, :, lk.Q_EDGE] > 0.5)
+    return not find_conflicts_twin(pred, pz, zones, strips, focus_threshold, first_only=True)

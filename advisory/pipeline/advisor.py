@@ -34,7 +34,13 @@ from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import find_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
-from advisory.pipeline.history import join_trajectories, past_trajectory
+from advisory.pipeline.history import (
+    FlownHistory,
+    FlownPast,
+    flown_past,
+    join_trajectories,
+    past_trajectory,
+)
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import max_mach_off_ground, turn_resolutions
@@ -118,6 +124,11 @@ class Advisor:
         # the live table and what is derived from it (renewed when a rebuilt one comes in)
         (self._table, self._predictor, self._atm, self._sound,
          self._strips) = self._table_parts(self._current_table())
+        #: Generation of the live table (stored with each flown-history entry).
+        self._table_gen = 0
+        #: The states flown, from which the booms still in the air are placed.
+        self.history = FlownHistory(self._table.eta.size, self.config.step_s,
+                                    self._history_window_s(self._table))
 
     # ---- tables --------------------------------------------------------------------
     def _current_table(self) -> BoomTable:
@@ -205,6 +216,7 @@ class Advisor:
         if table is not self._table:
             (self._table, self._predictor, self._atm, self._sound,
              self._strips) = self._table_parts(table)
+            self._new_table_history(table)
         if state is None:
             return self.unavailable("no valid air data")
         problem = state_problem(state)
@@ -225,14 +237,81 @@ class Advisor:
             return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
                                     state.utc_s)
 
+    # ---- the booms already in the air ----------------------------------------------
+    def _history_window_s(self, table: BoomTable) -> float:
+        """How far back the flown history must reach: the table's longest travel time
+        (over every cell) plus two emission spacings, at most ``in_air_s``."""
+        q = table.cells[..., lk.Q_TIME]
+        ok = np.isfinite(q)
+        longest = float(q[ok].max()) if ok.any() else 0.0
+        return min(self.config.in_air_s, longest + 2.0 * self.config.step_s)
+
+    def _new_table_history(self, table: BoomTable) -> None:
+        """A table came in: entries keep the rows of the table in force when flown; the
+        buffer grows for longer travel times (emptied only when the azimuth nodes
+        differ, since rows of two node sets cannot be laid side by side)."""
+        self._table_gen += 1
+        window = self._history_window_s(table)
+        if table.eta.size != self.history.n_eta:
+            self.history = FlownHistory(table.eta.size, self.config.step_s, window)
+        else:
+            self.history.grow(window)
+
     def _in_air_s(self, s: AirDataState, cfg: AdvisorConfig) -> float:
         """How far back booms may still be on their way down: the longest travel time of
-        the present footprint plus one step (at most ``in_air_s``)."""
+        the present footprint and of the flown states held, plus one step (at most
+        ``in_air_s``); with neither on the ground, the table's longest."""
         fp = self._table.footprint(s.alt_m, s.mach, s.fpa_rad, s.heading_rad)
-        if not fp.reaches_ground:
-            return cfg.in_air_s
-        longest = float(np.max(fp.rows[:, lk.Q_TIME])) + cfg.step_s
-        return min(cfg.in_air_s, longest)
+        h = self.history
+        longest = float(np.max(h.travel[h.order()])) if len(h) else -math.inf
+        if fp.reaches_ground:
+            longest = max(longest, float(np.max(fp.rows[:, lk.Q_TIME])))
+        if not math.isfinite(longest):
+            return h.window_s
+        return min(cfg.in_air_s, longest + cfg.step_s)
+
+    @staticmethod
+    def _state_time(s: AirDataState, now: float) -> float:
+        """The state's own time (s): its UTC stamp, else its receive time, else now."""
+        if s.utc_s is not None:
+            return s.utc_s
+        return s.rx_monotonic if s.rx_monotonic is not None else now
+
+    def _past(self, s: AirDataState, ahead: Trajectory, t_now: float) -> FlownPast | None:
+        """The emission points whose booms may still be in the air, from the flown
+        history; the part of the window older than the history (a fresh advisor) is
+        the present state flown backwards (:func:`past_trajectory`), kept apart from the
+        history by a separator."""
+        cfg, h = self.config, self.history
+        win = h.window(t_now, ahead.frame)
+        back_s = self._in_air_s(s, cfg)
+        have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
+        fallback = None
+        if have_s < back_s - 1e-6:
+            back = past_trajectory(ahead, back_s, cfg.step_s)
+            keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
+            if keep.size:
+                part = _subset(back, keep)
+                rows, codes, cuts = (x.copy() for x in self._predictor.lookup(part))
+                fallback = FlownPast(part, rows, codes, cuts)
+        tail_break = win is not None and t_now - h.newest_t > h.gap_s
+        return flown_past(win, fallback, ahead, tail_break)
+
+    def _remember(self, s: AirDataState, t_now: float, ahead: Trajectory, rows: np.ndarray,
+                  code: int, cutoff: float) -> None:
+        """Offer the present state (with its table rows) to the flown history."""
+        h = self.history
+        if len(h) and 0.0 <= t_now - h.newest_t < h.spacing_s - 1e-6:
+            return  # not due (the common case: no work)
+        e0, n0 = float(ahead.east_m[0]), float(ahead.north_m[0])
+        track = s.track_rad
+        if track is None:
+            track = float(ahead.frame.grid_to_azimuth(e0, n0, float(ahead.track_grid_rad[0])))
+        h.offer(t_now, s.lat_rad, s.lon_rad,
+                (s.alt_m, s.mach, float(ahead.tas_mps[0]), s.heading_rad, track,
+                 float(ahead.ground_speed_mps[0]), s.fpa_rad, s.bank_rad,
+                 float(ahead.turn_rate_rad_s[0])),
+                self._table_gen, rows, code, cutoff)
 
     def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
         """Feed the stream profile; hand a disagreeing profile to the table manager."""
@@ -262,14 +341,20 @@ class Advisor:
         cfg = self.config
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
-        past = past_trajectory(ahead, self._in_air_s(s, cfg), cfg.step_s)
-        traj = join_trajectories(past, ahead)
-        pred = self._predictor.predict(traj)
+        t_state = self._state_time(s, now)
+        rows, codes, cuts = (x.copy() for x in self._predictor.lookup(ahead))
+        self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
+        past = self._past(s, ahead, t_state)
+        traj = ahead if past is None else join_trajectories(past.traj, ahead)
+        if past is not None:
+            rows, codes, cuts = (np.concatenate([a, b]) for a, b in zip(
+                (past.rows, past.codes, past.cutoffs), (rows, codes, cuts)))
+        pred = self._predictor.predict(traj, rows, codes, cuts)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
         conflicts = find_conflicts(pred, pz, self.zones, self._strips, cfg.focus_threshold)
         first = conflicts[0] if conflicts else None
         level = self._levels.update(first.time_to_contact_s if first else None, now)
-        now_k = past.t_s.size  # the present emission point in the prediction
+        now_k = 0 if past is None else past.traj.t_s.size  # the present emission point
         cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
         max_mach = max_mach_off_ground(cut_now, cfg.cutoff_margin_mach)
         reaches_now = bool(pred.on_ground[now_k])
@@ -317,6 +402,17 @@ class Advisor:
                                self._strips, pz, self.zones, pred, ahead, n_past)
         self._resolution_cache = (zone_id, level, now, res)
         return res
+
+
+def _subset(traj: Trajectory, idx: np.ndarray) -> Trajectory:
+    """The points ``idx`` of a trajectory (same frame and wind)."""
+    return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
+                      frame=traj.frame, wind_east_mps=traj.wind_east_mps,
+                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
+
+
+_TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
+              "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")
 
 
 def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:

@@ -13,7 +13,10 @@ flight itself, the digests are regenerated with ``python tests/test_replay_golde
 --write`` and the commit says why; a refactor must never need that. Retaken so far:
 ``demo/coastal_approach`` once, when its scenario changed (the crew now slows after the
 advisory, because the truth harness showed that slowing after the caution still puts
-booms on the town; issue 12, item 9). The other eight are the originals.
+booms on the town; issue 12, item 9); ``demo/coastal_approach`` and
+``demo/crosswind_day`` again for issue 13: flown history (the booms already in the air
+are placed from the states actually flown, over the longest travel time instead of a
+150 s cap). The other seven are the originals.
 """
 
 from __future__ import annotations

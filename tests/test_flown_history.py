@@ -67,9 +67,11 @@ def far_zone() -> ZoneSet:
 
 def fly_and_advise(table, duration_s: float, mach: float = 1.4, atmosphere=None,
                    mach_commands=(), bank_commands=(), advise_every: int = 5,
-                   alt_ft: float = ALT_FT):
+                   alt_ft: float = ALT_FT, advise_from_s: float = 0.0,
+                   no_data: tuple[float, float] = (-1.0, -1.0)):
     """Fly the bench simulator at 10 Hz and step an advisor on every ``advise_every``-th
-    sample (its clock is the sample time); returns the samples and the advisor."""
+    sample from ``advise_from_s`` on, except in the ``no_data`` span (its clock is the
+    sample time); returns the samples and the advisor."""
     atm = atmosphere or standard_atmosphere()
     st = FlightState(atm, lat_deg=LAT0, lon_deg=LON0, alt_ft=alt_ft, mach=mach,
                      heading_deg=90.0)
@@ -77,6 +79,8 @@ def fly_and_advise(table, duration_s: float, mach: float = 1.4, atmosphere=None,
     adv = Advisor(table, far_zone(), AdvisorConfig())
     for i, s in enumerate(samples):
         if i % advise_every and i != len(samples) - 1:
+            continue
+        if s["t_s"] < advise_from_s or no_data[0] <= s["t_s"] <= no_data[1]:
             continue
         state = AirDataState.from_fields(s, utc_s=1.7e9 + s["t_s"], rx_monotonic=s["t_s"])
         out = adv.step(state, now_monotonic=s["t_s"])
@@ -253,6 +257,52 @@ def test_window_covers_the_longest_travel_time_of_the_standard_atmosphere(high_t
     assert past.size and past.min() <= -longest + 3.0, (
         f"in-air window reaches back {-past.min():.0f} s; the truth's longest travel "
         f"time is {longest:.0f} s")
+
+
+# ------------------------------------------------ fresh advisor, gaps in the history
+
+def test_fresh_advisor_flies_the_present_state_back_only_before_its_history(small_table):
+    # An advisor started at T+170 s of a steady flight has 30 s of history; the older
+    # part of the window is the present state flown backwards (exact for steady flight,
+    # so the truth agrees), kept apart from the history by a no-boom separator, and no
+    # emission time is both.
+    samples, adv = fly_and_advise(small_table, 200.0, advise_from_s=170.0)
+    pred = adv.last_prediction
+    t = pred.t_emit_s
+    have = adv.history.oldest_t - (1.7e9 + samples[-1]["t_s"])  # oldest entry, s before now
+    assert -31.0 < have < -29.0
+    sep = np.flatnonzero(~pred.on_ground & (t < 0))
+    assert sep.size == 1 and have - 3.0 < t[sep[0]] < have  # one separator, just before
+    old = t[: sep[0]]
+    # (the oldest point is the window's start, the others 3 s apart)
+    assert old.size and np.all(old < have) and np.allclose(np.diff(old)[1:], 3.0)
+    assert np.all(np.diff(t) > 0)
+    path, gm = truth_map(samples)
+    rows = in_air_comparison(samples, adv, gm, path)
+    assert len(rows) >= 40 and sum(1 for r in rows if not r[0]) == 1  # the separator
+    errs = np.concatenate([r[1] for r in rows])
+    assert np.median(errs) < 1000.0, f"median placement error {np.median(errs):.0f} m"
+
+
+def test_a_gap_in_the_air_data_is_not_joined_into_a_straight_path(small_table):
+    # 20 s without air data at T+150-170 s in a 30 deg bank: the entries before the gap
+    # keep their own emission times, a no-boom separator stands in the gap (no emission
+    # is invented there, no carpet strip or ray-tube difference spans it) and the gap is
+    # counted. The booms emitted before the gap are placed where the truth has them.
+    samples, adv = fly_and_advise(small_table, 200.0, no_data=(150.0, 170.0),
+                                  bank_commands=((100.0, 30.0),))
+    assert adv.history.gaps == 1
+    pred = adv.last_prediction
+    t_now = samples[-1]["t_s"]
+    t_abs = t_now + pred.t_emit_s
+    inside = (t_abs > 150.5) & (t_abs < 169.5)
+    assert np.count_nonzero(inside) == 1 and not pred.on_ground[inside].any()
+    path, gm = truth_map(samples)
+    rows = in_air_comparison(samples, adv, gm, path)
+    assert len(rows) >= 30
+    errs = np.concatenate([r[1] for r in rows if r[0]])
+    assert np.median(errs) < 1000.0, f"median placement error {np.median(errs):.0f} m"
+    assert sum(r[3] for r in rows) == 0  # no focus from joining across the gap
 
 
 # --------------------------------------------------------------- the buffer's bound

@@ -30,6 +30,10 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.zones import ZoneSet
+from advisory.tables.build import BuildInputs, build_table_arrays, provenance
+from advisory.tables.grid import DEFAULT_MACH_EXCESS, TableGrid
+from advisory.tables.store import write_table_file
+from advisory.tables.table import BoomTable
 from tests.test_replay_truth import coastal_300  # noqa: F401
 
 LAT0, LON0, ALT_FT = 30.0, -140.0, 45000.0
@@ -41,16 +45,37 @@ _FIELDS = ("lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "bank_deg", "f
 def high_table(tmp_path_factory):
     """A small standard-atmosphere table around 60,000 ft, level flight (where the edge
     rays take longest to come down)."""
-    from advisory.physics.aircraft import default_aircraft as aircraft
-    from advisory.tables.build import BuildInputs, build_table_arrays, provenance
-    from advisory.tables.grid import DEFAULT_MACH_EXCESS, TableGrid
-    from advisory.tables.store import write_table_file
-    from advisory.tables.table import BoomTable
-
     grid = TableGrid(altitudes_m=tuple(units.ft_to_m(a) for a in range(58000, 62001, 1000)),
                      mach_excess=DEFAULT_MACH_EXCESS, fpa_rad=(0.0,), headings_rad=(0.0,))
-    inputs = BuildInputs(aircraft(), standard_atmosphere(), grid)
-    path = tmp_path_factory.mktemp("high") / "high.boomtable"
+    return _build(tmp_path_factory.mktemp("high") / "high.boomtable", standard_atmosphere(),
+                  grid)
+
+
+def jet_atmosphere():
+    """An invented jet-stream day: the standard atmosphere's sound speed with a wind
+    toward the north rising to 98 m/s at the tropopause (11 km) and steady above, twice
+    the sound-speed drop below it, so the effective sound speed of north-going rays
+    barely changes from the ground to 11 km and the carpet's left-edge rays come down
+    over a long slant (582 s, truth harness at Mach 1.4, 45,000 ft, eastbound)."""
+    from tests.conftest import make_atmosphere
+
+    std = standard_atmosphere()
+    z, c = std.z_m, std.sound_speed_mps
+    north = 2.0 * (c[0] - np.interp(np.minimum(z, 11000.0), z, c))
+    return make_atmosphere(z, c, wind_north=north)
+
+
+@pytest.fixture(scope="module")
+def jet_table(tmp_path_factory):
+    """A small table of the jet-stream day (44,000-46,000 ft, 8 headings, level)."""
+    grid = TableGrid(altitudes_m=tuple(units.ft_to_m(a) for a in (44000.0, 45000.0, 46000.0)),
+                     mach_excess=DEFAULT_MACH_EXCESS, fpa_rad=(0.0,),
+                     headings_rad=tuple(math.radians(h) for h in range(0, 360, 45)))
+    return _build(tmp_path_factory.mktemp("jet") / "jet.boomtable", jet_atmosphere(), grid)
+
+
+def _build(path, atmosphere, grid):
+    inputs = BuildInputs(default_aircraft(), atmosphere, grid)
     write_table_file(path, provenance(inputs, 0.0), build_table_arrays(inputs, workers=2))
     return BoomTable.load(path)
 
@@ -257,6 +282,24 @@ def test_window_covers_the_longest_travel_time_of_the_standard_atmosphere(high_t
     assert past.size and past.min() <= -longest + 3.0, (
         f"in-air window reaches back {-past.min():.0f} s; the truth's longest travel "
         f"time is {longest:.0f} s")
+
+
+def test_window_covers_the_travel_times_of_a_jet_stream_day(jet_table):
+    # Issue 13, Why 2: under a jet-stream profile the edge rays take 540-730 s. On the
+    # invented jet-stream day the truth's longest travel time is some 580 s; after 700 s
+    # of steady flight the advisor's past reaches back to it (within one spacing, 3 s).
+    atm = jet_atmosphere()
+    samples, adv = fly_and_advise(jet_table, 700.0, atmosphere=atm)
+    path, gm = truth_map(samples, atmosphere=atm, since_s=690.0)  # steady: any 10 s
+    travel = np.where(gm.reached, gm.arrival_s - gm.emission_time_s[:, None], -np.inf)
+    longest = float(travel.max())
+    assert longest > 540.0  # the truth's own number: the reason for this check
+    pred = adv.last_prediction
+    past = pred.t_emit_s[(pred.t_emit_s < 0) & pred.on_ground]
+    assert past.size and past.min() <= -longest + 3.0, (
+        f"in-air window reaches back {-past.min():.0f} s; the truth's longest travel "
+        f"time is {longest:.0f} s")
+    assert adv.history.gaps == 0 and len(adv.history) <= adv.history.capacity
 
 
 # ------------------------------------------------ fresh advisor, gaps in the history

@@ -1,7 +1,9 @@
 """The advisor: from one air-data state to an advisory with levels and resolutions.
 
-One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`) and the
-recent past (:mod:`.history`), lays the boom carpet on the ground from the tables
+One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`), takes the
+booms still in the air from the states flown (:mod:`.history`: the advisor keeps every
+state it steps on, one per emission spacing, so a replay and the live loop feed it the
+same way), lays the boom carpet on the ground from the tables
 (:mod:`.footprint`), finds the first no-boom zone it reaches (:mod:`.conflicts`),
 sets the alert level from the time to contact with hysteresis (:mod:`.levels`), and
 offers resolutions (:mod:`.resolutions`): the highest Mach at the present altitude

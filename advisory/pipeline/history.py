@@ -1,13 +1,24 @@
-"""Trajectories derived from a predicted one: the recent past and resolution turns.
+"""The flown history, and trajectories derived from a predicted one.
 
-The booms that may still be on their way down were emitted over the last minutes; the
-advisor takes them from the present manoeuvre flown backwards (:func:`past_trajectory`)
-and joins that to the trajectory ahead (:func:`join_trajectories`). Resolution trials
-fly the trajectory ahead again with a turn that rolls out after a heading change
-(:func:`turned_trajectory`). All run the trajectory kernel
-(:func:`advisory.pipeline.trajectory.propagate_kernel`; its physics and sources are in
-:mod:`advisory.pipeline.trajectory`); :func:`kernel_inputs` builds its inputs from a
-trajectory's start state.
+Booms emitted over the last minutes may still be on their way down. The advisor keeps
+the states it actually stepped on in a :class:`FlownHistory` (a bounded ring buffer, one
+entry per emission spacing, each with the table rows of its state in the table in force
+then) and places every boom still in the air from those states, each with its own
+emission time, Mach, heading, altitude, flight-path angle and position
+(:func:`flown_past`): a turn entered 10 s ago or an acceleration just begun changes only
+the booms emitted since. The window is the longest travel time of the states held, not
+a fixed span. A fresh advisor has no history for the older part of the window: there,
+and only there, it flies the present manoeuvre backwards (:func:`past_trajectory`),
+kept apart from the flown part by a no-boom separator. The past is joined to the
+trajectory ahead (:func:`join_trajectories`).
+
+Resolution trials fly the trajectory ahead again with a turn that rolls out after a
+heading change (:func:`turned_trajectory`). Backward flight and trials run the
+trajectory kernel (:func:`advisory.pipeline.trajectory.propagate_kernel`; its physics
+and sources are in :mod:`advisory.pipeline.trajectory`); :func:`kernel_inputs` builds its
+inputs from a trajectory's start state. The flown history needs no kernel of its own:
+placing and focus are the footprint kernels (:mod:`advisory.pipeline.footprint`) on the
+flown points, whose ray-tube differences then come from the states actually flown.
 """
 
 from __future__ import annotations

@@ -259,18 +259,17 @@ class Advisor:
         else:
             self.history.grow(window)
 
-    def _in_air_s(self, s: AirDataState, cfg: AdvisorConfig) -> float:
+    def _in_air_s(self, present_rows: np.ndarray, present_code: int) -> float:
         """How far back booms may still be on their way down: the longest travel time of
-        the present footprint and of the flown states held, plus one step (at most
-        ``in_air_s``); with neither on the ground, the table's longest."""
-        fp = self._table.footprint(s.alt_m, s.mach, s.fpa_rad, s.heading_rad)
+        the present footprint (its table rows) and of the flown states held, plus one
+        step (at most ``in_air_s``); with neither on the ground, the table's longest."""
         h = self.history
-        longest = float(np.max(h.travel[h.order()])) if len(h) else -math.inf
-        if fp.reaches_ground:
-            longest = max(longest, float(np.max(fp.rows[:, lk.Q_TIME])))
+        longest = float(np.max(h.travel[:len(h)])) if len(h) else -math.inf
+        if present_code != lk.NO_BOOM:
+            longest = max(longest, float(np.max(present_rows[:, lk.Q_TIME])))
         if not math.isfinite(longest):
             return h.window_s
-        return min(cfg.in_air_s, longest + cfg.step_s)
+        return min(self.config.in_air_s, longest + self.config.step_s)
 
     @staticmethod
     def _state_time(s: AirDataState, now: float) -> float:
@@ -279,14 +278,15 @@ class Advisor:
             return s.utc_s
         return s.rx_monotonic if s.rx_monotonic is not None else now
 
-    def _past(self, s: AirDataState, ahead: Trajectory, t_now: float) -> FlownPast | None:
+    def _past(self, ahead: Trajectory, t_now: float, present_rows: np.ndarray,
+              present_code: int) -> FlownPast | None:
         """The emission points whose booms may still be in the air, from the flown
         history; the part of the window older than the history (a fresh advisor) is
         the present state flown backwards (:func:`past_trajectory`), kept apart from the
         history by a separator."""
         cfg, h = self.config, self.history
         win = h.window(t_now, ahead.frame)
-        back_s = self._in_air_s(s, cfg)
+        back_s = self._in_air_s(present_rows, present_code)
         have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
         fallback = None
         if have_s < back_s - 1e-6:
@@ -346,7 +346,7 @@ class Advisor:
         t_state = self._state_time(s, now)
         rows, codes, cuts = (x.copy() for x in self._predictor.lookup(ahead))
         self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
-        past = self._past(s, ahead, t_state)
+        past = self._past(ahead, t_state, rows[0], int(codes[0]))
         traj = ahead if past is None else join_trajectories(past.traj, ahead)
         if past is not None:
             rows, codes, cuts = (np.concatenate([a, b]) for a, b in zip(

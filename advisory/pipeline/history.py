@@ -317,10 +317,15 @@ class FlownHistory:
             first -= 1
         idx = idx[first:]
         self._project(idx, frame)
-        brk = self.brk[idx].astype(np.float64)
-        brk[0] = 0.0
-        values = np.concatenate([self.st[idx], self.proj[idx], brk[:, None]], axis=1)
-        return self.t[idx] - t_now, values, self.rows[idx], self.code[idx], self.cutoff[idx]
+        sel: np.ndarray | slice = idx
+        if idx[-1] - idx[0] == idx.size - 1:  # not wrapped: views, no gathering
+            sel = slice(int(idx[0]), int(idx[-1]) + 1)
+        values = np.empty((idx.size, self.N_STATE + 5))
+        values[:, :self.N_STATE] = self.st[sel]
+        values[:, self.N_STATE:self.N_STATE + 4] = self.proj[sel]
+        values[:, -1] = self.brk[sel]
+        values[0, -1] = 0.0
+        return self.t[sel] - t_now, values, self.rows[sel], self.code[sel], self.cutoff[sel]
 
 
 _ENTRY_ARRAYS = ("t", "lat", "lon", "st", "travel", "cutoff", "proj", "rows", "code", "table",
@@ -374,7 +379,8 @@ def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.
                       "rows": rows, "codes": codes, "cutoffs": cutoffs, "brk": brk})
     if not parts:
         return None
-    d = {k: np.concatenate([p[k] for p in parts]) for k in parts[0]}
+    d = parts[0] if len(parts) == 1 else {k: np.concatenate([p[k] for p in parts])
+                                          for k in parts[0]}
     if tail_break:  # a separator after the last entry: a copy of it, halfway to now
         d = {k: np.concatenate([v, v[-1:]]) for k, v in d.items()}
         d["t_s"][-1] = 0.5 * d["t_s"][-2]
@@ -395,9 +401,9 @@ def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.
 def _with_separators(d: dict[str, np.ndarray], at: np.ndarray) -> dict[str, np.ndarray]:
     """``d`` with a no-boom separator emission inserted before each index of ``at``
     (a copy of that entry, halfway in time to the one before, code NO_BOOM, rows 0)."""
-    out = {}
-    for k, v in d.items():
-        out[k] = np.insert(v, at, v[at], axis=0)
+    n = d["t_s"].shape[0]
+    take = np.insert(np.arange(n), at, at)  # one index array for every column
+    out = {k: v[take] for k, v in d.items()}
     pos = at + np.arange(at.size)  # the separators' indices in the result
     t = out["t_s"]
     t[pos] = np.where(pos > 0, 0.5 * (t[np.maximum(pos - 1, 0)] + t[pos + 1]), t[pos + 1] - 1e-3)

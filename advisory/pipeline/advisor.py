@@ -142,6 +142,8 @@ class Advisor:
             np.ndarray]:
         """The table with its footprint predictor, atmosphere, speed of sound and strips."""
         atm = table.atmosphere()
+        #: the fallback past's lookups (own buffers: its length differs from the ahead's)
+        self._fallback_lookup = FootprintPredictor(table)
         return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
                 strip_indices(table.eta.size, self.config.strips))
 
@@ -294,7 +296,7 @@ class Advisor:
             keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
             if keep.size:
                 part = _subset(back, keep)
-                rows, codes, cuts = (x.copy() for x in self._predictor.lookup(part))
+                rows, codes, cuts = (x.copy() for x in self._fallback_lookup.lookup(part))
                 fallback = FlownPast(part, rows, codes, cuts)
         tail_break = win is not None and t_now - h.newest_t > h.gap_s
         return flown_past(win, fallback, ahead, tail_break)

@@ -364,32 +364,28 @@ def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.
     parts: list[dict[str, np.ndarray]] = []
     if fallback is not None and fallback.traj.t_s.size:
         d = {k: getattr(fallback.traj, k) for k in _TRAJ_ARRAYS}
-        d.update(rows=fallback.rows, codes=fallback.codes, cutoffs=fallback.cutoffs,
-                 brk=np.zeros(fallback.traj.t_s.size))
+        d.update(rows=fallback.rows, codes=fallback.codes, cutoffs=fallback.cutoffs)
         parts.append(d)
     if window is not None:
         t, v, rows, codes, cutoffs = window
-        brk = v[:, 13].copy()
-        if parts:
-            brk[0] = 1.0
-        parts.append({"t_s": t, "alt_m": v[:, 0], "mach": v[:, 1], "tas_mps": v[:, 2],
-                      "ground_speed_mps": v[:, 5], "fpa_rad": v[:, 6], "bank_rad": v[:, 7],
-                      "turn_rate_rad_s": v[:, 8], "east_m": v[:, 9], "north_m": v[:, 10],
-                      "heading_grid_rad": v[:, 11], "track_grid_rad": v[:, 12],
-                      "rows": rows, "codes": codes, "cutoffs": cutoffs, "brk": brk})
+        flown = {"t_s": t, "alt_m": v[:, 0], "mach": v[:, 1], "tas_mps": v[:, 2],
+                 "ground_speed_mps": v[:, 5], "fpa_rad": v[:, 6], "bank_rad": v[:, 7],
+                 "turn_rate_rad_s": v[:, 8], "east_m": v[:, 9], "north_m": v[:, 10],
+                 "heading_grid_rad": v[:, 11], "track_grid_rad": v[:, 12],
+                 "rows": rows, "codes": codes, "cutoffs": cutoffs}
+        cuts = [0, *np.flatnonzero(v[:, 13] > 0.5).tolist(), t.size]
+        for a, b in zip(cuts[:-1], cuts[1:]):
+            if parts:  # a gap, a jump, or the fallback before: a separator between
+                t_prev = float(parts[-1]["t_s"][-1])
+                parts.append(_separator(flown, a, 0.5 * (t_prev + float(t[a]))))
+            parts.append({k: x[a:b] for k, x in flown.items()})
     if not parts:
         return None
+    if tail_break:  # a separator after the last entry: a copy of it, halfway to now
+        last = parts[-1]
+        parts.append(_separator(last, last["t_s"].size - 1, 0.5 * float(last["t_s"][-1])))
     d = parts[0] if len(parts) == 1 else {k: np.concatenate([p[k] for p in parts])
                                           for k in parts[0]}
-    if tail_break:  # a separator after the last entry: a copy of it, halfway to now
-        d = {k: np.concatenate([v, v[-1:]]) for k, v in d.items()}
-        d["t_s"][-1] = 0.5 * d["t_s"][-2]
-        d["codes"][-1] = NO_BOOM
-        d["rows"][-1] = 0.0
-        d["brk"][-1] = 0.0
-    at = np.flatnonzero(d.pop("brk") > 0.5)
-    if at.size:
-        d = _with_separators(d, at)
     rows, codes, cutoffs = d.pop("rows"), d.pop("codes"), d.pop("cutoffs")
     traj = Trajectory(**{k: np.ascontiguousarray(v) for k, v in d.items()}, frame=ahead.frame,
                       wind_east_mps=ahead.wind_east_mps, wind_north_mps=ahead.wind_north_mps,
@@ -398,15 +394,11 @@ def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.
                      np.ascontiguousarray(cutoffs))
 
 
-def _with_separators(d: dict[str, np.ndarray], at: np.ndarray) -> dict[str, np.ndarray]:
-    """``d`` with a no-boom separator emission inserted before each index of ``at``
-    (a copy of that entry, halfway in time to the one before, code NO_BOOM, rows 0)."""
-    n = d["t_s"].shape[0]
-    take = np.insert(np.arange(n), at, at)  # one index array for every column
-    out = {k: v[take] for k, v in d.items()}
-    pos = at + np.arange(at.size)  # the separators' indices in the result
-    t = out["t_s"]
-    t[pos] = np.where(pos > 0, 0.5 * (t[np.maximum(pos - 1, 0)] + t[pos + 1]), t[pos + 1] - 1e-3)
-    out["codes"][pos] = NO_BOOM
-    out["rows"][pos] = 0.0
-    return out
+def _separator(d: dict[str, np.ndarray], i: int, t_s: float) -> dict[str, np.ndarray]:
+    """A no-boom separator emission: entry ``i`` of ``d`` at time ``t_s``, code NO_BOOM,
+    rows 0 (neither the carpet strips nor the ray-tube differences cross it)."""
+    sep = {k: v[i:i + 1].copy() for k, v in d.items()}
+    sep["t_s"][0] = t_s
+    sep["codes"][0] = NO_BOOM
+    sep["rows"][0] = 0.0
+    return sep

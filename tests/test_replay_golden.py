@@ -17,13 +17,12 @@ booms on the town; issue 12, item 9). All nine once more for issue 15's heartbea
 status frames are now due 0.1 s before the heartbeat on the step schedule, so a replay
 carries about one status frame more every ten seconds; every advisory frame stayed the
 same (checked by comparing the decoded advisory frames of all nine replays before and
-after, field for field). Then all of them for issue 13: crew line (every advisory frame
-changed: the crew line of at most 40 characters is in every frame, the frame is format
-version 2 and carries the five new optional keys; the advisor itself was not changed by
-that retake). Then every record once
-for issue 13's act-by levels and checked resolutions (levels on the time left to act,
-the Mach resolution trial-flown, turns with roll-in after the reaction time, the
-``unavoidable`` status).
+after, field for field). Then all of them for issue 13, in one retake after merging its
+parts: the crew line (at most 40 characters; the advisory frame is format version 2 with
+five new optional keys), act-by levels and checked resolutions (levels on the time left
+to act, the Mach resolution trial-flown, turns with roll-in after the reaction time, the
+``unavoidable`` status) and the flown history (the booms already in the air placed from
+the states actually flown, over the longest travel time instead of a 150 s cap).
 """
 
 from __future__ import annotations

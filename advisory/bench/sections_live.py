@@ -76,8 +76,10 @@ def section_advisor(ctx: Context) -> None:
     times = []
     deadline = time.perf_counter() + s.advisor_time_cap_s
     clock = time.perf_counter
+    utc0 = time.time()
     for i, f in enumerate(fields):
-        st = from_fields(f, utc_s=time.time(), rx_monotonic=time.monotonic())
+        # stamped with the flight's own time (the advisor keeps a flown history on it)
+        st = from_fields(f, utc_s=utc0 + i / FRAME_RATE_HZ, rx_monotonic=time.monotonic())
         t0 = clock()
         try:
             adv = advisor.step(st)

@@ -1,15 +1,17 @@
 """The advisor: from one air-data state to an advisory with levels and resolutions.
 
-One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`) and the
-recent past (:mod:`.history`), lays the boom carpet on the ground from the tables
-(:mod:`.footprint`), and finds the zones it reaches (:mod:`.conflicts`), split into the
-booms emitted before the crew can act (within ``reaction_s``: nothing changes them) and
-the later ones. For the later ones it flies the resolutions as trials
-(:mod:`.resolutions`, :mod:`.trial`): the largest Mach reached by decelerating that
-clears, the smallest left and right turns (with roll-in) that clear, both together when
-neither alone does, and the act-by time, the latest moment the offered action can start
-and still clear; the level is set on the act-by time with hysteresis (:mod:`.levels`).
-The advisory and its crew line are in :mod:`.results` and :mod:`.cues`.
+One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`), takes the
+booms still in the air from the states flown (:mod:`.history`: the advisor keeps every
+state it steps on, one per emission spacing, so a replay and the live loop feed it the
+same way), lays the boom carpet on the ground from the tables (:mod:`.footprint`), and
+finds the zones it reaches (:mod:`.conflicts`), split into the booms emitted before the
+crew can act (within ``reaction_s``: nothing changes them) and the later ones. For the
+later ones it flies the resolutions as trials (:mod:`.resolutions`, :mod:`.trial`): the
+largest Mach reached by decelerating that clears, the smallest left and right turns
+(with roll-in) that clear, both together when neither alone does, and the act-by time,
+the latest moment the offered action can start and still clear; the level is set on the
+act-by time with hysteresis (:mod:`.levels`). The advisory and its crew line are in
+:mod:`.results` and :mod:`.cues`.
 
 Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
 the ground over the look-ahead), ``clear`` (carpet on the ground, no conflict),
@@ -40,7 +42,13 @@ from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
-from advisory.pipeline.history import join_trajectories, past_trajectory
+from advisory.pipeline.history import (
+    FlownHistory,
+    FlownPast,
+    flown_past,
+    join_trajectories,
+    past_trajectory,
+)
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import (
@@ -138,6 +146,11 @@ class Advisor:
         # the live table and what is derived from it (renewed when a rebuilt one comes in)
         (self._table, self._predictor, self._atm, self._sound,
          self._strips) = self._table_parts(self._current_table())
+        #: Generation of the live table (stored with each flown-history entry).
+        self._table_gen = 0
+        #: The states flown, from which the booms still in the air are placed.
+        self.history = FlownHistory(self._table.eta.size, self.config.step_s,
+                                    self._history_window_s(self._table))
 
     # ---- tables --------------------------------------------------------------------
     def _current_table(self) -> BoomTable:
@@ -149,6 +162,8 @@ class Advisor:
             np.ndarray]:
         """The table with its footprint predictor, atmosphere, speed of sound and strips."""
         atm = table.atmosphere()
+        #: the fallback past's lookups (own buffers: its length differs from the ahead's)
+        self._fallback_lookup = FootprintPredictor(table)
         return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
                 strip_indices(table.eta.size, self.config.strips))
 
@@ -225,6 +240,7 @@ class Advisor:
         if table is not self._table:
             (self._table, self._predictor, self._atm, self._sound,
              self._strips) = self._table_parts(table)
+            self._new_table_history(table)
         if state is None:
             return self.unavailable("no valid air data")
         problem = state_problem(state)
@@ -245,14 +261,81 @@ class Advisor:
             return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
                                     state.utc_s)
 
-    def _in_air_s(self, s: AirDataState, cfg: AdvisorConfig) -> float:
+    # ---- the booms already in the air ----------------------------------------------
+    def _history_window_s(self, table: BoomTable) -> float:
+        """How far back the flown history must reach: the table's longest travel time
+        (over every cell) plus two emission spacings, at most ``in_air_s``."""
+        q = table.cells[..., lk.Q_TIME]
+        ok = np.isfinite(q)
+        longest = float(q[ok].max()) if ok.any() else 0.0
+        return min(self.config.in_air_s, longest + 2.0 * self.config.step_s)
+
+    def _new_table_history(self, table: BoomTable) -> None:
+        """A table came in: entries keep the rows of the table in force when flown; the
+        buffer grows for longer travel times (emptied only when the azimuth nodes
+        differ, since rows of two node sets cannot be laid side by side)."""
+        self._table_gen += 1
+        window = self._history_window_s(table)
+        if table.eta.size != self.history.n_eta:
+            self.history = FlownHistory(table.eta.size, self.config.step_s, window)
+        else:
+            self.history.grow(window)
+
+    def _in_air_s(self, present_rows: np.ndarray, present_code: int) -> float:
         """How far back booms may still be on their way down: the longest travel time of
-        the present footprint plus one step (at most ``in_air_s``)."""
-        fp = self._table.footprint(s.alt_m, s.mach, s.fpa_rad, s.heading_rad)
-        if not fp.reaches_ground:
-            return cfg.in_air_s
-        longest = float(np.max(fp.rows[:, lk.Q_TIME])) + cfg.step_s
-        return min(cfg.in_air_s, longest)
+        the present footprint (its table rows) and of the flown states held, plus one
+        step (at most ``in_air_s``); with neither on the ground, the table's longest."""
+        h = self.history
+        longest = float(np.max(h.travel[:len(h)])) if len(h) else -math.inf
+        if present_code != lk.NO_BOOM:
+            longest = max(longest, float(np.max(present_rows[:, lk.Q_TIME])))
+        if not math.isfinite(longest):
+            return h.window_s
+        return min(self.config.in_air_s, longest + self.config.step_s)
+
+    @staticmethod
+    def _state_time(s: AirDataState, now: float) -> float:
+        """The state's own time (s): its UTC stamp, else its receive time, else now."""
+        if s.utc_s is not None:
+            return s.utc_s
+        return s.rx_monotonic if s.rx_monotonic is not None else now
+
+    def _past(self, ahead: Trajectory, t_now: float, present_rows: np.ndarray,
+              present_code: int) -> FlownPast | None:
+        """The emission points whose booms may still be in the air, from the flown
+        history; the part of the window older than the history (a fresh advisor) is
+        the present state flown backwards (:func:`past_trajectory`), kept apart from the
+        history by a separator."""
+        cfg, h = self.config, self.history
+        win = h.window(t_now, ahead.frame)
+        back_s = self._in_air_s(present_rows, present_code)
+        have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
+        fallback = None
+        if have_s < back_s - 1e-6:
+            back = past_trajectory(ahead, back_s, cfg.step_s)
+            keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
+            if keep.size:
+                part = _subset(back, keep)
+                rows, codes, cuts = (x.copy() for x in self._fallback_lookup.lookup(part))
+                fallback = FlownPast(part, rows, codes, cuts)
+        tail_break = win is not None and t_now - h.newest_t > h.gap_s
+        return flown_past(win, fallback, ahead, tail_break)
+
+    def _remember(self, s: AirDataState, t_now: float, ahead: Trajectory, rows: np.ndarray,
+                  code: int, cutoff: float) -> None:
+        """Offer the present state (with its table rows) to the flown history."""
+        h = self.history
+        if len(h) and 0.0 <= t_now - h.newest_t < h.spacing_s - 1e-6:
+            return  # not due (the common case: no work)
+        e0, n0 = float(ahead.east_m[0]), float(ahead.north_m[0])
+        track = s.track_rad
+        if track is None:
+            track = float(ahead.frame.grid_to_azimuth(e0, n0, float(ahead.track_grid_rad[0])))
+        h.offer(t_now, s.lat_rad, s.lon_rad,
+                (s.alt_m, s.mach, float(ahead.tas_mps[0]), s.heading_rad, track,
+                 float(ahead.ground_speed_mps[0]), s.fpa_rad, s.bank_rad,
+                 float(ahead.turn_rate_rad_s[0])),
+                self._table_gen, rows, code, cutoff)
 
     def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
         """Feed the stream profile; hand a disagreeing profile to the table manager."""
@@ -284,11 +367,17 @@ class Advisor:
         cfg = self.config
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
-        past = past_trajectory(ahead, self._in_air_s(s, cfg), cfg.step_s)
-        traj = join_trajectories(past, ahead)
-        pred = self._predictor.predict(traj)
+        t_state = self._state_time(s, now)
+        rows, codes, cuts = (x.copy() for x in self._predictor.lookup(ahead))
+        self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
+        past = self._past(ahead, t_state, rows[0], int(codes[0]))
+        traj = ahead if past is None else join_trajectories(past.traj, ahead)
+        if past is not None:
+            rows, codes, cuts = (np.concatenate([a, b]) for a, b in zip(
+                (past.rows, past.codes, past.cutoffs), (rows, codes, cuts)))
+        pred = self._predictor.predict(traj, rows, codes, cuts)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        now_k = past.t_s.size  # the present emission point in the prediction
+        now_k = 0 if past is None else past.traj.t_s.size  # the present emission point
         fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
                                                   cfg.focus_threshold, cfg.reaction_s)
         first = later[0] if later else None
@@ -381,6 +470,17 @@ class Advisor:
         if r is None or r.act_by_s is None:
             return r, None
         return r, max(0.0, r.act_by_s - (now - self._result_t0))
+
+
+def _subset(traj: Trajectory, idx: np.ndarray) -> Trajectory:
+    """The points ``idx`` of a trajectory (same frame and wind)."""
+    return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
+                      frame=traj.frame, wind_east_mps=traj.wind_east_mps,
+                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
+
+
+_TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
+              "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")
 
 
 def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:

@@ -6,7 +6,9 @@ operators tune them in a config file::
     [prediction]
     look_ahead_s = 300      # how far ahead the trajectory and carpet are predicted
     step_s = 3              # emission spacing along the predicted trajectory
-    in_air_s = 150          # booms emitted this long ago may still be on their way down
+    in_air_s = 900          # absolute cap on how far back booms still in the air are
+                            # looked for; the window itself is the longest travel time
+                            # of the flown states (a jet-stream profile reaches 730 s)
 
     [levels]                # set on the time left to act (act-by), issue 13
     caution_act_s = 60      # the offered action must start within this -> caution
@@ -64,7 +66,7 @@ class AdvisorConfig:
 
     look_ahead_s: float = 300.0
     step_s: float = 3.0
-    in_air_s: float = 150.0
+    in_air_s: float = 900.0
     caution_lead_s: float = 120.0
     warning_lead_s: float = 60.0
     band_s: float = 10.0
@@ -88,7 +90,7 @@ class AdvisorConfig:
     def validate(self) -> None:
         """Raise :class:`ConfigError` naming the first bad value."""
         limits = {
-            "look_ahead_s": (10.0, 1800.0), "step_s": (0.5, 30.0), "in_air_s": (0.0, 600.0),
+            "look_ahead_s": (10.0, 1800.0), "step_s": (0.5, 30.0), "in_air_s": (0.0, 3600.0),
             "caution_lead_s": (1.0, 1800.0), "warning_lead_s": (1.0, 1800.0),
             "band_s": (0.0, 120.0), "release_s": (0.0, 300.0), "warning_hold_s": (0.0, 600.0),
             "cutoff_margin_mach": (0.0, 0.5), "turn_bank_deg": (5.0, 60.0),

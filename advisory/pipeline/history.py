@@ -1,25 +1,42 @@
-"""Trajectories derived from a predicted one: the recent past and resolution turns.
+"""The flown history, and trajectories derived from a predicted one.
 
-The booms that may still be on their way down were emitted over the last minutes; the
-advisor takes them from the present manoeuvre flown backwards (:func:`past_trajectory`)
-and joins that to the trajectory ahead (:func:`join_trajectories`). Resolution trials
-fly the trajectory ahead again with a turn that rolls out after a heading change
-(:func:`turned_trajectory`). All run the trajectory kernel
-(:func:`advisory.pipeline.trajectory.propagate_kernel`; its physics and sources are in
-:mod:`advisory.pipeline.trajectory`); :func:`kernel_inputs` builds its inputs from a
-trajectory's start state.
+Booms emitted over the last minutes may still be on their way down. The advisor keeps
+the states it actually stepped on in a :class:`FlownHistory` (a bounded ring buffer, one
+entry per emission spacing, each with the table rows of its state in the table in force
+then) and places every boom still in the air from those states, each with its own
+emission time, Mach, heading, altitude, flight-path angle and position
+(:func:`flown_past`): a turn entered 10 s ago or an acceleration just begun changes only
+the booms emitted since. The window is the longest travel time of the states held, not
+a fixed span. A fresh advisor has no history for the older part of the window: there,
+and only there, it flies the present manoeuvre backwards (:func:`past_trajectory`),
+kept apart from the flown part by a no-boom separator. The past is joined to the
+trajectory ahead (:func:`join_trajectories`).
+
+Resolution trials fly the trajectory ahead again with a turn that rolls out after a
+heading change (:func:`turned_trajectory`). Backward flight and trials run the
+trajectory kernel (:func:`advisory.pipeline.trajectory.propagate_kernel`; its physics
+and sources are in :mod:`advisory.pipeline.trajectory`); :func:`kernel_inputs` builds its
+inputs from a trajectory's start state. The flown history needs no kernel of its own:
+placing and focus are the footprint kernels (:mod:`advisory.pipeline.footprint`) on the
+flown points, whose ray-tube differences then come from the states actually flown.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
+from typing import NamedTuple
 
 import numpy as np
 
 from advisory import units
+from advisory.geo.frame import LocalFrame
 from advisory.pipeline.trajectory import Trajectory, propagate_kernel
+from advisory.schema import EARTH_MEAN_RADIUS_M
+from advisory.tables.lookup import N_QUANTITIES, NO_BOOM, Q_TIME
 
-__all__ = ["kernel_inputs", "past_trajectory", "join_trajectories", "turned_trajectory"]
+__all__ = ["kernel_inputs", "past_trajectory", "join_trajectories", "turned_trajectory",
+           "FlownHistory", "FlownPast", "flown_past"]
 
 
 def kernel_inputs(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
@@ -105,3 +122,283 @@ def turned_trajectory(base: Trajectory, bank_rad: float, heading_change_rad: flo
     path (a resolution trial). Uses the trajectory kernel directly.
     """
     return _propagate_like(base, base.t_s, bank_rad, heading_change_rad)
+
+
+class FlownHistory:
+    """Ring buffer of the states actually flown, one entry per emission spacing.
+
+    Each entry keeps what placing its booms needs, as the aircraft flew it: time (s, on
+    the state's own clock), latitude and longitude (rad), altitude (m), Mach, true
+    airspeed (m/s), true heading and track (rad), ground speed (m/s), flight-path angle,
+    bank (rad) and turn rate (rad/s), plus the table rows of that state looked up in the
+    table in force at the time (``rows``, ``code``, ``cutoff``, and ``table`` the
+    advisor's generation number of that table: an index, not a copy of the table). The
+    rows are the lookup the step made anyway for its present state, so the past costs no
+    table lookups and a later table swap does not re-place booms already emitted.
+
+    Bound
+    -----
+    ``capacity = ceil(window_s / spacing_s) + 2`` entries, allocated once (grown only
+    when a swapped-in table has longer travel times, never past the absolute cap). The
+    advisor sets ``window_s`` to the longest travel time of its table plus two spacings,
+    at most ``AdvisorConfig.in_air_s`` (the absolute cap, default 900 s, at most
+    3,600 s). Memory: ``capacity * (BYTES_PER_ENTRY_FIXED + n_eta * BYTES_PER_RAY)``
+    bytes, i.e. 158 + 72 ``n_eta`` per entry; with the default 31-node tables, a 3 s
+    spacing and the default cap, 302 entries, 722 kB; at the 3,600 s hard cap, 1,202
+    entries, 2.9 MB.
+
+    Gaps and jumps
+    --------------
+    A new entry more than ``gap_s`` (two spacings) after the one before, or further from
+    it than ``2 * ground speed * dt + 1 km`` (a jump), starts a new run: the two runs are
+    never joined into a straight path. Both keep their own emission times; the booms of
+    the gap itself are unknown and not invented. :attr:`gaps` counts the breaks. A state
+    earlier than the newest entry (a clock step back, another flight) empties the buffer
+    (:attr:`resets`).
+    """
+
+    #: bytes per entry besides the rays: 18 float64 (time, position, state, travel,
+    #: cutoff, frame position and directions), the code (int64), the table (int32) and
+    #: two flags.
+    BYTES_PER_ENTRY_FIXED = 18 * 8 + 8 + 4 + 2
+    #: bytes per entry and azimuth node: one table row.
+    BYTES_PER_RAY = N_QUANTITIES * 8
+    N_STATE = 9  #: alt, mach, tas, heading, track, ground speed, fpa, bank, turn rate
+
+    def __init__(self, n_eta: int, spacing_s: float, window_s: float) -> None:
+        self.n_eta = int(n_eta)
+        self.spacing_s = float(spacing_s)
+        self.gap_s = 2.0 * self.spacing_s
+        self.window_s = float(window_s)
+        self.capacity = int(math.ceil(self.window_s / self.spacing_s - 1e-9)) + 2
+        self._alloc(self.capacity)
+        self._n = 0  # entries held
+        self._head = 0  # index of the next write
+        self.appended = 0  #: entries ever appended
+        self.gaps = 0  #: breaks (gaps or jumps) between successive entries
+        self.resets = 0  #: times the buffer was emptied (clock going back)
+
+    def _alloc(self, cap: int) -> None:
+        self.t = np.zeros(cap)
+        self.lat = np.zeros(cap)
+        self.lon = np.zeros(cap)
+        self.st = np.zeros((cap, self.N_STATE))
+        self.travel = np.zeros(cap)
+        self.cutoff = np.zeros(cap)
+        self.proj = np.zeros((cap, 4))  # east, north, heading grid, track grid
+        self.rows = np.zeros((cap, self.n_eta, N_QUANTITIES))
+        self.code = np.zeros(cap, dtype=np.int64)
+        self.table = np.zeros(cap, dtype=np.int32)
+        self.brk = np.zeros(cap, dtype=np.bool_)
+        self.proj_ok = np.zeros(cap, dtype=np.bool_)
+        self._frame: LocalFrame | None = None
+
+    def __len__(self) -> int:
+        return self._n
+
+    @property
+    def nbytes(self) -> int:
+        """Memory held by the buffer's arrays, bytes."""
+        return int(sum(a.nbytes for a in (self.t, self.lat, self.lon, self.st, self.travel,
+                                          self.cutoff, self.proj, self.rows, self.code,
+                                          self.table, self.brk, self.proj_ok)))
+
+    def order(self) -> np.ndarray:
+        """Buffer indices of the entries held, oldest first."""
+        return (self._head - self._n + np.arange(self._n)) % self.capacity
+
+    @property
+    def newest_t(self) -> float:
+        """Time of the newest entry, s (NaN when empty)."""
+        return float(self.t[(self._head - 1) % self.capacity]) if self._n else math.nan
+
+    @property
+    def oldest_t(self) -> float:
+        """Time of the oldest entry, s (NaN when empty)."""
+        return float(self.t[(self._head - self._n) % self.capacity]) if self._n else math.nan
+
+    def clear(self) -> None:
+        """Forget every entry (counted in :attr:`resets` when any was held)."""
+        if self._n:
+            self.resets += 1
+        self._n = 0
+
+    def grow(self, window_s: float) -> None:
+        """Make room for a longer window (keeps the entries, in order)."""
+        cap = int(math.ceil(window_s / self.spacing_s - 1e-9)) + 2
+        if cap <= self.capacity:
+            return
+        idx = self.order()
+        old = {k: getattr(self, k)[idx] for k in _ENTRY_ARRAYS}
+        frame = self._frame
+        self.capacity, self.window_s = cap, float(window_s)
+        self._alloc(cap)
+        for k, v in old.items():
+            getattr(self, k)[:v.shape[0]] = v
+        self._frame = frame
+        self._head = self._n
+
+    def offer(self, t_s: float, lat_rad: float, lon_rad: float, state: Sequence[float],
+              table: int, rows: np.ndarray, code: int, cutoff: float) -> bool:
+        """Append the state at ``t_s`` when a spacing has passed since the newest entry.
+
+        ``state`` holds :attr:`N_STATE` values (alt m, Mach, TAS m/s, true heading and
+        track rad, ground speed m/s, fpa, bank rad, turn rate rad/s); ``rows`` (n_eta,
+        N_QUANTITIES), ``code`` and ``cutoff`` its lookup in table generation ``table``.
+        Returns True when appended.
+        """
+        brk = False
+        if self._n:
+            dt = t_s - self.newest_t
+            if dt < 0.0:
+                self.clear()
+            elif dt < self.spacing_s - 1e-6:
+                return False
+            else:
+                i = (self._head - 1) % self.capacity
+                gs = max(float(self.st[i, 5]), float(state[5]))
+                far = _haversine(self.lat[i], self.lon[i], lat_rad, lon_rad) \
+                    > 2.0 * gs * dt + 1000.0
+                brk = dt > self.gap_s or far
+                self.gaps += int(brk)
+        i = self._head
+        self.t[i], self.lat[i], self.lon[i] = t_s, lat_rad, lon_rad
+        self.st[i] = state
+        self.rows[i] = rows
+        self.code[i], self.cutoff[i], self.table[i] = code, cutoff, table
+        ok = code != NO_BOOM and rows.shape[0] > 0
+        self.travel[i] = float(np.nanmax(rows[:, Q_TIME])) if ok else -math.inf
+        self.brk[i], self.proj_ok[i] = brk, False
+        self._head = (i + 1) % self.capacity
+        self._n = min(self._n + 1, self.capacity)
+        self.appended += 1
+        return True
+
+    def _project(self, idx: np.ndarray, frame: LocalFrame) -> None:
+        """Frame positions and grid directions of entries ``idx`` (cached per frame)."""
+        if frame is not self._frame:
+            self.proj_ok[:] = False
+            self._frame = frame
+        todo = idx[~self.proj_ok[idx]]
+        if todo.size == 0:
+            return
+        pts = frame.locate_geodetic(self.lat[todo], self.lon[todo])
+        self.proj[todo, 0] = pts.east_m
+        self.proj[todo, 1] = pts.north_m
+        self.proj[todo, 2] = pts.azimuth_to_grid(self.st[todo, 3])
+        self.proj[todo, 3] = pts.azimuth_to_grid(self.st[todo, 4])
+        self.proj_ok[todo] = True
+
+    def window(self, t_now: float, frame: LocalFrame
+               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
+        """The entries whose booms may still be in the air at ``t_now``, oldest first.
+
+        From the oldest entry before ``t_now`` with a boom not yet landed (emission time
+        plus its longest travel time at or after ``t_now``), with one entry before it
+        for the ray-tube differences, to the newest entry before ``t_now``.
+
+        Returns
+        -------
+        (t, values, rows, codes, cutoffs) or None
+            ``t`` emission times relative to ``t_now`` (s, negative); ``values`` (K, 14):
+            the state (:attr:`N_STATE` columns), then frame east, north (m), heading and
+            track grid bearings (rad), then 1.0 where a break precedes the entry; ``rows``
+            (K, n_eta, N_QUANTITIES), ``codes``, ``cutoffs``. None when no entry is.
+        """
+        if not self._n:
+            return None
+        idx = self.order()
+        idx = idx[self.t[idx] < t_now - 1e-6]
+        live = np.flatnonzero(self.t[idx] + self.travel[idx] >= t_now)
+        if live.size == 0:
+            return None
+        first = int(live[0])
+        if first > 0 and not self.brk[idx[first]]:
+            first -= 1
+        idx = idx[first:]
+        self._project(idx, frame)
+        sel: np.ndarray | slice = idx
+        if idx[-1] - idx[0] == idx.size - 1:  # not wrapped: views, no gathering
+            sel = slice(int(idx[0]), int(idx[-1]) + 1)
+        values = np.empty((idx.size, self.N_STATE + 5))
+        values[:, :self.N_STATE] = self.st[sel]
+        values[:, self.N_STATE:self.N_STATE + 4] = self.proj[sel]
+        values[:, -1] = self.brk[sel]
+        values[0, -1] = 0.0
+        return self.t[sel] - t_now, values, self.rows[sel], self.code[sel], self.cutoff[sel]
+
+
+_ENTRY_ARRAYS = ("t", "lat", "lon", "st", "travel", "cutoff", "proj", "rows", "code", "table",
+                 "brk", "proj_ok")
+
+
+def _haversine(lat0: float, lon0: float, lat: float, lon: float) -> float:
+    """Great-circle distance on the mean Earth radius, m (a jump test, 0.5 % is plenty)."""
+    h = (math.sin(0.5 * (lat - lat0)) ** 2
+         + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
+    return 2.0 * EARTH_MEAN_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
+
+
+class FlownPast(NamedTuple):
+    """The past part of a prediction: emission points and their table lookups."""
+
+    traj: Trajectory
+    rows: np.ndarray  #: (K, n_eta, N_QUANTITIES)
+    codes: np.ndarray  #: (K,) int64
+    cutoffs: np.ndarray  #: (K,)
+
+
+def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+               | None, fallback: FlownPast | None, ahead: Trajectory,
+               tail_break: bool = False) -> FlownPast | None:
+    """The flown entries of :meth:`FlownHistory.window` as a trajectory in ``ahead``'s
+    frame, after ``fallback`` (the part of the window older than the history, flown
+    back from the present state; None: the history covers the window).
+
+    A separator emission with no boom (code ``NO_BOOM``) stands between two runs (a gap
+    or jump in the history, and between the fallback and the history), so neither the
+    carpet strips nor the ray-tube differences join them. The last flown entry joins the
+    trajectory ahead directly unless ``tail_break`` (the newest entry is more than a gap
+    before the present state): then a separator follows it too.
+    """
+    parts: list[dict[str, np.ndarray]] = []
+    if fallback is not None and fallback.traj.t_s.size:
+        d = {k: getattr(fallback.traj, k) for k in _TRAJ_ARRAYS}
+        d.update(rows=fallback.rows, codes=fallback.codes, cutoffs=fallback.cutoffs)
+        parts.append(d)
+    if window is not None:
+        t, v, rows, codes, cutoffs = window
+        flown = {"t_s": t, "alt_m": v[:, 0], "mach": v[:, 1], "tas_mps": v[:, 2],
+                 "ground_speed_mps": v[:, 5], "fpa_rad": v[:, 6], "bank_rad": v[:, 7],
+                 "turn_rate_rad_s": v[:, 8], "east_m": v[:, 9], "north_m": v[:, 10],
+                 "heading_grid_rad": v[:, 11], "track_grid_rad": v[:, 12],
+                 "rows": rows, "codes": codes, "cutoffs": cutoffs}
+        cuts = [0, *np.flatnonzero(v[:, 13] > 0.5).tolist(), t.size]
+        for a, b in zip(cuts[:-1], cuts[1:]):
+            if parts:  # a gap, a jump, or the fallback before: a separator between
+                t_prev = float(parts[-1]["t_s"][-1])
+                parts.append(_separator(flown, a, 0.5 * (t_prev + float(t[a]))))
+            parts.append({k: x[a:b] for k, x in flown.items()})
+    if not parts:
+        return None
+    if tail_break:  # a separator after the last entry: a copy of it, halfway to now
+        last = parts[-1]
+        parts.append(_separator(last, last["t_s"].size - 1, 0.5 * float(last["t_s"][-1])))
+    d = parts[0] if len(parts) == 1 else {k: np.concatenate([p[k] for p in parts])
+                                          for k in parts[0]}
+    rows, codes, cutoffs = d.pop("rows"), d.pop("codes"), d.pop("cutoffs")
+    traj = Trajectory(**{k: np.ascontiguousarray(v) for k, v in d.items()}, frame=ahead.frame,
+                      wind_east_mps=ahead.wind_east_mps, wind_north_mps=ahead.wind_north_mps,
+                      wind_inferred=ahead.wind_inferred)
+    return FlownPast(traj, np.ascontiguousarray(rows), np.ascontiguousarray(codes),
+                     np.ascontiguousarray(cutoffs))
+
+
+def _separator(d: dict[str, np.ndarray], i: int, t_s: float) -> dict[str, np.ndarray]:
+    """A no-boom separator emission: entry ``i`` of ``d`` at time ``t_s``, code NO_BOOM,
+    rows 0 (neither the carpet strips nor the ray-tube differences cross it)."""
+    sep = {k: v[i:i + 1].copy() for k, v in d.items()}
+    sep["t_s"][0] = t_s
+    sep["codes"][0] = NO_BOOM
+    sep["rows"][0] = 0.0
+    return sep

@@ -126,6 +126,14 @@ def test_no_action_found_says_so_with_the_time_to_contact() -> None:
     assert "NOTHING CLEARS" in cue and "IN 33S" in cue, cue
 
 
+def test_a_held_level_without_contact_does_not_say_nothing_clears() -> None:
+    # Found in the bundled turn flight after the roll-out: the warning is held 20 s by the
+    # hysteresis with no conflict left, and the line said "NOTHING CLEARS" (wrong: the
+    # crew's roll-out cleared; the truth harness puts no boom in the park).
+    cue = crew_cue(facts(status="warning", time_to_contact_s=None, overpressure_psf=None))
+    assert "NOTHING CLEARS" not in cue and cue.endswith("CONTACT GONE"), cue
+
+
 def test_mach_is_cut_down_never_rounded_up() -> None:
     # resolve_mach is the largest Mach that clears: showing more would not clear.
     assert "M1.12 " in crew_cue(facts(resolve_mach=1.1299, act_by_s=10.0))

@@ -31,12 +31,16 @@ from advisory.schema import SAFETY_CAUTION
 
 
 def encounter(**over) -> dict:
-    """Straight and level at Mach 1.4 toward a town 35 km ahead (invented), coarse truth."""
+    """Straight and level at Mach 1.4 toward a town 80 km ahead (invented), coarse truth.
+
+    80 km, not closer: since issue 13 the advisor offers only a resolution it has
+    trial-flown, and from 35 km nothing clears (the truth agrees: the booms of the next
+    seconds land in the town whatever the crew does)."""
     doc = {
-        "name": "toward_testford", "duration_s": 150.0, "seed": 5,
+        "name": "toward_testford", "duration_s": 300.0, "seed": 5,
         "start": {"lat_deg": 30.1, "lon_deg": -141.2, "alt_ft": 45000.0, "mach": 1.40,
                   "heading_deg": 90.0},
-        "zones": [{"id": "testford", "circle": [30.1, -140.83, 3.0], "margin_km": 1.0}],
+        "zones": [{"id": "testford", "circle": [30.1, -140.37, 3.0], "margin_km": 1.0}],
         "crew": {"mode": "ignore", "reaction_s": 3.0, "decel_mach_per_s": 0.03},
         "truth": {"emission_interval_s": 0.5, "azimuth_step_deg": 3.0},
     }

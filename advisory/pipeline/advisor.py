@@ -29,6 +29,7 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from collections.abc import Callable
@@ -403,7 +404,7 @@ class Advisor:
         named = fixed[0] if fixed else first
         self._held_zone = first.zone_id if first else None
         self._held_name = first.zone_name if first else None
-        r = res or Resolution()
+        r = _roll_out(res or Resolution(), s)
         turning = r.turn_left_deg is not None or r.turn_right_deg is not None
         hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
         return Advisory(
@@ -470,6 +471,26 @@ class Advisor:
         if r is None or r.act_by_s is None:
             return r, None
         return r, max(0.0, r.act_by_s - (now - self._result_t0))
+
+
+#: A Mach trial at the present Mach (to this much) clears only by its roll-out, Mach.
+SAME_MACH = 0.005
+#: Bank from which a roll-out is a turn resolution, rad (common practice, no source).
+ROLL_OUT_BANK_RAD = math.radians(5.0)
+
+
+def _roll_out(r: Resolution, s: AirDataState) -> Resolution:
+    """A Mach resolution at the present Mach while banked, said as what it is: the trial
+    rolls the wings level after the reaction time and holds the speed, so what clears is
+    the roll-out, on the heading reached then (a turn of 0 deg from the onset heading, in
+    the direction of the bank). "M1.50" at Mach 1.50 would tell the crew nothing; the
+    crew model would hold the bank and fly on into the zone."""
+    if (r.resolve_mach is None or r.combined or r.resolve_mach < s.mach - SAME_MACH
+            or abs(s.bank_rad) < ROLL_OUT_BANK_RAD):
+        return r
+    if s.bank_rad > 0.0:
+        return dataclasses.replace(r, resolve_mach=None, turn_right_deg=0.0)
+    return dataclasses.replace(r, resolve_mach=None, turn_left_deg=0.0)
 
 
 def _subset(traj: Trajectory, idx: np.ndarray) -> Trajectory:

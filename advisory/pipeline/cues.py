@@ -20,7 +20,9 @@ words. What the line holds, by status (issue 13, "the crew's line"):
     down to the whole second; ``ACT NOW`` under one second. Without an act-by time (no
     action clears) the time until the boom reaches the zone follows the zone instead:
     ``CAUTION Larkmoor IN 64S NOTHING CLEARS``. Ten minutes or more read ``12MIN``
-    (whole minutes, cut down).
+    (whole minutes, cut down). A level held by the hysteresis after its conflict went
+    (no contact, no time, no action) reads ``WARNING Larkmoor CONTACT GONE`` until it is
+    released.
 * ``unavoidable``: ``BOOM DUE <zone> IN <time> <psf> PSF``, the arrival time and the
   overpressure so the crew can tell the ground, e.g. ``BOOM DUE Larkmoor IN 42S 2.9 PSF``
   (``99+ PSF`` from 99.95 psf).
@@ -70,6 +72,7 @@ CUE_MAX_CHARS = 40  #: longest crew line, characters (issue 13)
 ZONE_CUT_MARK = "."  #: ends a zone name that was shortened
 _LEVEL_WORD = {"advisory": "ADVISORY", "caution": "CAUTION", "warning": "WARNING"}
 _NO_ACTION = "NOTHING CLEARS"
+_HELD = "CONTACT GONE"  #: a level held after its conflict went (no time, no action)
 
 
 class CueFacts(Protocol):
@@ -128,6 +131,9 @@ def crew_cue(a: CueFacts) -> str:
     action = action_text(a)
     act_by = _finite(a.act_by_s)
     ttc = _finite(a.time_to_contact_s)
+    if act_by is None and ttc is None and not action:
+        # the level is held (hysteresis) while the present prediction has no contact
+        return _assemble(level, name, _HELD)
     if act_by is not None:
         parts = [action or _NO_ACTION, "ACT NOW" if act_by < 1.0 else "ACT " + _seconds(act_by)]
     else:  # no act-by time: when the boom gets there, then what (if anything) clears

@@ -85,13 +85,17 @@ DEFAULT_FAULTS = (MAKER.Fault("dropout", 2.0, 3.5), MAKER.Fault("garbage", 4.0, 
 
 def short_flight(root: Path, name: str = "short", duration_s: float = 6.0,
                  faults=DEFAULT_FAULTS, **kw) -> Path:
-    """A few seconds of invented flight: eastbound Mach 1.4, a town 60 km ahead."""
+    """A few seconds of invented flight: eastbound Mach 1.4, a town 100 km ahead.
+
+    100 km: far enough that slowing down still clears with over a minute to spare, so the
+    conflict is an *advisory* (levels on the time left to act, issue 13; from 60 km it is
+    a warning)."""
     lat0, lon0 = 30.2, -140.9
     sc = MAKER.Scenario(
         name=name, title=f"Short test flight {name}", description="invented test flight",
         lat_deg=lat0, lon_deg=lon0, alt_ft=45000.0, mach=1.4, heading_deg=90.0,
         duration_s=duration_s,
-        zones=(MAKER.town("testford", "Testford", *MAKER.ahead(lat0, lon0, 90.0, 60.0), 3.0),),
+        zones=(MAKER.town("testford", "Testford", *MAKER.ahead(lat0, lon0, 90.0, 100.0), 3.0),),
         grid=MAKER.CALM_GRID, faults=tuple(faults), seed=7, **kw)
     MAKER.make(sc, root)
     return root / name

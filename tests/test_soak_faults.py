@@ -47,9 +47,11 @@ SOAK_S = float(os.environ.get("BOOM_SOAK_FAULTS_S", "600"))  #: traffic time, s 
 PERIOD = 0.05  #: 20 Hz input
 MAX_GAP_S = 1.0  #: ICD 17.1: status at least every 1 s, an advisory every step
 STALE_WITHIN_S = 1.0  #: issue 15 High 1: frozen data stale within 1 s
-#: One cycle of phases: (name, seconds). Normal spans outlast the 5-s degraded hold.
-CYCLE = (("normal", 8.0), ("resent", 3.0), ("normal", 7.0), ("frozen_clock", 3.0),
-         ("normal", 7.0), ("frozen_position", 3.0), ("normal", 7.0), ("garbage", 2.0))
+#: One cycle of phases: (name, seconds). Normal spans are twice the 5-s degraded hold:
+#: the status is back to ok about 5 s into each (measured: 4.95-5.15 s), and one step
+#: overrun on a busy machine (itself 5 s of ``degraded``, rightly) still leaves room.
+CYCLE = (("normal", 10.0), ("resent", 3.0), ("normal", 10.0), ("frozen_clock", 3.0),
+         ("normal", 10.0), ("frozen_position", 3.0), ("normal", 10.0), ("garbage", 2.0))
 FROZEN = ("resent", "frozen_clock", "frozen_position")
 
 
@@ -158,7 +160,10 @@ def test_soak_with_faults_keeps_publishing(tmp_path, small_table_path, zones_fil
             if nxt is not None and nxt[0] == "normal":
                 back = [f for f in status if nxt[1] <= f.utc_s <= nxt[2]
                         and f.fields["state"] == "ok"]
-                assert back, f"after {name} at {u0}: the status never came back to ok"
+                seen = [(round(f.utc_s - nxt[1], 2), f.fields["state"],
+                         f.fields.get("reason", "")) for f in status
+                        if nxt[1] - 1.0 <= f.utc_s <= nxt[2]]
+                assert back, f"after {name} at {u0}: the status never came back to ok: {seen}"
 
     # the record is complete: every datagram sent is in it, the counters agree
     raw = 0

@@ -20,9 +20,9 @@ from geographiclib.geodesic import Geodesic
 from scipy.integrate import solve_ivp
 
 from advisory.geo.frame import LocalFrame
-from advisory.pipeline.trajectory import predict_trajectory, propagate_kernel
+from advisory.pipeline.trajectory import ground_to_plane, predict_trajectory, propagate_kernel
 from tests.twins.geodesy import python_twin
-from tests.twins.trajectory import propagate_kernel_twin
+from tests.twins.trajectory import ground_to_plane_twin, propagate_kernel_twin
 
 GEOD = Geodesic.WGS84
 G = 9.80665  # standard gravity, U.S. Standard Atmosphere 1976
@@ -257,3 +257,27 @@ def test_short_last_step_and_mach_floor():
                             lookahead_s=7.0, step_s=2.0, mach_rate_per_s=-0.1)
     assert tr.t_s.tolist() == [0.0, 2.0, 4.0, 6.0, 7.0]
     assert tr.mach.min() == pytest.approx(0.1)  # MIN_MACH floor, documented
+
+
+def test_ground_to_plane_matches_its_twin_and_the_projection_scales() -> None:
+    # the shared step correction of the trajectory and trial kernels
+    rng = np.random.default_rng(5)
+    radius = 6371008.8
+    for _ in range(200):
+        e, n = rng.uniform(-900e3, 900e3, 2)
+        de, dn = rng.uniform(-600.0, 600.0, 2)
+        got = ground_to_plane(e, n, de, dn, radius)
+        np.testing.assert_allclose(got, ground_to_plane_twin(e, n, de, dn, radius),
+                                   rtol=1e-12, atol=1e-9)
+    assert ground_to_plane(0.0, 0.0, 3.0, 4.0, radius) == (3.0, 4.0)
+    # Closed form (Snyder 1987, USGS PP 1395, sec. 24): at plane distance rho = 2R sin(c/2)
+    # from the origin, a ground step L along the radius is L cos(c/2) on the plane, across
+    # it L / cos(c/2).
+    c = 800e3 / radius  # 800 km of arc from the origin, due east
+    rho = 2.0 * radius * math.sin(0.5 * c)
+    along = ground_to_plane(rho, 0.0, 100.0, 0.0, radius)
+    across = ground_to_plane(rho, 0.0, 0.0, 100.0, radius)
+    assert along[0] == pytest.approx(100.0 * math.cos(0.5 * c), rel=1e-12)
+    assert across[1] == pytest.approx(100.0 / math.cos(0.5 * c), rel=1e-12)
+    assert abs(along[1]) < 1e-12 and abs(across[0]) < 1e-12
+

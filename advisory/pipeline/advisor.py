@@ -402,8 +402,9 @@ class Advisor:
                             utc_s=s.utc_s, zone_id=self._held_zone,
                             zone_name=self._held_name)
         named = fixed[0] if fixed else first
-        self._held_zone = first.zone_id if first else None
-        self._held_name = first.zone_name if first else None
+        held = first or named  # a held level names the zone last in conflict
+        self._held_zone = held.zone_id if held else None
+        self._held_name = held.zone_name if held else None
         r = _roll_out(res or Resolution(), s)
         turning = r.turn_left_deg is not None or r.turn_right_deg is not None
         hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms

@@ -230,6 +230,46 @@ PROPAGATE_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank", "turn_limit", "psi0", "w
 
 
 @njit(cache=True)
+def ground_to_plane(east: float, north: float, de: float, dn: float, radius: float
+                    ) -> tuple[float, float]:
+    """A step flown over the ground, as a step in the frame's plane.
+
+    Parameters
+    ----------
+    east, north : float
+        Plane point where the map scales are taken (the step's mid-point), m.
+    de, dn : float
+        The step as flown over the ground (east, north), m.
+    radius : float
+        Radius of the frame's sphere, m.
+
+    Returns
+    -------
+    (float, float)
+        The step in the plane, m: its radial part (from the frame's origin) times the
+        radial map scale ``sqrt(1 - (rho / 2R)^2)``, its tangential part divided by it.
+
+    Notes
+    -----
+    The scales of Lambert's azimuthal equal-area projection on a sphere, radial
+    ``cos(c/2)`` and tangential ``1/cos(c/2)`` at plane distance ``rho = 2R sin(c/2)``
+    (J. P. Snyder, Map Projections - A Working Manual, USGS Professional Paper 1395,
+    1987, section 24); the frame is :mod:`advisory.geo.frame`.
+    """
+    rho = math.hypot(east, north)
+    if rho <= 0.0:
+        return de, dn
+    q = 0.5 * rho / radius
+    h = math.sqrt(max(1.0 - q * q, 1e-300))
+    ue = east / rho
+    un = north / rho
+    rad = de * ue + dn * un
+    te = de - rad * ue
+    tn = dn - rad * un
+    return h * rad * ue + te / h, h * rad * un + tn / h
+
+
+@njit(cache=True)
 def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.ndarray
                      ) -> np.ndarray:
     """Step a coordinated turn with Mach and climb in a frame plane.
@@ -326,19 +366,8 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         de = chord * math.sin(mid) + wind_e * dt
         dn = chord * math.cos(mid) + wind_n * dt
         # ground lengths -> plane lengths, scales at the uncorrected mid-step point
-        me = east[i - 1] + 0.5 * de
-        mn = north[i - 1] + 0.5 * dn
-        rho = math.hypot(me, mn)
-        if rho > 0.0:
-            q = 0.5 * rho / radius
-            h = math.sqrt(max(1.0 - q * q, 1e-300))
-            ue = me / rho
-            un = mn / rho
-            rad = de * ue + dn * un
-            te = de - rad * ue
-            tn = dn - rad * un
-            de = h * rad * ue + te / h
-            dn = h * rad * un + tn / h
+        de, dn = ground_to_plane(east[i - 1] + 0.5 * de, north[i - 1] + 0.5 * dn, de, dn,
+                                 radius)
         east[i] = east[i - 1] + de
         north[i] = north[i - 1] + dn
     two_pi = 2.0 * math.pi

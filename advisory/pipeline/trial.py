@@ -41,6 +41,7 @@ import numpy as np
 from advisory.jit import njit
 from advisory.pipeline.conflicts import conflict_kernel
 from advisory.pipeline.footprint import focus_kernel, place_kernel
+from advisory.pipeline.trajectory import ground_to_plane
 from advisory.tables import lookup as lk
 
 __all__ = ["TRIAL_PARAMS", "TRIAL_ROWS", "SUBSTEP_S", "fly_trial_kernel",
@@ -142,19 +143,8 @@ def fly_trial_kernel(t, p):
             chord = 0.5 * (v0 + v1) * cos_g * h * sinc
             de = chord * math.sin(mid) + p[8] * h
             dn = chord * math.cos(mid) + p[9] * h
-            me = east + 0.5 * de
-            mn = north + 0.5 * dn
-            rho = math.hypot(me, mn)
-            if rho > 0.0:  # ground lengths -> plane lengths (the frame's map scales)
-                q = 0.5 * rho / radius
-                hs = math.sqrt(max(1.0 - q * q, 1e-300))
-                ue = me / rho
-                un = mn / rho
-                rad = de * ue + dn * un
-                te = de - rad * ue
-                tn = dn - rad * un
-                de = hs * rad * ue + te / hs
-                dn = hs * rad * un + tn / hs
+            # ground lengths -> plane lengths (the frame's map scales at mid-step)
+            de, dn = ground_to_plane(east + 0.5 * de, north + 0.5 * dn, de, dn, radius)
             east += de
             north += dn
             alt += 0.5 * (v0 + v1) * sin_g * h

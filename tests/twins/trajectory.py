@@ -71,3 +71,19 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
     gn = vh * np.cos(psi) + wind_n
     return np.stack([east, north, alt, tas, np.mod(psi, 2.0 * math.pi), omega, bank_out,
                      np.mod(np.arctan2(ge, gn), 2.0 * math.pi), np.hypot(ge, gn)])
+
+
+def ground_to_plane_twin(east: float, north: float, de: float, dn: float, radius: float
+                         ) -> tuple[float, float]:
+    """Twin of ``ground_to_plane``: the ground step split along and across the radius
+    through the mid-point, scaled by Lambert's equal-area radial and tangential scales."""
+    rho = math.hypot(east, north)
+    step = np.array([de, dn])
+    if rho <= 0.0:
+        return de, dn
+    u = np.array([east, north]) / rho
+    h = math.sqrt(max(1.0 - (0.5 * rho / radius) ** 2, 1e-300))
+    radial = step @ u
+    out = h * radial * u + (step - radial * u) / h
+    return float(out[0]), float(out[1])
+

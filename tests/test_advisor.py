@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 
@@ -13,6 +14,7 @@ from hypothesis import strategies as st
 
 from advisory import units
 from advisory.cli import main
+from advisory.cli.check import advisory_text
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
@@ -20,6 +22,7 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, ConfigError, load_config
 from advisory.pipeline.conflicts import find_conflicts
 from advisory.pipeline.levels import AlertLevels
+from advisory.pipeline.results import Advisory
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.zones import ZoneSet
 from tests.conftest import build_small_table, make_atmosphere
@@ -266,10 +269,35 @@ def test_check_command_json_and_text(small_table_path, tmp_path, capsys) -> None
     assert main(argv) == 0
     text = capsys.readouterr().out
     assert "town" in text.lower() and "CAUTION: boom-advisory is an advisory aid" in text
+    # the text says what the advisory frame says: the checked resolutions and the time
+    # left to act (issue 13, Build 3)
+    assert "checked resolutions: " in text
+    if out["resolve_mach"] is not None:
+        assert f"slow to Mach {out['resolve_mach']:.2f}" in text
+    for side in ("left", "right"):
+        if out[f"turn_{side}_deg"] is not None:
+            assert (f"turn {side} {out[f'turn_{side}_deg']:.0f} deg to heading "
+                    f"{out[f'turn_{side}_hdg_deg']:03.0f}") in text
+    if out["act_by_s"] is not None:
+        assert f"act within {math.floor(out['act_by_s'])} s" in text
+        assert f"ACT {math.floor(out['act_by_s'])}S" in text  # the crew's line agrees
     bad = dict(state().to_fields(), mach="fast")
     sfile.write_text(json.dumps(bad))
     assert main(argv) == 2
     assert "mach" in capsys.readouterr().err
+
+
+def test_check_text_for_booms_already_on_their_way() -> None:
+    # an unavoidable status says so plainly; resolutions only when some clear later booms
+    s0 = state()
+    fixed = Advisory("unavoidable", zone_id="town", zone_name="Town", time_to_contact_s=80.0,
+                     overpressure_pa=50.0, cutoff_mach=1.15, max_mach_off_ground=1.13)
+    text = advisory_text(fixed, s0)
+    assert "already on their way" in text and "checked resolutions" not in text
+    both = dataclasses.replace(fixed, resolve_mach=1.12, act_by_s=12.0)
+    text = advisory_text(both, s0)
+    assert "keep later booms off" in text and "slow to Mach 1.12" in text
+    assert "act within 12 s" in text
 
 
 def test_top_level_api() -> None:

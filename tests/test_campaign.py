@@ -136,6 +136,25 @@ def test_sampling_is_seeded_and_independent_of_order_and_count():
     assert len({e.doc["name"] for e in twenty}) == 20
 
 
+def test_known_encounters_are_the_same_flights_with_what_the_advisor_assumes():
+    # issue 13's campaign: "atmosphere as the advisor knows it, crew following the cues";
+    # the crew's numbers are the documented defaults of AdvisorConfig (pipeline/config.py)
+    for i in range(12):
+        plain, known = sample_encounter(3, i).doc, sample_encounter(3, i, known=True).doc
+        assert "atmosphere" not in known["advisor"]  # given the truth's air
+        assert known.get("atmosphere") == plain.get("atmosphere")
+        assert all(z["ground_elevation_ft"] == 0.0 for z in known["zones"])
+        assert (known["crew"]["reaction_s"], known["crew"]["decel_mach_per_s"],
+                known["crew"]["bank_deg"], known["crew"]["roll_rate_deg_s"]) == (
+                    5.0, 0.01, 25.0, 5.0)
+        for key in ("start", "schedule", "source", "duration_s", "seed"):
+            assert known[key] == plain[key], key
+        strip = [{k: v for k, v in z.items() if k != "ground_elevation_ft"}
+                 for z in plain["zones"]]
+        assert strip == [{k: v for k, v in z.items() if k != "ground_elevation_ft"}
+                         for z in known["zones"]]
+
+
 def test_sampled_values_stay_in_their_ranges():
     # ranges from issue 12 and the sampler's documented distributions
     encs = sample_campaign(400, 3)
@@ -228,9 +247,10 @@ def test_bootstrap_median_interval_against_normal_theory():
     assert bootstrap_quantile(np.array([]), 0.5, np.random.default_rng(1))["value"] is None
 
 
-def _run(exposures=(), nuisance=0, unavailable=0.0, duration=100.0):
+def _run(exposures=(), nuisance=0, unavailable=0.0, duration=100.0, followed=False):
     return {"exposures": list(exposures), "nuisance_alerts": [{}] * nuisance,
-            "unavailable_s": unavailable, "duration_s": duration}
+            "unavailable_s": unavailable, "duration_s": duration,
+            "resolution": {"followed": followed}}
 
 
 def _exp(outcome, lead=None, exceeds=True, zone="z"):
@@ -240,8 +260,9 @@ def _exp(outcome, lead=None, exceeds=True, zone="z"):
 def test_metrics_of_hand_made_records():
     # counts worked out by hand from the definitions of docs/scenarios.md
     recs = [
-        {"ignore": _run([_exp("alerted", 40.0)]), "follow": _run()},           # resolved
-        {"ignore": _run([_exp("late", 2.0)]), "follow": _run([_exp("late", 2.0)])},
+        {"ignore": _run([_exp("alerted", 40.0)]), "follow": _run(followed=True)},  # resolved
+        {"ignore": _run([_exp("late", 2.0)]),
+         "follow": _run([_exp("late", 2.0)], followed=True)},
         {"ignore": _run([_exp("missed"), _exp("alerted", 30.0, zone="y")]),
          "follow": _run([_exp("alerted", 9.0, exceeds=False)])},               # resolved
         {"ignore": _run([_exp("alerted", 10.0, exceeds=False)]), "follow": _run()},
@@ -253,6 +274,9 @@ def test_metrics_of_hand_made_records():
     assert (m["missed_alert_rate"]["count"], m["missed_alert_rate"]["of"]) == (1, 3)
     assert (m["late_alert_rate"]["count"], m["late_alert_rate"]["of"]) == (1, 3)
     assert (m["resolution_success_rate"]["count"], m["resolution_success_rate"]["of"]) == (2, 3)
+    # of the two exposed encounters whose crew flew an offered resolution, one resolved
+    f = m["followed_resolution_success_rate"]
+    assert (f["count"], f["of"]) == (1, 2)
     assert (m["nuisance_alert_rate"]["count"], m["nuisance_alert_rate"]["of"]) == (1, 2)
     assert m["lead_time_s"]["of"] == 3  # 40, 2 and 30 s
     assert m["lead_time_s"]["median"]["value"] == 30.0

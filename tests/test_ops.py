@@ -15,8 +15,10 @@ import tempfile
 import time
 from pathlib import Path
 
+import msgpack
+
 import advisory
-from advisory.io.records import KIND_EVENT, decode_event, read_records
+from advisory.io.records import KIND_EVENT, KIND_OUTPUT, decode_event, read_records
 from advisory.schema import SAFETY_CAUTION, VERSION
 from advisory.tables.cache import cache_dir
 from tests.test_run_e2e import Listener, free_udp_port, start_run, stop, zones_file  # noqa: F401
@@ -74,6 +76,17 @@ def test_service_config_unknown_key_is_one_line_and_exit_2(tmp_path) -> None:
     assert len(lines) == 1 and "unknown key 'rate_hz'" in lines[0], res.stderr
 
 
+def test_advisory_version_other_than_1_or_2_is_one_line_and_exit_2() -> None:
+    # ICD section 7: a service sends version 2, or 1 for older receivers; nothing else
+    res = subprocess.run([sys.executable, "-m", "advisory.cli", "run", "--input",
+                          "udp://127.0.0.1:9", "--output", "udp://127.0.0.1:9", "--zones", "z",
+                          "--advisory-version", "3"], capture_output=True, text=True,
+                         timeout=60)
+    assert res.returncode == 2
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and "--advisory-version: 3" in lines[0], res.stderr
+
+
 def test_service_config_runs_and_the_command_line_overrides_it(
         tmp_path, small_table_path, zones_file) -> None:  # noqa: F811
     # ICD 17.7: every run option may come from the file; a command-line option wins
@@ -87,6 +100,7 @@ def test_service_config_runs_and_the_command_line_overrides_it(
                    f'table = "{small_table_path}"\n'
                    'record = "run.boomrec"\n'
                    'rate-hz = 20\n'
+                   'advisory-version = 1\n'  # for an older receiver (ICD section 7)
                    'duration-s = 4\n')
     res = subprocess.run([sys.executable, "-m", "advisory.cli", "run", "--service-config",
                           str(cfg), "--output", lis.url], capture_output=True, text=True,
@@ -101,6 +115,12 @@ def test_service_config_runs_and_the_command_line_overrides_it(
     start = [e for e in (decode_event(r.data) for r in records if r.kind == KIND_EVENT)
              if e.code == "start"][0]
     ident = start.fields["settings"]["identity"]
+    # version-1 advisory frames for an older receiver, as the file asked (ICD section 7),
+    # and the start event says so (a replay sends the same)
+    assert start.fields["settings"]["advisory_version"] == 1
+    sent = [msgpack.unpackb(r.data) for r in records if r.kind == KIND_OUTPUT]
+    adv_v = {m["v"] for m in sent if m["type"] == "adv"}
+    assert adv_v == {1}, adv_v
     assert ident["sw"] == VERSION
     assert ident["table_sha"] == hashlib.sha256(small_table_path.read_bytes()).hexdigest()[:16]
     assert ident["zones_sha"] == hashlib.sha256(zones_file.read_bytes()).hexdigest()[:16]

@@ -50,6 +50,8 @@ class CampaignResult:
         :func:`advisory.bench.campaign_stats.campaign_metrics` of the records.
     elapsed_s : float
         Wall time of the runs, s.
+    known : bool
+        The advisor knew the air and the crew (``campaign --known``).
     """
 
     seed: int
@@ -59,19 +61,21 @@ class CampaignResult:
     records: list[dict[str, Any]]
     metrics: dict[str, Any] = field(default_factory=dict)
     elapsed_s: float = 0.0
+    known: bool = False
 
 
-def sample_campaign(count: int, seed: int) -> list[Encounter]:
-    """The ``count`` encounters of the campaign seeded ``seed``."""
+def sample_campaign(count: int, seed: int, known: bool = False) -> list[Encounter]:
+    """The ``count`` encounters of the campaign seeded ``seed`` (``known``: as
+    :func:`advisory.bench.campaign_sample.as_known`)."""
     if not 1 <= count <= MAX_COUNT:
         raise ValueError(f"--count: {count} is not in 1..{MAX_COUNT}")
     if seed < 0:
         raise ValueError(f"--seed: {seed} is not >= 0")
-    return [sample_encounter(seed, i) for i in range(count)]
+    return [sample_encounter(seed, i, known) for i in range(count)]
 
 
 def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
-                 progress: Progress | None = None) -> CampaignResult:
+                 progress: Progress | None = None, known: bool = False) -> CampaignResult:
     """Sample, fly and measure a campaign.
 
     Parameters
@@ -85,12 +89,14 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
         function), normally :func:`advisory.bench.closed_loop.run_encounter`.
     progress : callable, optional
         Called as ``progress(done, total, failed)`` after each encounter completes.
+    known : bool
+        Encounters whose inputs the advisor knows (``campaign --known``).
 
     Returns
     -------
     CampaignResult
     """
-    encounters = sample_campaign(count, seed)
+    encounters = sample_campaign(count, seed, known)
     by_index: dict[int, dict[str, Any]] = {}
     failed = 0
     t0 = time.perf_counter()
@@ -105,4 +111,5 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
                for e in encounters]
     return CampaignResult(seed=seed, count=count, engine=engine.description,
                           encounters=encounters, records=records,
-                          metrics=campaign_metrics(records, seed), elapsed_s=elapsed)
+                          metrics=campaign_metrics(records, seed), elapsed_s=elapsed,
+                          known=known)

@@ -26,7 +26,7 @@ from advisory.bench.svg import esc
 from advisory.schema import SAFETY_CAUTION, VERSION
 
 RATES = ("missed_alert_rate", "late_alert_rate", "nuisance_alert_rate",
-         "resolution_success_rate")
+         "resolution_success_rate", "followed_resolution_success_rate")
 #: Fixed colours of the outcome plot (the same in every report).
 OUTCOME_COLOURS = {
     "outcome_alerted": "#2f855a", "outcome_late": "#d69e2e", "outcome_missed": "#c53030",
@@ -52,7 +52,7 @@ def summary(result: CampaignResult) -> dict[str, Any]:
     failures = [{"index": r["index"], "name": e.info["name"], "error": r["error"]}
                 for e, r in zip(result.encounters, result.records) if r.get("error")]
     return {"caution": SAFETY_CAUTION, "package_version": VERSION, "seed": result.seed,
-            "count": result.count, "engine": result.engine,
+            "count": result.count, "known": result.known, "engine": result.engine,
             "elapsed_s": round(result.elapsed_s, 3), "metrics": result.metrics,
             "failures": failures}
 
@@ -68,13 +68,16 @@ def _num(x: float | None, unit: str = "") -> str:
 def text_lines(result: CampaignResult) -> list[str]:
     """The human-readable report: caution, the metrics table, failures."""
     m = result.metrics
+    known = ("; the advisor knows the air and the crew (--known)" if result.known else "")
     lines = [f"boom-advisory campaign: {result.count} encounters, seed {result.seed} "
-             f"({result.engine}), {result.elapsed_s:.0f} s", SAFETY_CAUTION, ""]
+             f"({result.engine}), {result.elapsed_s:.0f} s{known}", SAFETY_CAUTION, ""]
     rows = [("metric", "value", "95 % interval", "over")]
     for key in RATES:
         r = m[key]
         what = "follow runs of exposed" if key.startswith("resolution") else (
-            "encounters without a boom" if key.startswith("nuisance") else "exposed encounters")
+            "follow runs of exposed that flew an offered resolution"
+            if key.startswith("followed") else "encounters without a boom"
+            if key.startswith("nuisance") else "exposed encounters")
         rows.append((key, _num(r["value"]), f"[{_num(r['low'])}, {_num(r['high'])}]",
                      f"{r['count']} of {r['of']} {what}"))
     for q, label in (("median", "median"), ("p5", "5th percentile")):

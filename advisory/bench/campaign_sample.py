@@ -44,6 +44,9 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
 * Crew (used by the run that follows the cues): reaction ``U(3, 8)`` s, deceleration
   ``U(0.008, 0.02)`` Mach/s, bank ``U(20, 30)`` deg, roll rate 5 deg/s, acts on a
   caution. The sampled ``mode`` is ``ignore``; each run sets its own.
+* ``known`` (``campaign --known``, :func:`as_known`): after the same draws, the advisor is
+  given the true air, the zone's ground is set to sea level and the crew's numbers are
+  the advisor's configured ones.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight. Encounters are invented flights over invented places.
@@ -60,6 +63,7 @@ import numpy as np
 from advisory import units
 from advisory.geo.geodesy import direct_deg
 from advisory.physics.atmosphere import ussa1976
+from advisory.pipeline.config import AdvisorConfig
 from advisory.schema import EARTH_MEAN_RADIUS_M
 
 GEOMETRIES = ("ahead", "offset", "crossing")
@@ -263,7 +267,7 @@ class Encounter:
     info: dict[str, Any]
 
 
-def sample_encounter(seed: int, index: int) -> Encounter:
+def sample_encounter(seed: int, index: int, known: bool = False) -> Encounter:
     """Encounter ``index`` of the campaign seeded ``seed``.
 
     Parameters
@@ -272,6 +276,9 @@ def sample_encounter(seed: int, index: int) -> Encounter:
         The campaign seed (>= 0).
     index : int
         The encounter's number in the campaign (>= 0).
+    known : bool
+        The advisor knows what it is told to assume (:func:`as_known`); the same draws,
+        so the flight, zone and true air are those of the encounter without it.
 
     Returns
     -------
@@ -320,6 +327,9 @@ def sample_encounter(seed: int, index: int) -> Encounter:
     }
     if truth:  # the standard atmosphere is the absence of an [atmosphere] table
         doc["atmosphere"] = truth
+    if known:
+        adv_kind = "same"
+        as_known(doc)
     info = {"name": doc["name"], "geometry": geometry, "crossing_angle_deg": crossing,
             "manoeuvre": schedule[0]["kind"] if schedule else "hold",
             "true_air": true_kind, "advisor_air": adv_kind, "mach": start["mach"],
@@ -327,3 +337,17 @@ def sample_encounter(seed: int, index: int) -> Encounter:
             "limit_psf": zone["limit_psf"],
             "ground_elevation_ft": zone["ground_elevation_ft"]}
     return Encounter(index, doc, info)
+
+
+def as_known(doc: dict[str, Any]) -> None:
+    """Make an encounter one whose inputs the advisor knows (``campaign --known``): it is
+    given the true atmosphere; the zone's ground is at sea level (the advisor has no
+    terrain yet: issue 14); the crew reacts, decelerates, banks and rolls as the advisor's
+    configuration assumes (:class:`advisory.pipeline.config.AdvisorConfig` defaults).
+    What the advice can do when what it assumes is true."""
+    cfg = AdvisorConfig()
+    doc["advisor"].pop("atmosphere", None)
+    for zone in doc["zones"]:
+        zone["ground_elevation_ft"] = 0.0
+    doc["crew"].update(reaction_s=cfg.reaction_s, decel_mach_per_s=cfg.decel_mach_per_s,
+                       bank_deg=cfg.turn_bank_deg, roll_rate_deg_s=cfg.roll_rate_deg_s)

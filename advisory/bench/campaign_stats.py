@@ -9,6 +9,9 @@ encounters whose ignore run has an exposure exceeding the zone's limit plus marg
 * ``late_alert_rate``: the worst is ``late`` (worst first: missed, late, alerted);
 * ``resolution_success_rate``: the follow run has no exposure exceeding the limit in the
   zones the ignore run exceeded (the truth says the advice worked, whatever was cued);
+* ``followed_resolution_success_rate``: the same, over the encounters whose follow run's
+  crew was offered a resolution and flew it (does a checked resolution hold against the
+  truth; the encounters where nothing was offered are left out);
 * ``lead_time_s``: median and 5th percentile over those exposures of the ignore runs
   that were alerted (outcome ``alerted`` or ``late``, lead time given).
 
@@ -131,18 +134,20 @@ def classify(record: dict[str, Any]) -> dict[str, Any]:
         ``class``: ``exposed`` / ``below_limit`` (exposures, none exceeding) / ``clear``
         (no exposure); ``outcome`` (worst outcome when exposed, else None);
         ``resolved`` (exposed: True when the follow run avoided it); ``nuisance``
-        (clear: a nuisance alert in the ignore run); ``lead_times`` (list, s).
+        (clear: a nuisance alert in the ignore run); ``followed`` (exposed: the follow
+        run's crew flew an offered resolution); ``lead_times`` (list, s).
     """
     ignore, follow = record["ignore"], record["follow"]
     over = exceeding(ignore)
     out: dict[str, Any] = {"class": "clear", "outcome": None, "resolved": None,
-                           "nuisance": None, "lead_times": []}
+                           "followed": None, "nuisance": None, "lead_times": []}
     if over:
         out["class"] = "exposed"
         out["outcome"] = max((e.get("outcome", "missed") for e in over),
                              key=lambda o: OUTCOME_RANK.get(o, 2))
         zones = {e.get("zone_id") for e in over}
         out["resolved"] = not any(e.get("zone_id") in zones for e in exceeding(follow))
+        out["followed"] = bool((follow.get("resolution") or {}).get("followed"))
         out["lead_times"] = [float(e["lead_time_s"]) for e in over
                              if e.get("outcome") in ("alerted", "late")
                              and e.get("lead_time_s") is not None]
@@ -168,7 +173,8 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
     -------
     dict
         ``missed_alert_rate``, ``late_alert_rate``, ``nuisance_alert_rate``,
-        ``resolution_success_rate`` (each ``value``, ``low``, ``high``, ``count``,
+        ``resolution_success_rate``, ``followed_resolution_success_rate`` (each
+        ``value``, ``low``, ``high``, ``count``,
         ``of``), ``lead_time_s`` (``median`` and ``p5``, each ``value``, ``low``,
         ``high``; ``of``), ``unavailable_fraction`` (``value``, ``low``, ``high``),
         ``scenarios`` (``value`` = ``low`` = ``high``), ``failed`` (int), ``classes``
@@ -197,6 +203,9 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
                         "p5": bootstrap_quantile(leads, 0.05, rng), "of": int(leads.size)},
         "resolution_success_rate": rate(sum(bool(k["resolved"]) for k in exposed),
                                         len(exposed)),
+        "followed_resolution_success_rate": rate(
+            sum(bool(k["resolved"]) for k in exposed if k["followed"]),
+            sum(bool(k["followed"]) for k in exposed)),
         "unavailable_fraction": bootstrap_ratio(unavail, flown, rng),
         "scenarios": {"value": n, "low": n, "high": n},
         "failed": len(records) - n,

@@ -25,7 +25,7 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import load_config
 from advisory.pipeline.state import StateValidator
 from advisory.pipeline.zones import ZoneSet
-from advisory.schema import STATUS_IDENTITY_FIELDS
+from advisory.schema import ADV_FORMAT_VERSION, STATUS_IDENTITY_FIELDS
 from advisory.service.loop import INPUT_FORMATS, AdvisoryLoop
 from advisory.tables.build import BuildInputs
 from advisory.tables.cache import cached_table
@@ -78,6 +78,9 @@ class ReplaySetup:
     identity : dict
         The identity keys a ``run`` put in its status frames (from the record's start
         event), so that the replay's status frames are the live ones byte for byte.
+    advisory_version : int
+        Version of the advisory frames the ``run`` sent (from the record's start event;
+        the current version when the record does not say).
     title, description : str
         From the scenario file, for people.
     """
@@ -98,6 +101,7 @@ class ReplaySetup:
     label_map: str | None = None
     framing: str | None = None
     identity: dict[str, str] = field(default_factory=dict)
+    advisory_version: int = ADV_FORMAT_VERSION
     title: str = ""
     description: str = ""
 
@@ -190,7 +194,8 @@ def _loop_settings(log: Path) -> dict:
 
 #: The type each recorded setting must have (a start event is data from a file).
 _RECORDED_TYPES = {"input_format": str, "framing": str, "zones": str, "tables": str,
-                   "rate_hz": float, "heartbeat_s": float, "identity": dict}
+                   "rate_hz": float, "heartbeat_s": float, "identity": dict,
+                   "advisory_version": int}
 
 
 def _check_recorded(found: dict, log: Path) -> None:
@@ -200,6 +205,8 @@ def _check_recorded(found: dict, log: Path) -> None:
         if kind is float:
             ok = (isinstance(value, (int, float)) and not isinstance(value, bool)
                   and math.isfinite(value) and value > 0)
+        elif kind is int:
+            ok = not isinstance(value, bool) and value in (1, ADV_FORMAT_VERSION)
         elif kind is dict:
             ok = isinstance(value, dict) and all(
                 k in STATUS_IDENTITY_FIELDS and (v is None or isinstance(v, str))
@@ -209,15 +216,16 @@ def _check_recorded(found: dict, log: Path) -> None:
         if not ok:
             text = repr(value)
             text = text if len(text) <= 60 else text[:57] + "..."
-            what = {float: "a positive number", dict: "a table of identity strings"}.get(
-                kind, "a string")
+            what = {float: "a positive number", dict: "a table of identity strings",
+                    int: f"1 or {ADV_FORMAT_VERSION}"}.get(kind, "a string")
             raise ReplayError(f"{log}: start event: {key} = {text} is not {what}")
 
 
 def _find_settings(doc: dict) -> dict:
     if "input_format" in doc:
         return {k: doc[k] for k in ("input_format", "framing", "rate_hz", "heartbeat_s",
-                                    "zones", "tables", "identity") if doc.get(k) is not None}
+                                    "zones", "tables", "identity", "advisory_version")
+                if doc.get(k) is not None}
     for v in doc.values():
         if isinstance(v, dict):
             found = _find_settings(v)
@@ -305,6 +313,7 @@ def prepare(log: str | Path, *, zones: str | None = None, aircraft: str | None =
         label_map=_scenario_file(scenario, spath, "label_map"),
         framing=scenario.get("framing") or recorded.get("framing"),
         identity={k: v for k, v in recorded.get("identity", {}).items() if v},
+        advisory_version=int(recorded.get("advisory_version", ADV_FORMAT_VERSION)),
         title=str(scenario.get("title", "")), description=str(scenario.get("description", "")),
     )
 
@@ -345,6 +354,6 @@ def make_loop(setup: ReplaySetup, recorder: Recorder | None = None) -> AdvisoryL
     loop = AdvisoryLoop(advisor, input_format=setup.input_format, rate_hz=setup.rate_hz,
                         heartbeat_s=setup.heartbeat_s, recorder=recorder,
                         validator=StateValidator(), label_map=setup.label_map,
-                        framing=setup.framing)
+                        framing=setup.framing, advisory_version=setup.advisory_version)
     loop.identity = dict(setup.identity)
     return loop

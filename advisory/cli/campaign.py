@@ -54,6 +54,10 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     engine.add_argument("--scheduler", metavar="ADDRESS",
                         help="run on the Dask scheduler at ADDRESS, e.g. tcp://host:8786 "
                              "(needs boom-advisory[campaign])")
+    p.add_argument("--known", action="store_true",
+                   help="the advisor knows what it assumes: it is given the true air, the "
+                        "zones' ground is at sea level and the crew reacts, slows, banks "
+                        "and rolls as its configuration says (the same flights otherwise)")
     p.add_argument("--out", metavar="DIR",
                    help="write encounters.csv, summary.json and summary.html here")
     add_json_option(p)
@@ -106,7 +110,8 @@ def campaign_command(args: argparse.Namespace) -> int:
     if out is not None and out.exists() and not out.is_dir():
         raise UsageError(f"--out: {args.out} exists and is not a directory")
     engine = engine_from(args)
-    result = run_campaign(args.count, args.seed, engine, run_encounter, progress=_Progress())
+    result = run_campaign(args.count, args.seed, engine, run_encounter, progress=_Progress(),
+                          known=args.known)
     if out is not None:
         for path in write_outputs(result, out):
             print(f"campaign: wrote {path}", file=sys.stderr)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 from pathlib import Path
 from typing import Any
 
@@ -107,16 +108,50 @@ def advisory_text(adv: Advisory, state: AirDataState) -> str:
         lines.append(f"  zone {c.zone_id} ({c.zone_name}): contact in {c.time_to_contact_s:.0f} s,"
                      f" {units.pa_to_psf(c.overpressure_pa):.2f} psf"
                      + (" focus boom" if c.focus else ""))
-    if adv.status in ("advisory", "caution", "warning"):
-        res = []
-        if adv.max_mach_off_ground is not None:
-            res.append(f"Mach {adv.max_mach_off_ground:.2f} or less keeps the boom off the "
-                       "ground")
-        for side, v in (("left", adv.turn_left_deg), ("right", adv.turn_right_deg)):
-            res.append(f"turn {side} {v:.0f} deg clears all zones" if v is not None
-                       else f"no {side} turn up to the search limit clears")
-        lines.append("resolutions: " + "; ".join(res))
+    if adv.status in ("advisory", "caution", "warning", "unavoidable"):
+        lines.extend(resolution_lines(adv))
     if adv.tables_stale:
         lines.append("note: tables stale (a newer atmosphere is being processed)")
     lines.append(SAFETY_CAUTION)
     return "\n".join(lines)
+
+
+def resolution_lines(adv: Advisory) -> list[str]:
+    """What can still be done, for a person: the checked resolutions (each one a trial
+    flight that kept every later boom off the zones), the time left to act, and the
+    present cutoff Mach less the margin."""
+    lines = []
+    offered = (adv.resolve_mach is not None or adv.turn_left_deg is not None
+               or adv.turn_right_deg is not None)
+    if adv.status == "unavoidable":
+        lines.append("booms already on their way reach the zone: tell the people on the "
+                     "ground" + ("; the resolutions below keep later booms off" if offered
+                                 else ""))
+        if not offered:
+            return lines
+    res = []
+    both = " with the turn" if adv.combined else ""
+    if adv.resolve_mach is not None:
+        res.append(f"slow to Mach {adv.resolve_mach:.2f}{both}")
+    for side, v, hdg in (("left", adv.turn_left_deg, adv.turn_left_hdg_deg),
+                         ("right", adv.turn_right_deg, adv.turn_right_hdg_deg)):
+        if v is not None:
+            to = f" to heading {hdg:03.0f}" if hdg is not None else ""
+            res.append(f"turn {side} {v:.0f} deg{to}" + (" with the slowing"
+                                                          if adv.combined else ""))
+        else:
+            res.append(f"no {side} turn up to the search limit clears")
+    if adv.resolve_mach is None and not adv.combined:
+        res.append("no Mach alone clears")
+    lines.append("checked resolutions: " + "; ".join(res))
+    if adv.act_by_s is not None:
+        # cut down to whole seconds, as the crew's line says it (pipeline/cues.py)
+        lines.append(f"act within {math.floor(adv.act_by_s)} s (the latest start of the "
+                     "first resolution that still clears)")
+    elif adv.conflicts and adv.status != "unavoidable":
+        lines.append("nothing found that clears: act now, and tell the people on the ground")
+    if adv.max_mach_off_ground is not None:
+        lines.append(f"Mach {adv.max_mach_off_ground:.2f} or less keeps the boom off the "
+                     "ground here")
+    return lines
+

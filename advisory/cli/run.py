@@ -66,6 +66,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--learn-atmosphere", action="store_true", default=None,
                    help="with --profile: also rebuild tables for a plausible atmosphere "
                         "learned from the air-data stream (off by default)")
+    p.add_argument("--advisory-version", type=int, default=None, metavar="V",
+                   help="version of the advisory frames sent: 2, or 1 for older receivers "
+                        "(unavoidable goes as warning; interface document section 7) (2)")
     p.add_argument("--duration-s", type=float, default=None,
                    help="stop after this many seconds (tests, soak)")
     p.add_argument("--log-level", choices=LOG_LEVELS, default=None,
@@ -109,7 +112,8 @@ def settings_from(args: argparse.Namespace) -> RunSettings:
              "duration_s": args.duration_s, "label_map": args.label_map,
              "log_level": args.log_level, "record_max_mb": args.record_max_mb,
              "record_keep": args.record_keep, "allow_from": args.allow_from,
-             "auth_key": args.auth_key, "learn_atmosphere": args.learn_atmosphere}
+             "auth_key": args.auth_key, "learn_atmosphere": args.learn_atmosphere,
+             "advisory_version": args.advisory_version}
     values.update({k: v for k, v in given.items() if v is not None})
     values["service_config"] = args.service_config
     for field, option in (("input_url", "--input"), ("output_url", "--output"),

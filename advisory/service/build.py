@@ -152,7 +152,8 @@ def assemble(s: RunSettings, progress: Callable[[str], None] = _no_progress) -> 
     progress("compiling kernels")
     warm_up(manager.table if manager is not None else table, zones, config)
     loop = AdvisoryLoop(advisor, input_format=fmt, framing=framing, rate_hz=s.rate_hz,
-                        heartbeat_s=s.heartbeat_s, label_map=s.label_map)
+                        heartbeat_s=s.heartbeat_s, label_map=s.label_map,
+                        advisory_version=s.advisory_version)
     recorder = None
     if s.record:
         try:

@@ -45,7 +45,7 @@ from advisory.io.records import Recorder
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Advisory
 from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
-from advisory.schema import AIR_REQUIRED, LINK_COUNTERS
+from advisory.schema import ADV_FORMAT_VERSION, AIR_REQUIRED, LINK_COUNTERS
 from advisory.service.health import DurationHistogram, LoopHealth, clip
 from advisory.service.settings import FRAMINGS, INPUT_FORMATS
 
@@ -106,6 +106,9 @@ class AdvisoryLoop:
         ``degraded``, s.
     channel : int
         Channel number written in the input records.
+    advisory_version : int
+        Version of the advisory frames sent: :data:`ADV_FORMAT_VERSION`, or 1 for older
+        receivers (ICD section 7: ``unavoidable`` goes as ``warning``).
 
     Attributes
     ----------
@@ -135,7 +138,8 @@ class AdvisoryLoop:
                  rate_hz: float = 10.0, heartbeat_s: float = 1.0,
                  recorder: Recorder | None = None, validator: StateValidator | None = None,
                  label_map: LabelMap | str | Path | None = None, framing: str | None = None,
-                 degraded_hold_s: float = 5.0, channel: int = 0) -> None:
+                 degraded_hold_s: float = 5.0, channel: int = 0,
+                 advisory_version: int = ADV_FORMAT_VERSION) -> None:
         if input_format not in INPUT_FORMATS:
             raise ValueError(f"input_format must be one of {', '.join(INPUT_FORMATS)}, "
                              f"got {input_format!r}")
@@ -148,6 +152,11 @@ class AdvisoryLoop:
                             ("degraded_hold_s", degraded_hold_s, 3600.0)):
             if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 < v <= hi:
                 raise ValueError(f"{name} must be a number in (0, {hi:g}], got {v!r}")
+        if advisory_version not in (1, ADV_FORMAT_VERSION) or isinstance(advisory_version,
+                                                                        bool):
+            raise ValueError(f"advisory_version must be 1 or {ADV_FORMAT_VERSION}, got "
+                             f"{advisory_version!r}")
+        self.advisory_version = int(advisory_version)
         self.advisor = advisor
         self.input_format = input_format
         self.framing = framing
@@ -461,12 +470,13 @@ class AdvisoryLoop:
 
     def _adv_payload(self, adv: Advisory, now: float, utc: float) -> bytes:
         try:
-            payload = encode_adv(adv.to_fields(), self._seq_adv, utc)
+            payload = encode_adv(adv.to_fields(), self._seq_adv, utc, self.advisory_version)
         except Exception as exc:  # noqa: BLE001 - an unencodable advisory: say unavailable
             self._c["internal_errors"] += 1
             self.last_internal_error = f"encode advisory: {type(exc).__name__}: {exc}"
             fallback = Advisory("unavailable", reason="internal error: advisory not encodable")
-            payload = encode_adv(fallback.to_fields(), self._seq_adv, utc)
+            payload = encode_adv(fallback.to_fields(), self._seq_adv, utc,
+                                 self.advisory_version)
         self._seq_adv = next_seq(self._seq_adv)
         self._c["adv_frames"] += 1
         if self.recorder is not None:
@@ -513,7 +523,8 @@ class AdvisoryLoop:
         """The loop's settings, for a start-up record event."""
         return {"input_format": self.input_format, "framing": self.framing,
                 "rate_hz": self.rate_hz, "heartbeat_s": self.heartbeat_s,
-                "degraded_hold_s": self.degraded_hold_s}
+                "degraded_hold_s": self.degraded_hold_s,
+                "advisory_version": self.advisory_version}
 
 
 def _label_map(label_map: LabelMap | str | Path | None) -> LabelMap | None:

@@ -11,7 +11,12 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from advisory.schema import RECORD_KEEP_DEFAULT, RECORD_MAX_MB_DEFAULT, RECORD_MAX_MB_MIN
+from advisory.schema import (
+    ADV_FORMAT_VERSION,
+    RECORD_KEEP_DEFAULT,
+    RECORD_MAX_MB_DEFAULT,
+    RECORD_MAX_MB_MIN,
+)
 from advisory.tomlfile import read_toml
 
 #: Input formats the loop reads (``docs/interface.md`` sections 9-11).
@@ -54,6 +59,7 @@ class RunSettings:
     allow_from: str | None = None
     auth_key: str | None = None
     learn_atmosphere: bool = False
+    advisory_version: int = ADV_FORMAT_VERSION
     service_config: str | None = None
 
 
@@ -69,6 +75,7 @@ CONFIG_KEYS: dict[str, tuple[str, type]] = {
     "log-level": ("log_level", str), "record-max-mb": ("record_max_mb", float),
     "record-keep": ("record_keep", int), "allow-from": ("allow_from", str),
     "auth-key": ("auth_key", str), "learn-atmosphere": ("learn_atmosphere", bool),
+    "advisory-version": ("advisory_version", int),
 }
 #: Keys naming files: a relative path is taken from the config file's folder.
 CONFIG_PATH_KEYS = ("zones", "aircraft", "table", "record", "config", "label-map", "profile",
@@ -116,6 +123,9 @@ def check_settings(s: RunSettings) -> None:
     if not (isinstance(s.rate_hz, (int, float)) and math.isfinite(s.rate_hz)
             and 0.1 <= s.rate_hz <= 100.0):
         raise RunError(f"--rate-hz: {s.rate_hz} must be in [0.1, 100]")
+    if s.advisory_version not in (1, ADV_FORMAT_VERSION):
+        raise RunError(f"--advisory-version: {s.advisory_version} must be 1 or "
+                       f"{ADV_FORMAT_VERSION}")
     if s.duration_s is not None and not (math.isfinite(s.duration_s) and s.duration_s > 0):
         raise RunError(f"--duration-s: {s.duration_s} must be a positive number of seconds")
     if s.input_format is not None and s.input_format not in INPUT_FORMATS:

@@ -247,10 +247,11 @@ def test_bootstrap_median_interval_against_normal_theory():
     assert bootstrap_quantile(np.array([]), 0.5, np.random.default_rng(1))["value"] is None
 
 
-def _run(exposures=(), nuisance=0, unavailable=0.0, duration=100.0, followed=False):
+def _run(exposures=(), nuisance=0, unavailable=0.0, duration=100.0, followed=False,
+         after=False):
     return {"exposures": list(exposures), "nuisance_alerts": [{}] * nuisance,
             "unavailable_s": unavailable, "duration_s": duration,
-            "resolution": {"followed": followed}}
+            "resolution": {"followed": followed, "exceeds_after_action": after}}
 
 
 def _exp(outcome, lead=None, exceeds=True, zone="z"):
@@ -261,7 +262,7 @@ def test_metrics_of_hand_made_records():
     # counts worked out by hand from the definitions of docs/scenarios.md
     recs = [
         {"ignore": _run([_exp("alerted", 40.0)]), "follow": _run(followed=True)},  # resolved
-        {"ignore": _run([_exp("late", 2.0)]),
+        {"ignore": _run([_exp("late", 2.0)]),   # booms on their way only: held
          "follow": _run([_exp("late", 2.0)], followed=True)},
         {"ignore": _run([_exp("missed"), _exp("alerted", 30.0, zone="y")]),
          "follow": _run([_exp("alerted", 9.0, exceeds=False)])},               # resolved
@@ -274,9 +275,14 @@ def test_metrics_of_hand_made_records():
     assert (m["missed_alert_rate"]["count"], m["missed_alert_rate"]["of"]) == (1, 3)
     assert (m["late_alert_rate"]["count"], m["late_alert_rate"]["of"]) == (1, 3)
     assert (m["resolution_success_rate"]["count"], m["resolution_success_rate"]["of"]) == (2, 3)
-    # of the two exposed encounters whose crew flew an offered resolution, one resolved
+    # the two exposed encounters whose crew flew an offered resolution both held: in the
+    # second only booms emitted before the action exceeded (on their way already)
     f = m["followed_resolution_success_rate"]
-    assert (f["count"], f["of"]) == (1, 2)
+    assert (f["count"], f["of"]) == (2, 2)
+    later = {"ignore": _run([_exp("alerted", 50.0)]),  # a boom emitted after the action
+             "follow": _run([_exp("alerted", 50.0)], followed=True, after=True)}
+    f = campaign_metrics([*recs, later], seed=3)["followed_resolution_success_rate"]
+    assert (f["count"], f["of"]) == (2, 3)
     assert (m["nuisance_alert_rate"]["count"], m["nuisance_alert_rate"]["of"]) == (1, 2)
     assert m["lead_time_s"]["of"] == 3  # 40, 2 and 30 s
     assert m["lead_time_s"]["median"]["value"] == 30.0

@@ -9,6 +9,7 @@ from the code under test.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
@@ -24,6 +25,7 @@ from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.resolutions import TrialBase
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.trial import TRIAL_PARAMS, fly_trial_kernel, trial_clears_kernel
@@ -112,6 +114,25 @@ def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
         assert bool(fast) == slow, (onset, mach, bank, turn)
         outcomes.add(slow)
     assert outcomes == {True, False}  # both kinds of trial were exercised
+
+
+def test_trials_hold_limit_zones_to_the_configured_fraction(small_table) -> None:
+    # A resolution is checked with a margin on a zone's overpressure limit (config
+    # limit_fraction, engineering choice): booms at 95 % of the limit pass a trial held to
+    # the limit itself and fail one held to 90 % of it. The limit is set from the
+    # advisor's own predicted overpressure: this checks the rule, not the physics.
+    lat, lon = point_along(90e3)
+    adv = Advisor(small_table, zoneset(square("town", lat, lon, half_km=3.0)))
+    first = adv.step(state(), 0.0)
+    assert first.zone_id == "town" and first.overpressure_pa is not None
+    limit_psf = units.pa_to_psf(first.overpressure_pa) / 0.95
+    for fraction, clears in ((1.0, True), (0.9, False)):
+        cfg = dataclasses.replace(AdvisorConfig(), limit_fraction=fraction)
+        a = Advisor(small_table, zoneset(square("town", lat, lon, half_km=3.0,
+                                                limit_psf=limit_psf)), cfg)
+        a.step(state(), 0.0)
+        base = TrialBase(a.config, a._predictor, a._strips, a._projected, a._ahead)
+        assert base.clears(cfg.reaction_s) is clears, fraction  # flying on as now
 
 
 def test_statuses_follow_the_contract() -> None:

@@ -9,9 +9,12 @@ encounters whose ignore run has an exposure exceeding the zone's limit plus marg
 * ``late_alert_rate``: the worst is ``late`` (worst first: missed, late, alerted);
 * ``resolution_success_rate``: the follow run has no exposure exceeding the limit in the
   zones the ignore run exceeded (the truth says the advice worked, whatever was cued);
-* ``followed_resolution_success_rate``: the same, over the encounters whose follow run's
-  crew was offered a resolution and flew it (does a checked resolution hold against the
-  truth; the encounters where nothing was offered are left out);
+* ``followed_resolution_success_rate``: over the exposed encounters whose follow run's
+  crew was offered a resolution and flew it, no boom emitted from the action's start on
+  exceeds the named zone's limit (does a checked resolution hold against the truth: it
+  answers for the booms emitted after the crew acted, as its trials judge them; those
+  already on their way are the advisor's "unavoidable" ones; the encounters where
+  nothing was offered are left out);
 * ``lead_time_s``: median and 5th percentile over those exposures of the ignore runs
   that were alerted (outcome ``alerted`` or ``late``, lead time given).
 
@@ -135,19 +138,23 @@ def classify(record: dict[str, Any]) -> dict[str, Any]:
         (no exposure); ``outcome`` (worst outcome when exposed, else None);
         ``resolved`` (exposed: True when the follow run avoided it); ``nuisance``
         (clear: a nuisance alert in the ignore run); ``followed`` (exposed: the follow
-        run's crew flew an offered resolution); ``lead_times`` (list, s).
+        run's crew flew an offered resolution) and ``followed_held`` (no boom emitted from
+        its start on exceeded the limit); ``lead_times`` (list, s).
     """
     ignore, follow = record["ignore"], record["follow"]
     over = exceeding(ignore)
     out: dict[str, Any] = {"class": "clear", "outcome": None, "resolved": None,
-                           "followed": None, "nuisance": None, "lead_times": []}
+                           "followed": None, "followed_held": None, "nuisance": None,
+                           "lead_times": []}
     if over:
         out["class"] = "exposed"
         out["outcome"] = max((e.get("outcome", "missed") for e in over),
                              key=lambda o: OUTCOME_RANK.get(o, 2))
         zones = {e.get("zone_id") for e in over}
         out["resolved"] = not any(e.get("zone_id") in zones for e in exceeding(follow))
-        out["followed"] = bool((follow.get("resolution") or {}).get("followed"))
+        res = follow.get("resolution") or {}
+        out["followed"] = bool(res.get("followed"))
+        out["followed_held"] = out["followed"] and not res.get("exceeds_after_action")
         out["lead_times"] = [float(e["lead_time_s"]) for e in over
                              if e.get("outcome") in ("alerted", "late")
                              and e.get("lead_time_s") is not None]
@@ -204,7 +211,7 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
         "resolution_success_rate": rate(sum(bool(k["resolved"]) for k in exposed),
                                         len(exposed)),
         "followed_resolution_success_rate": rate(
-            sum(bool(k["resolved"]) for k in exposed if k["followed"]),
+            sum(bool(k["followed_held"]) for k in exposed),
             sum(bool(k["followed"]) for k in exposed)),
         "unavailable_fraction": bootstrap_ratio(unavail, flown, rng),
         "scenarios": {"value": n, "low": n, "high": n},

@@ -47,10 +47,11 @@ from advisory.bench.replay_truth import FlightTruth, figure_data
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult
 from advisory.bench.scenario import prepare
-from advisory.bench.scoring import FlightScore, score_flight
+from advisory.bench.scoring import FlightScore, score_flight, zone_hits
 from advisory.bench.sim_scenario import Scenario, scenario_from_dict
 from advisory.bench.sim_world import World, build_world
 from advisory.bench.truth import FlownPath, Truth, TruthSettings, trace_truth
+from advisory.bench.truth_zones import TruthZone
 from advisory.io.messages import decode_frame
 from advisory.io.records import Recorder
 from advisory.pipeline.advisor import Advisor
@@ -89,6 +90,8 @@ class SimulationResult:
         What the source sent (frames, dropped, faults).
     counters : dict
         The loop's counters at the end.
+    truth_zones : list of TruthZone
+        The zones the truth was traced for.
     """
 
     scenario: Scenario
@@ -100,16 +103,32 @@ class SimulationResult:
     actions: list[CrewAction] = field(default_factory=list)
     feed_counts: dict[str, int] = field(default_factory=dict)
     counters: dict[str, int] = field(default_factory=dict)
+    truth_zones: list[TruthZone] = field(default_factory=list)
 
     def resolution(self) -> dict[str, Any]:
         """``followed`` (the crew acted on a cue), ``kind`` (``mach``/``turn``/None),
-        ``avoided`` (the crew acted and no boom reached the zone the cue named)."""
+        ``avoided`` (the crew acted and no boom reached the zone the cue named),
+        ``peak_psf_after_action`` and ``exceeds_after_action``: the peak of the booms in
+        that zone emitted from the action's start on (None when none lands) and whether it
+        is over the zone's limit. A resolution answers for those booms only: the ones
+        emitted before the crew acted were on their way already (the trials judge the
+        emissions after the reaction time the same way)."""
         if not self.actions:
             return {"followed": False, "kind": None, "avoided": None}
         a = self.actions[0]
         reached = {e["zone_id"] for e in self.score.exposures}
-        return {"followed": True, "kind": a.kind, "avoided": a.zone_id not in reached,
-                "zone_id": a.zone_id, "cue_s": a.cue_t_s, "acted_s": a.t_s}
+        out = {"followed": True, "kind": a.kind, "avoided": a.zone_id not in reached,
+               "zone_id": a.zone_id, "cue_s": a.cue_t_s, "acted_s": a.t_s,
+               "peak_psf_after_action": None, "exceeds_after_action": False}
+        zone = next((z for z in self.truth_zones if z.zone_id == a.zone_id), None)
+        if zone is not None and self.truth is not None:
+            emitted, _, psf, _ = zone_hits(self.truth, zone)
+            after = psf[emitted >= a.t_s]
+            if after.size:
+                peak = float(after.max())
+                out.update(peak_psf_after_action=peak,
+                           exceeds_after_action=bool(peak > zone.limit_psf))
+        return out
 
     def as_json(self) -> dict[str, Any]:
         """The ``simulate --json`` object of ``docs/scenarios.md`` (no wall-clock values)."""
@@ -233,6 +252,7 @@ def simulate(scenario: Scenario, record: str | Path | None = None, quiet: bool =
                             settings=TruthSettings(azimuth_step_deg=ts.azimuth_step_deg))
     res.score = score_flight(res.truth, res.segments, scenario.crew.reaction_s,
                              zones=world.truth_zones)
+    res.truth_zones = list(world.truth_zones)
     return res
 
 

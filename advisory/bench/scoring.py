@@ -123,7 +123,7 @@ def _first_alerts(segments: Sequence[Segment], zone_id: str) -> dict[str, float 
     return first
 
 
-def _zone_hits(truth: Truth, zone: TruthZone
+def zone_hits(truth: Truth, zone: TruthZone
                ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """Emission times, arrivals (s, truth clock), psf of the booms landing in ``zone`` or
     its margin, and which of them land inside the zone itself."""
@@ -239,7 +239,7 @@ def score_flight(truth: Truth, segments: Sequence[Segment], reaction_s: float,
     exposures = []
     reached: set[str] = set()
     for zone in zones:
-        emitted, arrival, psf, inside = _zone_hits(truth, zone)
+        emitted, arrival, psf, inside = zone_hits(truth, zone)
         if emitted.size == 0:
             continue
         reached.add(zone.zone_id)

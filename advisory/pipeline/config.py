@@ -33,6 +33,9 @@ operators tune them in a config file::
     reaction_s = 5              # crew reaction: the action starts this long after a cue
     decel_mach_per_s = 0.01     # deceleration the Mach resolution assumes
     roll_rate_deg_s = 5         # roll rate of the turn resolutions (roll-in and out)
+    limit_fraction = 0.9        # a resolution's trial holds the booms in a zone with an
+                                # overpressure limit to this fraction of the limit (the
+                                # prediction's error; the alerts use the limit itself)
 
     [focus]
     threshold = 1.25        # amplification above which a focus boom is flagged
@@ -80,6 +83,7 @@ class AdvisorConfig:
     reaction_s: float = 5.0
     decel_mach_per_s: float = 0.01
     roll_rate_deg_s: float = 5.0
+    limit_fraction: float = 0.9
     caution_act_s: float = 60.0
     warning_act_s: float = 20.0
     focus_threshold: float = 1.25
@@ -97,6 +101,7 @@ class AdvisorConfig:
             "max_turn_deg": (5.0, 180.0), "turn_step_deg": (1.0, 45.0),
             "refresh_s": (0.0, 30.0), "reaction_s": (0.0, 60.0),
             "decel_mach_per_s": (0.001, 0.1), "roll_rate_deg_s": (1.0, 30.0),
+            "limit_fraction": (0.1, 1.0),
             "caution_act_s": (1.0, 1800.0), "warning_act_s": (1.0, 1800.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
@@ -122,7 +127,8 @@ _SECTIONS = {
     "levels": ("caution_act_s", "warning_act_s", "caution_lead_s", "warning_lead_s"),
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
-                   "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s"),
+                   "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s",
+                   "limit_fraction"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),
 }

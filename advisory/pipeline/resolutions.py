@@ -3,8 +3,11 @@
 Every candidate is a trial flight (:mod:`advisory.pipeline.trial`): the trajectory ahead
 re-flown from the present state with the crew's action starting after the configured
 reaction time, its carpet laid from the table with the focus of its own trajectory, and
-the zones searched for the emissions the action can still change (those after the
-reaction time; booms emitted earlier are the advisor's "unavoidable" ones).
+the zones searched for the emissions the action can still change (those from the
+reaction time on, the reaction time and the onset themselves included; booms emitted
+earlier are the advisor's "unavoidable" ones). A zone with an overpressure limit is held
+to ``limit_fraction`` of it in the trials (the prediction's error; the alerts use the
+limit itself), so an offered resolution does not sit on the limit.
 
 * **Mach** (``resolve_mach``): decelerate at ``decel_mach_per_s`` (wings rolled level at
   ``roll_rate_deg_s``) to a target Mach. A slower aircraft covers less ground in the
@@ -102,6 +105,8 @@ class TrialBase:
         self.focus_cap = predictor.focus_cap
         self.strips = np.ascontiguousarray(strips, dtype=np.int64)
         self.pz = pz
+        #: The zones' limits the trials hold the booms to (``limit_fraction`` of each).
+        self.limit_pa = np.ascontiguousarray(pz.limit_pa * cfg.limit_fraction)
         self.ahead = ahead
         self.t = np.ascontiguousarray(ahead.t_s, dtype=np.float64)
         self.k0 = int(np.searchsorted(self.t, cfg.reaction_s, side="right"))
@@ -144,6 +149,19 @@ class TrialBase:
             return self.t_long
         return np.ascontiguousarray(np.unique(np.concatenate([self.t_long, ts])))
 
+    def _judged_from(self, t: np.ndarray, onset: float) -> tuple[np.ndarray, int]:
+        """The emission times with the reaction time and the onset added, and the index
+        of the first judged one (the reaction time's). Every boom emitted from the
+        reaction time on is the trial's to keep off (those before it are the advisor's
+        unavoidable ones); on the ``step_s`` grid alone the emissions between the reaction
+        time and the next grid time went unjudged, and a crew acting at the last moment
+        put them into the zone (campaign --known, seed 1, encounter 11)."""
+        react = self.cfg.reaction_s
+        extra = [x for x in (react, onset) if x < float(t[-1])]
+        if extra:
+            t = np.unique(np.concatenate([t, np.asarray(extra, dtype=np.float64)]))
+        return np.ascontiguousarray(t), int(np.searchsorted(t, react, side="left"))
+
     @property
     def horizon_s(self) -> float:
         """The last emission time of the trials, s."""
@@ -162,15 +180,13 @@ class TrialBase:
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         pz = self.pz
         tb = self.table
-        t, k0 = self.t, self.k0
-        if not math.isnan(target_mach):
-            t = self._near_cutoff_times(onset, target_mach)
-            k0 = int(np.searchsorted(t, self.cfg.reaction_s, side="right"))
+        t = self.t if math.isnan(target_mach) else self._near_cutoff_times(onset, target_mach)
+        t, k0 = self._judged_from(t, onset)
         return bool(trial_clears_kernel(
             t, k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, self.strips, pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
-            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, self.focus_cap,
+            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, self.limit_pa, self.focus_cap,
             self.cfg.focus_threshold))
 
 

@@ -139,6 +139,8 @@ class Advisor:
         self._result_zone: str | None = None
         self._search: Search | None = None
         self._search_t0 = 0.0
+        #: A boom found on its way into a zone: (conflict, monotonic arrival, found at).
+        self._on_way: tuple[Conflict, float, float] | None = None
         #: The zone named while a level is held with no present conflict.
         self._held_zone: str | None = None
         self._held_name: str | None = None
@@ -382,6 +384,7 @@ class Advisor:
         fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
                                                   cfg.focus_threshold, cfg.reaction_s)
         first = later[0] if later else None
+        fixed = self._hold_on_way(fixed, now)
         cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
         res, act_by = self._resolution(pz, ahead, cut_now, first, now)
         # an avoidable contact with nothing that clears is a warning (act-by 0)
@@ -425,6 +428,25 @@ class Advisor:
             turn_right_hdg_deg=None if r.turn_right_deg is None
             else (hdg + r.turn_right_deg) % 360.0,
         )
+
+    def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:
+        """The booms on their way into a zone, held: a boom found in the air toward a zone
+        stays "unavoidable" until its predicted arrival, and at least ``warning_hold_s``
+        after it was last found. A boom near a zone's edge or limit is found in one step
+        and not the next; the status flickered clear / unavoidable at the step rate while
+        the truth had booms over the limit on their way (campaign --known, seed 1,
+        encounter 34, a pull-up)."""
+        if fixed:
+            c = fixed[0]
+            self._on_way = (c, now + c.time_to_contact_s, now)
+            return fixed
+        if self._on_way is None:
+            return fixed
+        c, arrival, found = self._on_way
+        if now < max(arrival, found + self.config.warning_hold_s):
+            return [dataclasses.replace(c, time_to_contact_s=max(0.0, arrival - now))]
+        self._on_way = None
+        return fixed
 
     def _onset_heading_deg(self, ahead: Trajectory) -> float:
         """True heading (deg) at the onset of the crew's action (after the reaction time,

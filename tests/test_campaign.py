@@ -149,6 +149,7 @@ def test_known_encounters_are_the_same_flights_with_what_the_advisor_assumes():
                     5.0, 0.01, 25.0, 5.0)
         for key in ("start", "schedule", "source", "duration_s", "seed"):
             assert known[key] == plain[key], key
+        assert known["truth"]["act_by"] is True and not plain.get("truth", {}).get("act_by")
         strip = [{k: v for k, v in z.items() if k != "ground_elevation_ft"}
                  for z in plain["zones"]]
         assert strip == [{k: v for k, v in z.items() if k != "ground_elevation_ft"}
@@ -293,6 +294,35 @@ def test_metrics_of_hand_made_records():
     assert campaign_metrics(recs, seed=3) == m  # seeded bootstrap
     empty = campaign_metrics([], seed=0)
     assert empty["missed_alert_rate"]["value"] is None and empty["scenarios"]["value"] == 0
+    assert m["alerted_before_act_by_rate"]["of"] == 0  # no truth act-by in these records
+
+
+def _act(avoidable, in_time=None):
+    return {"avoidable": avoidable, "alerted_in_time": in_time}
+
+
+def test_act_by_metrics_of_hand_made_records():
+    # counts worked out by hand from the definitions of docs/scenarios.md: over the
+    # exposed encounters the truth's act-by calls avoidable
+    def exp(act):
+        return {**_exp("alerted", 30.0), "truth_act_by": act}
+    recs = [
+        {"ignore": _run([exp(_act(True, True))]), "follow": _run(followed=True)},
+        {"ignore": _run([exp(_act(True, False))]), "follow": _run()},  # late, no offer
+        {"ignore": _run([exp(_act(True, True))]),                      # offer failed
+         "follow": _run([_exp("alerted", 30.0)], followed=True, after=True)},
+        {"ignore": _run([exp(_act(False))]), "follow": _run([_exp("alerted", 30.0)])},
+        {"ignore": _run([exp(_act(True, True)), {**_exp("late", 1.0, zone="y"),
+                                                 "truth_act_by": _act(True, False)}]),
+         "follow": _run(followed=True)},  # one of its two avoidable exposures was late
+    ]
+    m = campaign_metrics(recs, seed=1)
+    a = m["alerted_before_act_by_rate"]
+    assert (a["count"], a["of"]) == (2, 4)
+    r = m["avoidable_resolution_success_rate"]
+    assert (r["count"], r["of"]) == (2, 4)
+    assert classify(recs[3])["avoidable"] is False
+    assert classify(recs[3])["alerted_in_time"] is None
 
 
 # -------------------------------------------------------------------------- engines

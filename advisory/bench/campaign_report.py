@@ -26,7 +26,8 @@ from advisory.bench.svg import esc
 from advisory.schema import SAFETY_CAUTION, VERSION
 
 RATES = ("missed_alert_rate", "late_alert_rate", "nuisance_alert_rate",
-         "resolution_success_rate", "followed_resolution_success_rate")
+         "resolution_success_rate", "followed_resolution_success_rate",
+         "alerted_before_act_by_rate", "avoidable_resolution_success_rate")
 #: Fixed colours of the outcome plot (the same in every report).
 OUTCOME_COLOURS = {
     "outcome_alerted": "#2f855a", "outcome_late": "#d69e2e", "outcome_missed": "#c53030",
@@ -44,7 +45,8 @@ CSV_NAME, JSON_NAME, HTML_NAME = "encounters.csv", "summary.json", "summary.html
 RUN_FIELDS = ("exposures", "exceeds_limit", "zone_id", "outcome", "first_arrival_s",
               "peak_psf", "unavoidable_from_s", "first_alert_s", "lead_time_s",
               "nuisance_alerts", "resolution_followed", "resolution_kind",
-              "resolution_avoided", "unavailable_s", "error")
+              "resolution_avoided", "truth_avoidable", "truth_act_by_s",
+              "alerted_in_time", "unavailable_s", "error")
 
 
 def summary(result: CampaignResult) -> dict[str, Any]:
@@ -135,6 +137,10 @@ def run_row(run: dict[str, Any] | None, error: str | None) -> dict[str, Any]:
                                                   "peak_psf", "unavoidable_from_s",
                                                   "lead_time_s")})
         row["first_alert_s"] = _first_alert(main)
+        act = main.get("truth_act_by") or {}
+        row.update(truth_avoidable=act.get("avoidable", ""),
+                   truth_act_by_s=act.get("act_by_s", ""),
+                   alerted_in_time=act.get("alerted_in_time", ""))
     return {k: ("" if v is None else v) for k, v in row.items()}
 
 

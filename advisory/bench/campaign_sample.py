@@ -343,7 +343,8 @@ def as_known(doc: dict[str, Any]) -> None:
     """Make an encounter one whose inputs the advisor knows (``campaign --known``): it is
     given the true atmosphere; the zone's ground is at sea level (the advisor has no
     terrain yet: issue 14); the crew reacts, decelerates, banks and rolls as the advisor's
-    configuration assumes (:class:`advisory.pipeline.config.AdvisorConfig` defaults).
+    configuration assumes (:class:`advisory.pipeline.config.AdvisorConfig` defaults);
+    and the truth's act-by of every exposure is flown (:mod:`advisory.bench.truth_act_by`).
     What the advice can do when what it assumes is true."""
     cfg = AdvisorConfig()
     doc["advisor"].pop("atmosphere", None)
@@ -351,3 +352,4 @@ def as_known(doc: dict[str, Any]) -> None:
         zone["ground_elevation_ft"] = 0.0
     doc["crew"].update(reaction_s=cfg.reaction_s, decel_mach_per_s=cfg.decel_mach_per_s,
                        bank_deg=cfg.turn_bank_deg, roll_rate_deg_s=cfg.roll_rate_deg_s)
+    doc.setdefault("truth", {})["act_by"] = True  # the truth's act-by of every exposure

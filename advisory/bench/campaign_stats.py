@@ -15,6 +15,13 @@ encounters whose ignore run has an exposure exceeding the zone's limit plus marg
   answers for the booms emitted after the crew acted, as its trials judge them; those
   already on their way are the advisor's "unavoidable" ones; the encounters where
   nothing was offered are left out);
+* with the truth's act-by in the records (``campaign --known``;
+  :mod:`advisory.bench.truth_act_by`), over the exposed encounters whose exposure a crew
+  action could still avoid once the flight led into the zone (``avoidable``):
+  ``alerted_before_act_by_rate`` (every such exposure alerted at least the reaction time
+  before the truth's act-by) and ``avoidable_resolution_success_rate`` (the crew
+  following the cues flew a resolution and no boom emitted from its action on exceeded
+  the limit; no offer counts as a failure);
 * ``lead_time_s``: median and 5th percentile over those exposures of the ignore runs
   that were alerted (outcome ``alerted`` or ``late``, lead time given).
 
@@ -139,13 +146,19 @@ def classify(record: dict[str, Any]) -> dict[str, Any]:
         ``resolved`` (exposed: True when the follow run avoided it); ``nuisance``
         (clear: a nuisance alert in the ignore run); ``followed`` (exposed: the follow
         run's crew flew an offered resolution) and ``followed_held`` (no boom emitted from
-        its start on exceeded the limit); ``lead_times`` (list, s).
+        its start on exceeded the limit); with the truth's act-by in the record
+        (``campaign --known``), ``avoidable`` (a crew action could keep the later booms
+        off: :mod:`advisory.bench.truth_act_by`), ``alerted_in_time`` (every avoidable
+        exposure alerted at least the reaction time before its act-by) and
+        ``avoidable_resolved`` (the crew following the cues flew a resolution that held);
+        ``lead_times`` (list, s).
     """
     ignore, follow = record["ignore"], record["follow"]
     over = exceeding(ignore)
     out: dict[str, Any] = {"class": "clear", "outcome": None, "resolved": None,
                            "followed": None, "followed_held": None, "nuisance": None,
-                           "lead_times": []}
+                           "avoidable": None, "alerted_in_time": None,
+                           "avoidable_resolved": None, "lead_times": []}
     if over:
         out["class"] = "exposed"
         out["outcome"] = max((e.get("outcome", "missed") for e in over),
@@ -155,6 +168,13 @@ def classify(record: dict[str, Any]) -> dict[str, Any]:
         res = follow.get("resolution") or {}
         out["followed"] = bool(res.get("followed"))
         out["followed_held"] = out["followed"] and not res.get("exceeds_after_action")
+        acts = [e["truth_act_by"] for e in over if e.get("truth_act_by")]
+        if acts:
+            avoidable = [a for a in acts if a.get("avoidable")]
+            out["avoidable"] = bool(avoidable)
+            if avoidable:
+                out["alerted_in_time"] = all(a.get("alerted_in_time") for a in avoidable)
+                out["avoidable_resolved"] = bool(out["followed_held"])
         out["lead_times"] = [float(e["lead_time_s"]) for e in over
                              if e.get("outcome") in ("alerted", "late")
                              and e.get("lead_time_s") is not None]
@@ -180,7 +200,9 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
     -------
     dict
         ``missed_alert_rate``, ``late_alert_rate``, ``nuisance_alert_rate``,
-        ``resolution_success_rate``, ``followed_resolution_success_rate`` (each
+        ``resolution_success_rate``, ``followed_resolution_success_rate``,
+        ``alerted_before_act_by_rate`` and ``avoidable_resolution_success_rate`` (over
+        the exposures the truth's act-by calls avoidable; 0 of 0 without it) (each
         ``value``, ``low``, ``high``, ``count``,
         ``of``), ``lead_time_s`` (``median`` and ``p5``, each ``value``, ``low``,
         ``high``; ``of``), ``unavailable_fraction`` (``value``, ``low``, ``high``),
@@ -213,6 +235,12 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
         "followed_resolution_success_rate": rate(
             sum(bool(k["followed_held"]) for k in exposed),
             sum(bool(k["followed"]) for k in exposed)),
+        "alerted_before_act_by_rate": rate(
+            sum(bool(k["alerted_in_time"]) for k in exposed),
+            sum(bool(k["avoidable"]) for k in exposed)),
+        "avoidable_resolution_success_rate": rate(
+            sum(bool(k["avoidable_resolved"]) for k in exposed),
+            sum(bool(k["avoidable"]) for k in exposed)),
         "unavailable_fraction": bootstrap_ratio(unavail, flown, rng),
         "scenarios": {"value": n, "low": n, "high": n},
         "failed": len(records) - n,

@@ -51,6 +51,7 @@ from advisory.bench.scoring import FlightScore, score_flight, zone_hits
 from advisory.bench.sim_scenario import Scenario, scenario_from_dict
 from advisory.bench.sim_world import World, build_world
 from advisory.bench.truth import FlownPath, Truth, TruthSettings, trace_truth
+from advisory.bench.truth_act_by import truth_act_by
 from advisory.bench.truth_zones import TruthZone
 from advisory.io.messages import decode_frame
 from advisory.io.records import Recorder
@@ -253,7 +254,22 @@ def simulate(scenario: Scenario, record: str | Path | None = None, quiet: bool =
     res.score = score_flight(res.truth, res.segments, scenario.crew.reaction_s,
                              zones=world.truth_zones)
     res.truth_zones = list(world.truth_zones)
+    if ts.act_by and scenario.crew.mode != "follow":
+        _add_truth_act_by(res, world)
     return res
+
+
+def _add_truth_act_by(res: SimulationResult, world: World) -> None:
+    """Each exposure over its limit gains ``truth_act_by``
+    (:func:`advisory.bench.truth_act_by.truth_act_by`)."""
+    assert res.truth is not None
+    for e in res.score.exposures:
+        if not e["exceeds_limit"]:
+            continue
+        zone = next(z for z in world.truth_zones if z.zone_id == e["zone_id"])
+        emitted, _, psf, _ = zone_hits(res.truth, zone)
+        over = emitted[psf > zone.limit_psf]
+        e["truth_act_by"] = truth_act_by(res.scenario, world, e, float(over.min()))
 
 
 def run_encounter(doc: dict[str, Any], crew_follows: bool) -> dict[str, Any]:

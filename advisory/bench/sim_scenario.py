@@ -107,6 +107,9 @@ class TruthSpec:
 
     emission_interval_s: float = 0.1
     azimuth_step_deg: float = 1.0
+    #: Also fly the truth's act-by of every exposure over its limit when the crew ignores
+    #: the cues (:mod:`advisory.bench.truth_act_by`; ``campaign --known`` sets it).
+    act_by: bool = False
 
 
 @dataclass(frozen=True)
@@ -180,6 +183,14 @@ class _Table:
             raise ScenarioError(f"{self.key(k)} = {v!r}: must be a string")
         if choices is not None and v not in choices:
             raise ScenarioError(f"{self.key(k)} = {v!r}: must be one of {', '.join(choices)}")
+        return v
+
+    def flag(self, k: str, default: bool) -> bool:
+        v = self.get(k)
+        if v is None:
+            return default
+        if not isinstance(v, bool):
+            raise ScenarioError(f"{self.key(k)} = {v!r}: must be true or false")
         return v
 
     def done(self) -> None:
@@ -398,7 +409,8 @@ def _truth(doc: Any) -> TruthSpec:
     t = _Table(doc, "truth")
     s = TruthSpec(
         emission_interval_s=t.num("emission_interval_s", 0.0, 10.0, 0.1, lo_open=True) or 0.1,
-        azimuth_step_deg=t.num("azimuth_step_deg", 0.0, 90.0, 1.0, lo_open=True) or 1.0)
+        azimuth_step_deg=t.num("azimuth_step_deg", 0.0, 90.0, 1.0, lo_open=True) or 1.0,
+        act_by=t.flag("act_by", False))
     t.done()
     return s
 

@@ -1,0 +1,172 @@
+"""The truth's act-by: how late a crew could still act and keep a zone's later booms off.
+
+For an exposure (a zone whose booms exceed its limit when the crew ignores the cues) the
+flight is flown again without the advisor, with a crew action taking over at a time
+``t`` (the schedule's segments begun before ``t`` flown as planned, the later ones
+dropped, as the crew's take-over does in the closed loop), and traced in truth
+(:func:`advisory.bench.truth.trace_truth`, from the action's start on, a little more
+coarsely than the closed loop's truth: :data:`EMISSION_S`, :data:`AZIMUTH_DEG`). The
+action *clears* at ``t`` when no boom emitted from ``t`` on lands in the zone (or its
+margin) above the zone's limit: the
+booms emitted before were on their way already. The actions are the crew's own
+(its deceleration, bank and roll rate): slowing to Mach 1.0, a 90-deg turn either way,
+and each turn with the deceleration.
+
+* ``visible_s``: the start of the schedule's last segment begun at or before the first
+  emission over the limit (0 without one): before it, the flight the advisor sees does
+  not lead into the zone (no advisor can foresee a planned manoeuvre).
+* ``avoidable``: some action started at ``visible_s`` plus the crew's reaction time
+  clears.
+* ``act_by_s``: the latest start that still clears, by bisection to
+  :data:`TOLERANCE_S` between that earliest start and the first emission over the limit,
+  with the actions that cleared at the earliest start (assumes a later start never
+  clears when an earlier one does not: common practice, no source).
+* ``alerted_in_time``: the first alert naming the zone (any alert status) came at least
+  the reaction time before ``act_by_s``.
+
+This module is the bench's; the core never imports it. ADVISORY AID ONLY: not certified
+flight software; local regulations and licensed practice govern supersonic flight.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from advisory.bench.flight import FlightState, FlightTrack, Pilot, Segment
+from advisory.bench.scoring import zone_hits
+from advisory.bench.sim_scenario import Scenario
+from advisory.bench.sim_world import World
+from advisory.bench.truth import TruthSettings, trace_truth
+from advisory.bench.truth_zones import TruthZone
+
+#: Precision of the act-by bisection, s.
+TOLERANCE_S = 1.0
+#: Longest internal simulator step, s (as the closed loop's).
+STEP_S = 0.025
+#: Heading change of the turn actions, deg.
+TURN_DEG = 90.0
+#: The act-by's truth flights are traced at least this coarsely (emission spacing, s;
+#: azimuth step, deg; every second atmosphere node, which moves overpressures by under
+#: 0.05 %, :class:`advisory.bench.truth.TruthSettings`): a campaign flies a few dozen of
+#: them per avoidable exposure (project choice).
+EMISSION_S = 0.25
+AZIMUTH_DEG = 2.0
+
+
+def actions(sc: Scenario) -> dict[str, tuple[Segment, ...]]:
+    """The crew's actions, by name: the segments it takes over with (module notes)."""
+    c = sc.crew
+    slow = Segment("mach", target_mach=1.0, mach_rate_per_s=c.decel_mach_per_s)
+
+    def turn(sign: float) -> Segment:
+        return Segment("turn", bank_deg=sign * c.bank_deg, roll_rate_deg_s=c.roll_rate_deg_s,
+                       heading_change_deg=sign * TURN_DEG)
+
+    return {"mach": (slow,), "left": (turn(-1.0),), "right": (turn(1.0),),
+            "mach_left": (slow, turn(-1.0)), "mach_right": (slow, turn(1.0))}
+
+
+def peak_after(sc: Scenario, world: World, zone: TruthZone, t_act: float,
+               segments: tuple[Segment, ...]) -> float:
+    """Peak overpressure (psf) in ``zone`` of the booms emitted from ``t_act`` on, with the
+    crew taking over with ``segments`` at ``t_act`` (0 when none lands)."""
+    st = sc.start
+    state = FlightState(world.true_atmosphere, st.lat_deg, st.lon_deg, st.alt_ft, st.mach,
+                        st.heading_deg, st.fpa_deg, st.bank_deg)
+    pilot, track = Pilot(sc.schedule), FlightTrack()
+    n = int(math.ceil(sc.duration_s / STEP_S))
+    dt = sc.duration_s / n
+    acted = False
+    for i in range(n + 1):
+        t = i * dt
+        if not acted and t >= t_act - 0.5 * dt:
+            for seg in segments:
+                pilot.take_over(seg, state)
+            acted = True
+        pilot.update(state, dt)
+        track.add(state)
+        state.step(dt, t)
+    # only the booms emitted from the action on are judged: trace those (and one second
+    # before, for the tube areas' differences at the first of them)
+    track.rows = [r for r in track.rows if r[0] >= t_act - 1.0]
+    path = track.flown_path(world.origin_deg, max(sc.truth.emission_interval_s, EMISSION_S))
+    settings = TruthSettings(azimuth_step_deg=max(sc.truth.azimuth_step_deg, AZIMUTH_DEG),
+                             level_stride=2)
+    truth = trace_truth(path, world.true_atmosphere, world.aircraft, [zone],
+                        settings=settings)
+    emitted, _, psf, _ = zone_hits(truth, zone)
+    after = psf[emitted >= t_act - 1e-9]
+    return float(after.max()) if after.size else 0.0
+
+
+def visible_from(sc: Scenario, first_over_s: float) -> float:
+    """Start of the schedule's last segment begun at or before ``first_over_s`` (s), else
+    0 (segments without a fixed start are taken to start at 0: conservative)."""
+    starts = [float(seg.at_s) for seg in sc.schedule
+              if seg.at_s is not None and seg.at_s <= first_over_s]
+    return max(starts, default=0.0)
+
+
+def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_over: float
+                 ) -> dict[str, Any]:
+    """The truth's act-by of one exposure (module notes).
+
+    Parameters
+    ----------
+    sc, world : Scenario, World
+        The encounter as flown with the crew ignoring the cues.
+    exposure : dict
+        Its exposure (:func:`advisory.bench.scoring.score_exposure`): ``zone_id`` and the
+        first alerts.
+    emitted_over : float
+        Emission time of the first boom over the zone's limit, s.
+
+    Returns
+    -------
+    dict
+        ``visible_s``, ``earliest_s``, ``avoidable``, ``action`` (the name of an action
+        that clears at the earliest start, else None), ``act_by_s`` (None when not
+        avoidable), ``first_alert_s``, ``alerted_in_time`` (None when not avoidable),
+        ``flights`` (truth flights flown).
+    """
+    zone = next(z for z in world.truth_zones if z.zone_id == exposure["zone_id"])
+    react = sc.crew.reaction_s
+    visible = visible_from(sc, emitted_over)
+    earliest = visible + react
+    alerts = [exposure.get(k) for k in ("first_advisory_s", "first_caution_s",
+                                         "first_warning_s")]
+    first_alert = min((a for a in alerts if a is not None), default=None)
+    out: dict[str, Any] = {"visible_s": visible, "earliest_s": earliest, "avoidable": False,
+                           "action": None, "act_by_s": None, "first_alert_s": first_alert,
+                           "alerted_in_time": None, "flights": 0}
+    if earliest >= emitted_over:
+        return out
+    acts = actions(sc)
+
+    def clears(t: float, names: list[str]) -> list[str]:
+        ok = []
+        for name in names:
+            out["flights"] += 1
+            if peak_after(sc, world, zone, t, acts[name]) <= zone.limit_psf:
+                ok.append(name)
+                break  # one clearing action is enough at this start
+        return ok
+
+    good = clears(earliest, list(acts))
+    if not good:
+        return out
+    names = good + [n for n in acts if n not in good]
+    lo, hi = earliest, emitted_over
+    best = good[0]
+    while hi - lo > TOLERANCE_S:
+        mid = 0.5 * (lo + hi)
+        ok = clears(mid, names)
+        if ok:
+            lo, best = mid, ok[0]
+            names = ok + [n for n in names if n not in ok]
+        else:
+            hi = mid
+    out.update(avoidable=True, action=best, act_by_s=lo,
+               alerted_in_time=first_alert is not None and first_alert <= lo - react)
+    return out

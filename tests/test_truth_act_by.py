@@ -1,0 +1,84 @@
+"""The truth's act-by (issue 13, done-when: "every avoidable exposure alerted at least the
+configured reaction time before its act-by moment").
+
+The act-by is measured with the truth (:mod:`advisory.bench.truth`: rays traced per
+emission through the true atmosphere, independent of the advisor's tables) along flights
+the bench simulator flies without the advisor; these tests hold it to its definition
+(docs/scenarios.md): an action started at the act-by keeps every later boom under the
+zone's limit, one started a little later does not.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import pytest
+
+from advisory.bench.campaign_sample import sample_encounter
+from advisory.bench.closed_loop import simulate
+from advisory.bench.flight import Segment
+from advisory.bench.scoring import zone_hits
+from advisory.bench.sim_scenario import scenario_from_dict
+from advisory.bench.sim_world import build_world
+from advisory.bench.truth_act_by import TOLERANCE_S, actions, peak_after, visible_from
+
+
+def test_the_flight_leads_into_the_zone_from_its_last_segment_begun_before_the_boom():
+    # worked by hand from the definition: the schedule's segments at 10, 40 and 80 s
+    sc = scenario_from_dict(sample_encounter(1, 40, known=True).doc)
+    sc = replace(sc, schedule=(
+        Segment("turn", at_s=10.0, bank_deg=20.0, heading_change_deg=10.0),
+        Segment("hold", duration_s=5.0),  # no fixed start: not a moment the flight turned
+        Segment("climb", at_s=40.0, fpa_deg=-2.0, target_alt_ft=40000.0),
+        Segment("mach", at_s=80.0, target_mach=1.5, mach_rate_per_s=0.01)))
+    assert visible_from(sc, 50.0) == 40.0
+    assert visible_from(sc, 40.0) == 40.0
+    assert visible_from(sc, 20.0) == 10.0
+    assert visible_from(sc, 5.0) == 0.0
+
+
+def _ignore_run(index: int):
+    doc = sample_encounter(1, index, known=True).doc
+    doc["crew"]["mode"] = "ignore"
+    sc = scenario_from_dict(doc)
+    world = build_world(sc, quiet=True, build_workers=1)
+    return sc, world, simulate(sc, world=world)
+
+
+@pytest.mark.slow
+def test_an_avoidable_exposure_holds_at_its_act_by_and_not_after():
+    # campaign --known, seed 1, encounter 40: Mach 1.91 at 47,700 ft, a zone off the track
+    # with a 0.51 psf limit, no manoeuvre planned. Against the truth itself: the action
+    # found keeps every boom emitted from the act-by on under the limit; started two
+    # bisection steps later, no action of the crew's does.
+    sc, world, res = _ignore_run(40)
+    (e,) = [e for e in res.score.exposures if e["exceeds_limit"]]
+    act = e["truth_act_by"]
+    zone = world.truth_zones[0]
+    assert act["visible_s"] == 0.0 and act["earliest_s"] == sc.crew.reaction_s
+    assert act["avoidable"] and act["action"] in actions(sc)
+    t = act["act_by_s"]
+    emitted, _, psf, _ = zone_hits(res.truth, zone)
+    assert act["earliest_s"] <= t < float(emitted[psf > zone.limit_psf].min())
+    assert peak_after(sc, world, zone, t, actions(sc)[act["action"]]) <= zone.limit_psf
+    later = t + 2.0 * TOLERANCE_S
+    assert all(peak_after(sc, world, zone, later, segs) > zone.limit_psf
+               for segs in actions(sc).values())
+    assert act["alerted_in_time"] == (act["first_alert_s"] <= t - sc.crew.reaction_s)
+    # the follow run carries no act-by (it is the ignore run's question)
+    doc = sample_encounter(1, 40, known=True).doc
+    doc["crew"]["mode"] = "follow"
+    follow = simulate(scenario_from_dict(doc), world=world)
+    assert all("truth_act_by" not in x for x in follow.score.exposures)
+
+
+@pytest.mark.slow
+def test_a_planned_push_over_near_cutoff_is_not_avoidable_before_it_begins():
+    # encounter 18: level at Mach 1.144 (no boom reaches the ground) until a descent
+    # planned at 37.1 s; the first boom over the limit is emitted before the crew could
+    # react to it (37.1 + 5 s), so no advisor could have given the crew time to act.
+    sc, world, res = _ignore_run(18)
+    (e,) = [e for e in res.score.exposures if e["exceeds_limit"]]
+    act = e["truth_act_by"]
+    assert act["visible_s"] == pytest.approx(37.1)
+    assert not act["avoidable"] and act["act_by_s"] is None and act["flights"] == 0

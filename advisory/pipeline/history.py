@@ -407,15 +407,15 @@ def join_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.n
             arrays[1:, d] = vt[:, a:b]
             rows[d], codes[d], cutoffs[d] = w_rows[a:b], w_codes[a:b], w_cut[a:b]
         for pos, a, t_sep in seps:
-            d = n_f + pos
-            arrays[0, d] = t_sep
-            arrays[1:, d] = vt[:, a]
-            rows[d] = 0.0
-            codes[d] = NO_BOOM
-            cutoffs[d] = w_cut[a]
-    d = slice(n_f + n_w, n)
-    rows[d], codes[d], cutoffs[d] = ahead.rows, ahead.codes, ahead.cutoffs
-    a = ahead.traj
-    traj = Trajectory(*arrays, frame=a.frame, wind_east_mps=a.wind_east_mps,
-                      wind_north_mps=a.wind_north_mps, wind_inferred=a.wind_inferred)
+            arrays[0, n_f + pos] = t_sep
+            arrays[1:, n_f + pos] = vt[:, a]
+            rows[n_f + pos] = 0.0
+            codes[n_f + pos] = NO_BOOM
+            cutoffs[n_f + pos] = w_cut[a]
+    rest = slice(n_f + n_w, n)
+    rows[rest], codes[rest], cutoffs[rest] = ahead.rows, ahead.codes, ahead.cutoffs
+    tr = ahead.traj
+    traj = Trajectory(**dict(zip(_TRAJ_ARRAYS, arrays)), frame=tr.frame,
+                      wind_east_mps=tr.wind_east_mps, wind_north_mps=tr.wind_north_mps,
+                      wind_inferred=tr.wind_inferred)
     return FlownPast(traj, rows, codes, cutoffs), n_f + n_w

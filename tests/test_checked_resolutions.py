@@ -105,12 +105,12 @@ def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
                                     (12.0, 1.4, 0.44, 0.3)]:
         p = base.params.copy()
         p[14], p[15], p[17], p[18] = onset, mach, bank, turn
-        fast = trial_clears_kernel(base.t, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
+        fast = trial_clears_kernel(base.t_judged, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
                                    tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, base.strips,
                                    pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start,
                                    pz.zone_bbox, pz.ring_chunk, pz.chunk_edges, pz.chunk_bbox,
                                    pz.margin_m, pz.limit_pa, base.focus_cap, 1.25)
-        slow = trial_clears_twin(base.t, base.k0, p, 0.0, 0.0, False, tb, base.strips, pz,
+        slow = trial_clears_twin(base.t_judged, base.k0, p, 0.0, 0.0, False, tb, base.strips, pz,
                                  zones, base.focus_cap, 1.25)
         assert bool(fast) == slow, (onset, mach, bank, turn)
         outcomes.add(slow)

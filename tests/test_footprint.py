@@ -10,9 +10,14 @@ import pytest
 from advisory import units
 from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import standard_atmosphere
-from advisory.pipeline.footprint import FootprintPredictor, focus_kernel, place_kernel
+from advisory.pipeline.footprint import (
+    FootprintPredictor,
+    focus_kernel,
+    lookup_rows_kernel,
+    place_kernel,
+)
 from advisory.pipeline.trajectory import predict_trajectory
-from tests.twins.footprint import focus_kernel_twin, place_kernel_twin
+from tests.twins.footprint import focus_kernel_twin, lookup_rows_kernel_twin, place_kernel_twin
 
 C45 = float(standard_atmosphere().at(units.ft_to_m(45000.0)).sound_speed_mps)
 
@@ -47,6 +52,27 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     assert np.all(np.isfinite(amp)) and np.all((amp >= 1.0) & (amp <= 5.0))
+
+
+@pytest.mark.parametrize("bank, mach, rate", [(0.0, 1.6, 0.0), (30.0, 1.6, 0.0),
+                                              (0.0, 1.2, 0.002), (0.0, 1.05, 0.0)])
+def test_lookup_rows_match_their_twin(small_table, bank, mach, rate) -> None:
+    # Parity: the row lookup (which reuses the lookup of a point equal to the one before:
+    # steady flight) equals the twin looking every point up on its own; the steady cases
+    # repeat points, the accelerating one does not, Mach 1.05 lies below cutoff (no boom:
+    # rows left as they were, so both start from the same filled buffer).
+    tb = small_table
+    traj = trajectory(bank, mach, rate)
+    nk, nj, nq = traj.t_s.size, tb.eta.size, tb.cells.shape[5]
+    hdg = np.zeros(nk)
+    fast = (np.full((nk, nj, nq), 7.0), np.zeros(nk, dtype=np.int64), np.zeros(nk))
+    slow = (np.full((nk, nj, nq), 7.0), np.zeros(nk, dtype=np.int64), np.zeros(nk))
+    axes = (tb.ax_alt, tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells)
+    lookup_rows_kernel(traj.alt_m, traj.mach, traj.fpa_rad, hdg, *axes, *fast)
+    lookup_rows_kernel_twin(traj.alt_m, traj.mach, traj.fpa_rad, hdg, *axes, *slow)
+    np.testing.assert_array_equal(fast[1], slow[1])
+    np.testing.assert_allclose(fast[2], slow[2], rtol=1e-12)
+    np.testing.assert_allclose(fast[0], slow[0], rtol=1e-12, atol=1e-9)
 
 
 def test_focus_where_the_physics_puts_it(small_table) -> None:

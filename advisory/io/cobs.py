@@ -24,7 +24,8 @@ Notes
 ``cobs_decode_into`` is a numba ``njit(cache=True)`` kernel over plain buffers, the
 package's one COBS decoder (its plain-Python twin, ``cobs_decode_twin`` in
 ``tests/twins/cobs.py``, is checked against it by a parity test). The encoder runs at
-the output rate only and is plain Python built on ``bytes.split``.
+the output rate only and is plain Python built on ``bytes.split`` (one ``join`` when
+every piece between zeros is shorter than a full block, the common case).
 """
 
 from __future__ import annotations
@@ -45,6 +46,10 @@ _ERR_TEXT = {
     ERR_TRUNCATED: "COBS code byte points past the end of the frame",
     ERR_NO_ROOM: "decoded frame larger than the output buffer",
 }
+
+
+#: The code byte of a block of ``n`` data bytes followed by a zero (``n`` < 254).
+_CODE_BYTE = [bytes((n + 1,)) for n in range(254)]
 
 
 class CobsError(ValueError):
@@ -74,6 +79,8 @@ def cobs_encode(data: bytes | bytearray | memoryview) -> bytes:
         The encoded packet, ``1 <= len <= cobs_max_encoded_len(len(data))``.
     """
     chunks = bytes(data).split(b"\x00")
+    if max(map(len, chunks)) < 254:  # the common case: one block per piece
+        return b"".join([_CODE_BYTE[len(c)] + c for c in chunks])
     out = bytearray()
     last = len(chunks) - 1
     for k, chunk in enumerate(chunks):

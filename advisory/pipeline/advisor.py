@@ -43,13 +43,7 @@ from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
-from advisory.pipeline.history import (
-    FlownHistory,
-    FlownPast,
-    flown_past,
-    join_trajectories,
-    past_trajectory,
-)
+from advisory.pipeline.history import FlownHistory, FlownPast, join_past, past_trajectory
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import (
@@ -303,26 +297,25 @@ class Advisor:
             return s.utc_s
         return s.rx_monotonic if s.rx_monotonic is not None else now
 
-    def _past(self, ahead: Trajectory, t_now: float, present_rows: np.ndarray,
-              present_code: int) -> FlownPast | None:
+    def _past(self, ahead: FlownPast, t_now: float) -> tuple[FlownPast, int]:
         """The emission points whose booms may still be in the air, from the flown
-        history; the part of the window older than the history (a fresh advisor) is
+        history, followed by those ahead (with their lookups), and the index of the
+        present one; the part of the window older than the history (a fresh advisor) is
         the present state flown backwards (:func:`past_trajectory`), kept apart from the
         history by a separator."""
         cfg, h = self.config, self.history
-        win = h.window(t_now, ahead.frame)
-        back_s = self._in_air_s(present_rows, present_code)
+        win = h.window(t_now, ahead.traj.frame)
+        back_s = self._in_air_s(ahead.rows[0], int(ahead.codes[0]))
         have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
         fallback = None
         if have_s < back_s - 1e-6:
-            back = past_trajectory(ahead, back_s, cfg.step_s)
+            back = past_trajectory(ahead.traj, back_s, cfg.step_s)
             keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
             if keep.size:
                 part = _subset(back, keep)
-                rows, codes, cuts = (x.copy() for x in self._fallback_lookup.lookup(part))
-                fallback = FlownPast(part, rows, codes, cuts)
+                fallback = FlownPast(part, *self._fallback_lookup.lookup(part))  # copied
         tail_break = win is not None and t_now - h.newest_t > h.gap_s
-        return flown_past(win, fallback, ahead, tail_break)
+        return join_past(win, fallback, ahead, tail_break)
 
     def _remember(self, s: AirDataState, t_now: float, ahead: Trajectory, rows: np.ndarray,
                   code: int, cutoff: float) -> None:
@@ -371,16 +364,14 @@ class Advisor:
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
         t_state = self._state_time(s, now)
-        rows, codes, cuts = (x.copy() for x in self._predictor.lookup(ahead))
+        rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
         self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
-        past = self._past(ahead, t_state, rows[0], int(codes[0]))
-        traj = ahead if past is None else join_trajectories(past.traj, ahead)
-        if past is not None:
-            rows, codes, cuts = (np.concatenate([a, b]) for a, b in zip(
-                (past.rows, past.codes, past.cutoffs), (rows, codes, cuts)))
-        pred = self._predictor.predict(traj, rows, codes, cuts)
+        whole, now_k = self._past(FlownPast(ahead, rows, codes, cuts), t_state)
+        if now_k == 0:  # no past: the prediction keeps the lookups (own copies)
+            whole = FlownPast(ahead, rows.copy(), codes.copy(), cuts.copy())
+        traj = whole.traj
+        pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        now_k = 0 if past is None else past.traj.t_s.size  # the present emission point
         fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
                                                   cfg.focus_threshold, cfg.reaction_s)
         first = later[0] if later else None

@@ -35,15 +35,34 @@ def find_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
                    strip_nodes: np.ndarray, focus_threshold: float,
                    first_only: bool = False) -> list[Conflict]:
     """Zones the predicted carpet reaches, soonest first (numba kernel; see the twin)."""
+    on_ground = pred.on_ground
+    return _find(pred, on_ground, _effective(pred, on_ground), 0, on_ground.size, pz, zones,
+                 np.ascontiguousarray(strip_nodes, dtype=np.int64), focus_threshold,
+                 first_only)
+
+
+def _effective(pred: CarpetPrediction, on_ground: np.ndarray) -> np.ndarray:
+    """:attr:`CarpetPrediction.effective_overpressure_pa`, with ``on_ground`` given."""
+    return np.where(on_ground[:, None], pred.overpressure_pa * pred.focus_factor, 0.0)
+
+
+def _find(pred: CarpetPrediction, on_ground: np.ndarray, eff: np.ndarray, start: int,
+          stop: int, pz: ProjectedZones, zones: ZoneSet, nodes: np.ndarray,
+          focus_threshold: float, first_only: bool = False) -> list[Conflict]:
+    """:func:`find_conflicts` of the emissions ``start:stop`` (row views: the kernel sees
+    the same arrays as on :func:`prediction_part`), with the prediction's ``on_ground``,
+    effective overpressure ``eff`` and int64 strip ``nodes`` computed once by the
+    caller."""
     n_zones = len(pz)
-    if n_zones == 0 or not pred.on_ground.any():
+    ground = on_ground[start:stop]
+    if n_zones == 0 or not ground.any():
         return []
     best_t = np.full(n_zones, np.inf)
     best_dp = np.zeros(n_zones)
     best_focus = np.zeros(n_zones, dtype=np.bool_)
     conflict_kernel(
-        pred.east_m, pred.north_m, pred.arrival_s, pred.effective_overpressure_pa,
-        pred.focus_factor, pred.on_ground, np.ascontiguousarray(strip_nodes, dtype=np.int64),
+        pred.east_m[start:stop], pred.north_m[start:stop], pred.arrival_s[start:stop],
+        eff[start:stop], pred.focus_factor[start:stop], ground, nodes,
         pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
         pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, float(focus_threshold),
         bool(first_only), best_t, best_dp, best_focus,
@@ -76,10 +95,17 @@ def split_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
     """
     k = int(np.searchsorted(pred.t_emit_s, fixed_s, side="right"))
     n = pred.t_emit_s.size
-    fixed = find_conflicts(prediction_part(pred, 0, k), pz, zones, strip_nodes,
-                           focus_threshold) if k > 0 else []
-    later = find_conflicts(prediction_part(pred, k, n), pz, zones, strip_nodes,
-                           focus_threshold) if k < n else []
+    on_ground = pred.on_ground
+    if len(pz) == 0 or not on_ground.any():
+        return [], [], []
+    eff = _effective(pred, on_ground)
+    nodes = np.ascontiguousarray(strip_nodes, dtype=np.int64)
+    fixed = _find(pred, on_ground, eff, 0, k, pz, zones, nodes,
+                  focus_threshold) if k > 0 else []
+    later = _find(pred, on_ground, eff, k, n, pz, zones, nodes,
+                  focus_threshold) if k < n else []
+    if not fixed or not later:
+        return fixed, later, list(fixed or later)
     soonest: dict[int, Conflict] = {}
     for c in fixed + later:
         known = soonest.get(c.zone_index)
@@ -93,7 +119,9 @@ def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,
                    best_focus: np.ndarray) -> list[Conflict]:
     """The zones with a finite first-contact time ``best_t`` (s), soonest first, with
     their overpressure ``best_dp`` (Pa) and focus flag."""
-    out = []
+    out: list[Conflict] = []
+    if not np.isfinite(best_t).any():
+        return out
     for z in np.argsort(best_t, kind="stable"):
         if not np.isfinite(best_t[z]):
             break

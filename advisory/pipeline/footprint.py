@@ -18,8 +18,8 @@ acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoust
 fold (a caustic on the ground). The amplification is bounded by
 :data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP`.
 
-The placement and focus kernels have numpy twins (``place_kernel_twin``,
-``focus_kernel_twin`` in ``tests/twins/footprint.py``) compared in
+The lookup, placement and focus kernels have numpy twins (``lookup_rows_kernel_twin``,
+``place_kernel_twin``, ``focus_kernel_twin`` in ``tests/twins/footprint.py``) compared in
 ``tests/test_footprint.py``.
 """
 
@@ -38,10 +38,30 @@ from advisory.tables.table import BoomTable
 
 
 @njit(cache=True)
+def _same(a, b):
+    """``a`` and ``b`` are the same number (equal, and zeros of the same sign)."""
+    return a == b and math.copysign(1.0, a) == math.copysign(1.0, b)
+
+
+@njit(cache=True)
 def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
                        cells, rows, codes, cutoffs):
-    """Table rows for every emission point (``rows``: (K, n_eta, N_QUANTITIES))."""
+    """Table rows for every emission point (``rows``: (K, n_eta, N_QUANTITIES)).
+
+    A point whose altitude, Mach, flight-path angle and heading are those of the point
+    before it (steady flight: every point ahead) takes that point's lookup: the same
+    code, cutoff and rows (rows left as they are where there is no boom, as the lookup
+    leaves them), which is what the lookup would give.
+    """
     for k in range(alt.size):
+        if k > 0 and (_same(alt[k], alt[k - 1]) and _same(mach[k], mach[k - 1])
+                      and _same(fpa[k], fpa[k - 1])
+                      and _same(heading_true[k], heading_true[k - 1])):
+            codes[k] = codes[k - 1]
+            cutoffs[k] = cutoffs[k - 1]
+            if codes[k] != lk.NO_BOOM:
+                rows[k, :, :] = rows[k - 1, :, :]
+            continue
         code, mcut = lk.lookup_kernel(alt[k], mach[k], fpa[k], heading_true[k], ax_alt, ax_mex,
                                       ax_fpa, ax_hdg, cutoff, cells, rows[k])
         codes[k] = code

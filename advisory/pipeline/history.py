@@ -5,12 +5,12 @@ the states it actually stepped on in a :class:`FlownHistory` (a bounded ring buf
 entry per emission spacing, each with the table rows of its state in the table in force
 then) and places every boom still in the air from those states, each with its own
 emission time, Mach, heading, altitude, flight-path angle and position
-(:func:`flown_past`): a turn entered 10 s ago or an acceleration just begun changes only
+(:func:`join_past`): a turn entered 10 s ago or an acceleration just begun changes only
 the booms emitted since. The window is the longest travel time of the states held, not
 a fixed span. A fresh advisor has no history for the older part of the window: there,
 and only there, it flies the present manoeuvre backwards (:func:`past_trajectory`),
 kept apart from the flown part by a no-boom separator. The past is joined to the
-trajectory ahead (:func:`join_trajectories`).
+trajectory ahead (:func:`join_past`).
 
 Resolution trials fly the trajectory ahead again with a turn that rolls out after a
 heading change (:func:`turned_trajectory`). Backward flight and trials run the
@@ -35,8 +35,8 @@ from advisory.pipeline.trajectory import Trajectory, propagate_kernel
 from advisory.schema import EARTH_MEAN_RADIUS_M
 from advisory.tables.lookup import N_QUANTITIES, NO_BOOM, Q_TIME
 
-__all__ = ["kernel_inputs", "past_trajectory", "join_trajectories", "turned_trajectory",
-           "FlownHistory", "FlownPast", "flown_past"]
+__all__ = ["kernel_inputs", "past_trajectory", "turned_trajectory", "FlownHistory",
+           "FlownPast", "join_past"]
 
 
 def kernel_inputs(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
@@ -106,13 +106,6 @@ def past_trajectory(ahead: Trajectory, back_s: float, step_s: float) -> Trajecto
 _TRAJ_ARRAYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
                 "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m",
                 "north_m")
-
-
-def join_trajectories(past: Trajectory, ahead: Trajectory) -> Trajectory:
-    """``past`` followed by ``ahead`` (one time-ascending trajectory)."""
-    arrays = {k: np.concatenate([getattr(past, k), getattr(ahead, k)]) for k in _TRAJ_ARRAYS}
-    return Trajectory(**arrays, frame=ahead.frame, wind_east_mps=ahead.wind_east_mps,
-                      wind_north_mps=ahead.wind_north_mps, wind_inferred=ahead.wind_inferred)
 
 
 def turned_trajectory(base: Trajectory, bank_rad: float, heading_change_rad: float
@@ -340,7 +333,9 @@ def _haversine(lat0: float, lon0: float, lat: float, lon: float) -> float:
 
 
 class FlownPast(NamedTuple):
-    """The past part of a prediction: emission points and their table lookups."""
+    """Emission points with their table lookups: the part of the window older than the
+    history (flown back), or the whole carpet's points (the past, then the
+    trajectory ahead, from :func:`join_past`)."""
 
     traj: Trajectory
     rows: np.ndarray  #: (K, n_eta, N_QUANTITIES)
@@ -348,57 +343,79 @@ class FlownPast(NamedTuple):
     cutoffs: np.ndarray  #: (K,)
 
 
-def flown_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]
-               | None, fallback: FlownPast | None, ahead: Trajectory,
-               tail_break: bool = False) -> FlownPast | None:
-    """The flown entries of :meth:`FlownHistory.window` as a trajectory in ``ahead``'s
-    frame, after ``fallback`` (the part of the window older than the history, flown
-    back from the present state; None: the history covers the window).
+#: Columns of :meth:`FlownHistory.window`'s ``values`` holding the trajectory arrays
+#: after ``t_s``, in the order of :data:`_TRAJ_ARRAYS`.
+_WINDOW_COLUMNS = [0, 1, 2, 11, 12, 5, 7, 6, 8, 9, 10]
 
-    A separator emission with no boom (code ``NO_BOOM``) stands between two runs (a gap
-    or jump in the history, and between the fallback and the history), so neither the
-    carpet strips nor the ray-tube differences join them. The last flown entry joins the
-    trajectory ahead directly unless ``tail_break`` (the newest entry is more than a gap
-    before the present state): then a separator follows it too.
+
+def join_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]
+              | None, fallback: FlownPast | None, ahead: FlownPast,
+              tail_break: bool = False) -> tuple[FlownPast, int]:
+    """The emission points of the whole carpet: ``fallback`` (the part of the window
+    older than the history, flown back from the present state; None: the history covers
+    the window), the flown entries of :meth:`FlownHistory.window`, then ``ahead`` (the
+    trajectory ahead with its lookups), as one trajectory in ``ahead``'s frame; and the
+    index of the present emission point (the first of ``ahead``).
+
+    A separator emission with no boom (code ``NO_BOOM``, rows 0: neither the carpet
+    strips nor the ray-tube differences join across it) stands between two runs (a gap
+    or jump in the history, and between the fallback and the history): a copy of the
+    entry after it, halfway in time between its neighbours. The last flown entry joins
+    the trajectory ahead directly unless ``tail_break`` (the newest entry is more than a
+    gap before the present state): then a copy of it, halfway to now, follows it too.
+    Every array is filled once (one gather per source), the values copied unchanged.
     """
-    parts: list[dict[str, np.ndarray]] = []
-    if fallback is not None and fallback.traj.t_s.size:
-        d = {k: getattr(fallback.traj, k) for k in _TRAJ_ARRAYS}
-        d.update(rows=fallback.rows, codes=fallback.codes, cutoffs=fallback.cutoffs)
-        parts.append(d)
+    n_f = 0 if fallback is None else fallback.traj.t_s.size
+    # the window's entries in carpet order: (first, stop) runs and separator copies
+    # (entry, time), each with its position after the fallback
+    runs: list[tuple[int, int, int]] = []
+    seps: list[tuple[int, int, float]] = []
+    n_w = 0
+    t_prev = float(fallback.traj.t_s[-1]) if fallback is not None and n_f else math.nan
     if window is not None:
-        t, v, rows, codes, cutoffs = window
-        flown = {"t_s": t, "alt_m": v[:, 0], "mach": v[:, 1], "tas_mps": v[:, 2],
-                 "ground_speed_mps": v[:, 5], "fpa_rad": v[:, 6], "bank_rad": v[:, 7],
-                 "turn_rate_rad_s": v[:, 8], "east_m": v[:, 9], "north_m": v[:, 10],
-                 "heading_grid_rad": v[:, 11], "track_grid_rad": v[:, 12],
-                 "rows": rows, "codes": codes, "cutoffs": cutoffs}
-        cuts = [0, *np.flatnonzero(v[:, 13] > 0.5).tolist(), t.size]
+        t = window[0]
+        cuts = [0, *np.flatnonzero(window[1][:, 13] > 0.5).tolist(), t.size]
         for a, b in zip(cuts[:-1], cuts[1:]):
-            if parts:  # a gap, a jump, or the fallback before: a separator between
-                t_prev = float(parts[-1]["t_s"][-1])
-                parts.append(_separator(flown, a, 0.5 * (t_prev + float(t[a]))))
-            parts.append({k: x[a:b] for k, x in flown.items()})
-    if not parts:
-        return None
-    if tail_break:  # a separator after the last entry: a copy of it, halfway to now
-        last = parts[-1]
-        parts.append(_separator(last, last["t_s"].size - 1, 0.5 * float(last["t_s"][-1])))
-    d = parts[0] if len(parts) == 1 else {k: np.concatenate([p[k] for p in parts])
-                                          for k in parts[0]}
-    rows, codes, cutoffs = d.pop("rows"), d.pop("codes"), d.pop("cutoffs")
-    traj = Trajectory(**{k: np.ascontiguousarray(v) for k, v in d.items()}, frame=ahead.frame,
-                      wind_east_mps=ahead.wind_east_mps, wind_north_mps=ahead.wind_north_mps,
-                      wind_inferred=ahead.wind_inferred)
-    return FlownPast(traj, np.ascontiguousarray(rows), np.ascontiguousarray(codes),
-                     np.ascontiguousarray(cutoffs))
-
-
-def _separator(d: dict[str, np.ndarray], i: int, t_s: float) -> dict[str, np.ndarray]:
-    """A no-boom separator emission: entry ``i`` of ``d`` at time ``t_s``, code NO_BOOM,
-    rows 0 (neither the carpet strips nor the ray-tube differences cross it)."""
-    sep = {k: v[i:i + 1].copy() for k, v in d.items()}
-    sep["t_s"][0] = t_s
-    sep["codes"][0] = NO_BOOM
-    sep["rows"][0] = 0.0
-    return sep
+            if n_f or n_w:
+                seps.append((n_w, a, 0.5 * (t_prev + float(t[a]))))
+                n_w += 1
+            runs.append((n_w, a, b))
+            n_w += b - a
+            t_prev = float(t[b - 1])
+        if tail_break:
+            seps.append((n_w, t.size - 1, 0.5 * t_prev))
+            n_w += 1
+    if n_f + n_w == 0:
+        return ahead, 0
+    n = n_f + n_w + ahead.traj.t_s.size
+    arrays = np.empty((len(_TRAJ_ARRAYS), n))
+    rows = np.empty((n, *ahead.rows.shape[1:]))
+    codes = np.empty(n, dtype=np.int64)
+    cutoffs = np.empty(n)
+    for i, k in enumerate(_TRAJ_ARRAYS):
+        if fallback is not None and n_f:
+            arrays[i, :n_f] = getattr(fallback.traj, k)
+        arrays[i, n_f + n_w:] = getattr(ahead.traj, k)
+    if fallback is not None and n_f:
+        rows[:n_f], codes[:n_f], cutoffs[:n_f] = fallback.rows, fallback.codes, fallback.cutoffs
+    if window is not None:
+        t, v, w_rows, w_codes, w_cut = window
+        vt = v[:, _WINDOW_COLUMNS].T
+        for pos, a, b in runs:
+            d = slice(n_f + pos, n_f + pos + b - a)
+            arrays[0, d] = t[a:b]
+            arrays[1:, d] = vt[:, a:b]
+            rows[d], codes[d], cutoffs[d] = w_rows[a:b], w_codes[a:b], w_cut[a:b]
+        for pos, a, t_sep in seps:
+            arrays[0, n_f + pos] = t_sep
+            arrays[1:, n_f + pos] = vt[:, a]
+            rows[n_f + pos] = 0.0
+            codes[n_f + pos] = NO_BOOM
+            cutoffs[n_f + pos] = w_cut[a]
+    rest = slice(n_f + n_w, n)
+    rows[rest], codes[rest], cutoffs[rest] = ahead.rows, ahead.codes, ahead.cutoffs
+    tr = ahead.traj
+    traj = Trajectory(**dict(zip(_TRAJ_ARRAYS, arrays)), frame=tr.frame,
+                      wind_east_mps=tr.wind_east_mps, wind_north_mps=tr.wind_north_mps,
+                      wind_inferred=tr.wind_inferred)
+    return FlownPast(traj, rows, codes, cutoffs), n_f + n_w

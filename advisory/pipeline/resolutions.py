@@ -46,7 +46,7 @@ tolerances and the crew's preference are project choices (common practice, no so
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Generator
+from collections.abc import Callable, Generator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -109,7 +109,6 @@ class TrialBase:
         self.limit_pa = np.ascontiguousarray(pz.limit_pa * cfg.limit_fraction)
         self.ahead = ahead
         self.t = np.ascontiguousarray(ahead.t_s, dtype=np.float64)
-        self.k0 = int(np.searchsorted(self.t, cfg.reaction_s, side="right"))
         self.mach0 = float(ahead.mach[0])
         self.fpa = float(ahead.fpa_rad[0])
         self.has_wind = bool(self.table.has_wind)
@@ -118,8 +117,15 @@ class TrialBase:
         self.params = _base_params(ahead, cfg)
         self.trials = 0
         self.t_long = self.t
+        #: The emission times with the reaction time added (:meth:`_judged_from`), and
+        #: ``k0``, the index of the reaction time there: the first emission judged.
+        self.t_judged = _merged(self.t, set(self.t.tolist()), (cfg.reaction_s,))
+        self.k0 = int(np.searchsorted(self.t_judged, cfg.reaction_s, side="left"))
+        self._judged_set = set(self.t_judged.tolist())  # its values, to merge others in
+        self._long_judged, self._long_set = self.t_judged, self._judged_set  # t_long's
         #: Cutoff Mach at the present state (set by :func:`search`; 0 when unknown).
         self.cutoff_now = 0.0
+        self._near: tuple[float, list[float]] = (math.nan, [])  # cutoff_now + excesses
 
     def stretch(self, slowest_mach: float) -> None:
         """Make the trials that change the Mach cover the same ground as the prediction:
@@ -133,34 +139,45 @@ class TrialBase:
         end = self.horizon_s * factor
         extra = np.arange(self.horizon_s + step, end + 0.5 * step, step)
         self.t_long = np.ascontiguousarray(np.concatenate([self.t, extra]))
+        self._long_judged = _merged(self.t_long, set(self.t_long.tolist()),
+                                    (self.cfg.reaction_s,))
+        self._long_set = set(self._long_judged.tolist())
 
-    def _near_cutoff_times(self, onset: float, target_mach: float) -> np.ndarray:
-        """The stretched emission times plus the moments the deceleration passes the
-        cutoff Mach plus each of :data:`NEAR_CUTOFF_EXCESS` (booms emitted just above
-        cutoff travel far ahead, and a few seconds of emissions span them all)."""
+    def _near_cutoff_times(self, onset: float, target_mach: float) -> list[float]:
+        """The moments the deceleration passes the cutoff Mach plus each of
+        :data:`NEAR_CUTOFF_EXCESS` (booms emitted just above cutoff travel far ahead, and
+        a few seconds of emissions span them all), to be added to the stretched emission
+        times; none when the target is not below the Mach at the onset."""
         m_on = self.mach0 + self.params[5] * onset
         if not (self.cutoff_now > 0.0 and target_mach < m_on):
-            return self.t_long
+            return []
+        if self._near[0] != self.cutoff_now:  # the same float sums as a numpy array
+            self._near = (self.cutoff_now,
+                          [self.cutoff_now + float(x) for x in NEAR_CUTOFF_EXCESS])
         rate = self.cfg.decel_mach_per_s
-        ts = onset + (m_on - (self.cutoff_now + NEAR_CUTOFF_EXCESS)) / rate
-        end = onset + (m_on - target_mach) / rate
-        ts = ts[(ts > onset) & (ts < min(end, float(self.t_long[-1])))]
-        if ts.size == 0:
-            return self.t_long
-        return np.ascontiguousarray(np.unique(np.concatenate([self.t_long, ts])))
+        end = min(onset + (m_on - target_mach) / rate, float(self.t_long[-1]))
+        ts = [onset + (m_on - c) / rate for c in self._near[1]]
+        return [x for x in ts if onset < x < end]
 
-    def _judged_from(self, t: np.ndarray, onset: float) -> tuple[np.ndarray, int]:
-        """The emission times with the reaction time and the onset added, and the index
-        of the first judged one (the reaction time's). Every boom emitted from the
-        reaction time on is the trial's to keep off (those before it are the advisor's
-        unavoidable ones); on the ``step_s`` grid alone the emissions between the reaction
-        time and the next grid time went unjudged, and a crew acting at the last moment
-        put them into the zone (campaign --known, seed 1, encounter 11)."""
-        react = self.cfg.reaction_s
-        extra = [x for x in (react, onset) if x < float(t[-1])]
-        if extra:
-            t = np.unique(np.concatenate([t, np.asarray(extra, dtype=np.float64)]))
-        return np.ascontiguousarray(t), int(np.searchsorted(t, react, side="left"))
+    def _judged_from(self, onset: float, target_mach: float) -> tuple[np.ndarray, int]:
+        """The emission times of a trial (the stretched ones and the near-cutoff moments
+        for a Mach trial) with the reaction time and the onset added, and the index of
+        the first judged one (the reaction time's). Every boom emitted from the reaction
+        time on is the trial's to keep off (those before it are the advisor's
+        unavoidable ones); on the ``step_s`` grid alone the emissions between the
+        reaction time and the next grid time went unjudged, and a crew acting at the last
+        moment put them into the zone (campaign --known, seed 1, encounter 11).
+
+        The grids with the reaction time are made once per search (:attr:`t_judged`);
+        a trial only merges its onset (and near-cutoff moments) in."""
+        if math.isnan(target_mach):
+            t = _merged(self.t_judged, self._judged_set, (onset,))
+        else:
+            t = _merged(self._long_judged, self._long_set,
+                        [*self._near_cutoff_times(onset, target_mach), onset])
+        if t is self.t_judged:
+            return t, self.k0
+        return t, int(np.searchsorted(t, self.cfg.reaction_s, side="left"))
 
     @property
     def horizon_s(self) -> float:
@@ -174,20 +191,33 @@ class TrialBase:
         change ``turn`` (rad, signed; NaN: none). True when no judged boom reaches a zone.
         """
         self.trials += 1
-        if self.k0 >= self.t.size:
+        if self.t[-1] <= self.cfg.reaction_s:
             return True  # nothing after the reaction time within the look-ahead
         p = self.params.copy()
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         pz = self.pz
         tb = self.table
-        t = self.t if math.isnan(target_mach) else self._near_cutoff_times(onset, target_mach)
-        t, k0 = self._judged_from(t, onset)
+        t, k0 = self._judged_from(onset, target_mach)
         return bool(trial_clears_kernel(
             t, k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, self.strips, pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, self.limit_pa, self.focus_cap,
             self.cfg.focus_threshold))
+
+
+def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:
+    """``t`` (ascending, no repeats; ``values`` the set of its values) with the values of
+    ``extra`` below ``t[-1]`` merged in, each once: the array
+    ``np.unique(np.concatenate([t, extra]))`` (restricted to those values) gives, without
+    its cost; ``t`` itself when nothing is new."""
+    end = float(t[-1])
+    fresh = sorted({x for x in extra if x < end and x not in values})
+    if not fresh:
+        return t
+    out = np.concatenate((t, np.asarray(fresh, dtype=np.float64)))
+    out.sort(kind="stable")
+    return out
 
 
 def _base_params(ahead: Trajectory, cfg: AdvisorConfig) -> np.ndarray:

@@ -113,6 +113,10 @@ def fly_trial_kernel(t, p):
     turned = 0.0  # heading turned since the onset, rad
     phase = 0  # 0 before the onset, 1 rolling in / holding, 2 rolling level
     tau = 0.0
+    # Mach and turn rate at ``tau``: a sub-step's end values are the next one's start
+    # values (the same expressions of the same numbers), so each is computed once
+    m0 = _mach_at(tau, p)
+    w0 = g * math.tan(bank) / (m0 * a)
     for i in range(n):
         while tau < t[i] - 1e-12:
             if phase == 0 and tau >= onset - 1e-12:
@@ -123,7 +127,6 @@ def fly_trial_kernel(t, p):
             h = min(SUBSTEP_S, t[i] - tau) if rolling else t[i] - tau
             if phase == 0 and tau + h > onset + 1e-12:
                 h = onset - tau  # land a sub-step on the onset
-            m0 = _mach_at(tau, p)
             m1 = _mach_at(tau + h, p)
             v0 = m0 * a
             v1 = m1 * a
@@ -132,7 +135,6 @@ def fly_trial_kernel(t, p):
                 b1 = _toward(bank, target_bank, roll * h)
             elif phase == 2:
                 b1 = _toward(bank, 0.0, roll * h)
-            w0 = g * math.tan(bank) / v0
             w1 = g * math.tan(b1) / v1
             dpsi = 0.5 * (w0 + w1) * h
             if phase > 0:
@@ -151,8 +153,10 @@ def fly_trial_kernel(t, p):
             psi += dpsi
             bank = b1
             tau += h
+            m0 = m1
+            w0 = w1
             if phase == 1 and has_limit:  # roll out with the lead of the roll-out
-                w = abs(g * math.tan(bank) / v1)
+                w = abs(w1)
                 lead = 0.5 * w * abs(bank) / max(roll, 1e-9)
                 if abs(limit) - abs(turned) <= lead:
                     phase = 2

@@ -5,6 +5,16 @@ from __future__ import annotations
 import numpy as np
 
 from advisory.tables import lookup as lk
+from tests.twins.lookup import lookup_twin
+
+
+def lookup_rows_kernel_twin(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                            cutoff, cells, rows, codes, cutoffs) -> None:
+    """Twin of :func:`advisory.pipeline.footprint.lookup_rows_kernel`: every point looked
+    up on its own (no reuse of the point before)."""
+    for k in range(alt.size):
+        codes[k], cutoffs[k] = lookup_twin(alt[k], mach[k], fpa[k], heading_true[k], ax_alt,
+                                           ax_mex, ax_fpa, ax_hdg, cutoff, cells, rows[k])
 
 
 def place_kernel_twin(t, east, north, heading_grid, rows, codes):

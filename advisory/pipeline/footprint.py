@@ -15,8 +15,23 @@ Jacobian ``J = dX/dt x dX/dphi``. For steady flight ``dX/dt`` is the ground velo
 along the actual trajectory it is the finite difference of successive footprints. Linear
 acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoustics*,
 1989, ch. 8, ray-tube area); a sign change of ``J`` between successive emissions is a
-fold (a caustic on the ground). The amplification is bounded by
-:data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP`.
+fold (a caustic on the ground), and so is an inverted map (``J`` of the other sign) at
+the first emission of a run on the ground, whose neighbour before it is unknown, or over
+either one-sided difference. The factor ``sqrt(|J_steady / J_actual|)`` applies both ways
+away from a fold: above 1 where the tubes converge (the inside of a turn, a pull-up),
+below 1 where they spread (a deceleration, the outside of a turn), as the truth's direct
+tracing has it (:func:`advisory.bench.truth.amplification_of`). Of the backward and
+forward differences the larger factor counts: where the manoeuvre changes between two
+emissions (a deceleration ends) a central difference blends the spreading before with
+the steady flight after, and under-states the boom. The factor is bounded by
+:data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP` above, which a fold gets, and
+by :data:`ATTENUATION_FLOOR` below.
+
+Before, every spreading tube kept the factor 1 and every inverted map the cap: slowing
+from Mach 1.89 (campaign --known, seed 1, encounter 15) was never offered although the
+truth has it keep a zone under its limit; a deceleration at 0.01 per s from Mach 1.9
+was predicted at 1.28 times the truth's overpressure (median; 2.0 at the 95th
+percentile), now 1.00 (``tests/test_tube_spreading.py``).
 
 The lookup, placement and focus kernels have numpy twins (``lookup_rows_kernel_twin``,
 ``place_kernel_twin``, ``focus_kernel_twin`` in ``tests/twins/footprint.py``) compared in
@@ -35,6 +50,10 @@ from advisory.physics.signature import FOCUS_AMPLIFICATION_CAP
 from advisory.pipeline.trajectory import Trajectory
 from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
+
+#: Smallest amplification where the ray tubes spread (project choice, no source): the
+#: finite difference over emissions ``step_s`` apart is not trusted to attenuate further.
+ATTENUATION_FLOOR = 0.5
 
 
 @njit(cache=True)
@@ -101,6 +120,17 @@ def place_kernel(t, east, north, heading_grid, rows, codes, out_e, out_n, out_t,
 
 
 @njit(cache=True)
+def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
+    """``J_steady / J_actual`` of azimuth ``j`` from the ground points of emissions ``ka``
+    and ``kb`` (``inf`` when the actual area vanishes)."""
+    dt = t[kb] - t[ka]
+    te = (ground_e[kb, j] - ground_e[ka, j]) / dt
+    tn = (ground_n[kb, j] - ground_n[ka, j]) / dt
+    j_act = te * dn - tn * de
+    return j_std / j_act if j_act != 0.0 else math.inf
+
+
+@njit(cache=True)
 def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, out):
     """Focus amplification per (k, j); see the module notes. Never NaN."""
     nk, nj = ground_e.shape
@@ -119,26 +149,32 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, 
         k1 = k + 1 if k < nk - 1 and codes[k + 1] != lk.NO_BOOM else k
         if k1 == k0:
             continue
-        dt = t[k1] - t[k0]
         for j in range(nj):
             de = dphi_e[k, j]
             dn = dphi_n[k, j]
             if not (math.isfinite(de) and math.isfinite(dn)):
                 continue
-            te = (ground_e[k1, j] - ground_e[k0, j]) / dt
-            tn = (ground_n[k1, j] - ground_n[k0, j]) / dt
-            j_act = te * dn - tn * de
             j_std = vg_e[k] * dn - vg_n[k] * de
             if j_std == 0.0:
                 continue
-            ratio = j_std / j_act if j_act != 0.0 else math.inf
+            ratio = _tube_ratio(t, ground_e, ground_n, k0, k1, j, de, dn, j_std)
             sign = 1.0 if ratio > 0.0 else -1.0
-            if ratio <= 0.0 or (prev_sign[j] != 0.0 and sign != prev_sign[j]):
-                amp = cap  # a fold: the ray map turns over between emissions
-            elif ratio > 1.0:
-                amp = min(math.sqrt(ratio), cap)
-            else:
-                amp = 1.0
+            fold = prev_sign[j] != 0.0 and sign != prev_sign[j]
+            amp = cap  # a fold: the ray map turns over between emissions
+            if not (fold or (ratio <= 0.0 and prev_sign[j] == 0.0)
+                    or not math.isfinite(ratio)):
+                # the larger of the two one-sided factors: where the manoeuvre changes
+                # between emissions (a deceleration ends) the central difference blends
+                # the two and under-states the steady boom after it
+                amp = 0.0
+                for ka, kb in ((k0, k), (k, k1)):
+                    r = ratio if kb == ka else _tube_ratio(t, ground_e, ground_n, ka, kb,
+                                                           j, de, dn, j_std)
+                    if r <= 0.0 or not math.isfinite(r):
+                        amp = cap
+                        break
+                    amp = max(amp, math.sqrt(r))
+                amp = min(max(amp, ATTENUATION_FLOOR), cap)
             prev_sign[j] = sign
             out[k, j] = amp
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from advisory.pipeline.footprint import ATTENUATION_FLOOR
 from advisory.tables import lookup as lk
 from tests.twins.lookup import lookup_twin
 
@@ -59,9 +60,27 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, 
             ratio = np.where(j_act != 0.0, j_std / j_act, np.inf)
         usable = np.isfinite(dphi_e[k]) & np.isfinite(dphi_n[k]) & (j_std != 0.0)
         sign = np.where(ratio > 0.0, 1.0, -1.0)
-        fold = (ratio <= 0.0) | ((prev_sign != 0.0) & (sign != prev_sign))
-        amp = np.where(fold, cap, np.where(ratio > 1.0, np.minimum(np.sqrt(
-            np.where(ratio > 1.0, ratio, 1.0)), cap), 1.0))
+        fold = (((prev_sign != 0.0) & (sign != prev_sign))
+                | ((ratio <= 0.0) & (prev_sign == 0.0)) | ~np.isfinite(ratio))
+        # one-sided ratios (backward k0 -> k, forward k -> k1); the larger factor counts,
+        # a one-sided inversion is a fold
+        sides = []
+        for ka, kb in ((k0, k), (k, k1)):
+            if ka == kb:
+                sides.append(ratio)
+                continue
+            with np.errstate(divide="ignore", invalid="ignore"):
+                ja = ((ground_e[kb] - ground_e[ka]) * dphi_n[k]
+                      - (ground_n[kb] - ground_n[ka]) * dphi_e[k]) / (t[kb] - t[ka])
+                sides.append(np.where(ja != 0.0, j_std / ja, np.inf))
+        with np.errstate(invalid="ignore"):
+            bad = np.zeros(nj, dtype=bool)
+            tube = np.zeros(nj)
+            for r in sides:
+                bad |= (r <= 0.0) | ~np.isfinite(r)
+                tube = np.maximum(tube, np.sqrt(np.abs(r)))
+            tube = np.where(bad, cap, np.clip(tube, ATTENUATION_FLOOR, cap))
+        amp = np.where(fold, cap, tube)
         out[k] = np.where(usable, amp, 1.0)
         prev_sign = np.where(usable, sign, prev_sign)
     return out

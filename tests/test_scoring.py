@@ -97,7 +97,8 @@ def test_exposure_fields_worked_by_hand():
     assert set(doc["exposures"][0]) == {
         "zone_id", "first_arrival_s", "last_arrival_s", "peak_psf", "exceeds_limit",
         "unavoidable_from_s", "first_advisory_s", "first_caution_s", "first_warning_s",
-        "lead_time_s", "missed", "outcome",  # docs/scenarios.md, "What simulate reports"
+        "first_unavoidable_s", "lead_time_s", "missed",
+        "outcome",  # docs/scenarios.md, "What simulate reports"
         "first_arrival_inside_s", "peak_psf_inside"}  # the extras for the zone itself
     assert e["first_arrival_inside_s"] == pytest.approx(70.0)  # no margin: all inside
     assert e["peak_psf_inside"] == pytest.approx(1.5)

@@ -106,7 +106,8 @@ def text_lines(result: CampaignResult) -> list[str]:
 
 
 def _first_alert(e: dict[str, Any]) -> float | None:
-    times = [e.get(k) for k in ("first_advisory_s", "first_caution_s", "first_warning_s")]
+    times = [e.get(k) for k in ("first_advisory_s", "first_caution_s", "first_warning_s",
+                                "first_unavoidable_s")]
     given = [float(t) for t in times if t is not None]
     return min(given) if given else None
 

@@ -9,9 +9,10 @@ reports"):
 * **exposure** (one per zone that some boom reached): first and last arrival, peak
   overpressure, whether it exceeds the zone's limit, ``unavoidable_from_s`` (the emission
   time of the earliest-emitted boom that reaches the zone: from then on a boom is on its
-  way and no action can call it back), the first advisory, caution and warning naming the
-  zone, ``lead_time_s`` (``unavoidable_from_s`` minus the first alert of any level;
-  negative when the alert came after), ``missed`` spans and ``outcome``.
+  way and no action can call it back), the first advisory, caution, warning and
+  ``unavoidable`` naming the zone, ``lead_time_s`` (``unavoidable_from_s`` minus the
+  first alert of any level; negative when the alert came after), ``missed`` spans and
+  ``outcome``.
 * **missed span**: a time where the status said ``clear`` or ``no_boom`` while a boom
   that reaches the zone was on its way into it (between its emission and its arrival).
 * **outcome**: ``missed`` (no alert naming the zone before its first arrival), ``late``
@@ -60,7 +61,8 @@ class FlightScore:
         One per zone some boom reached, with the fields of ``docs/scenarios.md``:
         ``zone_id``, ``first_arrival_s``, ``last_arrival_s``, ``peak_psf``,
         ``exceeds_limit``, ``unavoidable_from_s``, ``first_advisory_s``,
-        ``first_caution_s``, ``first_warning_s``, ``lead_time_s``, ``missed``
+        ``first_caution_s``, ``first_warning_s``, ``first_unavoidable_s``,
+        ``lead_time_s``, ``missed``
         (list of ``[t0_s, t1_s]``), ``outcome``; and two extra fields,
         ``first_arrival_inside_s`` and ``peak_psf_inside``, for the booms inside the zone
         itself rather than its margin; times in s after the flight's start, None where
@@ -180,6 +182,7 @@ def score_exposure(zone: TruthZone, emission_s: np.ndarray, arrival_s: np.ndarra
         "first_advisory_s": first["advisory"],
         "first_caution_s": first["caution"],
         "first_warning_s": first["warning"],
+        "first_unavoidable_s": first["unavoidable"],
         "lead_time_s": lead,
         "missed": [[a, b] for a, b in missed],
         "outcome": outcome,

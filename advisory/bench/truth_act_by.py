@@ -21,7 +21,8 @@ and each turn with the deceleration.
   :data:`TOLERANCE_S` between that earliest start and the first emission over the limit,
   with the actions that cleared at the earliest start (assumes a later start never
   clears when an earlier one does not: common practice, no source).
-* ``alerted_in_time``: the first alert naming the zone (any alert status) came at least
+* ``alerted_in_time``: the first alert naming the zone (any alert status, ``unavoidable``
+  included: a boom on its way names the zone too) came at least
   the reaction time before ``act_by_s``.
 
 This module is the bench's; the core never imports it. ADVISORY AID ONLY: not certified
@@ -135,7 +136,7 @@ def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_o
     visible = visible_from(sc, emitted_over)
     earliest = visible + react
     alerts = [exposure.get(k) for k in ("first_advisory_s", "first_caution_s",
-                                         "first_warning_s")]
+                                         "first_warning_s", "first_unavoidable_s")]
     first_alert = min((a for a in alerts if a is not None), default=None)
     out: dict[str, Any] = {"visible_s": visible, "earliest_s": earliest, "avoidable": False,
                            "action": None, "act_by_s": None, "first_alert_s": first_alert,

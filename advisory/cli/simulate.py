@@ -57,7 +57,8 @@ def human_lines(doc: dict[str, Any], wall_s: float) -> list[str]:
             f"{e['peak_psf']:.2f} psf{' (over limit)' if e['exceeds_limit'] else ''}; "
             f"unavoidable from {_t(e['unavoidable_from_s'])}; first advisory "
             f"{_t(e['first_advisory_s'])}, caution {_t(e['first_caution_s'])}, warning "
-            f"{_t(e['first_warning_s'])}; lead time {lead}")
+            f"{_t(e['first_warning_s'])}, unavoidable "
+            f"{_t(e.get('first_unavoidable_s'))}; lead time {lead}")
         for a, b in e["missed"]:
             lines.append(f"    MISSED {a:.1f}-{b:.1f} s: clear/no boom while a boom was on "
                          "its way into the zone")

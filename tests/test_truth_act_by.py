@@ -20,21 +20,22 @@ from advisory.bench.flight import Segment
 from advisory.bench.scoring import zone_hits
 from advisory.bench.sim_scenario import scenario_from_dict
 from advisory.bench.sim_world import build_world
-from advisory.bench.truth_act_by import TOLERANCE_S, actions, peak_after, visible_from
+from advisory.bench.truth_act_by import TOLERANCE_S, actions, peak_after, schedule_until
 
 
-def test_the_flight_leads_into_the_zone_from_its_last_segment_begun_before_the_boom():
-    # worked by hand from the definition: the schedule's segments at 10, 40 and 80 s
+def test_the_flight_as_planned_up_to_a_moment_keeps_what_had_begun():
+    # worked by hand from the definition: segments at 10 s, an untimed hold after it,
+    # 40 s and 80 s
     sc = scenario_from_dict(sample_encounter(1, 40, known=True).doc)
-    sc = replace(sc, schedule=(
-        Segment("turn", at_s=10.0, bank_deg=20.0, heading_change_deg=10.0),
-        Segment("hold", duration_s=5.0),  # no fixed start: not a moment the flight turned
-        Segment("climb", at_s=40.0, fpa_deg=-2.0, target_alt_ft=40000.0),
-        Segment("mach", at_s=80.0, target_mach=1.5, mach_rate_per_s=0.01)))
-    assert visible_from(sc, 50.0) == 40.0
-    assert visible_from(sc, 40.0) == 40.0
-    assert visible_from(sc, 20.0) == 10.0
-    assert visible_from(sc, 5.0) == 0.0
+    turn = Segment("turn", at_s=10.0, bank_deg=20.0, heading_change_deg=10.0)
+    hold = Segment("hold", duration_s=5.0)
+    climb = Segment("climb", at_s=40.0, fpa_deg=-2.0, target_alt_ft=40000.0)
+    slow = Segment("mach", at_s=80.0, target_mach=1.5, mach_rate_per_s=0.01)
+    sc = replace(sc, schedule=(turn, hold, climb, slow))
+    assert schedule_until(sc, 5.0) == ()
+    assert schedule_until(sc, 10.0) == (turn, hold)
+    assert schedule_until(sc, 50.0) == (turn, hold, climb)
+    assert schedule_until(sc, 100.0) == (turn, hold, climb, slow)
 
 
 def _ignore_run(index: int):
@@ -73,6 +74,22 @@ def test_an_avoidable_exposure_holds_at_its_act_by_and_not_after():
 
 
 @pytest.mark.slow
+def test_a_flight_already_heading_into_the_zone_is_avoidable_before_its_planned_turn():
+    # encounter 15: Mach 1.89 at 33,200 ft toward a zone (1.36 psf limit), a 40-deg turn
+    # planned at 37.3 s. The straight flight alone puts a boom over the limit in the
+    # zone, so the flight led into it from the start (visible at 0, not at the turn):
+    # the crew's own deceleration from the reaction time on keeps the later booms under
+    # the limit in truth.
+    sc, world, res = _ignore_run(15)
+    (e,) = [e for e in res.score.exposures if e["exceeds_limit"]]
+    act = e["truth_act_by"]
+    assert act["visible_s"] == 0.0 and act["avoidable"], act
+    zone = world.truth_zones[0]
+    straight = peak_after(sc, world, zone, 0.0, (), schedule_until(sc, 0.0))
+    assert straight > zone.limit_psf
+
+
+@pytest.mark.slow
 def test_a_planned_push_over_near_cutoff_is_not_avoidable_before_it_begins():
     # encounter 18: level at Mach 1.144 (no boom reaches the ground) until a descent
     # planned at 37.1 s; the first boom over the limit is emitted before the crew could
@@ -81,4 +98,5 @@ def test_a_planned_push_over_near_cutoff_is_not_avoidable_before_it_begins():
     (e,) = [e for e in res.score.exposures if e["exceeds_limit"]]
     act = e["truth_act_by"]
     assert act["visible_s"] == pytest.approx(37.1)
-    assert not act["avoidable"] and act["act_by_s"] is None and act["flights"] == 0
+    assert not act["avoidable"] and act["act_by_s"] is None
+    assert act["flights"] == 1  # the level flight without the descent: no boom over it

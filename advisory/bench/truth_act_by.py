@@ -12,9 +12,10 @@ booms emitted before were on their way already. The actions are the crew's own
 (its deceleration, bank and roll rate): slowing to Mach 1.0, a 90-deg turn either way,
 and each turn with the deceleration.
 
-* ``visible_s``: the start of the schedule's last segment begun at or before the first
-  emission over the limit (0 without one): before it, the flight the advisor sees does
-  not lead into the zone (no advisor can foresee a planned manoeuvre).
+* ``visible_s``: when the flight led into the zone: 0 when the flight planned up to the
+  start (then holding) already puts a boom over the limit, else the start of the first
+  planned segment from which it does (:func:`visible_from`): no advisor can foresee a
+  planned manoeuvre.
 * ``avoidable``: some action started at ``visible_s`` plus the crew's reaction time
   clears.
 * ``act_by_s``: the latest start that still clears, by bisection to
@@ -69,16 +70,19 @@ def actions(sc: Scenario) -> dict[str, tuple[Segment, ...]]:
 
 
 def peak_after(sc: Scenario, world: World, zone: TruthZone, t_act: float,
-               segments: tuple[Segment, ...]) -> float:
+               segments: tuple[Segment, ...], schedule: tuple[Segment, ...] | None = None
+               ) -> float:
     """Peak overpressure (psf) in ``zone`` of the booms emitted from ``t_act`` on, with the
-    crew taking over with ``segments`` at ``t_act`` (0 when none lands)."""
+    crew taking over with ``segments`` at ``t_act`` (none: the schedule flown on), the
+    scenario's schedule or ``schedule`` flown before (0 when none lands)."""
     st = sc.start
     state = FlightState(world.true_atmosphere, st.lat_deg, st.lon_deg, st.alt_ft, st.mach,
                         st.heading_deg, st.fpa_deg, st.bank_deg)
-    pilot, track = Pilot(sc.schedule), FlightTrack()
+    pilot = Pilot(sc.schedule if schedule is None else schedule)
+    track = FlightTrack()
     n = int(math.ceil(sc.duration_s / STEP_S))
     dt = sc.duration_s / n
-    acted = False
+    acted = not segments
     for i in range(n + 1):
         t = i * dt
         if not acted and t >= t_act - 0.5 * dt:
@@ -101,12 +105,35 @@ def peak_after(sc: Scenario, world: World, zone: TruthZone, t_act: float,
     return float(after.max()) if after.size else 0.0
 
 
-def visible_from(sc: Scenario, first_over_s: float) -> float:
-    """Start of the schedule's last segment begun at or before ``first_over_s`` (s), else
-    0 (segments without a fixed start are taken to start at 0: conservative)."""
-    starts = [float(seg.at_s) for seg in sc.schedule
-              if seg.at_s is not None and seg.at_s <= first_over_s]
-    return max(starts, default=0.0)
+def schedule_until(sc: Scenario, t_s: float) -> tuple[Segment, ...]:
+    """The schedule's segments begun by ``t_s``: those with a fixed start at or before it
+    and, in the queue's order, the ones without a fixed start before the first later one
+    (the flight as it was planned up to ``t_s``, holding afterwards)."""
+    out = []
+    for seg in sc.schedule:
+        if seg.at_s is not None and seg.at_s > t_s:
+            break
+        out.append(seg)
+    return tuple(out)
+
+
+def visible_from(sc: Scenario, world: World, zone: TruthZone, first_over_s: float
+                 ) -> tuple[float, int]:
+    """When the flight led into the zone (s) and the truth flights flown to find it.
+
+    The candidates are 0 and the fixed starts of the schedule's segments up to
+    ``first_over_s``; the first candidate whose flight (the schedule up to it, then
+    holding: :func:`schedule_until`) puts a boom over the zone's limit is the answer. A
+    planned manoeuvre that leads into the zone is not foreseeable before it begins; a
+    flight already on its way into the zone is, whatever is planned later."""
+    starts = sorted({0.0, *(float(seg.at_s) for seg in sc.schedule
+                            if seg.at_s is not None and seg.at_s <= first_over_s)})
+    flights = 0
+    for c in starts[:-1]:
+        flights += 1
+        if peak_after(sc, world, zone, 0.0, (), schedule_until(sc, c)) > zone.limit_psf:
+            return c, flights
+    return starts[-1], flights
 
 
 def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_over: float
@@ -133,14 +160,14 @@ def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_o
     """
     zone = next(z for z in world.truth_zones if z.zone_id == exposure["zone_id"])
     react = sc.crew.reaction_s
-    visible = visible_from(sc, emitted_over)
+    visible, flights = visible_from(sc, world, zone, emitted_over)
     earliest = visible + react
     alerts = [exposure.get(k) for k in ("first_advisory_s", "first_caution_s",
                                          "first_warning_s", "first_unavoidable_s")]
     first_alert = min((a for a in alerts if a is not None), default=None)
     out: dict[str, Any] = {"visible_s": visible, "earliest_s": earliest, "avoidable": False,
                            "action": None, "act_by_s": None, "first_alert_s": first_alert,
-                           "alerted_in_time": None, "flights": 0}
+                           "alerted_in_time": None, "flights": flights}
     if earliest >= emitted_over:
         return out
     acts = actions(sc)

@@ -53,6 +53,10 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     assert np.all(np.isfinite(amp)) and np.all((amp >= ATTENUATION_FLOOR) & (amp <= 5.0))
+    first = nk // 3  # a trial's first judged emission: its forward factor only
+    focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, amp, first)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, first)
+    np.testing.assert_allclose(amp, twin, rtol=1e-12)
 
 
 @pytest.mark.parametrize("bank, mach, rate", [(0.0, 1.6, 0.0), (30.0, 1.6, 0.0),

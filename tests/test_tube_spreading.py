@@ -113,3 +113,16 @@ def test_a_mach_resolution_is_judged_at_full_strength_once_the_deceleration_ends
     # the larger one-sided factor counts: what is offered holds against the truth.
     res = _follow(index)
     assert not res["followed"] or not res["exceeds_after_action"], res
+
+
+@pytest.mark.slow
+def test_the_first_judged_boom_of_a_deceleration_is_judged_by_its_own_spreading():
+    # campaign --known, seed 1, encounter 20: crossing a zone (0.89 psf limit) at Mach
+    # 1.40, booms already on their way from the start. The truth has slowing from the
+    # reaction time on keep every later boom at 0.54 psf or less (its emissions 0.1 s
+    # apart spread from the first one on). The trials judged the boom emitted at the
+    # onset itself with the backward difference too, i.e. at steady strength (1.05 psf):
+    # nothing was offered. Now its forward factor counts: a Mach resolution, and it holds.
+    res = _follow(20)
+    assert res["followed"] and res["kind"] == "mach", res
+    assert not res["exceeds_after_action"], res

@@ -23,9 +23,11 @@ below 1 where they spread (a deceleration, the outside of a turn), as the truth'
 tracing has it (:func:`advisory.bench.truth.amplification_of`). Of the backward and
 forward differences the larger factor counts: where the manoeuvre changes between two
 emissions (a deceleration ends) a central difference blends the spreading before with
-the steady flight after, and under-states the boom. The factor is bounded by
-:data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP` above, which a fold gets, and
-by :data:`ATTENUATION_FLOOR` below.
+the steady flight after, and under-states the boom. A trial's first judged emission
+(the crew's reaction time) takes its forward factor only: the booms before it are not
+judged, and a deceleration begun then spreads the tubes from its first boom on. The
+factor is bounded by :data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP` above,
+which a fold gets, and by :data:`ATTENUATION_FLOOR` below.
 
 Before, every spreading tube kept the factor 1 and every inverted map the cap: slowing
 from Mach 1.89 (campaign --known, seed 1, encounter 15) was never offered although the
@@ -131,8 +133,15 @@ def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
 
 
 @njit(cache=True)
-def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, out):
-    """Focus amplification per (k, j); see the module notes. Never NaN."""
+def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, out,
+                 first=-1):
+    """Focus amplification per (k, j); see the module notes. Never NaN.
+
+    ``first``: the first emission judged (a trial's, at the crew's reaction time; -1:
+    none). Its backward difference spans booms emitted before it, which are not judged:
+    only its forward factor counts (a deceleration begun at the reaction time spreads
+    the tubes of the booms emitted from then on; the truth's finely spaced emissions
+    have it so)."""
     nk, nj = ground_e.shape
     for k in range(nk):
         for j in range(nj):
@@ -168,6 +177,8 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, 
                 # the two and under-states the steady boom after it
                 amp = 0.0
                 for ka, kb in ((k0, k), (k, k1)):
+                    if k == first and kb == k and k1 > k:
+                        continue  # the first judged emission: forward only
                     r = ratio if kb == ka else _tube_ratio(t, ground_e, ground_n, ka, kb,
                                                            j, de, dn, j_std)
                     if r <= 0.0 or not math.isfinite(r):

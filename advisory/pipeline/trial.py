@@ -250,8 +250,8 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         vg_e[kk] = fl[8, k_lo + kk] * math.sin(fl[7, k_lo + kk])
         vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
     amp = np.ones((nk, ns))
-    focus_kernel(tk, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp)
     skip = k0 - k_lo  # the emission before k0 is only for the focus
+    focus_kernel(tk, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp, skip)
     m = nk - skip
     on_ground = np.empty(m, dtype=np.bool_)
     eff = np.empty((m, ns))

@@ -34,7 +34,8 @@ def place_kernel_twin(t, east, north, heading_grid, rows, codes):
     return tuple(np.where(dead, np.nan, a) for a in (e, n, tt, de, dn))
 
 
-def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap) -> np.ndarray:
+def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap,
+                      first: int = -1) -> np.ndarray:
     """Readable twin of :func:`advisory.pipeline.footprint.focus_kernel`; returns the
     amplification array."""
     nk, nj = ground_e.shape
@@ -66,6 +67,8 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, 
         # a one-sided inversion is a fold
         sides = []
         for ka, kb in ((k0, k), (k, k1)):
+            if k == first and kb == k and k1 > k:
+                continue  # the first judged emission: its forward factor only
             if ka == kb:
                 sides.append(ratio)
                 continue

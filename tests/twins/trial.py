@@ -109,9 +109,9 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
                                        table.cells, rows[i])
     tk = t[lo:]
     e, n, ta, de, dn = place_kernel_twin(tk, fl[0, lo:], fl[1, lo:], fl[5, lo:], rows, codes)
-    amp = focus_kernel_twin(tk, e, n, de, dn, fl[8, lo:] * np.sin(fl[7, lo:]),
-                            fl[8, lo:] * np.cos(fl[7, lo:]), codes, focus_cap)
     s = k0 - lo
+    amp = focus_kernel_twin(tk, e, n, de, dn, fl[8, lo:] * np.sin(fl[7, lo:]),
+                            fl[8, lo:] * np.cos(fl[7, lo:]), codes, focus_cap, s)
     pred = CarpetPrediction(
         t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],
         arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],

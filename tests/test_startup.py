@@ -121,3 +121,37 @@ def test_a_bad_file_at_start_up_ends_with_a_final_frame(tmp_path, small_table_pa
     status = [f.fields for _, f in lis.frames if f.type == "status"]
     assert status[-1]["state"] == "unavailable"
     assert status[-1]["reason"].startswith("service stopped (start failed: --zones")
+
+
+def test_a_library_failing_after_a_stop_signal_during_start_up_is_a_clean_stop(
+        monkeypatch, small_table_path, zones_file) -> None:  # noqa: F811
+    # Seen in a whole-suite run with an empty numba cache: SIGTERM arrived while numba
+    # compiled a kernel, and numba then failed on its own while saving it ("no compiled
+    # object yet for <Library '_fold_back'>"): exit 1 with a traceback instead of the clean
+    # stop of ICD 17.7. The signal is the cause: exit 0 and the final frames.
+    import advisory.service.runner as runner
+    from advisory.service.settings import RunSettings
+    from advisory.service.startup import StartingPhase
+
+    lis = Listener()
+    phase = StartingPhase(lis.url)
+    phase.start()  # the output open, as ``run`` has it before the service loads
+
+    def interrupted(*_a, **_k):
+        phase.stop_reason = "SIGTERM"  # what the handler records before it raises
+        raise RuntimeError("no compiled object yet for <Library '_fold_back'>")
+
+    monkeypatch.setattr(runner, "_start_and_run", interrupted)
+    settings = RunSettings(f"udp://127.0.0.1:{free_udp_port()}", lis.url, str(zones_file),
+                           table=str(small_table_path))
+    try:
+        assert runner.run_service(settings, phase) == 0
+        deadline = time.monotonic() + 5.0
+        while time.monotonic() < deadline and not any(
+                f.type == "status" and f.fields["reason"] == "service stopped (SIGTERM)"
+                for _, f in list(lis.frames)):
+            time.sleep(0.05)
+        assert any(f.type == "status" and f.fields["reason"] == "service stopped (SIGTERM)"
+                   for _, f in list(lis.frames)), lis.frames
+    finally:
+        lis.close()

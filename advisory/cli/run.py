@@ -93,6 +93,13 @@ def run_command(args: argparse.Namespace) -> int:
         phase.final(f"service stopped ({exc.args[0]})")
         phase.restore_signals()
         return 0
+    except Exception:
+        if not phase.stop_reason:
+            raise
+        # a library interrupted mid-way by the stop signal, failing on its own after it
+        phase.final(f"service stopped ({phase.stop_reason})")
+        phase.restore_signals()
+        return 0
     return run_service(settings, phase)
 
 

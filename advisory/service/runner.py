@@ -318,7 +318,19 @@ def run_service(s: RunSettings, phase: StartingPhase | None = None) -> int:
         log_event("stopping", reason=f"{reason} during start-up")
         phase.final(reason)
         return EXIT_OK
-    except BaseException as exc:  # a bad file or URL: say so on the output, then exit
+    except Exception as exc:
+        if not (phase.starting and phase.stop_reason):
+            if phase.starting:  # a bad file or URL: say so on the output, then exit
+                phase.final(clip(f"service stopped (start failed: {exc})"))
+            raise
+        # The stop signal interrupted a library mid-way (numba saving a kernel it was
+        # compiling when the signal came: "no compiled object yet"), which then failed
+        # on its own: the signal is the cause, and the stop is a clean one (ICD 17.7).
+        reason = f"service stopped ({phase.stop_reason})"
+        log_event("stopping", reason=f"{reason} during start-up ({type(exc).__name__})")
+        phase.final(reason)
+        return EXIT_OK
+    except BaseException as exc:
         if phase.starting:
             phase.final(clip(f"service stopped (start failed: {exc})"))
         raise

@@ -49,6 +49,18 @@ def overpressure_pairs(t_now, adv, path, gm, ahead: bool):
     return np.array(pairs)
 
 
+def assert_near_truth(pairs: np.ndarray) -> None:
+    """At least 200 (advisor, truth) pairs, their ratio's median within 3 % of 1 and its
+    5th-95th percentiles within 10 %. Tolerances: the steady overpressure agrees to
+    0.15 % (test_carpet); the rest is the finite difference over 3-s emissions against
+    the truth's 0.5-s ones (project choice)."""
+    assert len(pairs) >= 200
+    ratio = pairs[:, 0] / pairs[:, 1]
+    p5, med, p95 = np.percentile(ratio, [5, 50, 95])
+    assert abs(med - 1.0) < 0.03 and p95 < 1.10 and p5 > 0.90, (
+        f"advisor / truth overpressure: 5th {p5:.3f}, median {med:.3f}, 95th {p95:.3f}")
+
+
 def test_a_deceleration_predicts_the_truths_weaker_boom(small_table) -> None:
     # Mach 1.9 at 45,000 ft, slowing at 0.01 per s from T+20 s; the advisor's prediction
     # at T+40 s (mid-deceleration, the Mach rate in its state) against the truth of the
@@ -61,13 +73,7 @@ def test_a_deceleration_predicts_the_truths_weaker_boom(small_table) -> None:
     _, adv = fly_and_advise(small_table, 40.0, mach=1.9, mach_commands=cmd)
     path, gm = truth_map(samples, since_s=0.0)
     pairs = overpressure_pairs(40.0, adv, path, gm, ahead=True)
-    assert len(pairs) >= 200
-    ratio = pairs[:, 0] / pairs[:, 1]
-    p5, med, p95 = np.percentile(ratio, [5, 50, 95])
-    # tolerances: the steady overpressure agrees to 0.15 % (test_carpet); the rest is the
-    # finite difference over 3-s emissions against the truth's 0.5-s ones (project choice)
-    assert abs(med - 1.0) < 0.03 and p95 < 1.10 and p5 > 0.90, (
-        f"advisor / truth overpressure: 5th {p5:.3f}, median {med:.3f}, 95th {p95:.3f}")
+    assert_near_truth(pairs)
     assert float(np.min(adv.last_prediction.focus_factor)) >= ATTENUATION_FLOOR
 
 
@@ -78,11 +84,7 @@ def test_the_in_air_booms_of_a_deceleration_keep_the_truths_overpressure(small_t
                                   mach_commands=((30.0, 1.3, 0.01),))
     path, gm = truth_map(samples, since_s=0.0)
     pairs = overpressure_pairs(150.0, adv, path, gm, ahead=False)
-    assert len(pairs) >= 200
-    ratio = pairs[:, 0] / pairs[:, 1]
-    p5, med, p95 = np.percentile(ratio, [5, 50, 95])
-    assert abs(med - 1.0) < 0.03 and p95 < 1.10 and p5 > 0.90, (
-        f"advisor / truth overpressure: 5th {p5:.3f}, median {med:.3f}, 95th {p95:.3f}")
+    assert_near_truth(pairs)
 
 
 def _follow(index: int) -> dict:

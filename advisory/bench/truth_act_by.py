@@ -153,8 +153,9 @@ def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_o
     Returns
     -------
     dict
-        ``visible_s``, ``earliest_s``, ``avoidable``, ``action`` (the name of an action
-        that clears at the earliest start, else None), ``act_by_s`` (None when not
+        ``visible_s``, ``earliest_s``, ``avoidable``, ``action`` (the name of the action
+        that cleared at ``act_by_s``, the last one the bisection found clearing; None
+        when not avoidable), ``act_by_s`` (None when not
         avoidable), ``first_alert_s``, ``alerted_in_time`` (None when not avoidable),
         ``flights`` (truth flights flown).
     """

@@ -16,9 +16,15 @@ from advisory.pipeline.footprint import (
     focus_kernel,
     lookup_rows_kernel,
     place_kernel,
+    steady_translation_kernel,
 )
 from advisory.pipeline.trajectory import predict_trajectory
-from tests.twins.footprint import focus_kernel_twin, lookup_rows_kernel_twin, place_kernel_twin
+from tests.twins.footprint import (
+    focus_kernel_twin,
+    lookup_rows_kernel_twin,
+    place_kernel_twin,
+    steady_translation_twin,
+)
 
 C45 = float(standard_atmosphere().at(units.ft_to_m(45000.0)).sound_speed_mps)
 
@@ -29,6 +35,35 @@ def trajectory(bank_deg=0.0, mach=1.6, mach_rate=0.0):
         math.radians(90.0), mach * C45, speed_of_sound=C45, bank_rad=math.radians(bank_deg),
         mach_rate_per_s=mach_rate, wind_east_mps=0.0, wind_north_mps=0.0,
         frame=LocalFrame(math.radians(30.0), math.radians(-140.0)))
+
+
+@pytest.mark.parametrize("fpa_deg, bank, wind_e, wind_n", [(0.0, 0.0, 0.0, 0.0),
+                                                         (-5.0, 0.0, 0.0, 0.0),
+                                                         (8.0, 20.0, 30.0, -15.0),
+                                                         (-10.0, -25.0, -20.0, 40.0)])
+def test_steady_translation_matches_its_twin(small_table, fpa_deg, bank, wind_e, wind_n):
+    # Parity: the kernel (slowness form, the ray module's) and its twin (group-velocity
+    # form) give the same translation of the steady ray pattern; level flight keeps the
+    # ground velocity itself.
+    traj = predict_trajectory(
+        math.radians(30.0), math.radians(-140.0), units.ft_to_m(45000.0), 1.6,
+        math.radians(70.0), 1.6 * C45, speed_of_sound=C45, bank_rad=math.radians(bank),
+        fpa_rad=math.radians(fpa_deg), wind_east_mps=wind_e, wind_north_mps=wind_n,
+        lookahead_s=60.0, frame=LocalFrame(math.radians(30.0), math.radians(-140.0)))
+    fp = FootprintPredictor(small_table)
+    rows, codes, _ = (x.copy() for x in fp.lookup(traj))
+    nk, nj = rows.shape[:2]
+    vg_e = traj.ground_speed_mps * np.sin(traj.track_grid_rad)
+    vg_n = traj.ground_speed_mps * np.cos(traj.track_grid_rad)
+    te, tn = np.empty((nk, nj)), np.empty((nk, nj))
+    steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
+                              traj.fpa_rad, rows, codes, te, tn)
+    twin_e, twin_n = steady_translation_twin(vg_e, vg_n, traj.tas_mps, traj.mach,
+                                             traj.heading_grid_rad, traj.fpa_rad, rows, codes)
+    np.testing.assert_allclose(te, twin_e, rtol=1e-9, atol=1e-9)
+    np.testing.assert_allclose(tn, twin_n, rtol=1e-9, atol=1e-9)
+    if fpa_deg == 0.0:
+        assert np.array_equal(te, np.repeat(vg_e[:, None], nj, axis=1))
 
 
 @pytest.mark.parametrize("bank, mach, rate", [(0.0, 1.6, 0.0), (30.0, 1.6, 0.0),
@@ -48,14 +83,17 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     e, n, _, de, dn = bufs
     vg_e = traj.ground_speed_mps * np.sin(traj.track_grid_rad)
     vg_n = traj.ground_speed_mps * np.cos(traj.track_grid_rad)
+    te, tn = np.empty((nk, nj)), np.empty((nk, nj))
+    steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
+                              traj.fpa_rad, rows, codes, te, tn)
     amp = np.ones((nk, nj))
-    focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, amp)
-    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0)
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     assert np.all(np.isfinite(amp)) and np.all((amp >= ATTENUATION_FLOOR) & (amp <= 5.0))
     first = nk // 3  # a trial's first judged emission: its forward factor only
-    focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, amp, first)
-    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, 5.0, first)
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp, first)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, first)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
 
 

@@ -11,8 +11,13 @@ Focus
 The map from (emission time, azimuth) to the ground folds where the ray tubes of
 successive emissions cross (acceleration through cutoff, turns, push-overs). With
 ``X(t, phi)`` the ground point, the tube area per unit emission time and azimuth is the
-Jacobian ``J = dX/dt x dX/dphi``. For steady flight ``dX/dt`` is the ground velocity;
-along the actual trajectory it is the finite difference of successive footprints. Linear
+Jacobian ``J = dX/dt x dX/dphi``. For steady flight ``dX/dt`` is the translation of the
+ray pattern (:func:`steady_translation_kernel`): the ground velocity plus, climbing or
+diving, the ray's horizontal run per metre of height at the aircraft times the climb
+rate, the tube the table's amplitude was traced with; along the actual trajectory it is
+the finite difference of successive footprints. (With the ground velocity alone a
+steady 5-deg dive was amplified 1.027 times and a 5-deg climb 0.968 times against the
+truth's direct tracing: ``tests/test_dives.py``.) Linear
 acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoustics*,
 1989, ch. 8, ray-tube area); a sign change of ``J`` between successive emissions is a
 fold (a caustic on the ground), and so is an inverted map (``J`` of the other sign) at
@@ -48,6 +53,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from advisory.jit import njit
+from advisory.physics.ray_kernels import emission_slowness, vertical_slowness_sq
 from advisory.physics.signature import FOCUS_AMPLIFICATION_CAP
 from advisory.pipeline.trajectory import Trajectory
 from advisory.tables import lookup as lk
@@ -122,6 +128,45 @@ def place_kernel(t, east, north, heading_grid, rows, codes, out_e, out_n, out_t,
 
 
 @njit(cache=True)
+def steady_translation_kernel(vg_e, vg_n, tas, mach, heading_grid, fpa, rows, codes, out_e,
+                              out_n):
+    """Translation of the steady ray pattern per unit emission time, m/s, per (k, j).
+
+    The ground velocity (``vg_e``, ``vg_n``, frame axes, m/s) plus the slope of ray
+    ``j`` at the aircraft (horizontal run per metre of height) times the climb rate
+    ``tas sin(fpa)``: a steady climb emits each boom from higher up along the same rays.
+    The slope is ``(c0^2 s + w0 omega0) / (c0^2 q0)`` (horizontal over vertical group
+    velocity) with the ray's horizontal slowness ``s`` leaving the Mach cone at the
+    table's azimuth (``rows[k, j, Q_PHI]``; :func:`advisory.physics.ray_kernels.
+    emission_slowness`), ``c0 = tas / mach``, the wind ``w0`` the ground velocity less
+    the air velocity, ``omega0 = 1 - w0 . s`` and ``q0`` the vertical slowness: the
+    steady tube of :meth:`advisory.physics.rays.RayTracer.trace`, which the table's
+    amplitude holds (Pierce, *Acoustics*, 1989, ch. 8, ray tubes in a moving medium).
+    Level flight, and emissions without a boom: the ground velocity."""
+    nk, nj = out_e.shape
+    for k in range(nk):
+        vz = tas[k] * math.sin(fpa[k])
+        for j in range(nj):
+            out_e[k, j] = vg_e[k]
+            out_n[k, j] = vg_n[k]
+        if vz == 0.0 or codes[k] == lk.NO_BOOM or not mach[k] > 1.0:
+            continue
+        c0 = tas[k] / mach[k]
+        vh = tas[k] * math.cos(fpa[k])
+        w_e = vg_e[k] - vh * math.sin(heading_grid[k])
+        w_n = vg_n[k] - vh * math.cos(heading_grid[k])
+        for j in range(nj):
+            sx, sy, nz, _, _ = emission_slowness(mach[k], heading_grid[k], fpa[k],
+                                                 rows[k, j, lk.Q_PHI], c0, w_e, w_n)
+            om, qq, _, _ = vertical_slowness_sq(c0, w_e, w_n, sx, sy)
+            if nz >= 0.0 or qq <= 0.0:
+                continue  # an up-going or grazing ray: no tube to compare
+            den = c0 * c0 * math.sqrt(qq)
+            out_e[k, j] = vg_e[k] + (c0 * c0 * sx + w_e * om) / den * vz
+            out_n[k, j] = vg_n[k] + (c0 * c0 * sy + w_n * om) / den * vz
+
+
+@njit(cache=True)
 def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
     """``J_steady / J_actual`` of azimuth ``j`` from the ground points of emissions ``ka``
     and ``kb`` (``inf`` when the actual area vanishes)."""
@@ -133,9 +178,12 @@ def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
 
 
 @njit(cache=True)
-def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, out,
+def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap, out,
                  first=-1):
     """Focus amplification per (k, j); see the module notes. Never NaN.
+
+    ``trans_e``, ``trans_n``: the steady translation per (k, j), m/s
+    (:func:`steady_translation_kernel`).
 
     ``first``: the first emission judged (a trial's, at the crew's reaction time; -1:
     none). Its backward difference spans booms emitted before it, which are not judged:
@@ -163,7 +211,7 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap, 
             dn = dphi_n[k, j]
             if not (math.isfinite(de) and math.isfinite(dn)):
                 continue
-            j_std = vg_e[k] * dn - vg_n[k] * de
+            j_std = trans_e[k, j] * dn - trans_n[k, j] * de
             if j_std == 0.0:
                 continue
             ratio = _tube_ratio(t, ground_e, ground_n, k0, k1, j, de, dn, j_std)
@@ -287,7 +335,11 @@ class FootprintPredictor:
         amp = np.ones((nk, nj))
         vg_e = traj.ground_speed_mps * np.sin(traj.track_grid_rad)
         vg_n = traj.ground_speed_mps * np.cos(traj.track_grid_rad)
-        focus_kernel(traj.t_s, e, n, de, dn, vg_e, vg_n, codes, self.focus_cap, amp)
+        te = np.empty((nk, nj))
+        tn = np.empty((nk, nj))
+        steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
+                                  traj.fpa_rad, rows, codes, te, tn)
+        focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, self.focus_cap, amp)
         return CarpetPrediction(
             t_emit_s=traj.t_s, codes=codes, cutoff_mach=cutoffs, east_m=e, north_m=n,
             arrival_s=ta, overpressure_pa=rows[:, :, lk.Q_DP].copy(),

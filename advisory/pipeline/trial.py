@@ -40,7 +40,7 @@ import numpy as np
 
 from advisory.jit import njit
 from advisory.pipeline.conflicts import conflict_kernel
-from advisory.pipeline.footprint import focus_kernel, place_kernel
+from advisory.pipeline.footprint import focus_kernel, place_kernel, steady_translation_kernel
 from advisory.pipeline.trajectory import ground_to_plane
 from advisory.tables import lookup as lk
 
@@ -246,12 +246,19 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
                  codes, e, n, ta, de, dn)
     vg_e = np.empty(nk)
     vg_n = np.empty(nk)
+    tas = np.empty(nk)
+    fpas = np.full(nk, fpa)
     for kk in range(nk):
         vg_e[kk] = fl[8, k_lo + kk] * math.sin(fl[7, k_lo + kk])
         vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
+        tas[kk] = fl[3, k_lo + kk] * p[6]
+    te = np.empty((nk, ns))
+    tn = np.empty((nk, ns))
+    steady_translation_kernel(vg_e, vg_n, tas, fl[3, k_lo:].copy(), fl[5, k_lo:].copy(), fpas,
+                              rows, codes, te, tn)
     amp = np.ones((nk, ns))
     skip = k0 - k_lo  # the emission before k0 is only for the focus
-    focus_kernel(tk, e, n, de, dn, vg_e, vg_n, codes, focus_cap, amp, skip)
+    focus_kernel(tk, e, n, de, dn, te, tn, codes, focus_cap, amp, skip)
     m = nk - skip
     on_ground = np.empty(m, dtype=np.bool_)
     eff = np.empty((m, ns))

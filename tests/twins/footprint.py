@@ -34,10 +34,43 @@ def place_kernel_twin(t, east, north, heading_grid, rows, codes):
     return tuple(np.where(dead, np.nan, a) for a in (e, n, tt, de, dn))
 
 
-def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, cap,
+def steady_translation_twin(vg_e, vg_n, tas, mach, heading_grid, fpa, rows, codes):
+    """Twin of :func:`advisory.pipeline.footprint.steady_translation_kernel` in the
+    group-velocity form: the unit wave normal ``n`` on the Mach cone (``sin(mu)`` along
+    the air velocity, ``cos(mu)`` around it at the ray azimuth, mu the Mach angle), the
+    ray's group velocity ``c0 n + w0``, its horizontal over its vertical part times the
+    climb rate added to the ground velocity; returns (te, tn), (K, J)."""
+    nk, nj = rows.shape[:2]
+    te = np.repeat(np.asarray(vg_e, dtype=float)[:, None], nj, axis=1)
+    tn = np.repeat(np.asarray(vg_n, dtype=float)[:, None], nj, axis=1)
+    for k in range(nk):
+        vz = tas[k] * np.sin(fpa[k])
+        if vz == 0.0 or codes[k] == lk.NO_BOOM or not mach[k] > 1.0:
+            continue
+        c0 = tas[k] / mach[k]
+        psi, gam = heading_grid[k], fpa[k]
+        along = np.array([np.cos(gam) * np.sin(psi), np.cos(gam) * np.cos(psi), np.sin(gam)])
+        down = np.array([np.sin(gam) * np.sin(psi), np.sin(gam) * np.cos(psi), -np.cos(gam)])
+        right = np.array([np.cos(psi), -np.sin(psi), 0.0])
+        wind = np.array([vg_e[k], vg_n[k], 0.0]) - tas[k] * np.array(
+            [along[0], along[1], 0.0])
+        sin_mu = 1.0 / mach[k]
+        cos_mu = np.sqrt(1.0 - sin_mu ** 2)
+        for j in range(nj):
+            phi = rows[k, j, lk.Q_PHI]
+            normal = sin_mu * along + cos_mu * (np.cos(phi) * down + np.sin(phi) * right)
+            group = c0 * normal + wind
+            if normal[2] >= 0.0 or group[2] >= 0.0:
+                continue
+            te[k, j] = vg_e[k] + group[0] / -group[2] * vz
+            tn[k, j] = vg_n[k] + group[1] / -group[2] * vz
+    return te, tn
+
+
+def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap,
                       first: int = -1) -> np.ndarray:
     """Readable twin of :func:`advisory.pipeline.footprint.focus_kernel`; returns the
-    amplification array."""
+    amplification array (``trans_e``, ``trans_n``: the steady translation, (K, J))."""
     nk, nj = ground_e.shape
     out = np.ones((nk, nj))
     if nk < 2:
@@ -57,7 +90,7 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, vg_e, vg_n, codes, 
         tn = (ground_n[k1] - ground_n[k0]) / dt
         with np.errstate(divide="ignore", invalid="ignore"):
             j_act = te * dphi_n[k] - tn * dphi_e[k]
-            j_std = vg_e[k] * dphi_n[k] - vg_n[k] * dphi_e[k]
+            j_std = trans_e[k] * dphi_n[k] - trans_n[k] * dphi_e[k]
             ratio = np.where(j_act != 0.0, j_std / j_act, np.inf)
         usable = np.isfinite(dphi_e[k]) & np.isfinite(dphi_n[k]) & (j_std != 0.0)
         sign = np.where(ratio > 0.0, 1.0, -1.0)

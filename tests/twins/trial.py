@@ -18,7 +18,11 @@ from advisory.pipeline.footprint import CarpetPrediction
 from advisory.pipeline.trial import SUBSTEP_S, TRIAL_PARAMS
 from advisory.tables import lookup as lk
 from tests.twins.conflicts import find_conflicts_twin
-from tests.twins.footprint import focus_kernel_twin, place_kernel_twin
+from tests.twins.footprint import (
+    focus_kernel_twin,
+    place_kernel_twin,
+    steady_translation_twin,
+)
 from tests.twins.lookup import lookup_twin
 
 
@@ -110,8 +114,10 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
     tk = t[lo:]
     e, n, ta, de, dn = place_kernel_twin(tk, fl[0, lo:], fl[1, lo:], fl[5, lo:], rows, codes)
     s = k0 - lo
-    amp = focus_kernel_twin(tk, e, n, de, dn, fl[8, lo:] * np.sin(fl[7, lo:]),
-                            fl[8, lo:] * np.cos(fl[7, lo:]), codes, focus_cap, s)
+    te, tn = steady_translation_twin(fl[8, lo:] * np.sin(fl[7, lo:]),
+                                     fl[8, lo:] * np.cos(fl[7, lo:]), fl[3, lo:] * params[6],
+                                     fl[3, lo:], fl[5, lo:], np.full(tk.size, fpa), rows, codes)
+    amp = focus_kernel_twin(tk, e, n, de, dn, te, tn, codes, focus_cap, s)
     pred = CarpetPrediction(
         t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],
         arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],

@@ -30,8 +30,13 @@ from advisory.physics.rays import MACH_LIMIT, FlightCondition, RayTracer
 #: Largest ray azimuth searched on each side, rad (a ray beyond 90 deg points upward
 #: in level flight).
 PHI_LIMIT_RAD = math.radians(90.0)
-#: Bisection tolerance for the lateral cutoff azimuth, rad.
-PHI_TOL_RAD = 1e-7
+#: Bisection tolerance for the lateral cutoff azimuth, rad. The ground point of a ray
+#: near the lateral cutoff moves as the square root of the azimuth's distance from it
+#: (the grazing ray): at 1e-7 rad the carpet edge stood up to 23 m inside the edge a
+#: quadrature of Snell's law gives (Mach 2.4, 65,000 ft; issue 14 measured up to 97 m);
+#: at 1e-12 rad within 0.3 m (``tests/test_carpet_edge.py``), for some 17 more
+#: reach tests per side.
+PHI_TOL_RAD = 1e-12
 #: Bisection tolerance for cutoff Mach.
 MACH_TOL = 1e-6
 #: Highest Mach searched for cutoff: the highest the ray tracer accepts.

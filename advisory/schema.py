@@ -76,7 +76,7 @@ STATUS_STATES = ("ok", "degraded", "unavailable")
 STATUS_FIELDS = ("state", "reason", "counters")
 #: Optional identity keys a status frame may carry after ``counters`` (ICD section 6):
 #: the software version and 16-hex-digit digests of the table, zone and config files.
-STATUS_IDENTITY_FIELDS = ("sw", "table_sha", "zones_sha", "config_sha")
+STATUS_IDENTITY_FIELDS = ("sw", "table_sha", "zones_sha", "config_sha", "table_range")
 
 # ----------------------------------------------------------------------------- trust
 #: Key of the authentication entry, the last of a signed frame's map (ICD section 7.1).

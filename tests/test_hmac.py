@@ -264,13 +264,13 @@ def test_run_with_a_short_key_is_one_line_and_exit_2(tmp_path, small_table_path,
 @needs_cc
 def test_status_identity_keys_are_optional_and_ignored_by_old_receivers(cbuild) -> None:
     # ICD sections 6 and 7: optional keys after `counters`, in the order sw, table_sha,
-    # zones_sha, config_sha; receivers that do not use them decode the frame as before.
+    # zones_sha, config_sha, table_range; receivers that do not use them decode the frame as before.
     ident = {"sw": "0.1.0", "table_sha": "0123456789abcdef", "zones_sha": "fedcba9876543210",
-             "config_sha": "00112233445566aa"}
+             "config_sha": "00112233445566aa", "table_range": "5000-65000ft -10..10deg +2.00M"}
     plain = encode_status({"state": "ok", "counters": {"steps": 3}}, 4, 1.9e9)
     full = encode_status({"state": "ok", "counters": {"steps": 3}, **ident}, 4, 1.9e9)
-    assert list(msgpack.unpackb(full))[-5:] == ["counters", *ident]
-    assert full.startswith(b"\x8b") and full[1:].startswith(plain[1:])  # 7 + 4 entries
+    assert list(msgpack.unpackb(full))[-6:] == ["counters", *ident]
+    assert full.startswith(b"\x8c") and full[1:].startswith(plain[1:])  # 7 + 5 entries
     # the Python decoder returns them among the status fields (ICD section 6), and the
     # rest of the frame decodes as before
     got, base = decode_frame(full), decode_frame(plain)
@@ -279,7 +279,8 @@ def test_status_identity_keys_are_optional_and_ignored_by_old_receivers(cbuild) 
     assert got._replace(fields=base.fields) == base
     assert run_tool(cbuild, [f"dec {full.hex()}"]) == run_tool(cbuild, [f"dec {plain.hex()}"])
     for key, bad in (("sw", ""), ("sw", "x" * 32), ("table_sha", "0123456789ABCDEF"),
-                     ("zones_sha", "0123"), ("config_sha", 5)):
+                     ("zones_sha", "0123"), ("config_sha", 5), ("table_range", "x" * 32),
+                     ("table_range", "5000 ft\n")):
         with pytest.raises(ValueError, match=key):
             encode_status({"state": "ok", key: bad}, 0, 1.9e9)
 

@@ -69,6 +69,9 @@ CUE_EXAMPLES: list[tuple[str, Advisory]] = [
      Advisory("unavailable", reason="input link lost (serial:///dev/ttyUSB0: [Errno 5] "
                                     "Input/output error); reconnecting")),
     ("The service stopped", Advisory("unavailable", reason="service stopped (SIGTERM)")),
+    ("Flight condition outside the live table (the reason names it and the table's range)",
+     Advisory("unavailable", reason="outside the table: altitude 3,500 ft (table "
+                                    "5,000-65,000 ft, flight-path angle -10 to 10 deg)")),
 ]
 
 

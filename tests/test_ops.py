@@ -131,6 +131,9 @@ def test_service_config_runs_and_the_command_line_overrides_it(
     assert running and all(
         st.get("sw") == VERSION and st.get("table_sha") == ident["table_sha"]
         and st.get("zones_sha") == ident["zones_sha"] for st in running), running[:2]
+    # ... with the table's range (issue 14, item 5): the small table's grid
+    # (tests/conftest.py small_grid: 42,000-48,000 ft, level, Mach excess up to 2.0)
+    assert all(st.get("table_range") == "42000-48000ft 0deg +2.00M" for st in running)
 
 
 def test_invalid_profile_written_while_running_is_reported(tmp_path, small_table_path,

@@ -314,13 +314,15 @@ def encode_status(fields: dict, seq: int, utc_s: float) -> bytes:
 
 
 def _identity(name: str, value: Any) -> str:
-    """An identity key's value: ``sw`` 1..31 printable ASCII bytes (the software version),
-    the digests exactly 16 lowercase hex digits (``docs/interface.md`` section 6)."""
-    if name == "sw":
+    """An identity key's value: ``sw`` and ``table_range`` 1..31 printable ASCII bytes
+    (the software version, the live table's range), the digests exactly 16 lowercase hex
+    digits (``docs/interface.md`` section 6)."""
+    if name in ("sw", "table_range"):
         if (isinstance(value, str) and 1 <= len(value) <= 31 and value.isascii()
                 and value.isprintable()):
             return value
-        raise ValueError(f"field 'sw' must be 1..31 printable ASCII characters, got {value!r}")
+        raise ValueError(f"field {name!r} must be 1..31 printable ASCII characters, "
+                         f"got {value!r}")
     if (isinstance(value, str) and len(value) == 16
             and all(ch in "0123456789abcdef" for ch in value)):
         return value

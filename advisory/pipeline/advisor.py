@@ -55,6 +55,7 @@ from advisory.pipeline.resolutions import (
     search,
 )
 from advisory.pipeline.results import Advisory, Conflict
+from advisory.pipeline.table_range import mach_outside_table, outside_table
 from advisory.pipeline.trajectory import SpeedOfSound, Trajectory, predict_trajectory
 from advisory.pipeline.zone_projection import (
     EARLY_FRACTION,
@@ -165,6 +166,11 @@ class Advisor:
                 strip_indices(table.eta.size, self.config.strips))
 
     @property
+    def table(self) -> BoomTable:
+        """The live table (the table manager's present one)."""
+        return self._current_table()
+
+    @property
     def tables_stale(self) -> bool:
         """True while the table manager has a newer atmosphere being built."""
         return bool(getattr(self._tables, "stale", False))
@@ -251,6 +257,9 @@ class Advisor:
             # Standing still (on the ground, or a source reporting 0): no shock at all, and
             # the trajectory ahead is undefined (it needs Mach > 0). A boom needs Mach > 1.
             return Advisory("no_boom", tables_stale=self.tables_stale, utc_s=state.utc_s)
+        outside = outside_table(table, state.alt_m, state.fpa_rad) if state.mach > 1.0 else None
+        if outside:
+            return self.unavailable(outside, state.utc_s)  # never clamped silently
         try:
             return self._step(state, now)
         except Exception as exc:  # noqa: BLE001 - the loop must never die on one state
@@ -366,6 +375,9 @@ class Advisor:
         t_state = self._state_time(s, now)
         rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
         self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
+        beyond = mach_outside_table(self._table, s.mach, float(cuts[0]))
+        if beyond:
+            return self.unavailable(beyond, s.utc_s)
         whole, now_k = self._past(FlownPast(ahead, rows, codes, cuts), t_state)
         if now_k == 0:  # no past: the prediction keeps the lookups (own copies)
             whole = FlownPast(ahead, rows.copy(), codes.copy(), cuts.copy())

@@ -27,8 +27,9 @@ words. What the line holds, by status (issue 13, "the crew's line"):
   overpressure so the crew can tell the ground, e.g. ``BOOM DUE Larkmoor IN 42S 2.9 PSF``
   (``99+ PSF`` from 99.95 psf).
 * ``unavailable``: plain words only, never the detail: ``BOOM PREDICTION OFF - NO AIR
-  DATA``, ``... - SYSTEM FAULT``, ``... - STOPPED``, ``... - STARTING`` or ``BOOM
-  PREDICTION OFF``. The detail
+  DATA``, ``... - SYSTEM FAULT``, ``... - STOPPED``, ``... - STARTING``, ``... -
+  OUTSIDE TABLE`` (the flight condition lies outside the live table:
+  :mod:`advisory.pipeline.table_range`) or ``BOOM PREDICTION OFF``. The detail
   (error text, URL, errno) is the advisory's ``reason``, which the status frame's
   ``reason`` carries (:meth:`advisory.service.health.LoopHealth.assess`).
 * ``no_boom``: ``NO BOOM ON GROUND``; ``clear``: ``BOOM ON GROUND, ZONES CLEAR``.
@@ -63,6 +64,7 @@ from __future__ import annotations
 import math
 from typing import Protocol
 
+from advisory.pipeline.table_range import OUTSIDE_TABLE
 from advisory.schema import CUE_MAX_BYTES
 
 __all__ = ["CUE_MAX_CHARS", "CueFacts", "crew_cue", "unavailable_cue", "shorten_name",
@@ -183,6 +185,8 @@ def unavailable_cue(reason: str | None) -> str:
         return "BOOM PREDICTION OFF - STARTING"
     if any(w in r for w in ("internal error", "prediction failed", "not encodable")):
         return "BOOM PREDICTION OFF - SYSTEM FAULT"
+    if r.startswith(OUTSIDE_TABLE):
+        return "BOOM PREDICTION OFF - OUTSIDE TABLE"
     if any(w in r for w in ("air data", "input", "arinc", "stale")):
         return "BOOM PREDICTION OFF - NO AIR DATA"
     return "BOOM PREDICTION OFF"

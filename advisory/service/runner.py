@@ -34,6 +34,7 @@ from typing import Any
 
 from advisory.io.records import Recorder
 from advisory.io.transports import TransportError
+from advisory.pipeline.table_range import table_range_tag
 from advisory.schema import STATUS_IDENTITY_FIELDS, VERSION
 from advisory.service.build import assemble
 from advisory.service.health import clip
@@ -43,6 +44,7 @@ from advisory.service.loop import AdvisoryLoop
 from advisory.service.settings import EXIT_OK, EXIT_RUNTIME, RunSettings, check_settings
 from advisory.service.startup import StartingPhase, StartupInterrupted
 from advisory.tables.manager import TableManager
+from advisory.tables.table import BoomTable
 
 MAX_WAIT_S = 0.25  #: longest single wait for input, s (bounds the reaction to signals)
 STATS_INTERVAL_S = 60.0  #: statistics event period in the record, s
@@ -349,6 +351,9 @@ def _start_and_run(s: RunSettings, logs: ServiceLog, phase: StartingPhase) -> in
     started = {"version": VERSION, "pid": os.getpid(), "input": s.input_url,
                "output": s.output_url, "zones": s.zones, "tables": s.table,
                "profile": s.profile, "identity": identity(s), **svc.loop.describe()}
+    live = getattr(svc.loop.advisor, "table", None)  # the live table's range (ICD 6)
+    if isinstance(live, BoomTable):
+        started["identity"]["table_range"] = table_range_tag(live)
     svc.loop.identity = {k: v for k, v in started["identity"].items() if v}
     phase.on_stop = svc.request_stop  # from now on a signal ends the run loop cleanly
     phase.starting = False

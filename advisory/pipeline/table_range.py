@@ -35,10 +35,16 @@ FPA_TOLERANCE_RAD = math.radians(0.5)  #: flight-path angle likewise, rad
 OUTSIDE_TABLE = "outside the table"
 
 
-def table_range_text(table: BoomTable) -> str:
-    """The table's altitude and flight-path-angle ranges in words (ft, deg)."""
+def _ranges(table: BoomTable) -> tuple[float, float, float, float]:
+    """Lowest and highest altitude (ft) and flight-path angle (deg) of ``table``."""
     a0, a1 = (units.m_to_ft(float(table.ax_alt[i])) for i in (0, -1))
     f0, f1 = (math.degrees(float(table.ax_fpa[i])) for i in (0, -1))
+    return a0, a1, f0, f1
+
+
+def table_range_text(table: BoomTable) -> str:
+    """The table's altitude and flight-path-angle ranges in words (ft, deg)."""
+    a0, a1, f0, f1 = _ranges(table)
     fpa = f"{f0:g} deg" if f0 == f1 else f"{f0:g} to {f1:g} deg"
     return f"table {a0:,.0f}-{a1:,.0f} ft, flight-path angle {fpa}"
 
@@ -48,8 +54,7 @@ def table_range_tag(table: BoomTable) -> str:
     ``table_range`` key (``docs/interface.md`` section 6): altitudes (ft), flight-path
     angles (whole deg) and the largest Mach excess over cutoff, e.g.
     ``5000-65000ft -10..10deg +2.00M``."""
-    a0, a1 = (units.m_to_ft(float(table.ax_alt[i])) for i in (0, -1))
-    f0, f1 = (math.degrees(float(table.ax_fpa[i])) for i in (0, -1))
+    a0, a1, f0, f1 = _ranges(table)
     fpa = f"{f0:.0f}deg" if round(f0) == round(f1) else f"{f0:.0f}..{f1:.0f}deg"
     return f"{a0:.0f}-{a1:.0f}ft {fpa} +{float(table.ax_mex[-1]):.2f}M"[:31]
 

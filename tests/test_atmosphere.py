@@ -76,14 +76,25 @@ def test_sea_level_sound_speed_in_mph() -> None:
     assert a / units.MPH == pytest.approx(761.0, abs=1.0)
 
 
-def test_temperature_offset_keeps_pressure() -> None:
-    # Pressure-altitude convention (ISA deviation): temperature shifts, pressure does not;
-    # sound speed scales as sqrt(T) (USSA 1976 eq. 50).
+def test_temperature_offset_is_a_hydrostatic_day() -> None:
+    # ISA + dT day (issue 14, item 8): the standard sea-level pressure, the temperature
+    # shifted by dT, the pressure above from the hydrostatic equation (USSA 1976 eqs. 17
+    # and 33: d ln p / dz = -g(z) / (R T)), integrated independently with scipy quad over
+    # the reference library's temperatures; sound speed scales as sqrt(T) (eq. 50).
+    from ambiance import Atmosphere as Reference
+    from scipy.integrate import quad
+
     hot = standard_atmosphere(temp_offset_k=15.0)
     std = standard_atmosphere()
     s_hot, s_std = hot.at(10000.0), std.at(10000.0)
     assert s_hot.temperature_k == pytest.approx(s_std.temperature_k + 15.0)
-    assert s_hot.pressure_pa == pytest.approx(s_std.pressure_pa)
+    r, g0, r0 = 8314.32 / 28.9644, 9.80665, 6356766.0
+    drop = quad(lambda z: g0 * (r0 / (r0 + z)) ** 2
+                / (r * (float(Reference(z).temperature[0]) + 15.0)), 0.0, 10000.0)[0]
+    assert s_hot.pressure_pa == pytest.approx(101325.0 * np.exp(-drop), rel=1e-4)
+    assert s_hot.pressure_pa > 1.04 * s_std.pressure_pa  # warmer air: thicker layers
+    assert hot.at(0.0).pressure_pa == pytest.approx(101325.0)
+    assert s_hot.density_kgm3 == pytest.approx(s_hot.pressure_pa / (r * s_hot.temperature_k))
     assert s_hot.sound_speed_mps == pytest.approx(
         s_std.sound_speed_mps * np.sqrt(s_hot.temperature_k / s_std.temperature_k)
     )

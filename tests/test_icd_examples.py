@@ -70,8 +70,8 @@ CUE_EXAMPLES: list[tuple[str, Advisory]] = [
                                     "Input/output error); reconnecting")),
     ("The service stopped", Advisory("unavailable", reason="service stopped (SIGTERM)")),
     ("Flight condition outside the live table (the reason names it and the table's range)",
-     Advisory("unavailable", reason="outside the table: altitude 3,500 ft (table "
-                                    "5,000-65,000 ft, flight-path angle -10 to 10 deg)")),
+     Advisory("unavailable", reason="outside the table: height 3,500 ft (table "
+                                    "4,500-69,500 ft, flight-path angle -10 to 10 deg)")),
 ]
 
 

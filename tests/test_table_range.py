@@ -15,6 +15,7 @@ from __future__ import annotations
 import json
 import math
 
+import numpy as np
 import pytest
 from ambiance import Atmosphere as ReferenceAtmosphere
 
@@ -60,8 +61,16 @@ def test_check_at_8000_ft_says_the_boom_reaches(tmp_path, capsys):
     assert out["reaches_ground"] is True
 
 
+def _height_ft(pressure_altitude_ft: float) -> float:
+    """Geometric height (ft) of a pressure altitude on a standard day: the geometric
+    altitude of that geopotential altitude (the reference library ``ambiance``)."""
+    h = units.ft_to_m(pressure_altitude_ft)
+    return units.m_to_ft(float(np.ravel(ReferenceAtmosphere.geop2geom_height(h))[0]))
+
+
 @pytest.mark.parametrize("alt_ft, fpa_deg, mach, named", [
-    (30000.0, 0.0, 1.6, "altitude 30,000 ft"), (55000.0, 0.0, 1.6, "altitude 55,000 ft"),
+    (30000.0, 0.0, 1.6, f"height {_height_ft(30000.0):,.0f} ft"),
+    (55000.0, 0.0, 1.6, f"height {_height_ft(55000.0):,.0f} ft"),
     (45000.0, 3.0, 1.6, "flight-path angle 3.0 deg"), (45000.0, 0.0, 3.5, "Mach 3.50")])
 def test_a_state_outside_the_table_is_unavailable_with_the_reason(small_table, alt_ft,
                                                                    fpa_deg, mach, named):
@@ -76,10 +85,13 @@ def test_a_state_outside_the_table_is_unavailable_with_the_reason(small_table, a
 
 
 def test_within_the_tolerances_the_table_is_read(small_table):
-    # 80 ft above the top and 0.4 deg of climb on a level table: read at the edge
+    # 80 ft above the top (geometric height; the pressure altitude of 48,080 ft geometric
+    # on a standard day is its geopotential altitude, ambiance) and 0.4 deg of climb on a
+    # level table: read at the edge
     lat, lon = point_along(30e3)
     adv = Advisor(small_table, zoneset(square("town", lat, lon)))
-    a = adv.step(state(alt_ft=48080.0, fpa_deg=0.4), now_monotonic=0.0)
+    hp = float(np.ravel(ReferenceAtmosphere.geom2geop_height(units.ft_to_m(48080.0)))[0])
+    a = adv.step(state(alt_ft=units.m_to_ft(hp), fpa_deg=0.4), now_monotonic=0.0)
     assert a.status != "unavailable", a.reason
     assert math.isfinite(a.cutoff_mach)
 
@@ -92,4 +104,4 @@ def test_check_outside_the_table_names_it(small_table_path, tmp_path, capsys):
     assert out["status"] == "unavailable"
     main(argv)
     text = capsys.readouterr().out
-    assert OUTSIDE_TABLE in text and "30,000 ft" in text
+    assert OUTSIDE_TABLE in text and f"height {_height_ft(30000.0):,.0f} ft" in text

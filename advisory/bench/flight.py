@@ -18,9 +18,10 @@ committed records bit for bit through this module. For the same reason the state
 its angles in degrees (edge units): converting to radians and back would change the last
 bits of every sample.
 
-Altitude: the simulator flies geometric altitude and reports it as ``alt_ft`` (the demo
-flights' convention: pressure altitude and geometric height are taken equal; issue 14
-adds the hypsometric conversion).
+Altitude: the simulator flies geometric height and reports pressure altitude as ``alt_ft``
+(the standard altitude of the pressure at the aircraft in its atmosphere,
+:mod:`advisory.physics.pressure_altitude`), as an air-data computer does; a start altitude
+and a climb's target altitude are pressure altitudes, flown at their geometric height.
 
 :class:`Pilot` flies the schedule segments of ``docs/scenarios.md`` (hold, turn, mach,
 climb, pitch) and, once the crew acts, the crew's resolution instead.
@@ -43,6 +44,7 @@ from advisory import units
 from advisory.bench.truth_path import DEFAULT_EMISSION_INTERVAL_S, FlownPath
 from advisory.geo.geodesy import direct_deg
 from advisory.physics.atmosphere import Atmosphere, AtmosphereSample
+from advisory.physics.pressure_altitude import HeightConverter
 
 #: Largest |flight-path angle| the simulator flies, deg (the truth tracer's limit).
 FPA_LIMIT_DEG = 30.0
@@ -93,9 +95,10 @@ class FlightState:
                  mach: float, heading_deg: float, fpa_deg: float = 0.0, bank_deg: float = 0.0,
                  roll_rate_deg_s: float = 5.0, pitch_load: bool = False) -> None:
         self.atmosphere = atmosphere
+        self.heights = HeightConverter(atmosphere)
         self.t_s = 0.0
         self.lat_deg, self.lon_deg = float(lat_deg), float(lon_deg)
-        self.alt_m = units.ft_to_m(alt_ft)
+        self.alt_m = self.height_ft(alt_ft)
         self.mach, self.heading_deg = float(mach), float(heading_deg)
         self.bank_deg, self.fpa_deg = float(bank_deg), float(fpa_deg)
         self.mach_target, self.mach_rate = self.mach, 0.0
@@ -106,6 +109,10 @@ class FlightState:
         #: flights' records stay as they were synthesized).
         self.pitch_load = bool(pitch_load)
         self._air_at: tuple[float, AtmosphereSample] | None = None
+
+    def height_ft(self, pressure_altitude_ft: float) -> float:
+        """Geometric height (m) of a pressure altitude (ft) in the atmosphere flown."""
+        return self.heights.height(units.ft_to_m(pressure_altitude_ft))
 
     def air(self) -> AtmosphereSample:
         """The atmosphere at the aircraft (the last one kept while the altitude holds)."""
@@ -142,7 +149,8 @@ class FlightState:
         sample = {
             "t_s": t,
             "lat_deg": self.lat_deg, "lon_deg": self.lon_deg,
-            "alt_ft": units.m_to_ft(self.alt_m), "mach": self.mach,
+            "alt_ft": units.m_to_ft(self.heights.pressure_altitude(self.alt_m)),
+            "mach": self.mach,
             "heading_deg": self.heading_deg % 360.0, "gs_kt": units.mps_to_kt(gs),
             "bank_deg": self.bank_deg, "fpa_deg": self.fpa_deg, "track_deg": track,
             "mach_rate_per_s": (math.copysign(self.mach_rate, self.mach_target - self.mach)
@@ -309,7 +317,7 @@ class Pilot:
                 tas = state.tas_mps()
                 vz = tas * math.sin(math.radians(state.fpa_deg))
                 t_level = abs(state.fpa_deg) / max(state.pitch_rate, 1e-9)
-                left = units.ft_to_m(seg.target_alt_ft) - state.alt_m
+                left = state.height_ft(seg.target_alt_ft) - state.alt_m
                 level = left * math.copysign(1.0, vz or 1.0) <= 0.5 * abs(vz) * t_level
             else:
                 level = timed_out

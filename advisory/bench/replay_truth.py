@@ -57,6 +57,7 @@ from advisory.io.messages import FrameError, decode_frame
 from advisory.io.records import KIND_EVENT, KIND_INPUT, KIND_RAW_INPUT, decode_event, read_records
 from advisory.physics.aircraft import Aircraft, default_aircraft, load_aircraft
 from advisory.physics.atmosphere import Atmosphere, load_profile, standard_atmosphere
+from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.zones import ZoneSet
 
 #: A frame whose sample time is further than this from the receive clock's line is left out, s.
@@ -178,7 +179,8 @@ def _usable(rows: list[tuple[float, float, dict[str, Any]]], log: str | Path
 def flown_path(samples: dict[str, np.ndarray], atmosphere: Atmosphere,
                interval_s: float = DEFAULT_EMISSION_INTERVAL_S) -> FlownPath:
     """The flown path of the samples (module notes), resampled to ``interval_s``."""
-    alt_m = samples["alt_ft"] * units.FT
+    # the records carry pressure altitude: the geometric height in the truth's atmosphere
+    alt_m = HeightConverter(atmosphere).heights(samples["alt_ft"] * units.FT)
     c = np.interp(alt_m, atmosphere.z_m, atmosphere.sound_speed_mps)
     tas = samples["mach"] * c
     bank = np.radians(samples["bank_deg"])

@@ -233,7 +233,12 @@ def standard_atmosphere(temp_offset_k: float = 0.0, dz_m: float = DEFAULT_DZ_M) 
     Parameters
     ----------
     temp_offset_k : float
-        Temperature offset, K, within [-60, 60].
+        Temperature offset, K, within [-60, 60]: an "ISA + dT" day with the standard
+        pressure at sea level and the pressure above it from the hydrostatic equation
+        ([1]_ eq. 17 gravity, :func:`_hydrostatic_pressure`) with the offset temperature,
+        so pressure altitude and geometric height differ as they do on such a day
+        (:mod:`advisory.physics.pressure_altitude`). (:func:`ussa1976` alone keeps the
+        standard pressure at each altitude.)
     dz_m : float
         Grid spacing, m.
     """
@@ -241,6 +246,12 @@ def standard_atmosphere(temp_offset_k: float = 0.0, dz_m: float = DEFAULT_DZ_M) 
         raise AtmosphereError(f"temp_offset: {temp_offset_k} K is outside [-60, 60] K")
     z = _grid(dz_m)
     s = ussa1976(z, temp_offset_k)
+    if temp_offset_k != 0.0:
+        # ISA + dT day: the standard pressure at sea level, the pressure above it from the
+        # hydrostatic equation with the warmer (colder) air, so a pressure altitude lies
+        # higher (lower) than on a standard day (advisory.physics.pressure_altitude)
+        s["pressure_pa"] = _hydrostatic_pressure(z, s["temperature_k"], 0.0, _SEA_LEVEL_P)
+        s["density_kgm3"] = s["pressure_pa"] / (R_AIR * s["temperature_k"])
     zeros = np.zeros_like(z)
     return Atmosphere(
         z_m=z,
@@ -487,7 +498,8 @@ def atmosphere_from_description(desc: dict) -> Atmosphere:
     Raises
     ------
     AtmosphereError
-        For a description of unknown kind.
+        For a description of unknown kind (a merged atmosphere:
+        :func:`advisory.physics.atmosphere_merge.rebuild_atmosphere`).
     """
     kind = desc.get("kind")
     if kind == "ussa1976":

@@ -10,7 +10,9 @@ later ones it flies the resolutions as trials (:mod:`.resolutions`, :mod:`.trial
 largest Mach reached by decelerating that clears, the smallest left and right turns
 (with roll-in) that clear, both together when neither alone does, and the act-by time,
 the latest moment the offered action can start and still clear; the level is set on the
-act-by time with hysteresis (:mod:`.levels`). The advisory and its crew line are in
+act-by time with hysteresis (:mod:`.levels`). The air data's pressure altitude becomes the
+geometric height in the table's atmosphere first
+(:mod:`advisory.physics.pressure_altitude`). The advisory and its crew line are in
 :mod:`.results` and :mod:`.cues`.
 
 Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
@@ -39,6 +41,7 @@ import numpy as np
 
 from advisory.geo.frame import LocalFrame
 from advisory.physics.atmosphere import Atmosphere
+from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
@@ -162,6 +165,8 @@ class Advisor:
         atm = table.atmosphere()
         #: the fallback past's lookups (own buffers: its length differs from the ahead's)
         self._fallback_lookup = FootprintPredictor(table)
+        #: pressure altitude -> geometric height through the table's profile
+        self._heights = HeightConverter(atm)
         return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
                 strip_indices(table.eta.size, self.config.strips))
 
@@ -252,6 +257,10 @@ class Advisor:
         if state.rx_monotonic is not None and now - state.rx_monotonic > self.config.stale_after_s:
             return self.unavailable(
                 f"air data stale ({now - state.rx_monotonic:.1f} s old)", state.utc_s)
+        # From here on the state's altitude is the geometric height of its pressure
+        # altitude in the table's atmosphere (the hypsometric equation): the tables, the
+        # trajectory and the history are in geometric height.
+        state = dataclasses.replace(state, alt_m=self._heights.height(state.alt_m))
         self._learn_atmosphere(state, now)
         if state.mach <= 0.0:
             # Standing still (on the ground, or a source reporting 0): no shock at all, and

@@ -21,9 +21,9 @@ from advisory.physics.atmosphere import (
     Atmosphere,
     AtmosphereError,
     ProfileLevel,
-    atmosphere_from_levels,
     standard_atmosphere,
 )
+from advisory.physics.atmosphere_merge import merge_levels
 
 __all__ = ["MAX_GRADIENT_K_PER_M", "MAX_ISA_DEVIATION_K", "MAX_WIND_MPS", "StreamProfile",
            "implausible"]
@@ -67,8 +67,10 @@ class StreamProfile:
     Valid states that carry static air temperature (and wind) are averaged into altitude
     bins. When enough bins are filled and they differ from the atmosphere the live table
     was built from by more than the thresholds, :meth:`proposal` returns a new
-    :class:`Atmosphere` (the bins as levels; the standard atmosphere continues outside
-    them, see :func:`advisory.physics.atmosphere.atmosphere_from_levels`).
+    :class:`Atmosphere`: the bins as levels where they were measured, the planning
+    atmosphere ``base`` below and above them, merged smoothly
+    (:func:`advisory.physics.atmosphere_merge.merge_levels`): the air below the aircraft is
+    never taken from what was measured at its level.
 
     Parameters
     ----------
@@ -85,6 +87,9 @@ class StreamProfile:
         Least time between two proposals, s (monotonic).
     enabled : bool
         Learn at all (default False: samples are ignored and nothing is proposed).
+    base : Atmosphere, optional
+        The planning atmosphere outside the measured levels: the loaded forecast or
+        planning profile (``run --profile``); default the U.S. Standard Atmosphere 1976.
 
     Attributes
     ----------
@@ -94,8 +99,10 @@ class StreamProfile:
 
     def __init__(self, bin_m: float = 304.8, min_bins: int = 5, min_samples: int = 20,
                  temp_threshold_k: float = 3.0, wind_threshold_mps: float = 7.5,
-                 min_interval_s: float = 300.0, enabled: bool = False) -> None:
+                 min_interval_s: float = 300.0, enabled: bool = False,
+                 base: Atmosphere | None = None) -> None:
         self.enabled = bool(enabled)
+        self.base = base if base is not None else standard_atmosphere()
         self.refused = 0
         self.last_refusal = ""
         self.bin_m = bin_m
@@ -154,6 +161,6 @@ class StreamProfile:
             self.last_refusal = why
             return None
         try:
-            return atmosphere_from_levels(lv, source="air-data stream")
+            return merge_levels(self.base, lv, source="air-data stream")
         except AtmosphereError:
             return None

@@ -60,11 +60,11 @@ def table_range_tag(table: BoomTable) -> str:
 
 
 def outside_table(table: BoomTable, alt_m: float, fpa_rad: float) -> str | None:
-    """The reason (one line) when altitude ``alt_m`` (m) or flight-path angle
+    """The reason (one line) when geometric height ``alt_m`` (m) or flight-path angle
     ``fpa_rad`` (rad) lies outside ``table`` beyond the tolerances, else None."""
     lo, hi = float(table.ax_alt[0]), float(table.ax_alt[-1])
     if not lo - ALT_TOLERANCE_M <= alt_m <= hi + ALT_TOLERANCE_M:
-        return (f"{OUTSIDE_TABLE}: altitude {units.m_to_ft(alt_m):,.0f} ft "
+        return (f"{OUTSIDE_TABLE}: height {units.m_to_ft(alt_m):,.0f} ft "
                 f"({table_range_text(table)})")
     f_lo, f_hi = float(table.ax_fpa[0]), float(table.ax_fpa[-1])
     if not f_lo - FPA_TOLERANCE_RAD <= fpa_rad <= f_hi + FPA_TOLERANCE_RAD:

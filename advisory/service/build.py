@@ -148,7 +148,10 @@ def assemble(s: RunSettings, progress: Callable[[str], None] = _no_progress) -> 
     guard_input(inp, s)
     out = OutputPublisher(s.output_url, max_age_s=1.0 / s.rate_hz)
     advisor = Advisor(manager if manager is not None else table, zones, config)
-    advisor.stream_profile = StreamProfile(enabled=s.learn_atmosphere)
+    # learned levels replace the loaded profile only where they were measured
+    advisor.stream_profile = StreamProfile(
+        enabled=s.learn_atmosphere,
+        base=load_profile(s.profile) if s.learn_atmosphere and s.profile else None)
     progress("compiling kernels")
     warm_up(manager.table if manager is not None else table, zones, config)
     loop = AdvisoryLoop(advisor, input_format=fmt, framing=framing, rate_hz=s.rate_hz,

@@ -43,8 +43,10 @@ class GridError(ValueError):
 # small steps to stay within 1 % (tables issue budget). From 5,000 ft (issue 14): the
 # default table began at 20,000 ft and read a flight at 8,000 ft at its edge (cutoff Mach
 # 1.077 for 1.029); supersonic flight lower than 5,000 ft is outside it, and the advisor
-# says so (advisory.pipeline.table_range) instead of reading the edge.
-DEFAULT_ALTITUDES_FT = tuple(float(a) for a in range(5000, 65001, 500))
+# says so (advisory.pipeline.table_range) instead of reading the edge. The axis is geometric
+# height: 4,500-69,500 ft holds pressure altitudes 5,000-65,000 ft on days from ISA -15 K
+# (FL50 at 4,741 ft) to ISA +15 K (FL650 at 69,131 ft; advisory.physics.pressure_altitude).
+DEFAULT_ALTITUDES_FT = tuple(float(a) for a in range(4500, 69501, 500))
 DEFAULT_MACH_EXCESS = (
     0.001, 0.003, 0.006, 0.01, 0.015, 0.02, 0.03, 0.04, 0.055, 0.07, 0.09, 0.12, 0.15,
     0.2, 0.25, 0.3, 0.4, 0.5, 0.6, 0.75, 0.9, 1.1, 1.3, 1.55, 1.8, 2.0,
@@ -135,7 +137,8 @@ class TableGrid:
 
 
 def default_grid(with_wind: bool = False, ground_elevation_m: float = 0.0) -> TableGrid:
-    """The default grid: 5,000-65,000 ft, Mach 1.0-3.0, flight-path angle -10..+10 deg."""
+    """The default grid: 4,500-69,500 ft (geometric), Mach excess 0.001-2.0 over cutoff
+    (Mach at most 3.0), flight-path angle -10..+10 deg."""
     return TableGrid(
         altitudes_m=tuple(units.ft_to_m(a) for a in DEFAULT_ALTITUDES_FT),
         mach_excess=DEFAULT_MACH_EXCESS,

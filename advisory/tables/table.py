@@ -11,7 +11,8 @@ import numpy as np
 
 from advisory import units
 from advisory.physics.aircraft import AircraftError, aircraft_from_dict
-from advisory.physics.atmosphere import Atmosphere, atmosphere_from_description
+from advisory.physics.atmosphere import Atmosphere
+from advisory.physics.atmosphere_merge import rebuild_atmosphere
 from advisory.tables import lookup as lk
 from advisory.tables.grid import GridError, TableGrid
 from advisory.tables.store import (
@@ -113,7 +114,7 @@ class BoomTable:
         header's description for a table without the atmosphere arrays)."""
         if "atm_z_m" in self.arrays:
             return atmosphere_from_arrays(self.arrays, self.header.get("atmosphere", {}))
-        return atmosphere_from_description(self.header["atmosphere"])
+        return rebuild_atmosphere(self.header["atmosphere"])
 
     @property
     def digest(self) -> str:
@@ -312,7 +313,7 @@ def _check_atmosphere(arrays: dict[str, np.ndarray], description: dict) -> None:
     present = [n for n in names if n in arrays]
     if not present:  # the table's atmosphere comes from the header's description
         try:
-            atmosphere_from_description(description)
+            rebuild_atmosphere(description)
         except (ValueError, TypeError, KeyError, IndexError) as exc:
             raise TableFileError(f"header atmosphere: cannot be rebuilt ({exc!r})") from None
         return

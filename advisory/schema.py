@@ -63,8 +63,12 @@ ADV_FIELDS_V1 = (
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
 )
 #: Optional advisory fields added by issue 13 (after the version-1 ones; nil / false
-#: when absent): act-by time, resolution Mach, target headings of the turns, combined.
-ADV_OPTIONAL = ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined")
+#: when absent): act-by time, resolution Mach, target headings of the turns, combined;
+#: and by issue 14 ``near_cutoff`` (sent only when true).
+ADV_OPTIONAL = ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
+                "near_cutoff")
+#: Optional flags sent only when true (absent: false), so other frames stay as they were.
+ADV_SENT_WHEN_TRUE = ("near_cutoff",)
 ADV_FIELDS = ADV_FIELDS_V1 + ADV_OPTIONAL  #: canonical order after the header
 ADV_NULLABLE_FLOATS = (
     "time_to_contact_s", "overpressure_psf", "max_mach_off_ground", "turn_left_deg",

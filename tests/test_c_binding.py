@@ -84,7 +84,8 @@ def python_line(payload: bytes) -> str:
                   _fmt_num("resolve_mach", d["resolve_mach"]),
                   _fmt_num("turn_left_hdg", d["turn_left_hdg"]),
                   _fmt_num("turn_right_hdg", d["turn_right_hdg"]),
-                  f"combined={'T' if d['combined'] else 'F'}", f"v={f.version}"]
+                  f"combined={'T' if d['combined'] else 'F'}",
+                  *(["near_cutoff=T"] if d["near_cutoff"] else []), f"v={f.version}"]
     else:
         counters = ",".join(f"{k.encode().hex()}:{v}" for k, v in d["counters"].items())
         parts += [f"state={d['state']}", _fmt_text("reason", d["reason"]),
@@ -219,7 +220,8 @@ def _random_payloads(rng: random.Random) -> list[bytes]:
             "resolve_mach": None if rng.random() < 0.4 else _rand_float(rng),
             "turn_left_hdg": None if rng.random() < 0.4 else _rand_float(rng),
             "turn_right_hdg": None if rng.random() < 0.4 else _rand_float(rng),
-            "combined": rng.random() < 0.3}, rng.randrange(2**32), _rand_float(rng),
+            "combined": rng.random() < 0.3,
+            "near_cutoff": rng.random() < 0.3}, rng.randrange(2**32), _rand_float(rng),
             version=rng.choice((1, 2))))
     for _ in range(60):
         counters = {_rand_text(rng, 47) or "n": rng.randrange(2**64)
@@ -431,7 +433,7 @@ def test_an_old_c_receiver_reads_version_1_frames_with_the_new_keys(v1_build):
     new = {"status": "unavoidable", "zone_id": "zone-7", "time_to_contact_s": 42.0,
            "overpressure_psf": 2.9, "cue": "BOOM DUE zone-7 IN 42S 2.9 PSF",
            "act_by_s": 15.5, "resolve_mach": 1.08, "turn_left_hdg": 320.0,
-           "combined": True}
+           "combined": True, "near_cutoff": True}
     v1 = encode_adv(new, 3, 1893456000.0, version=1)
     v2 = encode_adv(new, 4, 1893456000.0)
     warning_v1 = encode_adv(dict(new, status="warning"), 5, 1893456000.0, version=1)

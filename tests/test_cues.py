@@ -29,7 +29,7 @@ def facts(**kw) -> SimpleNamespace:
                 max_mach_off_ground=None, turn_left_deg=None, turn_right_deg=None,
                 reaches_ground=True, cutoff_mach=1.15, tables_stale=False,
                 act_by_s=None, resolve_mach=None, turn_left_hdg_deg=None,
-                turn_right_hdg_deg=None, combined=False)
+                turn_right_hdg_deg=None, combined=False, near_cutoff=False)
     base.update(kw)
     return SimpleNamespace(**base)
 

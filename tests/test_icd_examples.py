@@ -47,6 +47,8 @@ ADV_EXAMPLE = Advisory(
 CUE_EXAMPLES: list[tuple[str, Advisory]] = [
     ("Subsonic, or below cutoff Mach", Advisory("no_boom")),
     ("Boom on the ground, no zone threatened", Advisory("clear", reaches_ground=True)),
+    ("Within 0.005 of cutoff Mach (`near_cutoff`): the boom is assumed to reach",
+     Advisory("clear", reaches_ground=True, near_cutoff=True)),
     ("Slowing to Mach 1.12 clears, start within 95 s",
      Advisory("advisory", zone_name="Larkmoor", time_to_contact_s=240.0,
               overpressure_pa=1.1 * PSF, act_by_s=95.0, resolve_mach=1.12)),

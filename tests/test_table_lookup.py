@@ -50,7 +50,9 @@ def test_nodes_are_reproduced_and_below_cutoff_is_no_boom() -> None:
     assert code == lk.OK
     assert mcut == pytest.approx(cutoff[2, 1, 0])
     np.testing.assert_allclose(out, cells[2, 3, 1, 0], rtol=1e-12)
-    code, _ = lk.lookup_kernel(ax_alt[2], cutoff[2, 1, 0] - 1e-3, ax_fpa[1], 0.0, ax_alt,
+    # below cutoff by more than the near-cutoff band (issue 14): no boom
+    code, _ = lk.lookup_kernel(ax_alt[2], cutoff[2, 1, 0] - lk.NEAR_CUTOFF_BAND - 1e-3,
+                               ax_fpa[1], 0.0, ax_alt,
                                ax_mex, ax_fpa, ax_hdg, cutoff, cells, out)
     assert code == lk.NO_BOOM
     code, _ = lk.lookup_kernel(20000.0, 2.0, 0.0, 0.0, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,

@@ -43,6 +43,7 @@ from advisory.io.frame_rules import RejectError, check_map, depth_ok
 from advisory.schema import (
     ADV_FIELDS,
     ADV_FORMAT_VERSION,
+    ADV_SENT_WHEN_TRUE,
     ADV_STATUSES,
     AIR_FIELDS,
     AIR_LATER_OPTIONAL,
@@ -212,7 +213,8 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
     ----------
     fields : dict
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
-        ``focus``, ``tables_stale``, ``combined`` (bool, default False); ``cue`` (str,
+        ``focus``, ``tables_stale``, ``combined``, ``near_cutoff`` (bool, default False;
+        ``near_cutoff`` is sent only when true); ``cue`` (str,
         default ``""``); the other :data:`ADV_FIELDS` are numbers or None.
     seq : int
         Sequence number, 0..2**32-1.
@@ -243,7 +245,10 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
     m["status"] = "warning" if version == 1 and status == "unavoidable" else status
     m["zone_id"] = _text("zone_id", fields.get("zone_id"), ZONE_ID_MAX_BYTES, nullable=True)
     for name in ADV_FIELDS[2:]:
-        if name in ("focus", "tables_stale", "combined"):
+        if name in ADV_SENT_WHEN_TRUE:
+            if _flag(name, fields.get(name, False)):
+                m[name] = True
+        elif name in ("focus", "tables_stale", "combined"):
             m[name] = _flag(name, fields.get(name, False))
         elif name == "cue":
             m[name] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)

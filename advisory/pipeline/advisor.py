@@ -404,6 +404,7 @@ class Advisor:
             None if first is None else (0.0 if act_by is None else act_by), now)
         max_mach = max_mach_off_ground(cut_now, cfg.cutoff_margin_mach)
         reaches_now = bool(pred.on_ground[now_k])
+        near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
         if fixed:
             status = "unavoidable"  # never clear while a boom is on its way into a zone
         elif level == 0:
@@ -415,7 +416,7 @@ class Advisor:
             return Advisory(status, max_mach_off_ground=max_mach, reaches_ground=reaches_now,
                             cutoff_mach=cut_now, tables_stale=self.tables_stale,
                             utc_s=s.utc_s, zone_id=self._held_zone,
-                            zone_name=self._held_name)
+                            zone_name=self._held_name, near_cutoff=near)
         named = fixed[0] if fixed else first
         held = first or named  # a held level names the zone last in conflict
         self._held_zone = held.zone_id if held else None
@@ -438,7 +439,7 @@ class Advisor:
             turn_left_hdg_deg=None if r.turn_left_deg is None
             else (hdg - r.turn_left_deg) % 360.0,
             turn_right_hdg_deg=None if r.turn_right_deg is None
-            else (hdg + r.turn_right_deg) % 360.0,
+            else (hdg + r.turn_right_deg) % 360.0, near_cutoff=near,
         )
 
     def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:

@@ -32,7 +32,9 @@ words. What the line holds, by status (issue 13, "the crew's line"):
   :mod:`advisory.pipeline.table_range`) or ``BOOM PREDICTION OFF``. The detail
   (error text, URL, errno) is the advisory's ``reason``, which the status frame's
   ``reason`` carries (:meth:`advisory.service.health.LoopHealth.assess`).
-* ``no_boom``: ``NO BOOM ON GROUND``; ``clear``: ``BOOM ON GROUND, ZONES CLEAR``.
+* ``no_boom``: ``NO BOOM ON GROUND``; ``clear``: ``BOOM ON GROUND, ZONES CLEAR``; either
+  within the near-cutoff band (``near_cutoff``): ``NEAR CUTOFF, BOOM MAY REACH, ZONES CLEAR``
+  (whether the boom reaches is uncertain there; the prediction assumes it does).
 
 Focus and overpressure in conflict lines: left to the display. A focus boom changes how
 loud the boom is, not what the crew does about it; the level already ranks it (the
@@ -75,6 +77,7 @@ ZONE_CUT_MARK = "."  #: ends a zone name that was shortened
 _LEVEL_WORD = {"advisory": "ADVISORY", "caution": "CAUTION", "warning": "WARNING"}
 _NO_ACTION = "NOTHING CLEARS"
 _HELD = "CONTACT GONE"  #: a level held after its conflict went (no time, no action)
+_NEAR_CUTOFF = "NEAR CUTOFF, BOOM MAY REACH, ZONES CLEAR"  #: clear or no boom, near cutoff
 
 
 class CueFacts(Protocol):
@@ -106,6 +109,8 @@ class CueFacts(Protocol):
     def turn_right_hdg_deg(self) -> float | None: ...
     @property
     def combined(self) -> bool: ...
+    @property
+    def near_cutoff(self) -> bool: ...
 
 
 def crew_cue(a: CueFacts) -> str:
@@ -115,6 +120,8 @@ def crew_cue(a: CueFacts) -> str:
     status = a.status
     if status == "unavailable":
         return unavailable_cue(a.reason)
+    if status in ("no_boom", "clear") and a.near_cutoff:
+        return _NEAR_CUTOFF
     if status == "no_boom":
         return "NO BOOM ON GROUND"
     if status == "clear":

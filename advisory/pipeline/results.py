@@ -80,6 +80,10 @@ class Advisory:
     combined : bool
         Neither Mach nor a turn clears alone: the offered resolution is
         ``resolve_mach`` and the turn together.
+    near_cutoff : bool
+        The present Mach lies within :data:`advisory.tables.lookup.NEAR_CUTOFF_BAND` of
+        the cutoff Mach: whether and where the boom reaches the ground is uncertain (ray
+        theory at the grazing ray); the prediction errs toward "the boom reaches".
     """
 
     status: str
@@ -102,6 +106,7 @@ class Advisory:
     turn_left_hdg_deg: float | None = None
     turn_right_hdg_deg: float | None = None
     combined: bool = False
+    near_cutoff: bool = False
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -135,6 +140,7 @@ class Advisory:
             "turn_left_hdg": _heading(self.turn_left_hdg_deg),
             "turn_right_hdg": _heading(self.turn_right_hdg_deg),
             "combined": bool(self.combined),
+            "near_cutoff": bool(self.near_cutoff),  # issue 14: sent only when true
         }
 
     def to_record(self) -> dict:

@@ -3,8 +3,10 @@
 The table stores, per (altitude, Mach excess, flight-path angle, heading) cell and per
 normalised azimuth ``eta``, a row of :data:`N_QUANTITIES` numbers (indices ``Q_*``).
 A lookup interpolates the cutoff Mach over (altitude, flight-path angle, heading),
-returns "no boom" below it, and otherwise interpolates every row multilinearly in
-(altitude, Mach excess, flight-path angle, heading), heading periodic. Outside the
+returns "no boom" below it less :data:`NEAR_CUTOFF_BAND`, and otherwise interpolates every
+row multilinearly in (altitude, Mach excess, flight-path angle, heading), heading
+periodic. Within the band below cutoff it errs toward "the boom reaches": the rows of the
+first Mach-excess node (the narrowest, farthest-travelling carpet) stand for it. Outside the
 altitude, Mach-excess and flight-path-angle ranges the nearest edge value is used and
 the returned code says so.
 """
@@ -26,6 +28,14 @@ Q_DRIGHT_DPHI = 6  #: d(right)/d(phi), m/rad
 Q_PHI = 7  #: ray azimuth of this eta node, rad
 Q_EDGE = 8  #: 1 where the signature was flagged (caustic at the carpet edge), else 0
 N_QUANTITIES = 9
+
+#: Mach number band on either side of the cutoff Mach where the prediction is uncertain:
+#: ray theory breaks down as the rays graze the ground (the cutoff caustic), the table
+#: holds its half-width budget only from a Mach excess of 0.005 (issue 14's budget floor),
+#: and its cutoff Mach is interpolated (within 0.0007 of direct tracing on the default
+#: grid). Below cutoff by less than this the lookup still puts a boom on the ground; the
+#: advisor flags a state within it as near cutoff. Engineering choice (no source).
+NEAR_CUTOFF_BAND = 0.005
 
 #: Lookup result codes.
 NO_BOOM = 0
@@ -93,7 +103,8 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
     Returns
     -------
     code, cutoff_mach : (int, float)
-        :data:`NO_BOOM`, :data:`OK` or :data:`CLAMPED`, and the interpolated cutoff Mach.
+        :data:`NO_BOOM` (Mach at or below the cutoff less :data:`NEAR_CUTOFF_BAND`),
+        :data:`OK` or :data:`CLAMPED`, and the interpolated cutoff Mach.
     """
     ia, wa, ca = _locate(ax_alt, alt)
     jf, wf, cf = _locate(ax_fpa, fpa)
@@ -113,7 +124,7 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
                 w = wa_ * wf_ * wh_
                 if w != 0.0:
                     mcut += w * cutoff[a, f, h]
-    if mach <= mcut:
+    if mach <= mcut - NEAR_CUTOFF_BAND or mach <= 1.0:  # subsonic: no shock at all
         return NO_BOOM, mcut
     im, wm, cm = _locate(ax_mex, mach - mcut)
     if mach - mcut < ax_mex[0]:

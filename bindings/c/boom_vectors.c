@@ -216,7 +216,10 @@ static void cmd_dec(const uint8_t *p, size_t n)
         print_opt("resolve_mach", a->has_resolve_mach, a->resolve_mach);
         print_opt("turn_left_hdg", a->has_turn_left_hdg, a->turn_left_hdg);
         print_opt("turn_right_hdg", a->has_turn_right_hdg, a->turn_right_hdg);
-        printf(" combined=%c v=%u", a->combined ? 'T' : 'F', f.version);
+        printf(" combined=%c", a->combined ? 'T' : 'F');
+        if (a->near_cutoff)
+            printf(" near_cutoff=T");
+        printf(" v=%u", f.version);
     } else {
         const boom_status *s = &f.u.status;
         printf(" state=%s", boom_state_name(s->state));

@@ -731,7 +731,7 @@ enum {
     KEY_TRACK, KEY_MRATE, KEY_SAT, KEY_WFROM, KEY_WKT,
     KEY_PITCH, KEY_LOAD,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
-    KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB,
+    KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB, KEY_NEAR,
     KEY_STATE, KEY_REASON, KEY_COUNTERS,
     N_KEYS
 };
@@ -744,6 +744,7 @@ static const char *const key_names[N_KEYS] = {
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
     "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
+    "near_cutoff",
     "state", "reason", "counters",
 };
 
@@ -917,9 +918,12 @@ static int decode_adv(const keymap *km, boom_adv *a, unsigned version)
     OPT(KEY_RMACH, resolve_mach);
     OPT(KEY_TLH, turn_left_hdg);
     OPT(KEY_TRH, turn_right_hdg);
-    if (km->pos[KEY_COMB] == NULL)
-        return BOOM_OK; /* optional: absent means false */
-    return get_bool(km, KEY_COMB, &a->combined);
+    if (km->pos[KEY_COMB] != NULL
+        && (r = get_bool(km, KEY_COMB, &a->combined)) != BOOM_OK)
+        return r; /* optional: absent means false */
+    if (km->pos[KEY_NEAR] == NULL)
+        return BOOM_OK; /* optional (issue 14, sent only when true): absent means false */
+    return get_bool(km, KEY_NEAR, &a->near_cutoff);
 #undef REQ
 #undef OPT
 }

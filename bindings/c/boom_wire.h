@@ -131,6 +131,7 @@ typedef struct {
     bool has_turn_right_hdg;
     double turn_right_hdg; /* target heading of the right turn, deg true, 0..360 */
     bool combined;         /* the resolution is the Mach and the turn together */
+    bool near_cutoff;      /* issue 14: Mach within the near-cutoff band (absent: false) */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;

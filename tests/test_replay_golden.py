@@ -23,6 +23,12 @@ five new optional keys), act-by levels and checked resolutions (levels on the ti
 to act, the Mach resolution trial-flown, turns with roll-in after the reaction time, the
 ``unavoidable`` status) and the flown history (the booms already in the air placed from
 the states actually flown, over the longest travel time instead of a 150 s cap).
+``demo/turn_onto_park`` once more when the conflict search began reading the overpressure
+across each carpet strip instead of at its two end nodes (``advisory/pipeline/conflicts.py``):
+8 of its 1,002 frames name a larger overpressure during the roll-in (up to 3.469 psf
+where 2.681 psf was named, a focus warning); every status, zone, time to contact and
+crew line stayed the same (decoded advisory frames of all nine replays compared field by
+field before and after; the other eight identical).
 """
 
 from __future__ import annotations

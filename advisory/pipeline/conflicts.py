@@ -4,9 +4,17 @@ The carpet is cut into strips between the azimuth nodes ``strip_nodes``; each st
 series of ground segments over emission time, tested against the zones (within each
 zone's margin, the band between successive emissions included; see
 :func:`advisory.geo.contact.first_contact`). A zone with an overpressure limit is tested
-only against strip segments where the focus-amplified overpressure at either end
-exceeds the limit (conservative); zones sharing a limit are searched together.
-Emissions whose booms have all arrived (arrival time before now) are left out.
+only against strip segments where the focus-amplified overpressure somewhere across the
+strip (its two end nodes and every azimuth node between them) exceeds the limit
+(conservative); zones sharing a limit are searched together. Emissions whose booms have
+all arrived (arrival time before now) are left out.
+
+Before, only the two end nodes were read: in a turn the carpet's loudest ray lies off
+the track, between two strip nodes, and a zone whose limit lay between the nodes' 1.37
+psf and that ray's 1.38 psf (the truth's direct tracing: 1.380) was not found until a
+boom was on its way (campaign --known, seed 1, encounter 513: the first alert 2.2 s
+after the first boom into the zone was emitted, where the truth's act-by asked for one
+by 50.0 s).
 
 The numba kernel :func:`conflict_kernel` has a readable numpy twin
 (``find_conflicts_twin`` in ``tests/twins/conflicts.py``) compared in
@@ -132,6 +140,15 @@ def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,
 
 
 @njit(cache=True)
+def _strip_max(a, k, j0, j1):
+    """Largest ``a[k, j]`` over the strip's azimuth nodes ``j0 <= j <= j1``."""
+    big = a[k, j0]
+    for j in range(j0 + 1, j1 + 1):
+        big = max(big, a[k, j])
+    return big
+
+
+@njit(cache=True)
 def _kernel_contact_time(e, n, arrival, k, start, j0, j1, margin, x, y, ring_start,
                          part_start, zone_start, z):
     """Arrival time of carpet strip (j0, j1) at zone ``z``, first touched at emission
@@ -168,7 +185,9 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
                     margins, limits, focus_threshold, first_only, best_t, best_dp, best_focus):
     """First contact of the carpet strips with each zone (see the module notes).
 
-    Writes ``best_t`` (s, inf for none), ``best_dp`` (Pa) and ``best_focus`` per zone.
+    Writes ``best_t`` (s, inf for none), ``best_dp`` (Pa) and ``best_focus`` per zone:
+    the overpressure and focus flag are the largest across the touching strip (every
+    azimuth node from ``j0`` to ``j1``) at the touching emission and the one before it.
     """
     nz = limits.size
     nk = e.shape[0]
@@ -189,12 +208,12 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
             j1 = strip_nodes[s + 1]
             k = 0
             while k < nk:
-                if not (on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                if not (on_ground[k] and _strip_max(dp, k, j0, j1) > lim
                         and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
                     k += 1
                     continue
                 start = k
-                while (k < nk and on_ground[k] and max(dp[k, j0], dp[k, j1]) > lim
+                while (k < nk and on_ground[k] and _strip_max(dp, k, j0, j1) > lim
                        and max(arrival[k, j0], arrival[k, j1]) >= 0.0):
                     k += 1
                 stop = k
@@ -215,8 +234,8 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
                         big = 0.0
                         foc = 1.0
                         for q in range(k0, kk + 1):
-                            big = max(big, dp[q, j0], dp[q, j1])
-                            foc = max(foc, focus[q, j0], focus[q, j1])
+                            big = max(big, _strip_max(dp, q, j0, j1))
+                            foc = max(foc, _strip_max(focus, q, j0, j1))
                         best_t[z] = t
                         best_dp[z] = big
                         best_focus[z] = foc >= focus_threshold

@@ -24,7 +24,8 @@ def find_conflicts_twin(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneS
     is a series of ground segments over emission time, tested against the zones (within
     each zone's margin, the band between successive emissions included). A zone with an
     overpressure limit is tested only against strip segments where the focus-amplified
-    overpressure at either end exceeds the limit (conservative).
+    overpressure somewhere across the strip (end nodes and the nodes between) exceeds
+    the limit (conservative).
     """
     n_zones = len(pz)
     if n_zones == 0 or not pred.on_ground.any():
@@ -38,7 +39,7 @@ def find_conflicts_twin(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneS
     for lim in groups:
         margin = np.where(limits == lim, pz.margin_m, _EXCLUDE)
         for j0, j1 in zip(strip_nodes[:-1], strip_nodes[1:]):
-            seg_dp = np.maximum(dp[:, j0], dp[:, j1])
+            seg_dp = dp[:, j0:j1 + 1].max(axis=1)  # the whole strip, nodes between too
             still_arriving = np.maximum(pred.arrival_s[:, j0], pred.arrival_s[:, j1]) >= 0.0
             valid = pred.on_ground & (seg_dp > lim) & still_arriving
             if not valid.any():
@@ -55,8 +56,8 @@ def find_conflicts_twin(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneS
                     t = max(_contact_time(pred, pz, int(z), k, start, j0, j1, margin[z]), 0.0)
                     if t < best_t[z]:
                         best_t[z] = t
-                        best_dp[z] = float(np.max(dp[ks][:, [j0, j1]]))
-                        best_focus[z] = bool(np.max(pred.focus_factor[ks][:, [j0, j1]])
+                        best_dp[z] = float(np.max(dp[ks][:, j0:j1 + 1]))
+                        best_focus[z] = bool(np.max(pred.focus_factor[ks][:, j0:j1 + 1])
                                              >= focus_threshold)
                 if first_only and np.isfinite(best_t).any():
                     break

@@ -95,6 +95,10 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp, first)
     twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, first)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
+    join = nk // 2  # the history/ahead join: no difference across it
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp, -1, join)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, -1, join)
+    np.testing.assert_allclose(amp, twin, rtol=1e-12)
 
 
 @pytest.mark.parametrize("bank, mach, rate", [(0.0, 1.6, 0.0), (30.0, 1.6, 0.0),

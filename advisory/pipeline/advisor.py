@@ -391,7 +391,8 @@ class Advisor:
         if now_k == 0:  # no past: the prediction keeps the lookups (own copies)
             whole = FlownPast(ahead, rows.copy(), codes.copy(), cuts.copy())
         traj = whole.traj
-        pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs)
+        pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs,
+                                       join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
         fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
                                                   cfg.focus_threshold, cfg.reaction_s)

@@ -179,7 +179,7 @@ def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
 
 @njit(cache=True)
 def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap, out,
-                 first=-1):
+                 first=-1, join=-1):
     """Focus amplification per (k, j); see the module notes. Never NaN.
 
     ``trans_e``, ``trans_n``: the steady translation per (k, j), m/s
@@ -189,7 +189,14 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes,
     none). Its backward difference spans booms emitted before it, which are not judged:
     only its forward factor counts (a deceleration begun at the reaction time spreads
     the tubes of the booms emitted from then on; the truth's finely spaced emissions
-    have it so)."""
+    have it so).
+
+    ``join``: the first emission of the trajectory ahead after the flown history (-1:
+    none). No difference is taken across it (as at a carpet's ends): the newest flown
+    entry can be a fraction of the emission spacing before the present state, and the air
+    data's noise between two measured states (a few feet, 0.002 Mach, 0.1 deg) over so
+    short a gap reads as a manoeuvre that folds the edge rays. Each side keeps its own
+    one-sided difference (the flown one, the predicted one)."""
     nk, nj = ground_e.shape
     for k in range(nk):
         for j in range(nj):
@@ -198,12 +205,13 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes,
         return
     prev_sign = np.zeros(nj)
     for k in range(nk):
-        if codes[k] == lk.NO_BOOM:
+        if codes[k] == lk.NO_BOOM or k == join:
             for j in range(nj):
                 prev_sign[j] = 0.0
-            continue
-        k0 = k - 1 if k > 0 and codes[k - 1] != lk.NO_BOOM else k
-        k1 = k + 1 if k < nk - 1 and codes[k + 1] != lk.NO_BOOM else k
+            if codes[k] == lk.NO_BOOM:
+                continue
+        k0 = k - 1 if k > 0 and codes[k - 1] != lk.NO_BOOM and k != join else k
+        k1 = k + 1 if k < nk - 1 and codes[k + 1] != lk.NO_BOOM and k + 1 != join else k
         if k1 == k0:
             continue
         for j in range(nj):
@@ -319,8 +327,11 @@ class FootprintPredictor:
                            self._rows, self._codes, self._cut)
         return self._rows, self._codes, self._cut
 
-    def predict(self, traj: Trajectory, rows=None, codes=None, cutoffs=None) -> CarpetPrediction:
-        """Carpet for ``traj``; pass ``rows``/``codes``/``cutoffs`` to reuse a lookup."""
+    def predict(self, traj: Trajectory, rows=None, codes=None, cutoffs=None,
+                join: int = -1) -> CarpetPrediction:
+        """Carpet for ``traj``; pass ``rows``/``codes``/``cutoffs`` to reuse a lookup;
+        ``join``: the index of the present state after the flown history (no ray-tube
+        difference across it, :func:`focus_kernel`)."""
         if rows is None:
             rows, codes, cutoffs = self.lookup(traj)
             rows, codes, cutoffs = rows.copy(), codes.copy(), cutoffs.copy()
@@ -339,7 +350,7 @@ class FootprintPredictor:
         tn = np.empty((nk, nj))
         steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
                                   traj.fpa_rad, rows, codes, te, tn)
-        focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, self.focus_cap, amp)
+        focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, self.focus_cap, amp, -1, join)
         return CarpetPrediction(
             t_emit_s=traj.t_s, codes=codes, cutoff_mach=cutoffs, east_m=e, north_m=n,
             arrival_s=ta, overpressure_pa=rows[:, :, lk.Q_DP].copy(),

@@ -68,7 +68,7 @@ def steady_translation_twin(vg_e, vg_n, tas, mach, heading_grid, fpa, rows, code
 
 
 def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap,
-                      first: int = -1) -> np.ndarray:
+                      first: int = -1, join: int = -1) -> np.ndarray:
     """Readable twin of :func:`advisory.pipeline.footprint.focus_kernel`; returns the
     amplification array (``trans_e``, ``trans_n``: the steady translation, (K, J))."""
     nk, nj = ground_e.shape
@@ -78,11 +78,12 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, c
     boom = codes != lk.NO_BOOM
     prev_sign = np.zeros(nj)
     for k in range(nk):
-        if not boom[k]:
+        if not boom[k] or k == join:  # no difference across the history/ahead join
             prev_sign[:] = 0.0
-            continue
-        k0 = k - 1 if k > 0 and boom[k - 1] else k
-        k1 = k + 1 if k < nk - 1 and boom[k + 1] else k
+            if not boom[k]:
+                continue
+        k0 = k - 1 if k > 0 and boom[k - 1] and k != join else k
+        k1 = k + 1 if k < nk - 1 and boom[k + 1] and k + 1 != join else k
         if k1 == k0:
             continue
         dt = t[k1] - t[k0]

@@ -66,8 +66,7 @@ def merge_levels(base: Atmosphere, levels: list[ProfileLevel], blend_m: float = 
     -------
     Atmosphere
         On ``base``'s grid; ``description`` kind ``"merged"`` with the base's description,
-        the levels and the blend depth (rebuilt by
-        :func:`advisory.physics.atmosphere.atmosphere_from_description`).
+        the levels and the blend depth (rebuilt by :func:`rebuild_atmosphere`).
 
     Raises
     ------

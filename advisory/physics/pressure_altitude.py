@@ -12,8 +12,9 @@ and the day's pressure comes from the hydrostatic (hypsometric) equation
 
 On a standard day the geometric height is the geometric altitude of the geopotential
 pressure altitude ([1]_ eq. 18: about +36 m at 50,000 ft). On an ISA +15 K day at a
-pressure altitude of 50,000 ft the aircraft flies about 2,900 ft higher (the layers below
-are ~7 % thicker), which moves the carpet by about a kilometre and the arrival by seconds.
+pressure altitude of 50,000 ft the aircraft flies about 2,990 ft higher (the layers below
+are ~7 % warmer, so thicker): its boom arrives about 4 s later than at 50,000 ft, over a
+wider carpet, with a lower overpressure (tests/test_pressure_altitude.py).
 
 References
 ----------

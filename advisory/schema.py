@@ -69,6 +69,8 @@ ADV_OPTIONAL = ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "
                 "near_cutoff")
 #: Optional flags sent only when true (absent: false), so other frames stay as they were.
 ADV_SENT_WHEN_TRUE = ("near_cutoff",)
+#: The advisory fields that are true / false (the others are numbers, text or nil).
+ADV_FLAGS = ("focus", "tables_stale", "combined", "near_cutoff")
 ADV_FIELDS = ADV_FIELDS_V1 + ADV_OPTIONAL  #: canonical order after the header
 ADV_NULLABLE_FLOATS = (
     "time_to_contact_s", "overpressure_psf", "max_mach_off_ground", "turn_left_deg",

@@ -30,12 +30,13 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.results import Advisory
 from advisory.tables import lookup as lk
 from tests.test_advisor import ALT_FT, point_along, square, state, zoneset
+from tests.test_pressure_altitude import standard_day_height_m
 from tests.twins.lookup import lookup_twin
 
 
 def _height_m() -> float:
     """Geometric height of the test's pressure altitude on a standard day (ambiance)."""
-    return float(np.ravel(Reference.geop2geom_height(units.ft_to_m(ALT_FT)))[0])
+    return standard_day_height_m(units.ft_to_m(ALT_FT))
 
 
 @pytest.fixture(scope="module")

@@ -52,9 +52,14 @@ def _temperature(z_m: float, offset_k: float) -> float:
     return float(Reference(z_m).temperature[0]) + offset_k
 
 
+def standard_day_height_m(pressure_altitude_m: float) -> float:
+    """Geometric height (m) of a pressure altitude (m) on a standard day: the geometric
+    altitude of that geopotential altitude (USSA 1976 eq. 18, via ``ambiance``)."""
+    return float(np.ravel(Reference.geop2geom_height(pressure_altitude_m))[0])
+
+
 def _reference_pressure(pressure_altitude_m: float) -> float:
-    z = float(np.ravel(Reference.geop2geom_height(pressure_altitude_m))[0])
-    return float(Reference(z).pressure[0])
+    return float(Reference(standard_day_height_m(pressure_altitude_m)).pressure[0])
 
 
 def reference_height(pressure_altitude_m: float, offset_k: float) -> float:

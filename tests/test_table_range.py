@@ -25,6 +25,7 @@ from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.cues import crew_cue
 from advisory.pipeline.table_range import OUTSIDE_TABLE
 from tests.test_advisor import point_along, square, state, zoneset
+from tests.test_pressure_altitude import standard_day_height_m
 
 
 def _state_file(tmp_path, alt_ft: float, mach: float) -> str:
@@ -62,10 +63,8 @@ def test_check_at_8000_ft_says_the_boom_reaches(tmp_path, capsys):
 
 
 def _height_ft(pressure_altitude_ft: float) -> float:
-    """Geometric height (ft) of a pressure altitude on a standard day: the geometric
-    altitude of that geopotential altitude (the reference library ``ambiance``)."""
-    h = units.ft_to_m(pressure_altitude_ft)
-    return units.m_to_ft(float(np.ravel(ReferenceAtmosphere.geop2geom_height(h))[0]))
+    """Geometric height (ft) of a pressure altitude (ft) on a standard day (ambiance)."""
+    return units.m_to_ft(standard_day_height_m(units.ft_to_m(pressure_altitude_ft)))
 
 
 @pytest.mark.parametrize("alt_ft, fpa_deg, mach, named", [

@@ -15,6 +15,7 @@ from typing import Any
 
 from advisory.schema import (
     ADV_FIELDS,
+    ADV_FLAGS,
     ADV_OPTIONAL,
     ADV_STATUSES,
     ADV_STATUSES_V1,
@@ -162,7 +163,7 @@ def _dec_adv(m: dict, version: int = 2) -> tuple[dict, int]:
         if name == "zone_id":
             out[name] = None if x is None or x is _MISSING else _dec_text(
                 name, x, ZONE_ID_MAX_BYTES)
-        elif name in ("focus", "tables_stale", "combined", "near_cutoff"):
+        elif name in ADV_FLAGS:
             if x is _MISSING:
                 if name in _ADV_OPTIONAL:  # issue 13: absent means false
                     out[name] = False

@@ -42,6 +42,7 @@ from advisory.io.air_fastpath import AIR_FULL_MASK, AIR_OPTIONAL_IDX, air_canoni
 from advisory.io.frame_rules import RejectError, check_map, depth_ok
 from advisory.schema import (
     ADV_FIELDS,
+    ADV_FLAGS,
     ADV_FORMAT_VERSION,
     ADV_SENT_WHEN_TRUE,
     ADV_STATUSES,
@@ -248,7 +249,7 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
         if name in ADV_SENT_WHEN_TRUE:
             if _flag(name, fields.get(name, False)):
                 m[name] = True
-        elif name in ("focus", "tables_stale", "combined"):
+        elif name in ADV_FLAGS:
             m[name] = _flag(name, fields.get(name, False))
         elif name == "cue":
             m[name] = _text("cue", fields.get("cue", ""), CUE_MAX_BYTES)

@@ -280,6 +280,46 @@ _T_RANGE_K = (150.0, 350.0)
 _WIND_MAX_MPS = 150.0
 
 
+def check_levels(levels: list[ProfileLevel], temp_offset_k: float = 0.0) -> None:
+    """Refuse levels a profile cannot be built from: fewer than two, not finite, outside
+    the altitude grid, temperatures (with ``temp_offset_k``) outside 150-350 K, winds over
+    150 m/s, or not strictly ascending.
+
+    Raises
+    ------
+    AtmosphereError
+        Naming the level and the field.
+    """
+    if len(levels) < 2:
+        raise AtmosphereError(f"profile: needs at least 2 levels, got {len(levels)}")
+    for i, lev in enumerate(levels):
+        for name in ("altitude_m", "temperature_k", "wind_east_mps", "wind_north_mps"):
+            val = getattr(lev, name)
+            if not math.isfinite(val):
+                raise AtmosphereError(f"profile level {i}: {name} is {val}")
+        if not (Z_MIN_M <= lev.altitude_m <= Z_MAX_M):
+            raise AtmosphereError(
+                f"profile level {i}: altitude {lev.altitude_m:.1f} m is outside "
+                f"[{Z_MIN_M:.0f}, {Z_MAX_M:.0f}] m"
+            )
+        t = lev.temperature_k + temp_offset_k
+        if not (_T_RANGE_K[0] <= t <= _T_RANGE_K[1]):
+            raise AtmosphereError(
+                f"profile level {i}: temperature {t:.2f} K is outside "
+                f"[{_T_RANGE_K[0]:.0f}, {_T_RANGE_K[1]:.0f}] K"
+            )
+        speed = math.hypot(lev.wind_east_mps, lev.wind_north_mps)
+        if speed > _WIND_MAX_MPS:
+            raise AtmosphereError(
+                f"profile level {i}: wind speed {speed:.1f} m/s exceeds {_WIND_MAX_MPS:.0f} m/s"
+            )
+        if i > 0 and lev.altitude_m <= levels[i - 1].altitude_m:
+            raise AtmosphereError(
+                f"profile level {i}: altitude {lev.altitude_m:.1f} m is not above the "
+                f"previous level ({levels[i - 1].altitude_m:.1f} m); levels must ascend"
+            )
+
+
 def atmosphere_from_levels(
     levels: list[ProfileLevel],
     temp_offset_k: float = 0.0,
@@ -312,34 +352,7 @@ def atmosphere_from_levels(
         For fewer than two levels, non-ascending or out-of-range values; the message
         names the level and field.
     """
-    if len(levels) < 2:
-        raise AtmosphereError(f"profile: needs at least 2 levels, got {len(levels)}")
-    for i, lev in enumerate(levels):
-        for name in ("altitude_m", "temperature_k", "wind_east_mps", "wind_north_mps"):
-            val = getattr(lev, name)
-            if not math.isfinite(val):
-                raise AtmosphereError(f"profile level {i}: {name} is {val}")
-        if not (Z_MIN_M <= lev.altitude_m <= Z_MAX_M):
-            raise AtmosphereError(
-                f"profile level {i}: altitude {lev.altitude_m:.1f} m is outside "
-                f"[{Z_MIN_M:.0f}, {Z_MAX_M:.0f}] m"
-            )
-        t = lev.temperature_k + temp_offset_k
-        if not (_T_RANGE_K[0] <= t <= _T_RANGE_K[1]):
-            raise AtmosphereError(
-                f"profile level {i}: temperature {t:.2f} K is outside "
-                f"[{_T_RANGE_K[0]:.0f}, {_T_RANGE_K[1]:.0f}] K"
-            )
-        speed = math.hypot(lev.wind_east_mps, lev.wind_north_mps)
-        if speed > _WIND_MAX_MPS:
-            raise AtmosphereError(
-                f"profile level {i}: wind speed {speed:.1f} m/s exceeds {_WIND_MAX_MPS:.0f} m/s"
-            )
-        if i > 0 and lev.altitude_m <= levels[i - 1].altitude_m:
-            raise AtmosphereError(
-                f"profile level {i}: altitude {lev.altitude_m:.1f} m is not above the "
-                f"previous level ({levels[i - 1].altitude_m:.1f} m); levels must ascend"
-            )
+    check_levels(levels, temp_offset_k)
     z = _grid(dz_m)
     zl = np.array([lv.altitude_m for lv in levels])
     tl = np.array([lv.temperature_k for lv in levels]) + temp_offset_k

@@ -29,7 +29,7 @@ from advisory.physics.atmosphere import (
     ProfileLevel,
     _hydrostatic_pressure,
     atmosphere_from_description,
-    atmosphere_from_levels,
+    check_levels,
 )
 
 __all__ = ["BLEND_M", "merge_levels", "rebuild_atmosphere"]
@@ -56,7 +56,7 @@ def merge_levels(base: Atmosphere, levels: list[ProfileLevel], blend_m: float = 
         The planning atmosphere (a loaded profile, or the standard atmosphere).
     levels : list of ProfileLevel
         At least two measured levels, ascending (checked as
-        :func:`advisory.physics.atmosphere.atmosphere_from_levels` checks them).
+        :func:`advisory.physics.atmosphere.check_levels`).
     blend_m : float
         Fade depth beyond the measured band, m (> 0).
     source : str
@@ -73,7 +73,7 @@ def merge_levels(base: Atmosphere, levels: list[ProfileLevel], blend_m: float = 
     AtmosphereError
         For levels the profile builder refuses.
     """
-    atmosphere_from_levels(levels, dz_m=base.dz_m)  # the same checks, named per level
+    check_levels(levels)
     if not blend_m > 0.0:
         raise ValueError(f"blend_m: {blend_m} must be > 0")
     z = base.z_m

@@ -12,7 +12,12 @@ Signals (``docs/interface.md`` section 17.7): SIGTERM, SIGINT, SIGHUP, SIGQUIT, 
 and SIGUSR2 all stop the service cleanly (final ``unavailable`` advisory and status
 frames, exit 0), during start-up too: a signal during start-up raises
 :class:`StartupInterrupted` in the main thread (a ``BaseException``, so best-effort
-``except Exception`` blocks do not swallow it).
+``except Exception`` blocks do not swallow it), and again at the next start-up step.
+A library may still swallow it (seen: numba's type inference, which then went on
+compiling for tens of seconds); so the starting thread, :data:`STOP_GRACE_S` after the
+signal, sends the final frames itself and ends the process with exit code 0 (nothing
+is half-written then: tables and numba's cache files are written under a temporary name
+and renamed into place).
 
 The frames are encoded here without :mod:`advisory.io.messages` (which loads the numba
 kernels): MessagePack maps in the canonical key order of ``docs/interface.md`` sections
@@ -26,6 +31,7 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import os
 import signal
 import socket
 import threading
@@ -41,6 +47,9 @@ from advisory.pipeline.cues import unavailable_cue
 from advisory.schema import ADV_FORMAT_VERSION, WIRE_FORMAT_VERSION
 
 STARTING_PERIOD_S = 0.5  #: one starting status frame this often, s
+#: Longest wait from a stop signal during start-up to the end of the process, s
+#: (engineering choice: a supervisor's stop timeout is commonly 10 s or more).
+STOP_GRACE_S = 2.0
 #: Signals that stop the service (all cleanly, with final frames and exit code 0).
 STOP_SIGNALS = (signal.SIGTERM, signal.SIGINT, signal.SIGHUP, signal.SIGQUIT,
                 signal.SIGUSR1, signal.SIGUSR2)
@@ -139,6 +148,8 @@ class _LightOutput:
         return False
 
     def send(self, payload: bytes) -> None:
+        if self._sock is None and self._port is None:
+            return
         crc = crc32c_py(payload).to_bytes(4, "big")
         try:
             if self._sock is not None:
@@ -182,6 +193,8 @@ class StartingPhase:
         self.starting = True
         self.on_stop: Callable[[str], None] | None = None
         self._seq = 0
+        self._stop_at = 0.0
+        self._final_sent = False
         self._lock = threading.Lock()
         self._halt = threading.Event()
         self._thread: threading.Thread | None = None
@@ -202,20 +215,30 @@ class StartingPhase:
         name = signal.Signals(signum).name
         if not self.stop_reason:
             self.stop_reason = name
+            self._stop_at = time.monotonic()
         if self.on_stop is not None:
             self.on_stop(name)
         elif self.starting:
             raise StartupInterrupted(name)
 
     def start(self) -> None:
-        """Open the output and send a starting frame now and every period."""
-        if self.out.open():
-            self._thread = threading.Thread(target=self._run, name="boom-starting",
-                                            daemon=True)
-            self._thread.start()
+        """Open the output and send a starting frame now and every period (the thread
+        also ends a start that a stop signal did not end; it runs for every output)."""
+        self.out.open()
+        self._thread = threading.Thread(target=self._run, name="boom-starting",
+                                        daemon=True)
+        self._thread.start()
 
     def set_phase(self, text: str) -> None:
-        """Say what the service waits for now (``compiling kernels``, ...)."""
+        """Say what the service waits for now (``compiling kernels``, ...).
+
+        Raises
+        ------
+        StartupInterrupted
+            A stop signal came during start-up (a library swallowed the first raise).
+        """
+        if self.stop_reason and self.starting:
+            raise StartupInterrupted(self.stop_reason)
         self.phase = text
 
     def _send_status(self, state: str, reason: str) -> None:
@@ -225,21 +248,42 @@ class StartingPhase:
 
     def _run(self) -> None:
         while not self._halt.is_set():
+            if (self._stop_at and self.starting
+                    and time.monotonic() - self._stop_at >= STOP_GRACE_S):
+                self._hard_stop()
             self._send_status("unavailable", f"starting: {self.phase}"[:127])
-            self._halt.wait(STARTING_PERIOD_S)
+            self._halt.wait(min(STARTING_PERIOD_S, STOP_GRACE_S / 4)
+                            if self._stop_at else STARTING_PERIOD_S)
+
+    def _hard_stop(self) -> None:
+        """The main thread did not stop within :data:`STOP_GRACE_S` of the stop signal:
+        the final frames from here, one line on standard error, exit code 0."""
+        reason = f"service stopped ({self.stop_reason})"
+        self.final(reason)
+        line = (f"stopping: {reason} during start-up; the start did not end within "
+                f"{STOP_GRACE_S:g} s of the signal\n")
+        try:
+            os.write(2, line.encode())
+        except OSError:  # no standard error: the frames said it
+            pass
+        os._exit(0)
 
     def finish(self) -> None:
         """Stop the starting frames and free the output for the service proper."""
         self._halt.set()
         th, self._thread = self._thread, None
-        if th is not None:
+        if th is not None and th is not threading.current_thread():
             th.join(1.0)
         self.out.close()
 
     def final(self, reason: str) -> None:
-        """Final ``unavailable`` advisory and status frames (a stop during start-up)."""
+        """Final ``unavailable`` advisory and status frames (a stop during start-up);
+        sent once."""
         self._halt.set()
         with self._lock:
+            if self._final_sent:
+                return
+            self._final_sent = True
             now = time.time()
             self.out.send(unavailable_adv_payload(reason, 0, now))
             self.out.send(status_payload("unavailable", reason, self._seq, now))
@@ -247,5 +291,6 @@ class StartingPhase:
         self.finish()
 
 
-__all__ = ["STARTING_PERIOD_S", "STOP_SIGNALS", "StartingPhase", "StartupInterrupted",
-           "cobs_encode_py", "crc32c_py", "status_payload", "unavailable_adv_payload"]
+__all__ = ["STARTING_PERIOD_S", "STOP_GRACE_S", "STOP_SIGNALS", "StartingPhase",
+           "StartupInterrupted", "cobs_encode_py", "crc32c_py", "status_payload",
+           "unavailable_adv_payload"]

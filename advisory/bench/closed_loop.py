@@ -60,6 +60,8 @@ from advisory.pipeline.config import load_config
 from advisory.pipeline.state import StateValidator
 from advisory.schema import SAFETY_CAUTION
 from advisory.service.loop import AdvisoryLoop
+from advisory.tables.levels import level_table
+from advisory.tables.table import BoomTable
 
 MAX_STEP_S = 0.025  #: longest internal simulator step, s
 MONO_START_S = 1000.0  #: the loop's monotonic clock at flight time 0, s
@@ -149,7 +151,11 @@ def make_sim_loop(sc: Scenario, world: World, recorder: Recorder | None = None
                   ) -> AdvisoryLoop:
     """The advisor and loop as :func:`advisory.bench.scenario.make_loop` builds them for a
     replay (same classes and arguments; the table and zones are already in memory)."""
-    advisor = Advisor(world.table, world.zones, load_config(sc.advisor.config))
+    def levels(table: BoomTable, ground_m: float) -> BoomTable:  # zones on higher ground
+        return level_table(table, ground_m, quiet=True, workers=world.build_workers)
+
+    advisor = Advisor(world.table, world.zones, load_config(sc.advisor.config),
+                      level_tables=levels)
     return AdvisoryLoop(advisor, input_format=sc.source.format, rate_hz=sc.advisor.rate_hz,
                         heartbeat_s=HEARTBEAT_S, recorder=recorder,
                         validator=StateValidator())

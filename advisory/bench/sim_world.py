@@ -67,6 +67,8 @@ class World:
     truth_zones: tuple[TruthZone, ...]
     origin_deg: tuple[float, float]
     table: BoomTable
+    #: Processes that build a table for zones on higher ground (None: all cores).
+    build_workers: int | None = None
 
 
 def atmosphere_of(spec: AirSpec, name: str) -> Atmosphere:
@@ -228,4 +230,4 @@ def build_world(sc: Scenario, quiet: bool = True, build_workers: int | None = No
     aircraft = default_aircraft()
     table = advisor_table(sc, aircraft, true_atm, adv_atm, quiet, build_workers)
     return World(true_atm, adv_atm, aircraft, zones, geo, truth_zones_of(zones, frame),
-                 origin, table)
+                 origin, table, build_workers)

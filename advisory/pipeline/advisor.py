@@ -1,29 +1,16 @@
-"""The advisor: from one air-data state to an advisory with levels and resolutions.
+"""The advisor: from one air-data state to an advisory with levels and resolutions, for
+zones on every ground the zone file names.
 
-One :meth:`Advisor.step` predicts the trajectory ahead (:mod:`.trajectory`), takes the
-booms still in the air from the states flown (:mod:`.history`: the advisor keeps every
-state it steps on, one per emission spacing, so a replay and the live loop feed it the
-same way), lays the boom carpet on the ground from the tables (:mod:`.footprint`), and
-finds the zones it reaches (:mod:`.conflicts`), split into the booms emitted before the
-crew can act (within ``reaction_s``: nothing changes them) and the later ones. For the
-later ones it flies the resolutions as trials (:mod:`.resolutions`, :mod:`.trial`): the
-largest Mach reached by decelerating that clears, the smallest left and right turns
-(with roll-in) that clear, both together when neither alone does, and the act-by time,
-the latest moment the offered action can start and still clear; the level is set on the
-act-by time with hysteresis (:mod:`.levels`). The air data's pressure altitude becomes the
-geometric height in the table's atmosphere first
-(:mod:`advisory.physics.pressure_altitude`). The advisory and its crew line are in
-:mod:`.results` and :mod:`.cues`.
+:class:`Advisor` is a :class:`~advisory.pipeline.ground_advisor.GroundAdvisor` for the
+zones on its table's ground (and those of unknown elevation), and holds one more for each
+higher ground level (:mod:`.ground_levels`), each with the table traced to that ground
+(:mod:`advisory.tables.levels`). Every level steps the same state in the same projection
+of the zones; each level's resolution trials also judge the zones of every other level,
+so an offered action keeps the booms off all of them. The advisories are merged
+(:func:`merge_advisories`): the most severe status and its zone, the lowest cutoff Mach
+(higher ground is reached at a lower Mach), every conflict.
 
-Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
-the ground over the look-ahead), ``clear`` (carpet on the ground, no conflict),
-``advisory`` (an avoidable conflict within the look-ahead), ``caution`` and ``warning``
-(the act-by time within the caution and warning leads, or nothing clears),
-``unavoidable`` (a boom emitted before the crew can act reaches a zone: the zone, its
-arrival time and overpressure are named, and the resolution fields still carry the
-action for any avoidable conflict) and ``unavailable`` (no valid, fresh air data, or no
-table): never a clear status on an invalid or stale state, nor while a boom is on its
-way into a zone.
+With every zone on the table's ground it is the one-level advisor and nothing more.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
@@ -33,72 +20,27 @@ from __future__ import annotations
 
 import dataclasses
 import math
-import time
 from collections.abc import Callable
-from typing import Protocol
 
-import numpy as np
-
-from advisory.geo.frame import LocalFrame
-from advisory.physics.atmosphere import Atmosphere
-from advisory.physics.pressure_altitude import HeightConverter
-from advisory.pipeline.airdata import AirDataState, state_problem
+from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.conflicts import split_conflicts
-from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
-from advisory.pipeline.history import FlownHistory, FlownPast, join_past, past_trajectory
-from advisory.pipeline.levels import AlertLevels, level_status
+from advisory.pipeline.ground_advisor import GroundAdvisor, OtherGround, TableSource
+from advisory.pipeline.ground_levels import zone_levels
 from advisory.pipeline.profile import StreamProfile
-from advisory.pipeline.resolutions import (
-    Resolution,
-    Search,
-    TrialBase,
-    max_mach_off_ground,
-    run_search,
-    search,
-)
-from advisory.pipeline.results import Advisory, Conflict
-from advisory.pipeline.table_range import mach_outside_table, outside_table
-from advisory.pipeline.trajectory import SpeedOfSound, Trajectory, predict_trajectory
-from advisory.pipeline.zone_projection import (
-    EARLY_FRACTION,
-    SYNC_VERTICES,
-    ZoneProjector,
-    vertex_count,
-)
+from advisory.pipeline.results import Advisory
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
-from advisory.schema import EARTH_MEAN_RADIUS_M
-from advisory.tables import lookup as lk
+from advisory.schema import STATUS_RANK
+from advisory.tables.levels import level_table
 from advisory.tables.table import BoomTable
 
-__all__ = ["Advisor", "TableSource"]
+__all__ = ["Advisor", "TableSource", "merge_advisories"]
 
-#: Trials a refresh of the resolution search may fly per step (a new conflict is searched
-#: in full at once); about 0.1 ms each (project choice for the step budget).
-TRIALS_PER_STEP = 4
-
-
-class TableSource(Protocol):
-    """What the advisor needs of a table manager: the live table. It may also have
-    ``stale`` (a newer atmosphere is being built), ``poll()`` (swap a rebuilt table in)
-    and ``submit_atmosphere(atm)`` (ask for a rebuild); each is used when present."""
-
-    @property
-    def table(self) -> BoomTable: ...
+#: ``(table, ground_m) -> table or source`` for a higher ground level.
+LevelTables = Callable[[BoomTable, float], "BoomTable | TableSource"]
 
 
-def _speed_of_sound_fn(atm: Atmosphere) -> Callable[[np.ndarray], np.ndarray]:
-    """Speed of sound (m/s) at altitudes (m), interpolated in the table's atmosphere."""
-    z, c = atm.z_m, atm.sound_speed_mps
-
-    def a(alt: np.ndarray) -> np.ndarray:
-        return np.interp(alt, z, c)
-
-    return a
-
-
-class Advisor:
-    """Steps from air-data states to advisories.
+class Advisor(GroundAdvisor):
+    """Steps from air-data states to advisories, every zone judged on its own ground.
 
     Parameters
     ----------
@@ -106,445 +48,124 @@ class Advisor:
         The boom table, or a manager that swaps rebuilt tables in (anything with a
         ``table`` attribute, optional ``stale``, ``poll()`` and ``submit_atmosphere``).
     zones : ZoneSet
-        The no-boom zones.
+        The no-boom zones (each at its ``ground_elevation_ft``).
     config : AdvisorConfig, optional
         Thresholds (defaults documented in :mod:`advisory.pipeline.config`).
+    level_tables : callable, optional
+        ``(table, ground_m) -> BoomTable or TableSource`` for each higher ground level;
+        default :func:`advisory.tables.levels.level_table` (built once, then cached).
     """
 
     def __init__(self, tables: BoomTable | TableSource, zones: ZoneSet,
-                 config: AdvisorConfig | None = None) -> None:
-        self.config = config or AdvisorConfig()
-        self.config.validate()
-        self._tables = tables
-        self.zones = zones
-        self._projected: ProjectedZones | None = None
-        self._frame_origin: tuple[float, float] | None = None
-        #: A large zone set's next projection, done a slice per step (zone_projection).
-        self._projector: ZoneProjector | None = None
-        self._projector_origin: tuple[float, float] = (0.0, 0.0)
-        self._large_zones = vertex_count(zones) > SYNC_VERTICES
-        self._levels = AlertLevels(self.config)
-        self.last_prediction: CarpetPrediction | None = None
-        self.last_trajectory: Trajectory | None = None
-        self._ahead: Trajectory | None = None  # the last trajectory ahead (no past)
-        self.steps = 0
-        #: Resolution searches started (for the benchmark).
-        self.resolution_searches = 0
-        #: The last finished search, the monotonic time and zone it was made for, and the
-        #: refresh in progress (:meth:`_resolution`).
-        self._result: Resolution | None = None
-        self._result_t0 = 0.0
-        self._result_zone: str | None = None
-        self._search: Search | None = None
-        self._search_t0 = 0.0
-        #: A boom found on its way into a zone: (conflict, monotonic arrival, found at).
-        self._on_way: tuple[Conflict, float, float] | None = None
-        #: The zone named while a level is held with no present conflict.
-        self._held_zone: str | None = None
-        self._held_name: str | None = None
-        #: Profile assembled from the stream; proposed to a table manager for rebuilds.
-        self.stream_profile = StreamProfile()
-        # the live table and what is derived from it (renewed when a rebuilt one comes in)
-        (self._table, self._predictor, self._atm, self._sound,
-         self._strips) = self._table_parts(self._current_table())
-        #: Generation of the live table (stored with each flown-history entry).
-        self._table_gen = 0
-        #: The states flown, from which the booms still in the air are placed.
-        self.history = FlownHistory(self._table.eta.size, self.config.step_s,
-                                    self._history_window_s(self._table))
+                 config: AdvisorConfig | None = None,
+                 level_tables: LevelTables | None = None) -> None:
+        table = tables if isinstance(tables, BoomTable) else tables.table
+        levels = zone_levels(zones, table.grid.ground_elevation_m)
+        base_mask = levels.pop(table.grid.ground_elevation_m)
+        self.levels: list[GroundAdvisor] = []
+        super().__init__(tables, zones, config, mask=base_mask if levels else None)
+        make = level_tables or level_table
+        for ground_m, mask in levels.items():
+            lv = GroundAdvisor(make(table, ground_m), zones, self.config, mask=mask,
+                               zone_source=self._shared_projection)
+            lv.stream_profile = StreamProfile(enabled=False)  # the levels follow the base
+            self.levels.append(lv)
+        grounds: list[GroundAdvisor] = [self, *self.levels]
+        for g in grounds:
+            g.other_grounds = _others_of(g, grounds)
+        self._level_base = table  # the base table the level tables were made from
 
-    # ---- tables --------------------------------------------------------------------
-    def _current_table(self) -> BoomTable:
-        t = self._tables
-        return t if isinstance(t, BoomTable) else t.table
-
-    def _table_parts(self, table: BoomTable) -> tuple[
-            BoomTable, FootprintPredictor, Atmosphere, Callable[[np.ndarray], np.ndarray],
-            np.ndarray]:
-        """The table with its footprint predictor, atmosphere, speed of sound and strips."""
-        atm = table.atmosphere()
-        #: the fallback past's lookups (own buffers: its length differs from the ahead's)
-        self._fallback_lookup = FootprintPredictor(table)
-        #: pressure altitude -> geometric height through the table's profile
-        self._heights = HeightConverter(atm)
-        return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
-                strip_indices(table.eta.size, self.config.strips))
+    def _shared_projection(self, lat: float, lon: float) -> ProjectedZones:
+        """The base's projection of every zone (made in its step, just before)."""
+        whole = self._whole
+        return whole if whole is not None else self.projection(lat, lon)
 
     @property
-    def table(self) -> BoomTable:
-        """The live table (the table manager's present one)."""
-        return self._current_table()
+    def ground_levels_m(self) -> tuple[float, ...]:
+        """The ground elevations judged, m: the table's, then each higher level's."""
+        return (self.table.grid.ground_elevation_m,
+                *(lv.table.grid.ground_elevation_m for lv in self.levels))
 
     @property
     def tables_stale(self) -> bool:
-        """True while the table manager has a newer atmosphere being built."""
-        return bool(getattr(self._tables, "stale", False))
-
-    # ---- zones ---------------------------------------------------------------------
-    def _zones_for(self, lat: float, lon: float) -> ProjectedZones:
-        """Zones projected about a nearby origin; re-projected past ``reproject_km``.
-
-        A large zone set's next projection starts at half that distance and goes a slice
-        per step (:mod:`advisory.pipeline.zone_projection`), so no step stalls. The
-        distance test is a haversine on the mean Earth radius (good to 0.5 %, plenty for a
-        re-projection threshold); geodesics proper are for the projection itself.
-        """
-        limit_m = self.config.reproject_km * 1e3
-        if self._frame_origin is not None and self._projected is not None:
-            d = _haversine_m(self._frame_origin, lat, lon)
-            if d < limit_m:
-                if self._large_zones:
-                    self._project_ahead(lat, lon, d >= EARLY_FRACTION * limit_m)
-                return self._projected
-            if self._projector is not None:  # not done in time: finish it now
-                self._take(self._projector.finish())
-                if _haversine_m(self._frame_origin, lat, lon) < limit_m:
-                    return self._projected
-        self._projector = None
-        frame = LocalFrame(lat, lon)
-        self._projected = self.zones.project(frame)
-        self._frame_origin = (lat, lon)
-        return self._projected
-
-    def _project_ahead(self, lat: float, lon: float, start: bool) -> None:
-        """Start (when ``start``) or continue a large set's next projection."""
-        if self._projector is None:
-            if not start:
-                return
-            self._projector = ZoneProjector(self.zones, LocalFrame(lat, lon))
-            self._projector_origin = (lat, lon)
-        done = self._projector.advance()
-        if done is not None:
-            self._take(done)
-
-    def _take(self, projected: ProjectedZones) -> None:
-        self._projected = projected
-        self._frame_origin = self._projector_origin
-        self._projector = None
-
-    # ---- the step ------------------------------------------------------------------
-    def unavailable(self, reason: str, utc_s: float | None = None) -> Advisory:
-        """The advisory for a step without usable input (the level memory is kept)."""
-        return Advisory("unavailable", reason=reason, tables_stale=self.tables_stale,
-                        utc_s=utc_s)
+        """True while a table manager (of any level) has a newer atmosphere being built."""
+        return super().tables_stale or any(lv.tables_stale for lv in self.levels)
 
     def step(self, state: AirDataState | None, now_monotonic: float | None = None) -> Advisory:
-        """One advisory for one air-data state; never raises on bad input.
+        """One advisory for one air-data state (every ground level); never raises on bad
+        input. See :meth:`GroundAdvisor.step`."""
+        base = super().step(state, now_monotonic)
+        if not self.levels:
+            return base
+        self._follow_base_atmosphere()
+        return merge_advisories([base, *(lv.step(state, now_monotonic)
+                                         for lv in self.levels)])
 
-        Parameters
-        ----------
-        state : AirDataState or None
-            The latest validated state (None: no valid air data).
-        now_monotonic : float, optional
-            The loop's monotonic clock (default ``time.monotonic()``); a state received
-            more than ``stale_after_s`` earlier is stale.
-        """
-        now = time.monotonic() if now_monotonic is None else now_monotonic
-        self.steps += 1
-        poll = getattr(self._tables, "poll", None)
-        if poll is not None:
-            poll()
-        table = self._current_table()
-        if table is not self._table:
-            (self._table, self._predictor, self._atm, self._sound,
-             self._strips) = self._table_parts(table)
-            self._new_table_history(table)
-        if state is None:
-            return self.unavailable("no valid air data")
-        problem = state_problem(state)
-        if problem:
-            return self.unavailable(problem, state.utc_s)
-        if state.rx_monotonic is not None and now - state.rx_monotonic > self.config.stale_after_s:
-            return self.unavailable(
-                f"air data stale ({now - state.rx_monotonic:.1f} s old)", state.utc_s)
-        # From here on the state's altitude is the geometric height of its pressure
-        # altitude in the table's atmosphere (the hypsometric equation): the tables, the
-        # trajectory and the history are in geometric height.
-        state = dataclasses.replace(state, alt_m=self._heights.height(state.alt_m))
-        self._learn_atmosphere(state, now)
-        if state.mach <= 0.0:
-            # Standing still (on the ground, or a source reporting 0): no shock at all, and
-            # the trajectory ahead is undefined (it needs Mach > 0). A boom needs Mach > 1.
-            return Advisory("no_boom", tables_stale=self.tables_stale, utc_s=state.utc_s)
-        outside = outside_table(table, state.alt_m, state.fpa_rad) if state.mach > 1.0 else None
-        if outside:
-            return self.unavailable(outside, state.utc_s)  # never clamped silently
-        try:
-            return self._step(state, now)
-        except Exception as exc:  # noqa: BLE001 - the loop must never die on one state
-            first_line = (str(exc).strip().splitlines() or [""])[0][:80]
-            return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
-                                    state.utc_s)
-
-    # ---- the booms already in the air ----------------------------------------------
-    def _history_window_s(self, table: BoomTable) -> float:
-        """How far back the flown history must reach: the table's longest travel time
-        (over every cell) plus two emission spacings, at most ``in_air_s``."""
-        q = table.cells[..., lk.Q_TIME]
-        ok = np.isfinite(q)
-        longest = float(q[ok].max()) if ok.any() else 0.0
-        return min(self.config.in_air_s, longest + 2.0 * self.config.step_s)
-
-    def _new_table_history(self, table: BoomTable) -> None:
-        """A table came in: entries keep the rows of the table in force when flown; the
-        buffer grows for longer travel times (emptied only when the azimuth nodes
-        differ, since rows of two node sets cannot be laid side by side)."""
-        self._table_gen += 1
-        window = self._history_window_s(table)
-        if table.eta.size != self.history.n_eta:
-            self.history = FlownHistory(table.eta.size, self.config.step_s, window)
-        else:
-            self.history.grow(window)
-
-    def _in_air_s(self, present_rows: np.ndarray, present_code: int) -> float:
-        """How far back booms may still be on their way down: the longest travel time of
-        the present footprint (its table rows) and of the flown states held, plus one
-        step (at most ``in_air_s``); with neither on the ground, the table's longest."""
-        h = self.history
-        longest = float(np.max(h.travel[:len(h)])) if len(h) else -math.inf
-        if present_code != lk.NO_BOOM:
-            longest = max(longest, float(np.max(present_rows[:, lk.Q_TIME])))
-        if not math.isfinite(longest):
-            return h.window_s
-        return min(self.config.in_air_s, longest + self.config.step_s)
-
-    @staticmethod
-    def _state_time(s: AirDataState, now: float) -> float:
-        """The state's own time (s): its UTC stamp, else its receive time, else now."""
-        if s.utc_s is not None:
-            return s.utc_s
-        return s.rx_monotonic if s.rx_monotonic is not None else now
-
-    def _past(self, ahead: FlownPast, t_now: float) -> tuple[FlownPast, int]:
-        """The emission points whose booms may still be in the air, from the flown
-        history, followed by those ahead (with their lookups), and the index of the
-        present one; the part of the window older than the history (a fresh advisor) is
-        the present state flown backwards (:func:`past_trajectory`), kept apart from the
-        history by a separator."""
-        cfg, h = self.config, self.history
-        win = h.window(t_now, ahead.traj.frame)
-        back_s = self._in_air_s(ahead.rows[0], int(ahead.codes[0]))
-        have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
-        fallback = None
-        if have_s < back_s - 1e-6:
-            back = past_trajectory(ahead.traj, back_s, cfg.step_s)
-            keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
-            if keep.size:
-                part = _subset(back, keep)
-                fallback = FlownPast(part, *self._fallback_lookup.lookup(part))  # copied
-        tail_break = win is not None and t_now - h.newest_t > h.gap_s
-        return join_past(win, fallback, ahead, tail_break)
-
-    def _remember(self, s: AirDataState, t_now: float, ahead: Trajectory, rows: np.ndarray,
-                  code: int, cutoff: float) -> None:
-        """Offer the present state (with its table rows) to the flown history."""
-        h = self.history
-        if len(h) and 0.0 <= t_now - h.newest_t < h.spacing_s - 1e-6:
-            return  # not due (the common case: no work)
-        e0, n0 = float(ahead.east_m[0]), float(ahead.north_m[0])
-        track = s.track_rad
-        if track is None:
-            track = float(ahead.frame.grid_to_azimuth(e0, n0, float(ahead.track_grid_rad[0])))
-        h.offer(t_now, s.lat_rad, s.lon_rad,
-                (s.alt_m, s.mach, float(ahead.tas_mps[0]), s.heading_rad, track,
-                 float(ahead.ground_speed_mps[0]), s.fpa_rad, s.bank_rad,
-                 float(ahead.turn_rate_rad_s[0])),
-                self._table_gen, rows, code, cutoff)
-
-    def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
-        """Feed the stream profile; hand a disagreeing profile to the table manager."""
-        submit = getattr(self._tables, "submit_atmosphere", None)
-        if submit is None:
+    def _follow_base_atmosphere(self) -> None:
+        """A rebuilt table came into the base level: the levels' managers rebuild theirs
+        for the same air (a level on a plain table keeps it)."""
+        table = self.table
+        if table is self._level_base:
             return
-        self.stream_profile.add(s.alt_m, s.sat_k, s.wind_east_mps, s.wind_north_mps)
-        atm = self.stream_profile.proposal(self._atm, now)
-        if atm is not None:
-            submit(atm)
+        self._level_base = table
+        atm = table.atmosphere()
+        for lv in self.levels:
+            submit = getattr(lv._tables, "submit_atmosphere", None)
+            if submit is not None:
+                submit(atm)
 
-    def _trajectory(self, s: AirDataState, pz: ProjectedZones) -> Trajectory:
-        """The trajectory ahead from state ``s``, in the zones' frame."""
-        # Level flight keeps the altitude, hence the sound speed: pass the value.
-        level = s.fpa_rad == 0.0 and s.pitch_rate_rad_s is None and s.load_factor is None
-        sound: SpeedOfSound = (
-            float(np.interp(s.alt_m, self._atm.z_m, self._atm.sound_speed_mps))
-            if level else self._sound)
-        return predict_trajectory(
-            s.lat_rad, s.lon_rad, s.alt_m, s.mach, s.heading_rad, s.gs_mps,
-            speed_of_sound=sound, track_rad=s.track_rad, bank_rad=s.bank_rad,
-            fpa_rad=s.fpa_rad, mach_rate_per_s=s.mach_rate_per_s or 0.0,
-            wind_east_mps=s.wind_east_mps, wind_north_mps=s.wind_north_mps,
-            lookahead_s=self.config.look_ahead_s, step_s=self.config.step_s, frame=pz.frame,
-            pitch_rate_rad_s=s.pitch_rate_rad_s, load_factor=s.load_factor,
-        )
-
-    def _step(self, s: AirDataState, now: float) -> Advisory:
-        cfg = self.config
-        pz = self._zones_for(s.lat_rad, s.lon_rad)
-        ahead = self._trajectory(s, pz)
-        t_state = self._state_time(s, now)
-        rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
-        self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
-        beyond = mach_outside_table(self._table, s.mach, float(cuts[0]))
-        if beyond:
-            return self.unavailable(beyond, s.utc_s)
-        whole, now_k = self._past(FlownPast(ahead, rows, codes, cuts), t_state)
-        if now_k == 0:  # no past: the prediction keeps the lookups (own copies)
-            whole = FlownPast(ahead, rows.copy(), codes.copy(), cuts.copy())
-        traj = whole.traj
-        pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs,
-                                       join=now_k)
-        self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
-                                                  cfg.focus_threshold, cfg.reaction_s)
-        first = later[0] if later else None
-        fixed = self._hold_on_way(fixed, now)
-        cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
-        res, act_by = self._resolution(pz, ahead, cut_now, first, now)
-        # an avoidable contact with nothing that clears is a warning (act-by 0)
-        level = self._levels.update(
-            None if first is None else (0.0 if act_by is None else act_by), now)
-        max_mach = max_mach_off_ground(cut_now, cfg.cutoff_margin_mach)
-        reaches_now = bool(pred.on_ground[now_k])
-        near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
-        if fixed:
-            status = "unavoidable"  # never clear while a boom is on its way into a zone
-        elif level == 0:
-            status = "clear" if pred.on_ground.any() else "no_boom"
-        else:
-            status = level_status(level)
-        if level > 0 and first is None and not fixed:
-            # held level (hysteresis) with no present conflict: keep the cue informative
-            return Advisory(status, max_mach_off_ground=max_mach, reaches_ground=reaches_now,
-                            cutoff_mach=cut_now, tables_stale=self.tables_stale,
-                            utc_s=s.utc_s, zone_id=self._held_zone,
-                            zone_name=self._held_name, near_cutoff=near)
-        named = fixed[0] if fixed else first
-        held = first or named  # a held level names the zone last in conflict
-        self._held_zone = held.zone_id if held else None
-        self._held_name = held.zone_name if held else None
-        r = _roll_out(res or Resolution(), s)
-        turning = r.turn_left_deg is not None or r.turn_right_deg is not None
-        hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
-        return Advisory(
-            status=status,
-            zone_id=named.zone_id if named else None,
-            zone_name=named.zone_name if named else None,
-            time_to_contact_s=named.time_to_contact_s if named else None,
-            overpressure_pa=named.overpressure_pa if named else None,
-            focus=bool(named.focus) if named else False,
-            max_mach_off_ground=max_mach,
-            turn_left_deg=r.turn_left_deg, turn_right_deg=r.turn_right_deg,
-            reaches_ground=reaches_now, cutoff_mach=cut_now,
-            tables_stale=self.tables_stale, conflicts=tuple(conflicts), utc_s=s.utc_s,
-            act_by_s=act_by, resolve_mach=r.resolve_mach, combined=r.combined,
-            turn_left_hdg_deg=None if r.turn_left_deg is None
-            else (hdg - r.turn_left_deg) % 360.0,
-            turn_right_hdg_deg=None if r.turn_right_deg is None
-            else (hdg + r.turn_right_deg) % 360.0, near_cutoff=near,
-        )
-
-    def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:
-        """The booms on their way into a zone, held: a boom found in the air toward a zone
-        stays "unavoidable" until its predicted arrival, and at least ``warning_hold_s``
-        after it was last found. A boom near a zone's edge or limit is found in one step
-        and not the next; the status flickered clear / unavoidable at the step rate while
-        the truth had booms over the limit on their way (campaign --known, seed 1,
-        encounter 34, a pull-up)."""
-        if fixed:
-            c = fixed[0]
-            self._on_way = (c, now + c.time_to_contact_s, now)
-            return fixed
-        if self._on_way is None:
-            return fixed
-        c, arrival, found = self._on_way
-        if now < max(arrival, found + self.config.warning_hold_s):
-            return [dataclasses.replace(c, time_to_contact_s=max(0.0, arrival - now))]
-        self._on_way = None
-        return fixed
-
-    def _onset_heading_deg(self, ahead: Trajectory) -> float:
-        """True heading (deg) at the onset of the crew's action (after the reaction time,
-        the present manoeuvre held): the heading the turn resolutions turn from."""
-        t = ahead.t_s
-        k = int(np.searchsorted(t, self.config.reaction_s))
-        k = min(max(k, 1), t.size - 1) if t.size > 1 else 0
-        # the grid-to-true difference at the start, applied to the grid heading there
-        offset = float(ahead.heading_rad[0] - ahead.heading_grid_rad[0])
-        h = np.unwrap(ahead.heading_grid_rad[: k + 1]) if t.size > 1 else ahead.heading_grid_rad
-        grid = float(np.interp(self.config.reaction_s, t[: h.size], h))
-        return math.degrees(grid + offset) % 360.0
-
-    def _resolution(self, pz: ProjectedZones, ahead: Trajectory, cut_now: float,
-                    first: Conflict | None, now: float) -> tuple[Resolution | None,
-                                                                 float | None]:
-        """The resolutions and the act-by time (counted down since their search).
-
-        A new zone in conflict is searched at once, in full; afterwards the search is
-        renewed every ``refresh_s``, :data:`TRIALS_PER_STEP` trials per step (so no step
-        carries a whole search), and the act-by time counts down in between.
-        """
-        if first is None:
-            self._search = None
-            self._result = None
-            return None, None
-        cfg = self.config
-        if self._result is None or self._result_zone != first.zone_id:
-            self.resolution_searches += 1
-            gen = search(TrialBase(cfg, self._predictor, self._strips, pz, ahead), cut_now,
-                         first.time_to_contact_s)
-            self._result, self._result_t0 = run_search(gen), now
-            self._result_zone, self._search = first.zone_id, None
-        else:
-            if self._search is None and not 0.0 <= now - self._result_t0 < cfg.refresh_s:
-                self.resolution_searches += 1
-                self._search = search(TrialBase(cfg, self._predictor, self._strips, pz, ahead),
-                                      cut_now, first.time_to_contact_s)
-                self._search_t0 = now
-            if self._search is not None:
-                done = run_search(self._search, TRIALS_PER_STEP)
-                if done is not None:
-                    self._result, self._result_t0, self._search = done, self._search_t0, None
-        r = self._result
-        if r is None or r.act_by_s is None:
-            return r, None
-        return r, max(0.0, r.act_by_s - (now - self._result_t0))
+    def close(self) -> None:
+        """Stop the levels' table managers (rebuild processes, temporary files)."""
+        for lv in self.levels:
+            close = getattr(lv._tables, "close", None)
+            if close is not None:
+                close()
 
 
-#: A Mach trial at the present Mach (to this much) clears only by its roll-out, Mach.
-SAME_MACH = 0.005
-#: Bank from which a roll-out is a turn resolution, rad (common practice, no source).
-ROLL_OUT_BANK_RAD = math.radians(5.0)
+def _others_of(me: GroundAdvisor, grounds: list[GroundAdvisor]
+               ) -> Callable[[ProjectedZones], list[OtherGround]]:
+    def others(whole: ProjectedZones) -> list[OtherGround]:
+        return [g.ground_view(whole) for g in grounds if g is not me]
+    return others
 
 
-def _roll_out(r: Resolution, s: AirDataState) -> Resolution:
-    """A Mach resolution at the present Mach while banked, said as what it is: the trial
-    rolls the wings level after the reaction time and holds the speed, so what clears is
-    the roll-out, on the heading reached then (a turn of 0 deg from the onset heading, in
-    the direction of the bank). "M1.50" at Mach 1.50 would tell the crew nothing; the
-    crew model would hold the bank and fly on into the zone."""
-    if (r.resolve_mach is None or r.combined or r.resolve_mach < s.mach - SAME_MACH
-            or abs(s.bank_rad) < ROLL_OUT_BANK_RAD):
-        return r
-    if s.bank_rad > 0.0:
-        return dataclasses.replace(r, resolve_mach=None, turn_right_deg=0.0)
-    return dataclasses.replace(r, resolve_mach=None, turn_left_deg=0.0)
+def merge_advisories(advs: list[Advisory]) -> Advisory:
+    """One advisory from those of every ground level (the base level's first).
+
+    ``unavailable`` from any level wins (its reason; a level outside its table is no
+    less unavailable). Otherwise the most severe status
+    (:data:`advisory.schema.STATUS_RANK`) names the zone, with its resolution (flown
+    against every level's zones); on a tie the sooner contact, then the sooner act-by
+    time. Across levels: the lowest cutoff Mach and the lowest Mach that keeps the boom
+    off the ground (higher ground is reached at a lower Mach); the boom on the ground,
+    near cutoff and stale tables when any level has them; every conflict, in order of
+    contact time; ``clear`` rather than ``no_boom`` when any level's carpet reaches its
+    ground.
+    """
+    for a in advs:
+        if a.status == "unavailable":
+            return a
+    best = max(advs, key=_priority)
+    cutoffs = [a.cutoff_mach for a in advs if a.cutoff_mach is not None]
+    off = [a.max_mach_off_ground for a in advs if a.max_mach_off_ground is not None]
+    status = best.status
+    if status == "no_boom" and any(a.status == "clear" for a in advs):
+        status = "clear"
+    conflicts = sorted((c for a in advs for c in a.conflicts),
+                       key=lambda c: c.time_to_contact_s)
+    return dataclasses.replace(
+        best, status=status, cutoff_mach=min(cutoffs) if cutoffs else best.cutoff_mach,
+        max_mach_off_ground=min(off) if off else best.max_mach_off_ground,
+        reaches_ground=any(a.reaches_ground for a in advs),
+        near_cutoff=any(a.near_cutoff for a in advs),
+        tables_stale=any(a.tables_stale for a in advs), conflicts=tuple(conflicts))
 
 
-def _subset(traj: Trajectory, idx: np.ndarray) -> Trajectory:
-    """The points ``idx`` of a trajectory (same frame and wind)."""
-    return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
-                      frame=traj.frame, wind_east_mps=traj.wind_east_mps,
-                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
-
-
-_TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
-              "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")
-
-
-def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:
-    """Great-circle distance (mean Earth radius) from ``origin`` (rad) to a point, m."""
-    lat0, lon0 = origin
-    h = (math.sin(0.5 * (lat - lat0)) ** 2
-         + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
-    return 2.0 * EARTH_MEAN_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
-
+def _priority(a: Advisory) -> tuple[int, float, float]:
+    """Severity, then the sooner contact (the zone the crew meets first), then the sooner
+    act-by time (every level's trials judge every zone, so their act-by times agree but
+    for the search's tolerance)."""
+    rank = STATUS_RANK.get(a.status, 0)
+    act = a.act_by_s if a.act_by_s is not None else math.inf
+    contact = a.time_to_contact_s if a.time_to_contact_s is not None else math.inf
+    return (rank, -contact, -act)

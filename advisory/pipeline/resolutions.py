@@ -57,6 +57,7 @@ from advisory.pipeline.footprint import FootprintPredictor
 from advisory.pipeline.trajectory import Trajectory
 from advisory.pipeline.trial import TRIAL_PARAMS, trial_clears_kernel
 from advisory.pipeline.zones import ProjectedZones
+from advisory.tables.table import BoomTable
 
 __all__ = ["max_mach_off_ground", "TrialBase", "Resolution", "search", "run_search",
            "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
@@ -80,6 +81,17 @@ def max_mach_off_ground(cutoff_mach: float, margin_mach: float) -> float:
     return math.floor(100.0 * (cutoff_mach - margin_mach) + 1e-9) / 100.0
 
 
+@dataclass(frozen=True, eq=False)
+class OtherGround:
+    """Another ground level's part in the trials (:mod:`advisory.pipeline.ground_levels`):
+    its table (in ``predictor``), carpet strips and its zones in the trials' projection
+    (the others masked)."""
+
+    predictor: FootprintPredictor
+    strips: np.ndarray
+    pz: ProjectedZones
+
+
 class TrialBase:
     """Everything the trials of one search share: the trajectory ahead's start state, the
     table, the zones and the first emission judged.
@@ -96,10 +108,15 @@ class TrialBase:
         The zones in the trajectory's frame.
     ahead : Trajectory
         The trajectory ahead from the present state (t = 0 first).
+    others : sequence of OtherGround, optional
+        Other ground levels (zones on higher ground, judged with their own tables): a
+        trial clears only when it clears every one of them too, and the lowest Mach
+        tried is below the lowest of their cutoff Mach numbers.
     """
 
     def __init__(self, cfg: AdvisorConfig, predictor: FootprintPredictor,
-                 strips: np.ndarray, pz: ProjectedZones, ahead: Trajectory) -> None:
+                 strips: np.ndarray, pz: ProjectedZones, ahead: Trajectory,
+                 others: Sequence[OtherGround] = ()) -> None:
         self.cfg = cfg
         self.table = predictor.table
         self.focus_cap = predictor.focus_cap
@@ -126,6 +143,11 @@ class TrialBase:
         #: Cutoff Mach at the present state (set by :func:`search`; 0 when unknown).
         self.cutoff_now = 0.0
         self._near: tuple[float, list[float]] = (math.nan, [])  # cutoff_now + excesses
+        self.others = tuple(others)
+        #: The others' cutoff Mach numbers at the present state.
+        self.other_cutoffs = [
+            g.predictor.table.cutoff_mach(float(ahead.alt_m[0]), self.fpa,
+                                          float(ahead.heading_rad[0])) for g in self.others]
 
     def stretch(self, slowest_mach: float) -> None:
         """Make the trials that change the Mach cover the same ground as the prediction:
@@ -195,15 +217,41 @@ class TrialBase:
             return True  # nothing after the reaction time within the look-ahead
         p = self.params.copy()
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
-        pz = self.pz
-        tb = self.table
         t, k0 = self._judged_from(onset, target_mach)
+        if not self._clears_on(self.table, self.strips, self.pz, self.limit_pa,
+                               self.focus_cap, t, k0, p):
+            return False
+        own_cutoff = self.cutoff_now
+        try:
+            for g, cut in zip(self.others, self.other_cutoffs, strict=True):
+                self.cutoff_now = cut  # its near-cutoff emissions at its own cutoff Mach
+                t, k0 = self._judged_from(onset, target_mach)
+                if not self._clears_on(g.predictor.table, g.strips, g.pz,
+                                       g.pz.limit_pa * self.cfg.limit_fraction,
+                                       g.predictor.focus_cap, t, k0, p):
+                    return False
+        finally:
+            self.cutoff_now = own_cutoff
+        return True
+
+    def lowest_cutoff(self, cutoff_now: float) -> float:
+        """The lowest cutoff Mach of this ground (``cutoff_now``) and the others."""
+        return min([cutoff_now, *self.other_cutoffs])
+
+    def _clears_on(self, tb: BoomTable, strips: np.ndarray, pz: ProjectedZones,
+                   limit_pa: np.ndarray, focus_cap: float, t: np.ndarray, k0: int,
+                   p: np.ndarray) -> bool:
+        """The trial ``p`` judged on one ground: its table, strips and zones."""
+        has_wind = bool(tb.has_wind)
+        hdg_offset = self.hdg_offset if has_wind == self.has_wind else (
+            float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
+            if has_wind else 0.0)
         return bool(trial_clears_kernel(
-            t, k0, p, self.fpa, self.hdg_offset, self.has_wind, tb.ax_alt,
-            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, self.strips, pz.x, pz.y,
+            t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
+            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, strips, pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
-            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, self.limit_pa, self.focus_cap,
-            self.cfg.focus_threshold))
+            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, np.ascontiguousarray(limit_pa),
+            focus_cap, self.cfg.focus_threshold))
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:
@@ -283,7 +331,7 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
         yield
         return ok
 
-    lo = max_mach_off_ground(cutoff_now, cfg.cutoff_margin_mach)
+    lo = max_mach_off_ground(base.lowest_cutoff(cutoff_now), cfg.cutoff_margin_mach)
     hi = math.floor(base.mach0 / MACH_GRID + 1e-9) * MACH_GRID
     lo = min(lo, hi)
     base.stretch(lo)

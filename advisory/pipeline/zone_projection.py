@@ -2,7 +2,7 @@
 
 The advisor projects the zones into a local frame about a nearby origin and projects them
 again about the aircraft when it has flown ``reproject_km`` from that origin
-(:meth:`advisory.pipeline.advisor.Advisor`). A zone set of many vertices takes long to
+(:class:`ZoneFrames`). A zone set of many vertices takes long to
 project (10 zones of 100,000 vertices: about half a second, the geodesic inverse of every
 vertex), far more than one step. For such a set the advisor starts the next projection
 early, at half the re-projection distance, about the aircraft's position then, and
@@ -17,10 +17,13 @@ practice govern supersonic flight.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from advisory.geo.frame import LocalFrame
 from advisory.pipeline.zones import ProjectedZones, ZoneSet, project_vertices
+from advisory.schema import EARTH_MEAN_RADIUS_M
 
 #: Zone sets with at most this many vertices are projected in one step (a few ms).
 SYNC_VERTICES = 20_000
@@ -80,10 +83,78 @@ class ZoneProjector:
                 return out
 
 
+class ZoneFrames:
+    """The zones projected about a nearby origin, re-projected past ``reproject_km``.
+
+    A large zone set's next projection starts at :data:`EARLY_FRACTION` of that distance
+    and goes a slice per step (:class:`ZoneProjector`), so no step stalls. The distance
+    test is a haversine on the mean Earth radius (good to 0.5 %, plenty for a
+    re-projection threshold); geodesics proper are for the projection itself.
+
+    Attributes
+    ----------
+    projected : ProjectedZones or None
+        The projection in use.
+    origin : (lat_rad, lon_rad) or None
+        Its frame's origin.
+    """
+
+    def __init__(self, zones: ZoneSet, reproject_km: float) -> None:
+        self.zones = zones
+        self.limit_m = reproject_km * 1e3
+        self.projected: ProjectedZones | None = None
+        self.origin: tuple[float, float] | None = None
+        self._projector: ZoneProjector | None = None
+        self._projector_origin: tuple[float, float] = (0.0, 0.0)
+        self._large = vertex_count(zones) > SYNC_VERTICES
+
+    def about(self, lat: float, lon: float) -> ProjectedZones:
+        """The projection for an aircraft at (``lat``, ``lon``), rad."""
+        limit_m = self.limit_m
+        if self.origin is not None and self.projected is not None:
+            d = _haversine_m(self.origin, lat, lon)
+            if d < limit_m:
+                if self._large:
+                    self._project_ahead(lat, lon, d >= EARLY_FRACTION * limit_m)
+                return self.projected
+            if self._projector is not None:  # not done in time: finish it now
+                self._take(self._projector.finish())
+                if _haversine_m(self.origin, lat, lon) < limit_m:
+                    return self.projected
+        self._projector = None
+        self.projected = self.zones.project(LocalFrame(lat, lon))
+        self.origin = (lat, lon)
+        return self.projected
+
+    def _project_ahead(self, lat: float, lon: float, start: bool) -> None:
+        """Start (when ``start``) or continue a large set's next projection."""
+        if self._projector is None:
+            if not start:
+                return
+            self._projector = ZoneProjector(self.zones, LocalFrame(lat, lon))
+            self._projector_origin = (lat, lon)
+        done = self._projector.advance()
+        if done is not None:
+            self._take(done)
+
+    def _take(self, projected: ProjectedZones) -> None:
+        self.projected = projected
+        self.origin = self._projector_origin
+        self._projector = None
+
+
+def _haversine_m(origin: tuple[float, float], lat: float, lon: float) -> float:
+    """Great-circle distance (mean Earth radius) from ``origin`` (rad) to a point, m."""
+    lat0, lon0 = origin
+    h = (math.sin(0.5 * (lat - lat0)) ** 2
+         + math.cos(lat0) * math.cos(lat) * math.sin(0.5 * (lon - lon0)) ** 2)
+    return 2.0 * EARTH_MEAN_RADIUS_M * math.asin(min(1.0, math.sqrt(h)))
+
+
 def vertex_count(zones: ZoneSet) -> int:
     """Vertices of the zone set as read (before densifying), summed over every ring."""
     return sum(len(ring) for z in zones for part in z.polygons for ring in part)
 
 
-__all__ = ["EARLY_FRACTION", "SLICE_VERTICES", "SYNC_VERTICES", "ZoneProjector",
-           "vertex_count"]
+__all__ = ["EARLY_FRACTION", "SLICE_VERTICES", "SYNC_VERTICES", "ZoneFrames",
+           "ZoneProjector", "vertex_count"]

@@ -38,6 +38,7 @@ from advisory.service.settings import RunError, RunSettings, check_settings
 from advisory.tables.build import BuildInputs
 from advisory.tables.cache import default_table
 from advisory.tables.grid import WIND_HEADINGS_DEG
+from advisory.tables.levels import level_inputs, level_table
 from advisory.tables.manager import TableManager
 from advisory.tables.table import BoomTable
 
@@ -67,6 +68,15 @@ def load_tables(s: RunSettings) -> tuple[BoomTable, TableManager | None]:
         mgr.submit_atmosphere(atm)
     mgr.watch_profile_file(s.profile)
     return table, mgr
+
+
+def _level_managers(manager: TableManager) -> Callable[[BoomTable, float], TableManager]:
+    """Each higher ground level's table under its own manager: rebuilt for the air the
+    base table is rebuilt for (:meth:`advisory.pipeline.advisor.Advisor.step`)."""
+    def make(table: BoomTable, ground_m: float) -> TableManager:
+        return TableManager(level_table(table, ground_m),
+                            level_inputs(manager.inputs, ground_m))
+    return make
 
 
 def guard_input(inp: InputLink, s: RunSettings) -> None:
@@ -147,7 +157,9 @@ def assemble(s: RunSettings, progress: Callable[[str], None] = _no_progress) -> 
                        f"{framing} transport)")
     guard_input(inp, s)
     out = OutputPublisher(s.output_url, max_age_s=1.0 / s.rate_hz)
-    advisor = Advisor(manager if manager is not None else table, zones, config)
+    progress("loading or building the tables for zones on higher ground")
+    advisor = Advisor(manager if manager is not None else table, zones, config,
+                      level_tables=None if manager is None else _level_managers(manager))
     # learned levels replace the loaded profile only where they were measured
     advisor.stream_profile = StreamProfile(
         enabled=s.learn_atmosphere,

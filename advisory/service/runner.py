@@ -267,6 +267,9 @@ class AdvisoryService:
         self.inp.close()
         if self.table_manager is not None:
             self.table_manager.close()
+        close_levels = getattr(self.loop.advisor, "close", None)  # higher ground's managers
+        if close_levels is not None:
+            close_levels()
         self._sync_counters()
         self._stats_event("final")
         if self.recorder is not None:

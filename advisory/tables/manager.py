@@ -76,6 +76,11 @@ class TableManager:
         return self._table
 
     @property
+    def inputs(self) -> BuildInputs:
+        """What the table being built or in use is built from (the latest atmosphere)."""
+        return self._inputs
+
+    @property
     def stale(self) -> bool:
         """True while a newer atmosphere is known but its table is not in use yet."""
         return self._pending_atm is not None

@@ -341,15 +341,14 @@ def sample_encounter(seed: int, index: int, known: bool = False) -> Encounter:
 
 def as_known(doc: dict[str, Any]) -> None:
     """Make an encounter one whose inputs the advisor knows (``campaign --known``): it is
-    given the true atmosphere; the zone's ground is at sea level (the advisor has no
-    terrain yet: issue 14); the crew reacts, decelerates, banks and rolls as the advisor's
+    given the true atmosphere; the zone keeps its ground elevation (in the zone file the
+    advisor reads, which judges it on that ground: issue 14; before, known encounters put
+    every zone at sea level); the crew reacts, decelerates, banks and rolls as the advisor's
     configuration assumes (:class:`advisory.pipeline.config.AdvisorConfig` defaults);
     and the truth's act-by of every exposure is flown (:mod:`advisory.bench.truth_act_by`).
     What the advice can do when what it assumes is true."""
     cfg = AdvisorConfig()
     doc["advisor"].pop("atmosphere", None)
-    for zone in doc["zones"]:
-        zone["ground_elevation_ft"] = 0.0
     doc["crew"].update(reaction_s=cfg.reaction_s, decel_mach_per_s=cfg.decel_mach_per_s,
                        bank_deg=cfg.turn_bank_deg, roll_rate_deg_s=cfg.roll_rate_deg_s)
     doc.setdefault("truth", {})["act_by"] = True  # the truth's act-by of every exposure

@@ -20,10 +20,15 @@ steady 5-deg dive was amplified 1.027 times and a 5-deg climb 0.968 times agains
 truth's direct tracing: ``tests/test_dives.py``.) Linear
 acoustics scales the amplitude as ``sqrt(J_steady / J_actual)`` (Pierce, *Acoustics*,
 1989, ch. 8, ray-tube area); a sign change of ``J`` between successive emissions is a
-fold (a caustic on the ground), and so is an inverted map (``J`` of the other sign) at
-the first emission of a run on the ground, whose neighbour before it is unknown, or over
-either one-sided difference. The factor ``sqrt(|J_steady / J_actual|)`` applies both ways
-away from a fold: above 1 where the tubes converge (the inside of a turn, a pull-up),
+fold (a caustic on the ground), and so are one-sided differences of opposite signs (the
+fold between the emission's two neighbours) and a vanishing tube. The folded sheet (an
+inverted map, ``J`` of the other sign: its booms arrive with the other sheet's) has the
+ray-theory factor of its own tube area, as the truth's direct tracing has it. (Before,
+every inverted tube got the cap: accelerating through cutoff, 13-23 km of the carpet at
+5x where ray theory has more than 2x over 0.2-0.3 km; a 45 deg bank turn's inner carpet
+beyond the fold at 5x for 0.7-2.3: ``tests/test_focus_strip.py``.) The factor
+``sqrt(|J_steady / J_actual|)`` applies both ways away from a fold: above 1 where the
+tubes converge (the inside of a turn, a pull-up),
 below 1 where they spread (a deceleration, the outside of a turn), as the truth's direct
 tracing has it (:func:`advisory.bench.truth.amplification_of`). Of the backward and
 forward differences the larger factor counts: where the manoeuvre changes between two
@@ -32,7 +37,9 @@ the steady flight after, and under-states the boom. A trial's first judged emiss
 (the crew's reaction time) takes its forward factor only: the booms before it are not
 judged, and a deceleration begun then spreads the tubes from its first boom on. The
 factor is bounded by :data:`advisory.physics.signature.FOCUS_AMPLIFICATION_CAP` above,
-which a fold gets, and by :data:`ATTENUATION_FLOOR` below.
+which a fold gets (the finite value caustic theory gives in place of ray theory's
+infinite one, taken at its commonly quoted upper end), and by :data:`ATTENUATION_FLOOR`
+below.
 
 Before, every spreading tube kept the factor 1 and every inverted map the cap: slowing
 from Mach 1.89 (campaign --known, seed 1, encounter 15) was never offered although the
@@ -224,24 +231,29 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes,
                 continue
             ratio = _tube_ratio(t, ground_e, ground_n, k0, k1, j, de, dn, j_std)
             sign = 1.0 if ratio > 0.0 else -1.0
-            fold = prev_sign[j] != 0.0 and sign != prev_sign[j]
-            amp = cap  # a fold: the ray map turns over between emissions
-            if not (fold or (ratio <= 0.0 and prev_sign[j] == 0.0)
-                    or not math.isfinite(ratio)):
+            # a fold: the ray map turns over between emissions (or the tube vanishes)
+            fold = (prev_sign[j] != 0.0 and sign != prev_sign[j]) or not math.isfinite(ratio)
+            amp = 0.0
+            side_sign = 0.0
+            for ka, kb in ((k0, k), (k, k1)):
+                if fold:
+                    break
+                if k == first and kb == k and k1 > k:
+                    continue  # the first judged emission: forward only
+                r = ratio if kb == ka else _tube_ratio(t, ground_e, ground_n, ka, kb,
+                                                       j, de, dn, j_std)
+                s_r = 1.0 if r > 0.0 else -1.0
+                if not math.isfinite(r) or (side_sign != 0.0 and s_r != side_sign):
+                    fold = True  # the two one-sided tubes disagree: the fold lies here
+                    break
+                side_sign = s_r
                 # the larger of the two one-sided factors: where the manoeuvre changes
                 # between emissions (a deceleration ends) the central difference blends
-                # the two and under-states the steady boom after it
-                amp = 0.0
-                for ka, kb in ((k0, k), (k, k1)):
-                    if k == first and kb == k and k1 > k:
-                        continue  # the first judged emission: forward only
-                    r = ratio if kb == ka else _tube_ratio(t, ground_e, ground_n, ka, kb,
-                                                           j, de, dn, j_std)
-                    if r <= 0.0 or not math.isfinite(r):
-                        amp = cap
-                        break
-                    amp = max(amp, math.sqrt(r))
-                amp = min(max(amp, ATTENUATION_FLOOR), cap)
+                # the two and under-states the steady boom after it. An inverted tube
+                # (the folded sheet, its boom arriving with the other sheet's) has the
+                # ray-theory factor of its area too.
+                amp = max(amp, math.sqrt(abs(r)))
+            amp = cap if fold else min(max(amp, ATTENUATION_FLOOR), cap)
             prev_sign[j] = sign
             out[k, j] = amp
 

@@ -95,10 +95,10 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, c
             ratio = np.where(j_act != 0.0, j_std / j_act, np.inf)
         usable = np.isfinite(dphi_e[k]) & np.isfinite(dphi_n[k]) & (j_std != 0.0)
         sign = np.where(ratio > 0.0, 1.0, -1.0)
-        fold = (((prev_sign != 0.0) & (sign != prev_sign))
-                | ((ratio <= 0.0) & (prev_sign == 0.0)) | ~np.isfinite(ratio))
+        fold = ((prev_sign != 0.0) & (sign != prev_sign)) | ~np.isfinite(ratio)
         # one-sided ratios (backward k0 -> k, forward k -> k1); the larger factor counts,
-        # a one-sided inversion is a fold
+        # an inverted tube has its ray-theory factor, one-sided tubes that disagree in
+        # sign (or vanish) are a fold
         sides = []
         for ka, kb in ((k0, k), (k, k1)):
             if k == first and kb == k and k1 > k:
@@ -111,12 +111,13 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, c
                       - (ground_n[kb] - ground_n[ka]) * dphi_e[k]) / (t[kb] - t[ka])
                 sides.append(np.where(ja != 0.0, j_std / ja, np.inf))
         with np.errstate(invalid="ignore"):
-            bad = np.zeros(nj, dtype=bool)
             tube = np.zeros(nj)
             for r in sides:
-                bad |= (r <= 0.0) | ~np.isfinite(r)
+                fold |= ~np.isfinite(r)
                 tube = np.maximum(tube, np.sqrt(np.abs(r)))
-            tube = np.where(bad, cap, np.clip(tube, ATTENUATION_FLOOR, cap))
+            if len(sides) == 2:
+                fold |= (sides[0] > 0.0) != (sides[1] > 0.0)
+            tube = np.clip(tube, ATTENUATION_FLOOR, cap)
         amp = np.where(fold, cap, tube)
         out[k] = np.where(usable, amp, 1.0)
         prev_sign = np.where(usable, sign, prev_sign)

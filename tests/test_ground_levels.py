@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import json
 import math
+import socket
 
 import numpy as np
 import pytest
@@ -29,6 +30,7 @@ from scipy.integrate import quad
 
 from advisory import units
 from advisory.cli import main
+from advisory.io.framing import datagram
 from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.pipeline.advisor import Advisor
@@ -237,3 +239,83 @@ def test_check_with_the_default_table_reports_a_zone_at_6000_ft(tmp_path, capsys
     out = json.loads(capsys.readouterr().out)
     assert out["status"] not in ("clear", "no_boom", "unavailable"), out
     assert out["zone_id"] == "highmesa"
+
+
+@pytest.mark.slow
+def test_run_service_with_a_zone_on_high_ground_and_a_profile(tmp_path,
+                                                             small_table_path) -> None:
+    # The live service end to end (real process, UDP on 127.0.0.1): a ridge town at
+    # 2,000 ft ahead of the flight and a coastal town at sea level off to the north. The
+    # ridge's table is built at start (into the run's table cache), the profile makes
+    # every level's table rebuilt off the hot path (tables_stale until each is swapped
+    # in), and a stop signal closes the levels' rebuild managers: exit code 0.
+    from tests.test_run_e2e import (
+        LAT0,
+        LON0,
+        M_PER_DEG_LON,
+        READY_TIMEOUT_S,
+        Listener,
+        Sender,
+        end_run,
+        free_udp_port,
+        start_run,
+        stop,
+    )
+    from tests.test_run_e2e import square as run_square
+
+    ridge = run_square("ridge", LAT0, LON0 + 130e3 / M_PER_DEG_LON)
+    ridge["properties"]["ground_elevation_ft"] = 2000.0
+    coast = run_square("coast", LAT0 + 1.5, LON0)
+    zfile = tmp_path / "zones.geojson"
+    zfile.write_text(json.dumps({"type": "FeatureCollection", "features": [ridge, coast]}))
+    profile = tmp_path / "warm_day.csv"  # an invented, warmer-than-standard day, no wind
+    profile.write_text("alt_ft,temp_c\n0,25\n36000,-50\n60000,-52\n")
+    listener = Listener()
+    port = free_udp_port()
+    proc = start_run(tmp_path, "--input", f"udp://127.0.0.1:{port}", "--output",
+                     listener.url, "--zones", str(zfile), "--table", str(small_table_path),
+                     "--profile", str(profile), "--duration-s", "120")
+    tx = socket.socket(socket.AF_INET, socket.SOCK_DGRAM)
+    sender = Sender(lambda d: tx.sendto(d, ("127.0.0.1", port)), datagram)
+    try:
+        _, first = listener.wait_for(
+            lambda f: f.type == "adv" and f.fields["status"] == "advisory", READY_TIMEOUT_S,
+            "an advisory", after=0.0)
+        assert first.fields["zone_id"] == "ridge"
+        listener.wait_for(lambda f: f.type == "adv" and f.fields["status"] == "advisory"
+                          and not f.fields["tables_stale"], 100.0,
+                          "advisories on the rebuilt tables")
+        code = stop(proc)
+    finally:
+        end_run(proc, sender, listener)
+    assert code == 0, (tmp_path / "run.err").read_text()[-2000:]
+    assert "Traceback" not in (tmp_path / "run.err").read_text()
+
+
+def test_merging_the_levels_advice_errs_toward_the_boom() -> None:
+    # the merge rules (advisor module notes; project choices): unavailable wins, then the
+    # most severe status names the zone; the lowest cutoff Mach and Mach off the ground;
+    # clear over no_boom; every conflict, soonest first
+    from advisory.pipeline.advisor import merge_advisories
+    from advisory.pipeline.results import Advisory, Conflict
+
+    def conflict(zid: str, t: float) -> Conflict:
+        return Conflict(zone_index=0, zone_id=zid, zone_name=zid, time_to_contact_s=t,
+                        overpressure_pa=50.0, focus=False)
+
+    sea = Advisory("no_boom", cutoff_mach=1.153, max_mach_off_ground=1.13)
+    high = Advisory("caution", zone_id="highmesa", time_to_contact_s=90.0, cutoff_mach=1.129,
+                    max_mach_off_ground=1.10, reaches_ground=True, act_by_s=40.0,
+                    conflicts=(conflict("highmesa", 90.0),))
+    m = merge_advisories([sea, high])
+    assert (m.status, m.zone_id, m.cutoff_mach, m.max_mach_off_ground, m.reaches_ground) == (
+        "caution", "highmesa", 1.129, 1.10, True)
+    quiet = merge_advisories([sea, Advisory("clear", cutoff_mach=1.129, reaches_ground=True)])
+    assert quiet.status == "clear" and quiet.cutoff_mach == 1.129
+    lost = Advisory("unavailable", reason="zones on 6,000-ft ground: outside the table")
+    assert merge_advisories([high, lost]).status == "unavailable"
+    early = Advisory("caution", zone_id="coast", time_to_contact_s=60.0, act_by_s=41.0,
+                     conflicts=(conflict("coast", 60.0),))
+    m = merge_advisories([early, high])
+    assert m.zone_id == "coast"  # the same level: the zone met first
+    assert [c.zone_id for c in m.conflicts] == ["coast", "highmesa"]

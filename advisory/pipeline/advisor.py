@@ -22,6 +22,7 @@ import dataclasses
 import math
 from collections.abc import Callable
 
+from advisory import units
 from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.ground_advisor import GroundAdvisor, OtherGround, TableSource
@@ -98,8 +99,17 @@ class Advisor(GroundAdvisor):
         if not self.levels:
             return base
         self._follow_base_atmosphere()
-        return merge_advisories([base, *(lv.step(state, now_monotonic)
-                                         for lv in self.levels)])
+        advs = [base]
+        for lv in self.levels:
+            a = lv.step(state, now_monotonic)
+            if a.status == "unavailable" and base.status != "unavailable":
+                # say which zones cannot be judged (the aircraft lower than the level's
+                # table reaches, a failed prediction): never clear over them
+                ground = units.m_to_ft(lv.table.grid.ground_elevation_m)
+                a = dataclasses.replace(a, reason=f"zones on {ground:,.0f}-ft ground: "
+                                                  f"{a.reason}"[:127])
+            advs.append(a)
+        return merge_advisories(advs)
 
     def _follow_base_atmosphere(self) -> None:
         """A rebuilt table came into the base level: the levels' managers rebuild theirs

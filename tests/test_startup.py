@@ -90,9 +90,12 @@ phase = StartingPhase(sys.argv[1])
 phase.install_signals()
 phase.start()
 phase.set_phase("compiling kernels")
-print("ready", flush=True)
+ready = False
 while True:  # a library that swallows every exception, as numba's type inference did
-    try:
+    try:  # "ready" from inside: the signal comes after it, and is swallowed here
+        if not ready:
+            ready = True
+            print("ready", flush=True)
         time.sleep(0.05)
     except BaseException:
         pass

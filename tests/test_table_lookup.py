@@ -22,7 +22,7 @@ def random_table(nh: int, seed: int = 3):
     return ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells
 
 
-@pytest.mark.parametrize("nh", [1, 6])
+@pytest.mark.parametrize("nh", [1, 3, 6, 12])
 def test_numba_numpy_parity(nh: int) -> None:
     # Parity: the numba kernel and its numpy twin implement the same interpolation.
     args = random_table(nh)

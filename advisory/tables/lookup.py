@@ -84,6 +84,32 @@ def _locate_periodic(axis, x):
 
 
 @njit(cache=True)
+def _heading_weights(axis, x):
+    """Nodes and weights of the heading interpolation at ``x`` (rad): (how many are used,
+    4 node indices, 4 weights).
+
+    Equally spaced headings (the builder's, every 30 deg when the air has wind), four or
+    more: cubic Lagrange interpolation on the four periodic nodes around ``x`` (error of
+    order h^4: the carpet varies smoothly, nearly sinusoidally, with the heading relative
+    to the wind; linear interpolation, of order h^2, left half-widths 4 % and cutoff Mach
+    0.0025 off on a 30-deg axis: ``tests/test_wind_tables.py``). Otherwise linear.
+    """
+    n = axis.size
+    i, j, w = _locate_periodic(axis, x)
+    linear = (2, (i, j, j, j), (1.0 - w, w, 0.0, 0.0))
+    if n < 4:
+        return linear
+    step = 2.0 * math.pi / n
+    for k in range(n):
+        if abs(axis[k] - axis[0] - k * step) > 1e-9:
+            return linear
+    t = w
+    return (4, ((i - 1) % n, i, j, (i + 2) % n),
+            (-t * (t - 1.0) * (t - 2.0) / 6.0, (t + 1.0) * (t - 1.0) * (t - 2.0) / 2.0,
+             -(t + 1.0) * t * (t - 2.0) / 2.0, (t + 1.0) * t * (t - 1.0) / 6.0))
+
+
+@njit(cache=True)
 def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells, out):
     """Interpolate one footprint.
 
@@ -108,7 +134,7 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
     """
     ia, wa, ca = _locate(ax_alt, alt)
     jf, wf, cf = _locate(ax_fpa, fpa)
-    h0, h1, wh = _locate_periodic(ax_hdg, heading)
+    nh, hidx, hw = _heading_weights(ax_hdg, heading)
     na = ax_alt.size
     nf = ax_fpa.size
     mcut = 0.0
@@ -118,12 +144,10 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
         for df in range(2):
             f = min(jf + df, nf - 1)
             wf_ = wf if df == 1 else 1.0 - wf
-            for dh in range(2):
-                h = h1 if dh == 1 else h0
-                wh_ = wh if dh == 1 else 1.0 - wh
-                w = wa_ * wf_ * wh_
+            for dh in range(nh):
+                w = wa_ * wf_ * hw[dh]
                 if w != 0.0:
-                    mcut += w * cutoff[a, f, h]
+                    mcut += w * cutoff[a, f, hidx[dh]]
     if mach <= mcut - NEAR_CUTOFF_BAND or mach <= 1.0:  # subsonic: no shock at all
         return NO_BOOM, mcut
     im, wm, cm = _locate(ax_mex, mach - mcut)
@@ -144,10 +168,9 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
             for df in range(2):
                 f = min(jf + df, nf - 1)
                 wf_ = wf if df == 1 else 1.0 - wf
-                for dh in range(2):
-                    h = h1 if dh == 1 else h0
-                    wh_ = wh if dh == 1 else 1.0 - wh
-                    w = wa_ * wm_ * wf_ * wh_
+                for dh in range(nh):
+                    h = hidx[dh]
+                    w = wa_ * wm_ * wf_ * hw[dh]
                     if w == 0.0:
                         continue
                     for e in range(neta):

@@ -31,7 +31,15 @@ def _weights_periodic(axis: np.ndarray, x: float) -> tuple[list[int], list[float
         x += two_pi
     i = int(np.clip(np.searchsorted(ext, x, side="right") - 1, 0, axis.size - 1))
     w = (x - ext[i]) / (ext[i + 1] - ext[i])
-    return [i, (i + 1) % axis.size], [1.0 - w, w]
+    n = axis.size
+    uniform = n >= 4 and np.allclose(axis - axis[0], np.arange(n) * two_pi / n, atol=1e-9,
+                                     rtol=0.0)
+    if not uniform:
+        return [i, (i + 1) % n], [1.0 - w, w]
+    # cubic Lagrange through the four periodic nodes around x (nodes at -1, 0, 1, 2)
+    nodes = np.array([-1.0, 0.0, 1.0, 2.0])
+    weights = [float(np.prod([(w - b) / (a - b) for b in nodes if b != a])) for a in nodes]
+    return [(i - 1) % n, i, (i + 1) % n, (i + 2) % n], weights
 
 
 def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells,

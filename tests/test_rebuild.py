@@ -105,3 +105,26 @@ def test_stream_profile_proposes_only_on_disagreement() -> None:
         std.at(units.ft_to_m(40000.0)).temperature_k + 6.0, abs=0.5)
     assert warm.proposal(std, 10.0) is None  # rate-limited
     assert math.isfinite(atm.at(units.ft_to_m(60000.0)).sound_speed_mps)
+
+
+def test_a_rebuilt_table_is_verified_before_it_is_swapped_in(tmp_path) -> None:
+    # Issue 14: "an in-flight rebuild is verified before it is swapped in, else the
+    # service says degraded". The tiny grid (5 azimuths, 3 Mach excesses) is far from the
+    # budgets of `tables verify` (direct tracing at off-grid conditions): it is swapped in
+    # (built for the air now) with the shortfall said.
+    from advisory.tables.manager import REBUILD_VERIFY_SAMPLES
+    from advisory.tables.verify import BUDGET_HALF_WIDTH_REL
+
+    manager = tiny_manager(tmp_path)
+    try:
+        assert manager.verify_note == ""  # the table given at start is the user's
+        manager.submit_atmosphere(standard_atmosphere(temp_offset_k=10.0))
+        assert wait_for_swap(manager)
+        report = manager.table.header["verify"]
+        assert report["samples"] == REBUILD_VERIFY_SAMPLES
+        assert report["within_budget"] is False
+        assert report["half_width_rel_max"] > BUDGET_HALF_WIDTH_REL
+        assert manager.verify_note.startswith("rebuilt table short of its budgets")
+        assert "half-width" in manager.verify_note
+    finally:
+        manager.close()

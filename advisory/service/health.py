@@ -157,6 +157,8 @@ class LoopHealth:
         self._prev_bad: dict[str, int] = {}
         self._last_bad_t: float | None = None
         self._last_bad_text = ""
+        #: The live table verified short of its budgets (a rebuilt one), or "".
+        self.table_note = ""
 
     # ------------------------------------------------------------------ status state
     def assess(self, now: float, adv: Advisory) -> tuple[str, str]:
@@ -175,6 +177,8 @@ class LoopHealth:
             return "degraded", self._last_bad_text
         if adv.tables_stale:
             return "degraded", "tables stale: rebuilding for a new atmosphere"
+        if self.table_note:
+            return "degraded", clip(self.table_note)
         return "ok", ""
 
     def _problem_text(self, grew: list[str]) -> str:

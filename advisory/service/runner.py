@@ -193,8 +193,19 @@ class AdvisoryService:
         ext["profile_rejected"] = ext.get("profile_rejected", 0) + 1
         self.event("profile_rejected", reason=err)
 
+    def _check_table(self) -> None:
+        """A rebuilt table in force that verified short of its budgets: the status says
+        ``degraded`` with the figures (ICD 17.2); an event when that changes."""
+        note = getattr(self.table_manager, "verify_note", "") or ""
+        health = self.loop.health
+        if note != health.table_note:
+            health.table_note = note
+            if note:
+                self.event("table_short", reason=note)
+
     def _sync_counters(self) -> None:
         self._check_profile()
+        self._check_table()
         ext = self.loop.external_counters
         ext["input_lost"] = self.inp.lost
         ext["input_reopened"] = self.inp.reopened

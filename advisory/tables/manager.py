@@ -5,7 +5,11 @@ changed, or a profile assembled from the air-data stream) starts a build in a se
 process (one worker, so the loop keeps its core); the finished table is written to a
 file, and the loop swaps it in between two steps by calling :meth:`TableManager.poll`.
 From the moment a new atmosphere is submitted until the swap, :attr:`stale` is True and
-the advisory status says so.
+the advisory status says so. The rebuild process checks the new table against direct
+tracing at :data:`REBUILD_VERIFY_SAMPLES` off-grid conditions before writing it; a table
+short of the budgets of :mod:`advisory.tables.verify` is still swapped in (it is built
+for the air now, the old one is not) and :attr:`TableManager.verify_note` says by how
+much, which the service's status shows as ``degraded`` (issue 14).
 
 Disk: the manager deletes the table files it wrote once they can no longer be needed: it
 keeps the one in force and the one before it (a failed build's file goes at once), and
@@ -15,6 +19,7 @@ at :meth:`TableManager.close` it removes the private temporary directory it made
 
 from __future__ import annotations
 
+import dataclasses
 import multiprocessing as mp
 import os
 import shutil
@@ -32,13 +37,43 @@ from advisory.physics.atmosphere import (
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable
+from advisory.tables.verify import (
+    BUDGET_CUTOFF_MACH,
+    BUDGET_HALF_WIDTH_REL,
+    BUDGET_OVERPRESSURE_REL,
+    verify_table,
+)
+
+#: Off-grid conditions a rebuilt table is checked at against direct tracing before it is
+#: swapped in (:func:`advisory.tables.verify.verify_table`; engineering choice: a few
+#: seconds of the rebuild process for the small grids a flight uses).
+REBUILD_VERIFY_SAMPLES = 12
 
 
 def _build_to_file(inputs: BuildInputs, path: str) -> None:
-    """Child-process body: build with one worker and write the table file."""
+    """Child-process body: build with one worker, verify against direct tracing (the
+    report in the header's ``verify``), and write the table file."""
     t0 = time.monotonic()
     arrays = build_table_arrays(inputs, workers=1)
-    write_table_file(path, provenance(inputs, time.monotonic() - t0), arrays)
+    header = provenance(inputs, time.monotonic() - t0)
+    report = verify_table(BoomTable(header, arrays), samples=REBUILD_VERIFY_SAMPLES)
+    header["verify"] = {**{k: float(v) for k, v in dataclasses.asdict(report).items()},
+                        "within_budget": bool(report.within_budget)}
+    write_table_file(path, header, arrays)
+
+
+def verify_note(table: BoomTable) -> str:
+    """What a rebuilt table's verification found, when short of the budgets ("" when it
+    holds them or was not verified)."""
+    v = table.header.get("verify")
+    if not isinstance(v, dict) or v.get("within_budget", True):
+        return ""
+    return (f"rebuilt table short of its budgets against direct tracing: half-width "
+            f"{100 * float(v.get('half_width_rel_max', 0.0)):.1f} % (budget "
+            f"{100 * BUDGET_HALF_WIDTH_REL:g} %), overpressure "
+            f"{100 * float(v.get('overpressure_rel_max', 0.0)):.1f} % (budget "
+            f"{100 * BUDGET_OVERPRESSURE_REL:g} %), cutoff Mach "
+            f"{float(v.get('cutoff_abs_max', 0.0)):.4f} (budget {BUDGET_CUTOFF_MACH:g})")
 
 
 class TableManager:
@@ -69,6 +104,8 @@ class TableManager:
         self.rebuilds_done = 0
         self.rebuilds_failed = 0
         self.last_error = ""
+        #: The table in force verified short of its budgets (:func:`verify_note`), or "".
+        self.verify_note = ""
 
     @property
     def table(self) -> BoomTable:
@@ -147,6 +184,7 @@ class TableManager:
                     self._table = new  # the atomic swap
                     if self._pending_atm is self._building_atm:
                         self._pending_atm = None
+                self.verify_note = verify_note(new)  # in use, but said so (issue 14)
                 self.rebuilds_done += 1
                 swapped = True
                 self._keep_written(path)

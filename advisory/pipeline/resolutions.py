@@ -17,7 +17,9 @@ limit itself), so an offered resolution does not sit on the limit.
   trials also emit where the deceleration passes cutoff plus small excesses
   (:data:`NEAR_CUTOFF_EXCESS`), not only every ``step_s``. The lowest candidate is the
   present cutoff Mach less ``cutoff_margin_mach`` (rounded down to 0.01: every boom
-  after it stays off the ground); when it clears, the largest clearing target between
+  after it stays off the ground), the lowest cutoff over every ground level with zones
+  (higher ground is reached at a lower Mach; every trial is judged on every level's
+  zones, :class:`OtherGround`); when it clears, the largest clearing target between
   it and the present Mach is found by bisection on a 0.01 grid (every offered value is
   a trial that cleared; the bisection assumes that a lower target clears when a higher
   one does, which holds except near odd geometry, where the value offered is still one
@@ -148,6 +150,8 @@ class TrialBase:
         self.other_cutoffs = [
             g.predictor.table.cutoff_mach(float(ahead.alt_m[0]), self.fpa,
                                           float(ahead.heading_rad[0])) for g in self.others]
+        self._other_limits = [np.ascontiguousarray(g.pz.limit_pa * cfg.limit_fraction)
+                              for g in self.others]
 
     def stretch(self, slowest_mach: float) -> None:
         """Make the trials that change the Mach cover the same ground as the prediction:
@@ -223,11 +227,11 @@ class TrialBase:
             return False
         own_cutoff = self.cutoff_now
         try:
-            for g, cut in zip(self.others, self.other_cutoffs, strict=True):
+            for g, cut, limit in zip(self.others, self.other_cutoffs, self._other_limits,
+                                     strict=True):
                 self.cutoff_now = cut  # its near-cutoff emissions at its own cutoff Mach
                 t, k0 = self._judged_from(onset, target_mach)
-                if not self._clears_on(g.predictor.table, g.strips, g.pz,
-                                       g.pz.limit_pa * self.cfg.limit_fraction,
+                if not self._clears_on(g.predictor.table, g.strips, g.pz, limit,
                                        g.predictor.focus_cap, t, k0, p):
                     return False
         finally:
@@ -250,8 +254,8 @@ class TrialBase:
             t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, strips, pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
-            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, np.ascontiguousarray(limit_pa),
-            focus_cap, self.cfg.focus_threshold))
+            pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
+            self.cfg.focus_threshold))
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:

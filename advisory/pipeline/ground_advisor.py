@@ -278,10 +278,8 @@ class GroundAdvisor:
     def _history_window_s(self, table: BoomTable) -> float:
         """How far back the flown history must reach: the table's longest travel time
         (over every cell) plus two emission spacings, at most ``in_air_s``."""
-        q = table.cells[..., lk.Q_TIME]
-        ok = np.isfinite(q)
-        longest = float(q[ok].max()) if ok.any() else 0.0
-        return min(self.config.in_air_s, longest + 2.0 * self.config.step_s)
+        return min(self.config.in_air_s,
+                   table.max_travel_time_s + 2.0 * self.config.step_s)
 
     def _new_table_history(self, table: BoomTable) -> None:
         """A table came in: entries keep the rows of the table in force when flown; the

@@ -20,6 +20,7 @@ from advisory.tables.store import (
     TableFileError,
     atmosphere_from_arrays,
     read_table_file,
+    release_pages,
     write_table_file,
 )
 
@@ -82,6 +83,9 @@ class BoomTable:
         self.eta = np.ascontiguousarray(arrays["axis_eta"], dtype=np.float64)
         self.cutoff = np.ascontiguousarray(arrays["cutoff_mach"], dtype=np.float64)
         self.cells = np.ascontiguousarray(arrays["cells"], dtype=np.float64)
+        q = self.cells[..., lk.Q_TIME]  # checked finite and >= 0 (check_contents)
+        #: The longest travel time of any tabulated ray, s (0 for an empty table).
+        self.max_travel_time_s = float(q.max()) if q.size else 0.0
         self.loaded_monotonic = time.monotonic()
         #: The file the table was loaded from (None for a table built in memory).
         self.path: str | None = None
@@ -99,6 +103,7 @@ class BoomTable:
             raise TableFileError(f"table file {path}: {str(exc).removeprefix('table: ')}") \
                 from None
         table.path = str(path)
+        release_pages(arrays)  # checked: only what the lookups touch stays resident
         return table
 
     def save(self, path: str | Path) -> str:

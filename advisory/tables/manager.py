@@ -57,7 +57,8 @@ def _build_to_file(inputs: BuildInputs, path: str) -> None:
     arrays = build_table_arrays(inputs, workers=1)
     header = provenance(inputs, time.monotonic() - t0)
     report = verify_table(BoomTable(header, arrays), samples=REBUILD_VERIFY_SAMPLES)
-    header["verify"] = {**{k: float(v) for k, v in dataclasses.asdict(report).items()},
+    header["verify"] = {**{k: int(v) if k == "samples" else float(v)
+                           for k, v in dataclasses.asdict(report).items()},
                         "within_budget": bool(report.within_budget)}
     write_table_file(path, header, arrays)
 

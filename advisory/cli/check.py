@@ -19,6 +19,7 @@ from advisory.cli.options import (
 )
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import load_config
+from advisory.pipeline.ground_levels import ground_level_m
 from advisory.pipeline.results import Advisory
 from advisory.pipeline.state import AirDataState, StateValidator
 from advisory.pipeline.zones import ZoneSet
@@ -89,15 +90,28 @@ def run(args: argparse.Namespace) -> int:
         table = default_table(args.aircraft)
     advisor = Advisor(table, zones, config)
     adv = advisor.step(state, now_monotonic=0.0)
+    grounds = judged_grounds_ft(advisor, zones)
     if args.json:
-        print(json.dumps(adv.to_record(), indent=2))
+        record = adv.to_record()
+        for c, rec in zip(adv.conflicts, record["conflicts"], strict=True):
+            rec["ground_ft"] = grounds[c.zone_index]  # the ground it was judged on
+        print(json.dumps(record, indent=2))
     else:
-        print(advisory_text(adv, state))
+        print(advisory_text(adv, state, grounds))
     return 0
 
 
-def advisory_text(adv: Advisory, state: AirDataState) -> str:
-    """Readable advisory for a person (aviation units), ending with the caution."""
+def judged_grounds_ft(advisor: Advisor, zones: ZoneSet) -> list[float]:
+    """For each zone, the ground elevation (ft) its table was traced to: the zone's own
+    rounded up to a ground level, or the table's (:mod:`advisory.pipeline.ground_levels`)."""
+    base = advisor.table.grid.ground_elevation_m
+    return [round(units.m_to_ft(ground_level_m(z.ground_elevation_m, base)), 0) for z in zones]
+
+
+def advisory_text(adv: Advisory, state: AirDataState,
+                  grounds_ft: list[float] | None = None) -> str:
+    """Readable advisory for a person (aviation units), ending with the caution;
+    ``grounds_ft``: per zone, the ground (ft) it was judged on, said when not 0."""
     lines = [adv.cue]
     lines.append(f"status: {adv.status}" + (f" ({adv.reason})" if adv.reason else ""))
     if adv.cutoff_mach is not None:
@@ -105,7 +119,10 @@ def advisory_text(adv: Advisory, state: AirDataState) -> str:
                      f"cutoff Mach {adv.cutoff_mach:.3f}; boom "
                      f"{'reaches' if adv.reaches_ground else 'does not reach'} the ground")
     for c in adv.conflicts:
-        lines.append(f"  zone {c.zone_id} ({c.zone_name}): contact in {c.time_to_contact_s:.0f} s,"
+        ground = grounds_ft[c.zone_index] if grounds_ft else 0.0
+        lines.append(f"  zone {c.zone_id} ({c.zone_name}"
+                     + (f", ground {ground:,.0f} ft" if ground else "")
+                     + f"): contact in {c.time_to_contact_s:.0f} s,"
                      f" {units.pa_to_psf(c.overpressure_pa):.2f} psf"
                      + (" focus boom" if c.focus else ""))
     if adv.status in ("advisory", "caution", "warning", "unavoidable"):

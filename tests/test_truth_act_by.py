@@ -41,6 +41,8 @@ def test_the_flight_as_planned_up_to_a_moment_keeps_what_had_begun():
 def _ignore_run(index: int):
     doc = sample_encounter(1, index, known=True).doc
     doc["crew"]["mode"] = "ignore"
+    for zone in doc["zones"]:  # as known encounters were flown before they kept terrain
+        zone["ground_elevation_ft"] = 0.0
     sc = scenario_from_dict(doc)
     world = build_world(sc, quiet=True, build_workers=1)
     return sc, world, simulate(sc, world=world)

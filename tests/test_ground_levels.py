@@ -39,9 +39,10 @@ from advisory.pipeline.ground_levels import LEVEL_STEP_FT, ground_level_m, zone_
 from advisory.tables import lookup as lk
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import DEFAULT_MACH_EXCESS, TableGrid
-from advisory.tables.levels import CLEARANCE_M, level_inputs, table_inputs
+from advisory.tables.levels import CLEARANCE_M, level_inputs
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable
+from advisory.tables.verify import inputs_from_table
 from tests.test_advisor import point_along, square, state, zoneset
 
 MESA_FT = 6000.0  # the invented plateau's ground elevation
@@ -85,7 +86,7 @@ def sea_table() -> BoomTable:
 
 @pytest.fixture(scope="module")
 def mesa_table(sea_table) -> BoomTable:
-    return built(level_inputs(table_inputs(sea_table), units.ft_to_m(MESA_FT)))
+    return built(level_inputs(inputs_from_table(sea_table), units.ft_to_m(MESA_FT)))
 
 
 def level_maker(sea_table, mesa_table):
@@ -198,12 +199,9 @@ def test_a_resolution_for_a_sea_level_zone_keeps_the_plateau_clear(sea_table,
     assert a.resolve_mach is None or a.resolve_mach < cut_mesa - lk.NEAR_CUTOFF_BAND, a
 
 
-def test_check_reports_a_plateau_zone(tmp_path, monkeypatch, capsys, sea_table) -> None:
-    # the command as a crew or planner runs it: a table file, a zone file with the
-    # zone's ground elevation; the mesa's table is built once into the table cache
-    monkeypatch.setenv("BOOM_ADVISORY_CACHE", str(tmp_path / "cache"))
-    table = tmp_path / "fl500.boomtable"
-    write_table_file(table, sea_table.header, sea_table.arrays)
+def plateau_files(tmp_path) -> tuple[str, str]:
+    """A zone file with the mesa town 90 km ahead and a state file: level Mach 1.14 at
+    FL500 toward it (the files a crew or planner hands ``check``)."""
     zfile = tmp_path / "zones.geojson"
     zfile.write_text(json.dumps({"type": "FeatureCollection",
                                  "features": [mesa("highmesa", 90)]}))
@@ -214,13 +212,23 @@ def test_check_reports_a_plateau_zone(tmp_path, monkeypatch, capsys, sea_table) 
                                  "mach": 1.14, "heading_deg": 90.0,
                                  "gs_kt": 1.14 * c / units.KT, "bank_deg": 0.0,
                                  "fpa_deg": 0.0}))
-    assert main(["check", "--state", str(sfile), "--zones", str(zfile), "--table",
+    return str(zfile), str(sfile)
+
+
+def test_check_reports_a_plateau_zone(tmp_path, monkeypatch, capsys, sea_table) -> None:
+    # the command as a crew or planner runs it: a table file, a zone file with the
+    # zone's ground elevation; the mesa's table is built once into the table cache
+    monkeypatch.setenv("BOOM_ADVISORY_CACHE", str(tmp_path / "cache"))
+    table = tmp_path / "fl500.boomtable"
+    write_table_file(table, sea_table.header, sea_table.arrays)
+    zfile, sfile = plateau_files(tmp_path)
+    assert main(["check", "--state", sfile, "--zones", zfile, "--table",
                  str(table), "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["status"] not in ("clear", "no_boom", "unavailable"), out
     assert out["zone_id"] == "highmesa"
     assert out["conflicts"][0]["ground_ft"] == MESA_FT  # the ground it was judged on
-    assert main(["check", "--state", str(sfile), "--zones", str(zfile), "--table",
+    assert main(["check", "--state", sfile, "--zones", zfile, "--table",
                  str(table)]) == 0
     assert "zone highmesa (Highmesa, ground 6,000 ft)" in capsys.readouterr().out
 
@@ -229,17 +237,8 @@ def test_check_reports_a_plateau_zone(tmp_path, monkeypatch, capsys, sea_table) 
 def test_check_with_the_default_table_reports_a_zone_at_6000_ft(tmp_path, capsys) -> None:
     # issue 14's "done when": zone at 6,000 ft, level Mach 1.14 at 50,000 ft (the default
     # table and its 6,000-ft level, built once and cached)
-    zfile = tmp_path / "zones.geojson"
-    zfile.write_text(json.dumps({"type": "FeatureCollection",
-                                 "features": [mesa("highmesa", 90)]}))
-    sfile = tmp_path / "state.json"
-    lat, lon = point_along(0.0)
-    c = sound_speed(flown_height_m())
-    sfile.write_text(json.dumps({"lat_deg": lat, "lon_deg": lon, "alt_ft": ALT_FT,
-                                 "mach": 1.14, "heading_deg": 90.0,
-                                 "gs_kt": 1.14 * c / units.KT, "bank_deg": 0.0,
-                                 "fpa_deg": 0.0}))
-    assert main(["check", "--state", str(sfile), "--zones", str(zfile), "--json"]) == 0
+    zfile, sfile = plateau_files(tmp_path)
+    assert main(["check", "--state", sfile, "--zones", zfile, "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["status"] not in ("clear", "no_boom", "unavailable"), out
     assert out["zone_id"] == "highmesa"

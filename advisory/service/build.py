@@ -24,9 +24,7 @@ from advisory.io.framing import AuthVerifier, load_auth_key
 from advisory.io.records import Recorder
 from advisory.io.transports import UdpTransport
 from advisory.io.transports.udp import SourceGate, parse_allow_from
-from advisory.physics.aircraft import aircraft_from_dict
 from advisory.physics.atmosphere import load_profile, standard_atmosphere
-from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, load_config
 from advisory.pipeline.profile import StreamProfile
@@ -35,12 +33,12 @@ from advisory.pipeline.zones import ZoneSet
 from advisory.service.links import InputLink, OutputPublisher
 from advisory.service.loop import AdvisoryLoop
 from advisory.service.settings import RunError, RunSettings, check_settings
-from advisory.tables.build import BuildInputs
 from advisory.tables.cache import default_table
 from advisory.tables.grid import WIND_HEADINGS_DEG
 from advisory.tables.levels import level_inputs, level_table
 from advisory.tables.manager import TableManager
 from advisory.tables.table import BoomTable
+from advisory.tables.verify import inputs_from_table
 
 
 def load_tables(s: RunSettings) -> tuple[BoomTable, TableManager | None]:
@@ -59,11 +57,7 @@ def load_tables(s: RunSettings) -> tuple[BoomTable, TableManager | None]:
     windy = bool(abs(atm.wind_east_mps).max() > 0 or abs(atm.wind_north_mps).max() > 0)
     if windy and len(grid.headings_rad) == 1:  # a windy atmosphere needs the heading axis
         grid = replace(grid, headings_rad=tuple(math.radians(h) for h in WIND_HEADINGS_DEG))
-    inputs = BuildInputs(aircraft_from_dict(table.header["aircraft"], "table header"),
-                         table.atmosphere(), grid,
-                         float(table.header.get("reflection_factor",
-                                                DEFAULT_REFLECTION_FACTOR)))
-    mgr = TableManager(table, inputs)
+    mgr = TableManager(table, replace(inputs_from_table(table), grid=grid))
     if atm.description != table.header.get("atmosphere"):
         mgr.submit_atmosphere(atm)
     mgr.watch_profile_file(s.profile)

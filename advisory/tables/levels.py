@@ -21,24 +21,15 @@ import math
 from dataclasses import replace
 
 from advisory import units
-from advisory.physics.aircraft import aircraft_from_dict
-from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 from advisory.tables.build import BuildInputs
 from advisory.tables.cache import cached_table
 from advisory.tables.grid import GridError
 from advisory.tables.table import BoomTable
+from advisory.tables.verify import inputs_from_table
 
 #: Lowest aircraft height kept above a level's ground in its table, m (1,000 ft; an
 #: engineering choice: supersonic flight that low over high ground is outside the tables).
 CLEARANCE_M = units.ft_to_m(1000.0)
-
-
-def table_inputs(table: BoomTable) -> BuildInputs:
-    """What ``table`` was built from, read back from its header."""
-    return BuildInputs(aircraft_from_dict(table.header["aircraft"], "table header"),
-                       table.atmosphere(), table.grid,
-                       float(table.header.get("reflection_factor",
-                                              DEFAULT_REFLECTION_FACTOR)))
 
 
 def level_inputs(inputs: BuildInputs, ground_m: float) -> BuildInputs:
@@ -70,8 +61,8 @@ def level_table(table: BoomTable, ground_m: float, quiet: bool = False,
     process); ``table`` itself when its ground is already there."""
     if math.isclose(ground_m, table.grid.ground_elevation_m, abs_tol=1e-6):
         return table
-    return cached_table(level_inputs(table_inputs(table), ground_m), quiet=quiet,
+    return cached_table(level_inputs(inputs_from_table(table), ground_m), quiet=quiet,
                         workers=workers)
 
 
-__all__ = ["CLEARANCE_M", "level_inputs", "level_table", "table_inputs"]
+__all__ = ["CLEARANCE_M", "level_inputs", "level_table"]

@@ -92,18 +92,6 @@ def write_table_file(path: str | Path, header: dict, arrays: dict[str, np.ndarra
     return digest
 
 
-def read_table_header(path: str | Path) -> tuple[dict, int, int]:
-    """Read and check the prefix and header; returns ``(header, payload offset, file
-    size)`` (the payload itself is not read)."""
-    path = Path(path)
-    try:
-        with open(path, "rb") as fh:
-            size = os.fstat(fh.fileno()).st_size
-            return (*_header_from(fh, size, path), size)
-    except OSError as exc:
-        raise TableFileError(f"table file {path}: cannot read ({exc.strerror})") from exc
-
-
 def _header_from(fh: BinaryIO, size: int, path: Path) -> tuple[dict, int]:
     """The checked header of the open file ``fh`` and where its payload starts."""
     prefix = fh.read(_PREFIX.size)

@@ -106,7 +106,8 @@ def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
         p = base.params.copy()
         p[14], p[15], p[17], p[18] = onset, mach, bank, turn
         fast = trial_clears_kernel(base.t_judged, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
-                                   tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, base.strips,
+                                   tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(),
+                                   base.strips,
                                    pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start,
                                    pz.zone_bbox, pz.ring_chunk, pz.chunk_edges, pz.chunk_bbox,
                                    pz.margin_m, pz.limit_pa, base.focus_cap, 1.25)

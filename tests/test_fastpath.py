@@ -73,8 +73,8 @@ def _assert_column_parity(inputs: BuildInputs, tracer: RayTracer, key) -> None:
     assert fp.trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], g.headings_rad[kh],
                            g.fpa_rad[jf], g.ground_elevation_m, np.asarray(g.mach_excess),
                            g.eta, inputs.reflection_factor) is not None
-    cut, left, right, cells = build_column(inputs, tracer, *key)
-    cut_r, left_r, right_r, cells_r = build_column_reference(inputs, tracer, *key)
+    cut, left, right, cells, ages = build_column(inputs, tracer, *key)
+    cut_r, left_r, right_r, cells_r, ages_r = build_column_reference(inputs, tracer, *key)
     # Twin parity: the readable path is the reference (no outside source).
     assert cut == pytest.approx(cut_r, rel=1e-12, abs=0.0)
     np.testing.assert_allclose(left, left_r, rtol=1e-9, atol=1e-12)
@@ -88,6 +88,9 @@ def _assert_column_parity(inputs: BuildInputs, tracer: RayTracer, key) -> None:
         np.testing.assert_allclose(cells[..., q], cells_r[..., q], rtol=1e-6,
                                    atol=1e-6 * scale, err_msg=f"quantity {q}")
     np.testing.assert_array_equal(cells[..., lk.Q_EDGE], cells_r[..., lk.Q_EDGE])
+    boom = cells_r[..., lk.Q_DP] > 0.0  # each ray's age (the lift map's input) where it booms
+    np.testing.assert_allclose(ages[boom], ages_r[boom], rtol=1e-6)
+    assert np.all(ages_r[boom] > 0.0)
     # The column is not trivial: booms on the ground, and edge rays flagged.
     assert np.all(cells_r[:, g.n_eta // 2, lk.Q_DP] > 0.0)
     assert np.any(cells_r[..., lk.Q_EDGE] == 1.0)

@@ -68,6 +68,7 @@ class PredictInputs:
     atmosphere_file: str | None = None
     aircraft_file: str | None = None
     load_factor: float = 1.0
+    bank_deg: float = 0.0
     table_file: str | None = None
 
 
@@ -167,7 +168,8 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
         if not ray.reaches_ground:
             continue
         sig = ground_signature(aircraft, ray, fc.mach, s0.sound_speed_mps, s0.pressure_pa,
-                               load_factor=inputs.load_factor, fpa_rad=fc.fpa_rad)
+                               load_factor=inputs.load_factor, fpa_rad=fc.fpa_rad,
+                               bank_rad=math.radians(inputs.bank_deg))
         profile.append(ProfilePoint(ray.cross_m, sig.overpressure_pa, sig.duration_s, sig.arrival_s,
                                     sig.edge))
         if phi == phi_ref:
@@ -175,7 +177,8 @@ def predict_direct(inputs: PredictInputs) -> PredictResult:
     if centre is None:  # pragma: no cover - the reference ray always reaches
         centre = ground_signature(aircraft, tracer.trace(fc, phi_ref), fc.mach,
                                   s0.sound_speed_mps, s0.pressure_pa,
-                                  load_factor=inputs.load_factor, fpa_rad=fc.fpa_rad)
+                                  load_factor=inputs.load_factor, fpa_rad=fc.fpa_rad,
+                                  bank_rad=math.radians(inputs.bank_deg))
     carlson_dp, carlson_dur = carlson_overpressure(
         aircraft, fc.mach, fc.altitude_m, atm, ground_elevation_m=fc.ground_elevation_m,
         fpa_rad=fc.fpa_rad, load_factor=inputs.load_factor,
@@ -206,6 +209,15 @@ def predict_from_table(inputs: PredictInputs) -> PredictResult:
     fc = flight_condition(inputs)
     fc.validate(atm)
     fp = table.footprint(fc.altitude_m, fc.mach, fc.fpa_rad, fc.heading_rad)
+    steady = inputs.load_factor == 1.0 and inputs.bank_deg == 0.0
+    if not steady and not table.has_lift_map:
+        raise ValueError(f"--load-factor/--bank-deg: table {inputs.table_file} has no lift "
+                         "map (built by an earlier version): rebuild it, or omit --table "
+                         "to trace directly")
+    if fp.reaches_ground and not steady:
+        table.apply_lift(fp.rows, fc.altitude_m, fc.mach, fc.fpa_rad, fc.heading_rad,
+                         inputs.load_factor * math.cos(fc.fpa_rad),
+                         math.radians(inputs.bank_deg))
     drift = drift_angle(tracer, fc)
     nan = math.nan
     src = f"table {inputs.table_file}"

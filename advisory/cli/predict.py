@@ -42,8 +42,13 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--ground-elevation-ft", type=float, default=0.0,
                    help="ground elevation above mean sea level, ft (0)")
     add_aircraft_option(p)
-    p.add_argument("--load-factor", type=float, default=1.0,
-                   help="lift over weight (1 in steady flight)")
+    p.add_argument("--load-factor", type=float, default=None,
+                   help="lift over weight (default 1, or 1 / cos(bank) with --bank-deg: a "
+                        "level coordinated turn)")
+    p.add_argument("--bank-deg", type=float, default=0.0,
+                   help="bank, deg, positive right wing down (0): tilts the lift, more "
+                        "boom below the outside of the turn (the turn's ray-tube focus "
+                        "is not in this one-condition answer; the advisor has it)")
     add_table_option(p, "answer from a precomputed table instead of direct tracing")
     add_json_option(p)
     p.set_defaults(func=run)
@@ -69,17 +74,16 @@ def inputs_from_args(args: argparse.Namespace) -> PredictInputs:
         ground_elevation_ft=finite("--ground-elevation-ft", args.ground_elevation_ft),
         atmosphere_file=args.atmosphere,
         aircraft_file=args.aircraft,
-        load_factor=finite("--load-factor", args.load_factor),
+        load_factor=_load_factor(args),
+        bank_deg=finite("--bank-deg", args.bank_deg),
         table_file=args.table,
     )
     if args.table:
         for flag, given in (("--aircraft", args.aircraft), ("--atmosphere", args.atmosphere),
-                            ("--temp-offset-c", args.temp_offset_c != 0.0),
-                            ("--load-factor", args.load_factor != 1.0)):
+                            ("--temp-offset-c", args.temp_offset_c != 0.0)):
             if given:
                 raise UsageError(f"{flag}: cannot be combined with --table (the table fixes "
-                                 "aircraft, atmosphere and load factor 1); omit --table to "
-                                 "trace directly")
+                                 "aircraft and atmosphere); omit --table to trace directly")
     if not (0.0 < inputs.load_factor <= 9.0):
         raise UsageError(f"--load-factor: {args.load_factor} must be in (0, 9]")
     if inputs.mach <= 0.0:
@@ -90,6 +94,16 @@ def inputs_from_args(args: argparse.Namespace) -> PredictInputs:
             f"({args.ground_elevation_ft} ft)"
         )
     return inputs
+
+
+def _load_factor(args: argparse.Namespace) -> float:
+    """``--load-factor``, or a level coordinated turn's ``1 / cos(bank)`` when not given."""
+    bank = finite("--bank-deg", args.bank_deg)
+    if not abs(bank) <= 80.0:
+        raise UsageError(f"--bank-deg: {args.bank_deg} must be within [-80, 80]")
+    if args.load_factor is not None:
+        return finite("--load-factor", args.load_factor)
+    return 1.0 / math.cos(math.radians(bank))
 
 
 def _num(x: float, nd: int = 4) -> float | None:
@@ -110,6 +124,7 @@ def result_fields(res: PredictResult) -> dict[str, Any]:
         "heading_deg": res.inputs.heading_deg,
         "fpa_deg": res.inputs.fpa_deg,
         "load_factor": res.inputs.load_factor,
+        "bank_deg": res.inputs.bank_deg,
         "ground_elevation_ft": res.inputs.ground_elevation_ft,
         "atmosphere": res.atmosphere_name,
         "temp_offset_c": res.inputs.temp_offset_c,
@@ -152,7 +167,8 @@ def summary_text(res: PredictResult) -> str:
     lines = [
         f"Flight condition: Mach {f['mach']:.3f} at {f['altitude_ft']:,.0f} ft, "
         f"heading {f['heading_deg']:.0f} deg, flight-path angle {f['fpa_deg']:+.1f} deg, "
-        f"load factor {f['load_factor']:.2f}, ground {f['ground_elevation_ft']:,.0f} ft",
+        f"load factor {f['load_factor']:.2f}, bank {f['bank_deg']:+.0f} deg, "
+        f"ground {f['ground_elevation_ft']:,.0f} ft",
         f"Aircraft: {f['aircraft']}; atmosphere: {f['atmosphere']} "
         f"(offset {f['temp_offset_c']:+.1f} degC); from {f['source']}",
         "Cutoff Mach: " + (f"{f['cutoff_mach']:.3f}" if f["cutoff_mach"] else "none up to 5.0"),

@@ -90,7 +90,8 @@ R_DURATION = 6  #: time between bow and tail shocks, s
 R_EDGE = 7  #: 1 when the signature is flagged (caustic or grazing) or the ray misses
 R_PHI = 8  #: ray azimuth, rad
 R_REACHED = 9  #: 1 when the ray reaches the ground
-N_RAY_RESULTS = 10
+R_AGE = 10  #: the signature's age at the ground (ageing integral), m^0.5
+N_RAY_RESULTS = 11
 
 #: Column status codes returned by :func:`column_kernel`.
 STATUS_OK = 0
@@ -327,6 +328,7 @@ def ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lw
     res[R_DP] = v_peak
     res[R_DURATION] = v_dur
     res[R_EDGE] = 1.0 if edge else 0.0
+    res[R_AGE] = age if _finite(age) else 0.0
     return True
 
 

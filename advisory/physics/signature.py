@@ -123,7 +123,7 @@ def _check(name: str, value: float, lo: float, hi: float) -> float:
 def ground_signature(aircraft: Aircraft, ray: RayPath, mach: float, c0: float, p0: float,
                      load_factor: float = 1.0,
                      reflection_factor: float = DEFAULT_REFLECTION_FACTOR,
-                     fpa_rad: float = 0.0) -> Signature:
+                     fpa_rad: float = 0.0, bank_rad: float = 0.0) -> Signature:
     """Ground boom of ``aircraft`` at the end of ``ray`` (see the module notes).
 
     Parameters
@@ -143,6 +143,10 @@ def ground_signature(aircraft: Aircraft, ray: RayPath, mach: float, c0: float, p
         Ground reflection factor, 1-2 (default 1.9; common practice, no source).
     fpa_rad : float
         Flight-path angle, rad (lift ``n W cos(fpa)``).
+    bank_rad : float
+        Bank, rad, positive right wing down: the lift plane turns with it, so the ray at
+        azimuth ``phi`` sees the lift ``cos(phi + bank)`` (Walkden's lift-equivalent
+        area along the ray's azimuth; :mod:`advisory.tables.lift`).
 
     Returns
     -------
@@ -164,7 +168,7 @@ def ground_signature(aircraft: Aircraft, ray: RayPath, mach: float, c0: float, p
     if mach <= 1.0 or not ray.reaches_ground or ray.t_s.size < 2:
         return _no_boom()
     parts = f_function_parts(aircraft)
-    lift_area = aircraft.lift_area_total(mach, p0, load_factor, fpa_rad, ray.phi_rad)
+    lift_area = aircraft.lift_area_total(mach, p0, load_factor, fpa_rad, ray.phi_rad + bank_rad)
     omega0 = float(ray.omega[0]) if ray.omega.size else 1.0
     age_scale = mach * c0 / omega0
     g = ray.amplitude_factor

@@ -252,7 +252,8 @@ class TrialBase:
             if has_wind else 0.0)
         return bool(trial_clears_kernel(
             t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
-            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, strips, pz.x, pz.y,
+            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(), strips,
+            pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
             self.cfg.focus_threshold))

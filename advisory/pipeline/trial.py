@@ -43,6 +43,7 @@ from advisory.pipeline.conflicts import conflict_kernel
 from advisory.pipeline.footprint import focus_kernel, place_kernel, steady_translation_kernel
 from advisory.pipeline.trajectory import ground_to_plane
 from advisory.tables import lookup as lk
+from advisory.tables.lift import lift_correction_kernel, lift_scale_kernel
 
 __all__ = ["TRIAL_PARAMS", "TRIAL_ROWS", "SUBSTEP_S", "fly_trial_kernel",
            "trial_clears_kernel"]
@@ -179,8 +180,49 @@ def fly_trial_kernel(t, p):
 
 
 @njit(cache=True)
+def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                cutoff, lift, strips, rows, codes):
+    """The trial's rows at the lift of its bank (level coordinated flight, the flight-path
+    angle held: lift ``cos(gamma) / cos(bank)`` tilted by the bank;
+    :func:`advisory.pipeline.footprint.lift_and_bank`)."""
+    ray_age, lift_map, params, lz, lnp = lift
+    if lift_map.size == 0:
+        return
+    nk = rows.shape[0]
+    ns = strips.size
+    lifts = np.empty(nk)
+    banks = np.empty(nk)
+    banked = False
+    for kk in range(nk):
+        k = k_lo + kk
+        across = fl[4, k] * fl[9, k] * p[2]
+        up = p[13] * p[2]
+        lifts[kk] = math.sqrt(across * across + up * up) / p[13]
+        banks[kk] = math.atan2(across, up)
+        if banks[kk] != 0.0:
+            banked = True
+    if not banked:
+        return
+    scratch = np.zeros((ray_age.shape[4], 1))
+    ages = np.zeros((nk, ns, 1))
+    for kk in range(nk):
+        k = k_lo + kk
+        if codes[kk] == lk.NO_BOOM or banks[kk] == 0.0:
+            continue
+        hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
+        lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                         cutoff, ray_age, scratch)
+        for s in range(ns):
+            ages[kk, s, 0] = scratch[strips[s], 0]
+    scale = np.empty(nk)
+    lift_scale_kernel(fl[2, k_lo:].copy(), fl[3, k_lo:].copy(), lz, lnp, params[5], scale)
+    lift_correction_kernel(rows, ages, codes, lifts, banks, np.full(nk, fpa), scale,
+                           lift_map, params)
+
+
+@njit(cache=True)
 def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                        cutoff, cells, strips, x, y, ring_start, part_start, zone_start,
+                        cutoff, cells, lift, strips, x, y, ring_start, part_start, zone_start,
                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
                         focus_cap, focus_threshold):
     """Whether the trial ``p`` keeps the booms of emissions ``k0`` on off every zone.
@@ -201,6 +243,9 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         The table has a heading axis (wind): look rows up by true heading.
     ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells
         The table (:func:`advisory.tables.lookup.lookup_kernel`).
+    lift : tuple
+        The table's lift map (:meth:`advisory.tables.table.BoomTable.lift_args`): each
+        ray's overpressure at the lift of the trial's bank (:mod:`advisory.tables.lift`).
     strips : ndarray
         int64 azimuth nodes of the carpet strips.
     x, y, ring_start, ... limits
@@ -252,6 +297,8 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         vg_e[kk] = fl[8, k_lo + kk] * math.sin(fl[7, k_lo + kk])
         vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
         tas[kk] = fl[3, k_lo + kk] * p[6]
+    _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                cutoff, lift, strips, rows, codes)
     te = np.empty((nk, ns))
     tn = np.empty((nk, ns))
     steady_translation_kernel(vg_e, vg_n, tas, fl[3, k_lo:].copy(), fl[5, k_lo:].copy(), fpas,

@@ -28,10 +28,11 @@ from advisory.physics.aircraft import Aircraft, aircraft_document
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.carpet import best_reaching_azimuth, cutoff_mach, lateral_cutoff
 from advisory.physics.rays import FlightCondition, RayPath, RayTracer
-from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, ground_signature
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, Signature, ground_signature
 from advisory.schema import VERSION
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
+from advisory.tables.lift import build_lift_map
 from advisory.tables.store import atmosphere_arrays
 
 
@@ -45,14 +46,20 @@ class BuildInputs:
     reflection_factor: float = DEFAULT_REFLECTION_FACTOR
 
 
-def ray_signature(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition,
-                  ray: RayPath) -> tuple[float, float, bool]:
-    """Ground overpressure (Pa), duration (s) and edge flag of one traced ray."""
+def ray_boom(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition, ray: RayPath
+             ) -> Signature:
+    """Ground signature of one traced ray in steady flight (load factor 1)."""
     s0 = tracer.atmosphere.at(fc.altitude_m)
-    sig = ground_signature(
+    return ground_signature(
         inputs.aircraft, ray, fc.mach, s0.sound_speed_mps, s0.pressure_pa,
         load_factor=1.0, reflection_factor=inputs.reflection_factor, fpa_rad=fc.fpa_rad,
     )
+
+
+def ray_signature(inputs: BuildInputs, tracer: RayTracer, fc: FlightCondition,
+                  ray: RayPath) -> tuple[float, float, bool]:
+    """Ground overpressure (Pa), duration (s) and edge flag of one traced ray."""
+    sig = ray_boom(inputs, tracer, fc, ray)
     edge = sig.caustic or sig.edge
     return float(sig.overpressure_pa), float(sig.duration_s), edge
 
@@ -72,9 +79,10 @@ def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: i
 
     Returns
     -------
-    (cutoff, phi_left, phi_right, cells)
+    (cutoff, phi_left, phi_right, cells, ages)
         Cutoff Mach; lateral cutoff azimuths per Mach excess (rad); rows of shape
-        (n_mach_excess, n_eta, N_QUANTITIES).
+        (n_mach_excess, n_eta, N_QUANTITIES); each ray's signature age, m^0.5, shape
+        (n_mach_excess, n_eta) (:mod:`advisory.tables.lift`).
     """
     g = inputs.grid
     hdg = g.headings_rad[kh]
@@ -99,7 +107,8 @@ def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: i
     cells[..., lk.Q_DP] = np.where(reached, r[..., fp.R_DP], 0.0)
     cells[..., lk.Q_DURATION] = np.where(reached, r[..., fp.R_DURATION], 0.0)
     cells[..., lk.Q_EDGE] = r[..., fp.R_EDGE]
-    return col.cutoff_mach, col.phi_left, col.phi_right, cells
+    ages = np.where(reached, r[..., fp.R_AGE], 0.0)
+    return col.cutoff_mach, col.phi_left, col.phi_right, cells, ages
 
 
 def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: int):
@@ -107,9 +116,8 @@ def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: 
 
     Returns
     -------
-    (cutoff, phi_left, phi_right, cells)
-        Cutoff Mach; lateral cutoff azimuths per Mach excess (rad); rows of shape
-        (n_mach_excess, n_eta, N_QUANTITIES).
+    (cutoff, phi_left, phi_right, cells, ages)
+        As :func:`build_column`.
     """
     g = inputs.grid
     alt = g.altitudes_m[ia]
@@ -120,6 +128,7 @@ def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: 
     nm = len(g.mach_excess)
     eta = g.eta
     cells = np.zeros((nm, eta.size, lk.N_QUANTITIES))
+    ages = np.zeros((nm, eta.size))
     phi_l = np.zeros(nm)
     phi_r = np.zeros(nm)
     sh, ch = math.sin(hdg), math.cos(hdg)
@@ -147,11 +156,13 @@ def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: 
             if math.isfinite(dx) and math.isfinite(dy):
                 row[lk.Q_DFWD_DPHI] = dx * sh + dy * ch
                 row[lk.Q_DRIGHT_DPHI] = dx * ch - dy * sh
-            dp, dur, edge = ray_signature(inputs, tracer, fc, ray)
-            row[lk.Q_DP] = dp
-            row[lk.Q_DURATION] = dur
-            row[lk.Q_EDGE] = 1.0 if edge else 0.0
-    return m_cut, phi_l, phi_r, cells
+            sig = ray_boom(inputs, tracer, fc, ray)
+            row[lk.Q_DP] = sig.overpressure_pa
+            row[lk.Q_DURATION] = sig.duration_s
+            row[lk.Q_EDGE] = 1.0 if (sig.caustic or sig.edge) else 0.0
+            if sig.overpressure_pa > 0.0:
+                ages[im, ie] = sig.age_m05
+    return m_cut, phi_l, phi_r, cells, ages
 
 
 # ---- worker-process plumbing ---------------------------------------------------------
@@ -219,13 +230,15 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
     phi_left = np.zeros((na, nm, nf, nh))
     phi_right = np.zeros((na, nm, nf, nh))
     cells = np.zeros((na, nm, nf, nh, neta, lk.N_QUANTITIES))
+    ages = np.zeros((na, nm, nf, nh, neta))
     keys = [(a, f, h) for a in range(na) for f in range(nf) for h in range(nh)]
     bar = _Progress(len(keys), progress_stream)
     workers = workers or os.cpu_count() or 1
 
     def store(key, res) -> None:
         a, f, h = key
-        cutoff[a, f, h], phi_left[a, :, f, h], phi_right[a, :, f, h], cells[a, :, f, h] = res
+        (cutoff[a, f, h], phi_left[a, :, f, h], phi_right[a, :, f, h], cells[a, :, f, h],
+         ages[a, :, f, h]) = res
         bar.step()
 
     if workers <= 1:
@@ -242,6 +255,11 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
     arrays.update({"cutoff_mach": cutoff, "phi_left": phi_left, "phi_right": phi_right,
                    "cells": cells})
     arrays.update(atmosphere_arrays(inputs.atmosphere))
+    alts = inputs.grid.altitudes_m
+    p_lo = float(inputs.atmosphere.at(alts[-1]).pressure_pa)
+    p_hi = float(inputs.atmosphere.at(alts[0]).pressure_pa)
+    lift_map, params = build_lift_map(inputs.aircraft, ages, p_lo, p_hi)
+    arrays.update({"ray_age": ages, "lift_map": lift_map, "lift_map_params": params})
     return arrays
 
 

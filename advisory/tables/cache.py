@@ -52,8 +52,9 @@ def cache_dir() -> Path:
 #: Revision of what the builder computes from the same inputs, in the key: a cached
 #: table built by an earlier builder is built again (2: the carpet edge converged to
 #: 1e-12 rad of the lateral cutoff azimuth, issue 14; 3: an ISA + dT day's pressure from
-#: the hydrostatic equation, issue 14).
-BUILDER_REVISION = 3
+#: the hydrostatic equation, issue 14; 4: each ray's age and the lift map, so bank and load
+#: factor reach the overpressure, issue 14).
+BUILDER_REVISION = 4
 
 
 def table_key(inputs: BuildInputs) -> str:

@@ -15,6 +15,7 @@ from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.atmosphere_merge import rebuild_atmosphere
 from advisory.tables import lookup as lk
 from advisory.tables.grid import GridError, TableGrid
+from advisory.tables.lift import N_MAP_PARAMS, lift_correction_kernel, lift_scale_kernel
 from advisory.tables.store import (
     ATMOSPHERE_FIELDS,
     TableFileError,
@@ -35,6 +36,11 @@ CUTOFF_MACH_RANGE = (1.0, 5.0)
 #: Accepted ground reflection factors: 1 (no reflection gain) to 2 (rigid ground; 1.9-2.0
 #: is common practice, see advisory/physics/signature.py).
 REFLECTION_FACTOR_RANGE = (1.0, 2.0)
+
+
+#: :meth:`BoomTable.lift_args` of a table without a lift map.
+_NO_LIFT = (np.zeros((1, 1, 1, 1, 1, 1)), np.zeros((0, 0)), np.zeros(6), np.zeros(2),
+            np.zeros(2))
 
 
 @dataclass
@@ -86,9 +92,40 @@ class BoomTable:
         q = self.cells[..., lk.Q_TIME]  # checked finite and >= 0 (check_contents)
         #: The longest travel time of any tabulated ray, s (0 for an empty table).
         self.max_travel_time_s = float(q.max()) if q.size else 0.0
+        self._lift_arrays(arrays)
         self.loaded_monotonic = time.monotonic()
         #: The file the table was loaded from (None for a table built in memory).
         self.path: str | None = None
+
+    def _lift_arrays(self, arrays: dict[str, np.ndarray]) -> None:
+        #: Each ray's age, (n_alt, n_mex, n_fpa, n_hdg, n_eta, 1) for the lookup kernel,
+        #: and the lift map with its parameters (:mod:`advisory.tables.lift`); None for
+        #: a table built without them (steady-flight lift only).
+        self.ray_age: np.ndarray | None = None
+        self.lift_map: np.ndarray | None = None
+        self.lift_params: np.ndarray | None = None
+        if "lift_map" not in arrays:
+            return
+        age = np.ascontiguousarray(arrays["ray_age"], dtype=np.float64)
+        self.ray_age = age.reshape(age.shape + (1,))
+        self.lift_map = np.ascontiguousarray(arrays["lift_map"], dtype=np.float64)
+        self.lift_params = np.ascontiguousarray(arrays["lift_map_params"], dtype=np.float64)
+        atm = self.atmosphere()
+        #: Levels (m) and ln pressure for the lift area's ambient pressure.
+        self.lift_z = np.ascontiguousarray(atm.z_m, dtype=np.float64)
+        self.lift_ln_p = np.log(np.ascontiguousarray(atm.pressure_pa, dtype=np.float64))
+
+    def lift_args(self) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(ray_age, lift_map, lift_params, lift_z, lift_ln_p) for the compiled kernels;
+        placeholders of the same kinds (an empty map) without a lift map."""
+        if self.ray_age is None or self.lift_map is None or self.lift_params is None:
+            return _NO_LIFT
+        return self.ray_age, self.lift_map, self.lift_params, self.lift_z, self.lift_ln_p
+
+    @property
+    def has_lift_map(self) -> bool:
+        """True when the table carries the lift map (bank and load factor applied)."""
+        return self.lift_map is not None
 
     # ---- I/O ---------------------------------------------------------------------------
     @classmethod
@@ -151,6 +188,24 @@ class BoomTable:
         code, mcut = self.footprint_into(out, altitude_m, mach, fpa_rad, heading_rad)
         return Footprint(int(code), float(mcut), out)
 
+    def apply_lift(self, rows: np.ndarray, altitude_m: float, mach: float, fpa_rad: float,
+                   heading_rad: float, lift: float, bank_rad: float) -> bool:
+        """Scale the overpressure of one footprint's ``rows`` (from :meth:`footprint`, in
+        place) to the lift ``lift`` (over the weight) tilted by ``bank_rad``
+        (:mod:`advisory.tables.lift`); False when the table has no lift map."""
+        if self.ray_age is None or self.lift_map is None or self.lift_params is None:
+            return False
+        ages = np.zeros((1, self.eta.size, 1))
+        lk.lookup_kernel(altitude_m, mach, fpa_rad, heading_rad, self.ax_alt, self.ax_mex,
+                         self.ax_fpa, self.ax_hdg, self.cutoff, self.ray_age, ages[0])
+        scale = np.zeros(1)
+        lift_scale_kernel(np.array([altitude_m]), np.array([mach]), self.lift_z,
+                          self.lift_ln_p, float(self.lift_params[5]), scale)
+        lift_correction_kernel(rows[None], ages, np.array([lk.OK], dtype=np.int64),
+                               np.array([lift]), np.array([bank_rad]), np.array([fpa_rad]),
+                               scale, self.lift_map, self.lift_params)
+        return True
+
     def cutoff_mach(self, altitude_m: float, fpa_rad: float = 0.0,
                     heading_rad: float = 0.0) -> float:
         """Interpolated cutoff Mach."""
@@ -182,6 +237,10 @@ class BoomTable:
             f"{math.degrees(g.fpa_rad[0]):.1f}..{math.degrees(g.fpa_rad[-1]):.1f} deg "
             f"({len(g.fpa_rad)}), headings {len(g.headings_rad)}, azimuths {g.n_eta}, "
             f"ground {units.m_to_ft(g.ground_elevation_m):,.0f} ft",
+            "lift map: bank and load factor applied to the overpressure"
+            if self.has_lift_map else
+            "lift map: none (a table from an earlier builder): the overpressure keeps the "
+            "lift of steady, wings-level flight",
         ]
         return lines
 
@@ -211,7 +270,10 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
       reach the ground is stored as zeros with its edge flag (advisory/tables/build.py);
     * the atmosphere arrays (``atm_*``), when present: all of them, one length >= 2,
       finite, altitude ascending, temperature, pressure, density and sound speed > 0;
-      when absent, the header's atmosphere description must rebuild an atmosphere.
+      when absent, the header's atmosphere description must rebuild an atmosphere;
+    * the lift map (:data:`LIFT_ARRAYS`), when present: all three, ``ray_age`` shaped like
+      the rays and >= 0, ``lift_map`` two-dimensional and >= 0, its parameters with
+      ascending ranges and a positive area scale and weight.
 
     Raises
     ------
@@ -261,7 +323,32 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
         if v.min() < lo or v.max() > hi:
             raise TableFileError(f"array cells: {what} (quantity {q}) outside [{lo:g}, {hi:g}]")
     _check_atmosphere(arrays, header["atmosphere"])
+    _check_lift_map(arrays, (n_alt, n_mex, n_fpa, n_hdg, n_eta))
     return grid
+
+
+#: The arrays of the lift map (:mod:`advisory.tables.lift`): all or none (a table built
+#: before it has none; its overpressure then keeps the lift of steady flight).
+LIFT_ARRAYS = ("ray_age", "lift_map", "lift_map_params")
+
+
+def _check_lift_map(arrays: dict[str, np.ndarray], ray_shape: tuple[int, ...]) -> None:
+    present = [n for n in LIFT_ARRAYS if n in arrays]
+    if not present:
+        return
+    if len(present) != len(LIFT_ARRAYS):
+        raise TableFileError(f"lift map arrays incomplete: missing "
+                             f"{sorted(set(LIFT_ARRAYS) - set(present))}")
+    _values(arrays, "ray_age", ray_shape, 0.0, math.inf)
+    m = arrays["lift_map"]
+    if m.ndim != 2 or min(m.shape) < 2:
+        raise TableFileError(f"array lift_map: shape {m.shape} is not (ages >= 2, areas >= 2)")
+    _values(arrays, "lift_map", m.shape, 0.0, math.inf)
+    p = arrays["lift_map_params"]
+    _values(arrays, "lift_map_params", (N_MAP_PARAMS,), -math.inf, math.inf)
+    if not (p[0] < p[1] and p[2] < p[3] and p[4] > 0.0 and p[5] > 0.0):
+        raise TableFileError("array lift_map_params: needs ln-age and area ranges that "
+                             "ascend, a positive area scale and a positive weight")
 
 
 def _axis(arrays: dict[str, np.ndarray], name: str, min_nodes: int) -> int:

@@ -23,6 +23,7 @@ from tests.twins.footprint import (
     place_kernel_twin,
     steady_translation_twin,
 )
+from tests.twins.lift import lift_correction_twin, lift_scale_twin
 from tests.twins.lookup import lookup_twin
 
 
@@ -111,6 +112,20 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
         codes[i], cut[i] = lookup_twin(fl[2, k], fl[3, k], fpa, hdg, table.ax_alt,
                                        table.ax_mex, table.ax_fpa, table.ax_hdg, table.cutoff,
                                        table.cells, rows[i])
+    if table.has_lift_map:  # level coordinated flight at the trial's bank
+        tas, rate = fl[4, lo:], fl[9, lo:]
+        across = tas * rate * math.cos(fpa)
+        up = params[13] * math.cos(fpa)
+        lift, bank = np.hypot(across, up) / params[13], np.arctan2(across, up)
+        ages = np.zeros((len(ks), table.eta.size, 1))
+        for i, k in enumerate(ks):
+            hdg = (fl[5, k] + hdg_offset) % (2 * math.pi) if has_wind else 0.0
+            lookup_twin(fl[2, k], fl[3, k], fpa, hdg, table.ax_alt, table.ax_mex, table.ax_fpa,
+                        table.ax_hdg, table.cutoff, table.ray_age, ages[i])
+        scale = lift_scale_twin(fl[2, lo:], fl[3, lo:], table.lift_z, table.lift_ln_p,
+                                table.lift_params[5])
+        rows = lift_correction_twin(rows, ages, codes, lift, bank, np.full(len(ks), fpa),
+                                    scale, table.lift_map, table.lift_params)
     tk = t[lo:]
     e, n, ta, de, dn = place_kernel_twin(tk, fl[0, lo:], fl[1, lo:], fl[5, lo:], rows, codes)
     s = k0 - lo

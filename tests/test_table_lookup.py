@@ -22,7 +22,7 @@ def random_table(nh: int, seed: int = 3):
     return ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells
 
 
-@pytest.mark.parametrize("nh", [1, 3, 6, 12])
+@pytest.mark.parametrize("nh", [1, 3, 4, 6, 12, 24])
 def test_numba_numpy_parity(nh: int) -> None:
     # Parity: the numba kernel and its numpy twin implement the same interpolation.
     args = random_table(nh)
@@ -70,3 +70,21 @@ def test_heading_is_periodic() -> None:
     lk.lookup_kernel(9500.0, 2.0, 0.02, 2 * math.pi - 1e-9, *args, a)
     lk.lookup_kernel(9500.0, 2.0, 0.02, 0.0, *args, b)
     np.testing.assert_allclose(a, b, rtol=1e-6, atol=1e-6)
+
+
+@pytest.mark.parametrize("nh, degree", [(24, 5), (5, 3)])
+def test_heading_interpolation_is_exact_for_polynomials(nh: int, degree: int) -> None:
+    # Lagrange interpolation through k + 1 equally spaced nodes reproduces polynomials of
+    # degree k exactly (Abramowitz and Stegun, 1964, 25.2.13 and 25.2.15): six nodes
+    # (quintic) from six headings on, four (cubic) with four or five.
+    ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells = random_table(nh)
+    poly = np.polynomial.Polynomial(np.arange(1.0, degree + 2.0) / 10.0)
+    step = 2 * math.pi / nh
+    for h in range(nh):  # values a polynomial of the node index (no wrap near x below)
+        cells[:, :, :, h] = poly(h)
+    cutoff[...] = 1.1
+    out = np.zeros((7, lk.N_QUANTITIES))
+    x = 2.37 if nh < 6 else 9.61
+    lk.lookup_kernel(9000.0, 2.0, 0.0, x * step, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
+                     cells, out)
+    np.testing.assert_allclose(out, poly(x), rtol=1e-10)

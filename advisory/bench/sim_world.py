@@ -11,7 +11,7 @@ The table: the scenario's file when it names one; otherwise built for the adviso
 atmosphere over the scenario's grid or, without one, over a small grid around the flight
 (:func:`grid_around_flight`: the schedule flown dry, altitudes every 1,000 ft from 1,000
 ft below to 1,000 ft above it, Mach excess nodes of the default grid up to the fastest
-Mach, the flight-path angles flown, every 30 deg of heading when the air has wind), and
+Mach, the flight-path angles flown, every 15 deg of heading when the air has wind), and
 cached (:func:`advisory.tables.cache.cached_table`), as a replay's scenario grid is.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed

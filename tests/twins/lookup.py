@@ -36,10 +36,11 @@ def _weights_periodic(axis: np.ndarray, x: float) -> tuple[list[int], list[float
                                      rtol=0.0)
     if not uniform:
         return [i, (i + 1) % n], [1.0 - w, w]
-    # cubic Lagrange through the four periodic nodes around x (nodes at -1, 0, 1, 2)
-    nodes = np.array([-1.0, 0.0, 1.0, 2.0])
+    # Lagrange through the periodic nodes around x: six (-2 .. 3) from six nodes on, else
+    # four (-1 .. 2)
+    nodes = np.arange(-2.0, 4.0) if n >= 6 else np.arange(-1.0, 3.0)
     weights = [float(np.prod([(w - b) / (a - b) for b in nodes if b != a])) for a in nodes]
-    return [(i - 1) % n, i, (i + 1) % n, (i + 2) % n], weights
+    return [int(i + a) % n for a in nodes], weights
 
 
 def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells,

@@ -323,3 +323,22 @@ def test_merging_the_levels_advice_errs_toward_the_boom() -> None:
     m = merge_advisories([early, high])
     assert m.zone_id == "coast"  # the same level: the zone met first
     assert [c.zone_id for c in m.conflicts] == ["coast", "highmesa"]
+
+
+def test_a_level_table_rebuilt_short_of_its_budgets_is_said(sea_table, mesa_table) -> None:
+    # A higher ground level's table, rebuilt in flight and verified short of the budgets,
+    # is named in the advisor's notes with its ground, as the base table's is (the service
+    # puts it in the status reason, ICD 17.2). Before: only the base table's note was read.
+    from advisory.tables.manager import TableManager
+
+    mgr = TableManager(mesa_table, level_inputs(inputs_from_table(sea_table),
+                                                units.ft_to_m(MESA_FT)))
+    try:
+        adv = Advisor(sea_table, zoneset(mesa("highmesa", 90)),
+                      level_tables=lambda table, ground_m: mgr)
+        assert adv.level_table_notes == ""
+        mgr.verify_note = "rebuilt table short of its budgets against direct tracing: x"
+        assert adv.level_table_notes == ("zones on 6,000-ft ground: rebuilt table short of "
+                                         "its budgets against direct tracing: x")
+    finally:
+        mgr.close()

@@ -124,6 +124,19 @@ class Advisor(GroundAdvisor):
             if submit is not None:
                 submit(atm)
 
+    @property
+    def level_table_notes(self) -> str:
+        """What the verification of the levels' rebuilt tables found short of the budgets,
+        each with its ground ('' when every level's table holds them or none was rebuilt;
+        :func:`advisory.tables.manager.verify_note`)."""
+        notes = []
+        for lv in self.levels:
+            note = getattr(lv._tables, "verify_note", "") or ""
+            if note:
+                ground = units.m_to_ft(lv.table.grid.ground_elevation_m)
+                notes.append(f"zones on {ground:,.0f}-ft ground: {note}")
+        return "; ".join(notes)
+
     def close(self) -> None:
         """Stop the levels' table managers (rebuild processes, temporary files)."""
         for lv in self.levels:

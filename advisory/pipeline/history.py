@@ -14,7 +14,7 @@ trajectory ahead (:func:`join_past`).
 
 Resolution trials fly the trajectory ahead again with a turn that rolls out after a
 heading change (:func:`turned_trajectory`). Backward flight and trials run the
-trajectory kernel (:func:`advisory.pipeline.trajectory.propagate_kernel`; its physics
+trajectory kernel (:func:`advisory.pipeline.propagate.propagate_kernel`; its physics
 and sources are in :mod:`advisory.pipeline.trajectory`); :func:`kernel_inputs` builds its
 inputs from a trajectory's start state. The flown history needs no kernel of its own:
 placing and focus are the footprint kernels (:mod:`advisory.pipeline.footprint`) on the
@@ -31,7 +31,8 @@ import numpy as np
 
 from advisory import units
 from advisory.geo.frame import LocalFrame
-from advisory.pipeline.trajectory import Trajectory, propagate_kernel
+from advisory.pipeline.propagate import propagate_kernel
+from advisory.pipeline.trajectory import Trajectory
 from advisory.schema import EARTH_MEAN_RADIUS_M
 from advisory.tables.lookup import N_QUANTITIES, NO_BOOM, Q_TIME
 

@@ -20,7 +20,7 @@ and the flight-path angle is held. The integration takes sub-steps of at most
 :data:`SUBSTEP_S` between the emission times while the bank changes or a roll-out is
 awaited (one step per interval otherwise) (trapezoidal heading, position along the
 step's mid heading plus the wind, corrected for the frame's map scale as
-:func:`advisory.pipeline.trajectory.propagate_kernel` does).
+:func:`advisory.pipeline.propagate.propagate_kernel` does).
 
 :func:`trial_clears_kernel` flies a trial, looks the emissions after the onset up in the
 table (a lookup is reused while altitude, Mach and heading stay the same), places them on
@@ -41,7 +41,7 @@ import numpy as np
 from advisory.jit import njit
 from advisory.pipeline.conflicts import conflict_kernel
 from advisory.pipeline.footprint import focus_kernel, place_kernel, steady_translation_kernel
-from advisory.pipeline.trajectory import ground_to_plane
+from advisory.pipeline.propagate import ground_to_plane
 from advisory.tables import lookup as lk
 from advisory.tables.lift import lift_correction_kernel, lift_scale_kernel
 

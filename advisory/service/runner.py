@@ -194,9 +194,11 @@ class AdvisoryService:
         self.event("profile_rejected", reason=err)
 
     def _check_table(self) -> None:
-        """A rebuilt table in force that verified short of its budgets: the status says
-        ``degraded`` with the figures (ICD 17.2); an event when that changes."""
-        note = getattr(self.table_manager, "verify_note", "") or ""
+        """A rebuilt table in force that verified short of its budgets (the base table's,
+        else a higher ground level's): the status says ``degraded`` with the figures (ICD
+        17.2); an event when that changes."""
+        note = (getattr(self.table_manager, "verify_note", "") or ""
+                or getattr(self.loop.advisor, "level_table_notes", "") or "")
         health = self.loop.health
         if note != health.table_note:
             health.table_note = note

@@ -16,7 +16,7 @@ def _cumtrapz(y: np.ndarray, dt: np.ndarray) -> np.ndarray:
 
 def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.ndarray
                  ) -> np.ndarray:
-    """numpy twin of :func:`advisory.pipeline.trajectory.propagate_kernel` (same arguments
+    """numpy twin of :func:`advisory.pipeline.propagate.propagate_kernel` (same arguments
     and result)."""
     h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params[:12]
     dt = np.diff(t)

@@ -205,13 +205,18 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
         return
     scratch = np.zeros((ray_age.shape[4], 1))
     ages = np.zeros((nk, ns, 1))
+    last_alt = math.nan
+    last_mach = math.nan
+    last_hdg = math.nan
     for kk in range(nk):
         k = k_lo + kk
         if codes[kk] == lk.NO_BOOM or banks[kk] == 0.0:
             continue
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
-        lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                         cutoff, ray_age, scratch)
+        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
+            lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex, ax_fpa, ax_hdg,
+                             cutoff, ray_age, scratch)
+            last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
         for s in range(ns):
             ages[kk, s, 0] = scratch[strips[s], 0]
     scale = np.empty(nk)

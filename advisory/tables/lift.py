@@ -147,23 +147,40 @@ def lift_correction_kernel(rows, ages, codes, lift, bank, fpa, scale, lift_map, 
         Emissions corrected.
     """
     corrected = 0
+    nj = rows.shape[1]
+    fac = np.ones(nj)  # the factors of the emission before (reused when its inputs repeat)
+    have = False
     for k in range(rows.shape[0]):
         if codes[k] == lk.NO_BOOM:
+            have = False
             continue
-        cg = math.cos(fpa[k])
+        same = have and lift[k] == lift[k - 1] and bank[k] == bank[k - 1] \
+            and fpa[k] == fpa[k - 1] and scale[k] == scale[k - 1]
+        if same:
+            for j in range(nj):
+                if ages[k, j, 0] != ages[k - 1, j, 0] or \
+                        rows[k, j, lk.Q_PHI] != rows[k - 1, j, lk.Q_PHI]:
+                    same = False
+                    break
+        if not same:
+            cg = math.cos(fpa[k])
+            for j in range(nj):
+                fac[j] = 1.0
+                phi = rows[k, j, lk.Q_PHI]
+                l0 = cg * math.cos(phi)
+                ell = lift[k] * math.cos(phi + bank[k])
+                if abs(ell - l0) <= STEADY_LIFT_TOL:
+                    continue
+                a = ages[k, j, 0]
+                p0 = map_value(lift_map, params, a, scale[k] * l0)
+                if p0 > 0.0:
+                    fac[j] = map_value(lift_map, params, a, scale[k] * ell) / p0
+            have = True
         touched = False
-        for j in range(rows.shape[1]):
-            phi = rows[k, j, lk.Q_PHI]
-            l0 = cg * math.cos(phi)
-            ell = lift[k] * math.cos(phi + bank[k])
-            if abs(ell - l0) <= STEADY_LIFT_TOL:
-                continue
-            a = ages[k, j, 0]
-            p0 = map_value(lift_map, params, a, scale[k] * l0)
-            if not p0 > 0.0:
-                continue
-            rows[k, j, lk.Q_DP] *= map_value(lift_map, params, a, scale[k] * ell) / p0
-            touched = True
+        for j in range(nj):
+            if fac[j] != 1.0:
+                rows[k, j, lk.Q_DP] *= fac[j]
+                touched = True
         if touched:
             corrected += 1
     return corrected

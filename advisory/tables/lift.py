@@ -26,10 +26,10 @@ the rows) and the map ``P(a, B) sqrt(a)`` of the aircraft on a grid (``lift_map`
 in ``a``). The map's axes: ``ln a`` evenly spaced, ``asinh(B / B_s)`` evenly spaced (about
 constant relative resolution in ``B``, ``B_s`` a quarter of the smallest steady lift area
 of the table's altitudes), lift ``l`` in :data:`LIFT_RANGE` at every altitude and Mach of
-the table. Bilinear interpolation; the map's resolution keeps the kink of ``P`` (where the
-lift's shock overtakes the volume's bow shock) within about 0.5 % (``tests/test_bank_lift.py``
-compares with the equal-area rule evaluated directly). Outside the map the nearest edge
-is used. The duration is not corrected (the tail shock moves a little with the lift).
+the table. Bilinear interpolation; against the equal-area rule evaluated directly at 300
+random points of the map: median 0.002 %, at most 0.3 % (near the kink of ``P``, where the
+lift's shock overtakes the volume's bow shock; ``tests/test_bank_lift.py``). Outside the
+map the nearest edge is used. The duration is not corrected (the tail shock moves a little with the lift).
 """
 
 from __future__ import annotations

@@ -29,7 +29,8 @@ of the table's altitudes), lift ``l`` in :data:`LIFT_RANGE` at every altitude an
 the table. Bilinear interpolation; against the equal-area rule evaluated directly at 300
 random points of the map: median 0.002 %, at most 0.3 % (near the kink of ``P``, where the
 lift's shock overtakes the volume's bow shock; ``tests/test_bank_lift.py``). Outside the
-map the nearest edge is used. The duration is not corrected (the tail shock moves a little with the lift).
+map the nearest edge is used. The duration is not corrected (the tail shock moves a little
+with the lift).
 """
 
 from __future__ import annotations

@@ -191,26 +191,11 @@ def lift_correction_kernel(rows, ages, codes, lift, bank, fpa, scale, lift_map, 
 def lift_scale_kernel(alt, mach, z, ln_p, weight_n, out):
     """``out[k] = beta W / (gamma p(alt[k]) M^2)`` (m^2), ``p`` interpolated in ``ln p``
     over the levels ``z`` (ascending, m); 0 where the Mach is not supersonic."""
-    n = z.size
     for k in range(alt.size):
         m = mach[k]
         if not m > 1.0:
             out[k] = 0.0
             continue
-        h = alt[k]
-        if h <= z[0]:
-            lp = ln_p[0]
-        elif h >= z[n - 1]:
-            lp = ln_p[n - 1]
-        else:
-            lo = 0
-            hi = n - 1
-            while hi - lo > 1:
-                mid = (lo + hi) >> 1
-                if z[mid] <= h:
-                    lo = mid
-                else:
-                    hi = mid
-            w = (h - z[lo]) / (z[hi] - z[lo])
-            lp = ln_p[lo] * (1.0 - w) + ln_p[hi] * w
+        i, w, _ = lk._locate(z, alt[k])  # the edge level beyond the levels
+        lp = ln_p[i] * (1.0 - w) + ln_p[i + 1] * w
         out[k] = math.sqrt(m * m - 1.0) * weight_n / (GAMMA * math.exp(lp) * m * m)

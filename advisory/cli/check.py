@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import math
 from pathlib import Path
@@ -17,6 +18,15 @@ from advisory.cli.options import (
     add_table_option,
     add_zones_option,
 )
+from advisory.cli.spread_options import (
+    add_spread_options,
+    cutoff_sigma_direct,
+    spread_fields,
+    spread_lines,
+    spread_model,
+)
+from advisory.physics.aircraft import aircraft_from_dict
+from advisory.physics.spread import SpreadModel
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import load_config
 from advisory.pipeline.ground_levels import ground_level_m
@@ -68,6 +78,7 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
     add_table_option(p)
     add_config_option(p)
     add_json_option(p)
+    add_spread_options(p)
     p.set_defaults(func=run)
 
 
@@ -88,17 +99,43 @@ def run(args: argparse.Namespace) -> int:
         table = BoomTable.load(args.table)
     else:
         table = default_table(args.aircraft)
+    model = spread_model(args, table.grid.ground_elevation_m)
+    config = dataclasses.replace(config, confidence=float(args.confidence), **{
+        k: v for k, v in (("surface_temp_sigma_c", args.surface_temp_sigma_c),
+                          ("wind_sigma_kt", args.wind_sigma_kt)) if v is not None})
     advisor = Advisor(table, zones, config)
     adv = advisor.step(state, now_monotonic=0.0)
     grounds = judged_grounds_ft(advisor, zones)
+    extra = confidence_fields(args, model, advisor, adv)
     if args.json:
         record = adv.to_record()
         for c, rec in zip(adv.conflicts, record["conflicts"], strict=True):
             rec["ground_ft"] = grounds[c.zone_index]  # the ground it was judged on
+        record.update(extra)
         print(json.dumps(record, indent=2))
     else:
-        print(advisory_text(adv, state, grounds))
+        text = advisory_text(adv, state, grounds).split("\n")
+        print("\n".join(text[:-1] + (spread_lines(extra) if extra else []) + text[-1:]))
     return 0
+
+
+def confidence_fields(args: argparse.Namespace, model: SpreadModel, advisor: Advisor,
+                      adv: Advisory) -> dict[str, Any]:
+    """The intervals at the present state (:mod:`advisory.cli.spread_options`); empty
+    when the advisory is unavailable or the flight subsonic."""
+    now = advisor.present_condition
+    if adv.status == "unavailable" or now is None or adv.cutoff_mach is None:
+        return {}
+    alt, mach, hdg, fpa = now
+    table = advisor.table
+    atm = table.atmosphere()
+    ground = table.grid.ground_elevation_m
+    st = table.spread
+    sigma = (st.cutoff_sigma(model.covariance(alt), alt, fpa, hdg) if st is not None else
+             cutoff_sigma_direct(atm, model, alt, hdg, fpa, ground))
+    return spread_fields(args, model, atm, aircraft_from_dict(table.header["aircraft"], "table"),
+                         float(table.header["reflection_factor"]), alt, mach, hdg, fpa,
+                         ground, adv.cutoff_mach, sigma)
 
 
 def judged_grounds_ft(advisor: Advisor, zones: ZoneSet) -> list[float]:

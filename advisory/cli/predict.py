@@ -11,7 +11,14 @@ import math
 from typing import Any
 
 from advisory import units
-from advisory.bench.steady_carpet import PredictInputs, PredictResult, predict
+from advisory.bench.steady_carpet import (
+    PredictInputs,
+    PredictResult,
+    flight_condition,
+    make_aircraft,
+    make_atmosphere,
+    predict,
+)
 from advisory.cli.options import (
     UsageError,
     add_aircraft_option,
@@ -19,7 +26,17 @@ from advisory.cli.options import (
     add_table_option,
     finite,
 )
+from advisory.cli.spread_options import (
+    add_spread_options,
+    cutoff_sigma_direct,
+    spread_fields,
+    spread_lines,
+    spread_model,
+)
+from advisory.physics.aircraft import aircraft_from_dict
+from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 from advisory.schema import SAFETY_CAUTION
+from advisory.tables.table import BoomTable
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -51,15 +68,51 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                         "is not in this one-condition answer; the advisor has it)")
     add_table_option(p, "answer from a precomputed table instead of direct tracing")
     add_json_option(p)
+    add_spread_options(p)
     p.set_defaults(func=run)
 
 
 def run(args: argparse.Namespace) -> int:
     """``predict``: print the prediction; exit 0 (bad input raises :class:`UsageError`)."""
 
-    result = predict(inputs_from_args(args))
-    print(to_json(result) if args.json else summary_text(result))
+    inputs = inputs_from_args(args)
+    model = spread_model(args, units.ft_to_m(inputs.ground_elevation_ft))
+    result = predict(inputs)
+    extra = confidence_fields(args, model, inputs, result)
+    if args.json:
+        fields = result_fields(result)
+        fields.update(extra)
+        print(json.dumps(fields, indent=2))
+    else:
+        text = summary_text(result).split("\n")
+        print("\n".join(text[:-1] + spread_lines(extra) + text[-1:]))
     return 0
+
+
+def confidence_fields(args: argparse.Namespace, model, inputs: PredictInputs,
+                      res: PredictResult) -> dict[str, Any]:
+    """The intervals at the predicted condition (:mod:`advisory.cli.spread_options`): the
+    cutoff's sigma from the table's sensitivity columns when it has them, else from
+    derivatives computed for the condition; the rest sampled."""
+    fc = flight_condition(inputs)
+    if inputs.table_file:
+        table = BoomTable.load(inputs.table_file)
+        atm = table.atmosphere()
+        aircraft = aircraft_from_dict(table.header["aircraft"], "table header")
+        reflection = float(table.header["reflection_factor"])
+        st = table.spread
+        sigma = (st.cutoff_sigma(model.covariance(fc.altitude_m), fc.altitude_m, fc.fpa_rad,
+                                 fc.heading_rad) if st is not None else
+                 cutoff_sigma_direct(atm, model, fc.altitude_m, fc.heading_rad, fc.fpa_rad,
+                                     fc.ground_elevation_m))
+    else:
+        atm, aircraft = make_atmosphere(inputs), make_aircraft(inputs)
+        reflection = DEFAULT_REFLECTION_FACTOR
+        sigma = cutoff_sigma_direct(atm, model, fc.altitude_m, fc.heading_rad, fc.fpa_rad,
+                                    fc.ground_elevation_m)
+    return spread_fields(args, model, atm, aircraft, reflection, fc.altitude_m, fc.mach,
+                         fc.heading_rad, fc.fpa_rad, fc.ground_elevation_m,
+                         res.carpet.cutoff_mach, sigma)
 
 
 def inputs_from_args(args: argparse.Namespace) -> PredictInputs:

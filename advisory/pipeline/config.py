@@ -22,8 +22,18 @@ operators tune them in a config file::
     release_s = 8           # ... and the lower level has held this long
     warning_hold_s = 20     # a warning is held until clear for this long
 
+    [confidence]            # issue 16: the air below is never known exactly
+    confidence = 0.95       # the advisor reads every cutoff Mach at this one-sided
+                            # confidence's low edge (cutoff less z sigma, sigma from the
+                            # table's sensitivity columns and the spread below); 0: off
+    surface_temp_sigma_c = 2.0  # spread: surface temperature error, K
+    wind_sigma_kt = -1      # spread: wind error per component at every height, kt
+                            # (< 0: the default profile by height, 4-8 kt)
+
     [resolution]
-    cutoff_margin_mach = 0.02   # "Mach to stay under" is cutoff minus this
+    cutoff_margin_mach = 0.02   # "Mach to stay under" is cutoff minus this, for a table
+                                # without sensitivity columns or confidence 0; otherwise
+                                # the margin is z sigma (see [confidence])
     turn_bank_deg = 25          # bank assumed for the resolution turn
     max_turn_deg = 90           # largest heading change searched
     turn_step_deg = 5           # resolution of the heading-change answer
@@ -90,6 +100,9 @@ class AdvisorConfig:
     stale_after_s: float = STALE_AFTER_S
     strips: int = 6
     reproject_km: float = 150.0
+    confidence: float = 0.95
+    surface_temp_sigma_c: float = 2.0
+    wind_sigma_kt: float = -1.0
 
     def validate(self) -> None:
         """Raise :class:`ConfigError` naming the first bad value."""
@@ -105,6 +118,8 @@ class AdvisorConfig:
             "caution_act_s": (1.0, 1800.0), "warning_act_s": (1.0, 1800.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
+            "confidence": (0.0, 0.999), "surface_temp_sigma_c": (0.0, 20.0),
+            "wind_sigma_kt": (-1.0, 100.0),
         }
         for f in fields(self):
             v = getattr(self, f.name)
@@ -114,6 +129,9 @@ class AdvisorConfig:
             if not isinstance(v, (int, float)) or isinstance(v, bool) or not math.isfinite(v) \
                     or not (lo <= v <= hi):
                 raise ConfigError(f"advisor config: {f.name} = {v!r} is outside [{lo}, {hi}]")
+        if 0.0 < self.confidence < 0.5:
+            raise ConfigError(f"advisor config: confidence = {self.confidence!r} must be 0 "
+                              "(off) or from 0.5 to 0.999")
         if self.warning_lead_s > self.caution_lead_s:
             raise ConfigError("advisor config: warning_lead_s must not exceed caution_lead_s")
         if self.warning_act_s > self.caution_act_s:
@@ -129,6 +147,7 @@ _SECTIONS = {
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
                    "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s",
                    "limit_fraction"),
+    "confidence": ("confidence", "surface_temp_sigma_c", "wind_sigma_kt"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),
 }

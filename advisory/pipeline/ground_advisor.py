@@ -47,6 +47,12 @@ import numpy as np
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.airdata import AirDataState, state_problem
+from advisory.pipeline.confidence import (
+    boom_probability,
+    confident_table,
+    spread_from_config,
+    z_one_sided,
+)
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
@@ -173,17 +179,32 @@ class GroundAdvisor:
             np.ndarray]:
         """The table with its footprint predictor, atmosphere, speed of sound and strips."""
         atm = table.atmosphere()
+        # every lookup reads the cutoff at the configured confidence (issue 16)
+        view, sig = confident_table(table, spread_from_config(
+            self.config, table.grid.ground_elevation_m), self.config.confidence)
+        #: True when the lookups read the cutoff at the confidence's edge (no fixed margin)
+        self._confident = sig is not None
         #: the fallback past's lookups (own buffers: its length differs from the ahead's)
-        self._fallback_lookup = FootprintPredictor(table)
+        self._fallback_lookup = FootprintPredictor(view)
         #: pressure altitude -> geometric height through the table's profile
         self._heights = HeightConverter(atm)
-        return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
+        return (table, FootprintPredictor(view), atm, _speed_of_sound_fn(atm),
                 strip_indices(table.eta.size, self.config.strips))
 
     @property
     def table(self) -> BoomTable:
         """The live table (the table manager's present one)."""
         return self._current_table()
+
+    @property
+    def present_condition(self) -> tuple[float, float, float, float] | None:
+        """(geometric height m, Mach, true heading rad, flight-path angle rad) of the last
+        state stepped on; None before one."""
+        a = self._ahead
+        if a is None:
+            return None
+        return (float(a.alt_m[0]), float(a.mach[0]), float(a.heading_rad[0]),
+                float(a.fpa_rad[0]))
 
     @property
     def tables_stale(self) -> bool:
@@ -394,12 +415,13 @@ class GroundAdvisor:
                                                   cfg.focus_threshold, cfg.reaction_s)
         first = later[0] if later else None
         fixed = self._hold_on_way(fixed, now)
-        cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
-        res, act_by = self._resolution(pz, ahead, cut_now, first, now)
+        cut_low = float(pred.cutoff_mach[now_k])  # its table lookup, already done
+        res, act_by = self._resolution(pz, ahead, cut_low, first, now)
         # an avoidable contact with nothing that clears is a warning (act-by 0)
         level = self._levels.update(
             None if first is None else (0.0 if act_by is None else act_by), now)
-        max_mach = max_mach_off_ground(cut_now, cfg.cutoff_margin_mach)
+        max_mach = max_mach_off_ground(cut_low, self._margin())
+        cut_now, sigma, p_reach = self._nominal_cutoff(ahead, cut_low)
         reaches_now = bool(pred.on_ground[now_k])
         near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
         if fixed:
@@ -413,7 +435,8 @@ class GroundAdvisor:
             return Advisory(status, max_mach_off_ground=max_mach, reaches_ground=reaches_now,
                             cutoff_mach=cut_now, tables_stale=self.tables_stale,
                             utc_s=s.utc_s, zone_id=self._held_zone,
-                            zone_name=self._held_name, near_cutoff=near)
+                            zone_name=self._held_name, near_cutoff=near,
+                            cutoff_sigma=sigma, boom_probability=p_reach)
         named = fixed[0] if fixed else first
         held = first or named  # a held level names the zone last in conflict
         self._held_zone = held.zone_id if held else None
@@ -437,7 +460,25 @@ class GroundAdvisor:
             else (hdg - r.turn_left_deg) % 360.0,
             turn_right_hdg_deg=None if r.turn_right_deg is None
             else (hdg + r.turn_right_deg) % 360.0, near_cutoff=near,
+            cutoff_sigma=sigma, boom_probability=p_reach,
         )
+
+    def _margin(self) -> float:
+        """Mach margin under the cutoff read by the lookups: none when they read it at the
+        confidence's edge, else the configured fixed one."""
+        return 0.0 if self._confident else self.config.cutoff_margin_mach
+
+    def _nominal_cutoff(self, ahead: Trajectory, cut_low: float
+                        ) -> tuple[float, float | None, float | None]:
+        """The present cutoff Mach as tabulated, its standard deviation and the probability
+        that the present boom reaches the ground (``cut_low``: the lookups' cutoff, lowered
+        by z sigma when confident)."""
+        if not self._confident:
+            return cut_low, None, None
+        hdg = float(ahead.heading_rad[0]) if self._table.has_wind else 0.0
+        nominal = self._table.cutoff_mach(float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), hdg)
+        sigma = max(nominal - cut_low, 0.0) / z_one_sided(self.config.confidence)
+        return nominal, sigma, boom_probability(float(ahead.mach[0]), nominal, sigma)
 
     def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:
         """The booms on their way into a zone, held: a boom found in the air toward a zone
@@ -474,7 +515,8 @@ class GroundAdvisor:
         """The trials' common part: this ground, and every other ground level's zones in
         the same projection (an offered action keeps the booms off all of them)."""
         others = self.other_grounds(self._whole) if self._whole is not None else []
-        return TrialBase(self.config, self._predictor, self._strips, pz, ahead, others)
+        return TrialBase(self.config, self._predictor, self._strips, pz, ahead, others,
+                         margin_mach=self._margin())
 
     def _resolution(self, pz: ProjectedZones, ahead: Trajectory, cut_now: float,
                     first: Conflict | None, now: float) -> tuple[Resolution | None,

@@ -16,7 +16,9 @@ limit itself), so an offered resolution does not sit on the limit.
   not offered. Booms emitted just above cutoff travel far ahead (and focus), so these
   trials also emit where the deceleration passes cutoff plus small excesses
   (:data:`NEAR_CUTOFF_EXCESS`), not only every ``step_s``. The lowest candidate is the
-  present cutoff Mach less ``cutoff_margin_mach`` (rounded down to 0.01: every boom
+  present cutoff Mach less the margin (none when the table's cutoff is read at the
+  configured confidence, :mod:`advisory.pipeline.confidence`; else the fixed
+  ``cutoff_margin_mach``), rounded down to 0.01 (every boom
   after it stays off the ground), the lowest cutoff over every ground level with zones
   (higher ground is reached at a lower Mach; every trial is judged on every level's
   zones, :class:`OtherGround`); when it clears, the largest clearing target between
@@ -118,8 +120,11 @@ class TrialBase:
 
     def __init__(self, cfg: AdvisorConfig, predictor: FootprintPredictor,
                  strips: np.ndarray, pz: ProjectedZones, ahead: Trajectory,
-                 others: Sequence[OtherGround] = ()) -> None:
+                 others: Sequence[OtherGround] = (), margin_mach: float | None = None) -> None:
         self.cfg = cfg
+        #: Mach margin under the cutoff for the lowest Mach tried: the configured fixed one,
+        #: or 0 when the table's cutoff is read at the confidence's edge (issue 16).
+        self.margin_mach = cfg.cutoff_margin_mach if margin_mach is None else margin_mach
         self.table = predictor.table
         self.focus_cap = predictor.focus_cap
         self.strips = np.ascontiguousarray(strips, dtype=np.int64)
@@ -336,7 +341,7 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
         yield
         return ok
 
-    lo = max_mach_off_ground(base.lowest_cutoff(cutoff_now), cfg.cutoff_margin_mach)
+    lo = max_mach_off_ground(base.lowest_cutoff(cutoff_now), base.margin_mach)
     hi = math.floor(base.mach0 / MACH_GRID + 1e-9) * MACH_GRID
     lo = min(lo, hi)
     base.stretch(lo)

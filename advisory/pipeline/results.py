@@ -80,6 +80,12 @@ class Advisory:
     combined : bool
         Neither Mach nor a turn clears alone: the offered resolution is
         ``resolve_mach`` and the turn together.
+    cutoff_sigma : float or None
+        Standard deviation of the present cutoff Mach from the spread of the air below
+        (:mod:`advisory.pipeline.confidence`); None without sensitivity columns.
+    boom_probability : float or None
+        Probability that the present boom reaches the ground, ``Phi((M - cutoff) /
+        sigma)``; None without ``cutoff_sigma``.
     near_cutoff : bool
         The present Mach lies within :data:`advisory.tables.lookup.NEAR_CUTOFF_BAND` of
         the cutoff Mach: whether and where the boom reaches the ground is uncertain (ray
@@ -107,6 +113,8 @@ class Advisory:
     turn_right_hdg_deg: float | None = None
     combined: bool = False
     near_cutoff: bool = False
+    cutoff_sigma: float | None = None
+    boom_probability: float | None = None
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -150,6 +158,10 @@ class Advisory:
             "zone_name": self.zone_name,
             "reaches_ground": self.reaches_ground,
             "cutoff_mach": None if self.cutoff_mach is None else round(self.cutoff_mach, 4),
+            "cutoff_mach_sigma": None if self.cutoff_sigma is None
+            else round(self.cutoff_sigma, 5),
+            "boom_probability": None if self.boom_probability is None
+            else round(self.boom_probability, 4),
             "reason": self.reason,
             "utc_s": self.utc_s,
             "conflicts": [

@@ -33,6 +33,7 @@ from advisory.schema import VERSION
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
 from advisory.tables.lift import build_lift_map
+from advisory.tables.spread_table import build_spread_arrays
 from advisory.tables.store import atmosphere_arrays
 
 
@@ -260,6 +261,7 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
     p_hi = float(inputs.atmosphere.at(alts[0]).pressure_pa)
     lift_map, params = build_lift_map(inputs.aircraft, ages, p_lo, p_hi)
     arrays.update({"ray_age": ages, "lift_map": lift_map, "lift_map_params": params})
+    arrays.update(build_spread_arrays(inputs.atmosphere, inputs.grid, workers))
     return arrays
 
 

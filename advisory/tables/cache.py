@@ -53,8 +53,9 @@ def cache_dir() -> Path:
 #: table built by an earlier builder is built again (2: the carpet edge converged to
 #: 1e-12 rad of the lateral cutoff azimuth, issue 14; 3: an ISA + dT day's pressure from
 #: the hydrostatic equation, issue 14; 4: each ray's age and the lift map, so bank and load
-#: factor reach the overpressure, issue 14).
-BUILDER_REVISION = 4
+#: factor reach the overpressure, issue 14; 5: the cutoff Mach's sensitivities to the air
+#: below, issue 16).
+BUILDER_REVISION = 5
 
 
 def table_key(inputs: BuildInputs) -> str:

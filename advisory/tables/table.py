@@ -13,9 +13,11 @@ from advisory import units
 from advisory.physics.aircraft import AircraftError, aircraft_from_dict
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.atmosphere_merge import rebuild_atmosphere
+from advisory.physics.spread import N_VARIABLES, NODES_M
 from advisory.tables import lookup as lk
 from advisory.tables.grid import GridError, TableGrid
 from advisory.tables.lift import N_MAP_PARAMS, lift_correction_kernel, lift_scale_kernel
+from advisory.tables.spread_table import SPREAD_ARRAYS, SpreadTable
 from advisory.tables.store import (
     ATMOSPHERE_FIELDS,
     TableFileError,
@@ -93,6 +95,10 @@ class BoomTable:
         #: The longest travel time of any tabulated ray, s (0 for an empty table).
         self.max_travel_time_s = float(q.max()) if q.size else 0.0
         self._lift_arrays(arrays)
+        #: Cutoff-Mach sensitivities to the air below (:mod:`advisory.tables.spread_table`);
+        #: None for a table built before them.
+        self.spread: SpreadTable | None = (SpreadTable(arrays) if "cutoff_sens" in arrays
+                                           else None)
         self.loaded_monotonic = time.monotonic()
         #: The file the table was loaded from (None for a table built in memory).
         self.path: str | None = None
@@ -241,6 +247,11 @@ class BoomTable:
             if self.has_lift_map else
             "lift map: none (a table from an earlier builder): the overpressure keeps the "
             "lift of steady, wings-level flight",
+            f"cutoff sensitivities: {self.spread.sens.shape[0]} altitudes x "
+            f"{self.spread.sens.shape[1]} flight-path angles x {self.spread.sens.shape[2]} "
+            "headings (confidence on the cutoff Mach)" if self.spread is not None else
+            "cutoff sensitivities: none (a table from an earlier builder): the Mach "
+            "resolution keeps the fixed margin",
         ]
         return lines
 
@@ -273,7 +284,9 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
       when absent, the header's atmosphere description must rebuild an atmosphere;
     * the lift map (:data:`LIFT_ARRAYS`), when present: all three, ``ray_age`` shaped like
       the rays and >= 0, ``lift_map`` two-dimensional and >= 0, its parameters with
-      ascending ranges and a positive area scale and weight.
+      ascending ranges and a positive area scale and weight;
+    * the cutoff sensitivities (:data:`SPREAD_ARRAYS`), when present: see
+      :func:`_check_spread`.
 
     Raises
     ------
@@ -324,7 +337,32 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
             raise TableFileError(f"array cells: {what} (quantity {q}) outside [{lo:g}, {hi:g}]")
     _check_atmosphere(arrays, header["atmosphere"])
     _check_lift_map(arrays, (n_alt, n_mex, n_fpa, n_hdg, n_eta))
+    _check_spread(arrays)
     return grid
+
+
+def _check_spread(arrays: dict[str, np.ndarray]) -> None:
+    """The cutoff sensitivities (:data:`SPREAD_ARRAYS`): all or none; axes ascending and
+    finite, headings in [0, 2 pi), the error field's nodes this version's, derivatives
+    finite and within +-1 per K or m/s."""
+    present = [k for k in SPREAD_ARRAYS if k in arrays]
+    if not present:
+        return
+    if len(present) != len(SPREAD_ARRAYS):
+        absent = sorted(set(SPREAD_ARRAYS) - set(present))
+        raise TableFileError(f"cutoff sensitivities: arrays {absent} missing beside "
+                             f"{present}")
+    n = [_axis(arrays, f"cutoff_sens_axis_{k}", 1) for k in ("altitude_m", "fpa_rad",
+                                                             "heading_rad")]
+    hdg = arrays["cutoff_sens_axis_heading_rad"]
+    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
+        raise TableFileError("array cutoff_sens_axis_heading_rad: nodes must lie in "
+                             "[0, 2 pi) rad")
+    nodes = arrays["cutoff_sens_nodes_m"]
+    if nodes.shape != NODES_M.shape or not np.array_equal(nodes, NODES_M):
+        raise TableFileError("array cutoff_sens_nodes_m: not this version's error-field "
+                             "nodes (build the table again)")
+    _values(arrays, "cutoff_sens", (*n, N_VARIABLES * NODES_M.size), -1.0, 1.0)
 
 
 #: The arrays of the lift map (:mod:`advisory.tables.lift`): all or none (a table built

@@ -186,3 +186,16 @@ def test_bad_spread_options_get_one_line_and_exit_2(capsys, argv, word):
     assert code == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and word in err[0]
+
+
+def test_the_advisory_frame_carries_the_probability_only_when_known(small_table):
+    # ICD section 5 key 17 (issue 16), a compatible optional key under section 7
+    from advisory.io.messages import decode_frame, encode_adv
+    base = {"status": "clear", "cue": "BOOM ON GROUND, ZONES CLEAR"}
+    assert encode_adv(dict(base, boom_probability=None), 1, 0.0) == encode_adv(base, 1, 0.0)
+    f = decode_frame(encode_adv(dict(base, boom_probability=0.37), 1, 0.0))
+    assert f.fields["boom_probability"] == 0.37
+    assert decode_frame(encode_adv(base, 1, 0.0)).fields["boom_probability"] is None
+    a = Advisor(small_table, zoneset(square("far", *point_along(400e3)))).step(
+        state(mach=1.6), now_monotonic=0.0)
+    assert a.to_fields()["boom_probability"] == 1.0  # far above cutoff

@@ -43,7 +43,9 @@ M1.14 and warns 1.0 s sooner (10 of 1,501 frames change status; overpressure and
 status, 85 differ); ``demo/crosswind_day`` offers M1.18 for M1.20, cautions 1.4 s sooner
 and says "unavoidable" from 89.9 s for 83.5 s (the wider carpet's far edge, where the town
 lies, is reached by rays arriving later; 92 of 1,000 change status, all differ in the time
-to contact); ``demo/below_cutoff`` and ``demo/dropouts_and_garbage`` unchanged.
+to contact); ``demo/below_cutoff`` and ``demo/dropouts_and_garbage`` unchanged. Then all
+five demo flights for the advisory frame's key 17, ``boom_probability`` (their tables have
+sensitivity columns, so every frame carries it; no other field changed).
 """
 
 from __future__ import annotations

@@ -44,6 +44,7 @@ from advisory.schema import (
     ADV_FIELDS,
     ADV_FLAGS,
     ADV_FORMAT_VERSION,
+    ADV_SENT_WHEN_KNOWN,
     ADV_SENT_WHEN_TRUE,
     ADV_STATUSES,
     AIR_FIELDS,
@@ -215,7 +216,8 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
     fields : dict
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
         ``focus``, ``tables_stale``, ``combined``, ``near_cutoff`` (bool, default False;
-        ``near_cutoff`` is sent only when true); ``cue`` (str,
+        ``near_cutoff`` is sent only when true); ``boom_probability`` (number, sent only
+        when not None); ``cue`` (str,
         default ``""``); the other :data:`ADV_FIELDS` are numbers or None.
     seq : int
         Sequence number, 0..2**32-1.
@@ -249,6 +251,9 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
         if name in ADV_SENT_WHEN_TRUE:
             if _flag(name, fields.get(name, False)):
                 m[name] = True
+        elif name in ADV_SENT_WHEN_KNOWN:
+            if fields.get(name) is not None:
+                m[name] = _num(name, fields[name])
         elif name in ADV_FLAGS:
             m[name] = _flag(name, fields.get(name, False))
         elif name == "cue":

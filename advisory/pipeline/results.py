@@ -149,6 +149,7 @@ class Advisory:
             "turn_right_hdg": _heading(self.turn_right_hdg_deg),
             "combined": bool(self.combined),
             "near_cutoff": bool(self.near_cutoff),  # issue 14: sent only when true
+            "boom_probability": r(self.boom_probability, 2),  # issue 16: when known
         }
 
     def to_record(self) -> dict:

@@ -219,6 +219,8 @@ static void cmd_dec(const uint8_t *p, size_t n)
         printf(" combined=%c", a->combined ? 'T' : 'F');
         if (a->near_cutoff)
             printf(" near_cutoff=T");
+        if (a->has_boom_probability)
+            print_opt("boom_probability", true, a->boom_probability);
         printf(" v=%u", f.version);
     } else {
         const boom_status *s = &f.u.status;

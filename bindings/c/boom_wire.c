@@ -732,6 +732,7 @@ enum {
     KEY_PITCH, KEY_LOAD,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
     KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB, KEY_NEAR,
+    KEY_PROB,
     KEY_STATE, KEY_REASON, KEY_COUNTERS,
     N_KEYS
 };
@@ -744,7 +745,7 @@ static const char *const key_names[N_KEYS] = {
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
     "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
-    "near_cutoff",
+    "near_cutoff", "boom_probability",
     "state", "reason", "counters",
 };
 
@@ -921,9 +922,11 @@ static int decode_adv(const keymap *km, boom_adv *a, unsigned version)
     if (km->pos[KEY_COMB] != NULL
         && (r = get_bool(km, KEY_COMB, &a->combined)) != BOOM_OK)
         return r; /* optional: absent means false */
-    if (km->pos[KEY_NEAR] == NULL)
-        return BOOM_OK; /* optional (issue 14, sent only when true): absent means false */
-    return get_bool(km, KEY_NEAR, &a->near_cutoff);
+    if (km->pos[KEY_NEAR] != NULL /* optional (issue 14, sent only when true) */
+        && (r = get_bool(km, KEY_NEAR, &a->near_cutoff)) != BOOM_OK)
+        return r;
+    OPT(KEY_PROB, boom_probability); /* optional (issue 16, sent only when known) */
+    return BOOM_OK;
 #undef REQ
 #undef OPT
 }

@@ -132,6 +132,8 @@ typedef struct {
     double turn_right_hdg; /* target heading of the right turn, deg true, 0..360 */
     bool combined;         /* the resolution is the Mach and the turn together */
     bool near_cutoff;      /* issue 14: Mach within the near-cutoff band (absent: false) */
+    bool has_boom_probability; /* issue 16: sent only when known */
+    double boom_probability;   /* probability the present boom reaches the ground, 0..1 */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;

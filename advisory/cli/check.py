@@ -133,9 +133,14 @@ def confidence_fields(args: argparse.Namespace, model: SpreadModel, advisor: Adv
     st = table.spread
     sigma = (st.cutoff_sigma(model.covariance(alt), alt, fpa, hdg) if st is not None else
              cutoff_sigma_direct(atm, model, alt, hdg, fpa, ground))
-    return spread_fields(args, model, atm, aircraft_from_dict(table.header["aircraft"], "table"),
-                         float(table.header["reflection_factor"]), alt, mach, hdg, fpa,
-                         ground, adv.cutoff_mach, sigma)
+    out = spread_fields(args, model, atm, aircraft_from_dict(table.header["aircraft"], "table"),
+                        float(table.header["reflection_factor"]), alt, mach, hdg, fpa,
+                        ground, adv.cutoff_mach, sigma)
+    if adv.zone_id is not None and adv.boom_probability is not None:
+        # the first zone in conflict: the boom of the emission touching it first
+        out["boom_probability"] = round(adv.boom_probability, 4)
+        out["boom_probability_of"] = f"the boom reaching zone {adv.zone_id}"
+    return out
 
 
 def judged_grounds_ft(advisor: Advisor, zones: ZoneSet) -> list[float]:

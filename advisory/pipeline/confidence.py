@@ -35,6 +35,7 @@ larger Mach excess; the lowest Mach kept off the ground needs no further margin 
 from __future__ import annotations
 
 import copy
+import dataclasses
 import math
 from dataclasses import dataclass
 from statistics import NormalDist
@@ -45,12 +46,14 @@ from advisory import units
 from advisory.physics.rays import RayTracer
 from advisory.physics.spread import N_VARIABLES, SpreadModel, default_spread, perturbed
 from advisory.pipeline.config import AdvisorConfig
+from advisory.pipeline.results import Conflict
 from advisory.tables.spread_table import edge_outputs
 from advisory.tables.table import BoomTable
 
 __all__ = ["DEFAULT_CONFIDENCE", "DEFAULT_SAMPLES", "CarpetSpread", "z_two_sided",
            "z_one_sided", "cutoff_interval", "boom_probability", "sample_carpet",
-           "spread_from_config", "node_sigmas", "confident_table"]
+           "spread_from_config", "node_sigmas", "confident_table", "nominal_cutoff",
+           "with_probability"]
 
 #: Default confidence of the intervals and of the advisor's margins (issue 16).
 DEFAULT_CONFIDENCE = 0.95
@@ -194,3 +197,30 @@ def confident_table(table: BoomTable, model: SpreadModel, confidence: float
     view = copy.copy(table)
     view.cutoff = np.ascontiguousarray(table.cutoff - z_one_sided(confidence) * sig)
     return view, sig
+
+
+def nominal_cutoff(table: BoomTable, traj, cut_low: float, k: int, confidence: float
+                   ) -> tuple[float, float, float]:
+    """At point ``k`` of a trajectory: the cutoff Mach as tabulated, its standard deviation
+    (from the lookups' cutoff ``cut_low``, lowered by ``z sigma`` by
+    :func:`confident_table`) and the probability that the boom emitted there reaches the
+    ground."""
+    hdg = float(traj.heading_rad[k]) if table.has_wind else 0.0
+    nominal = table.cutoff_mach(float(traj.alt_m[k]), float(traj.fpa_rad[k]), hdg)
+    sigma = max(nominal - cut_low, 0.0) / z_one_sided(confidence)
+    return nominal, sigma, boom_probability(float(traj.mach[k]), nominal, sigma)
+
+
+def with_probability(conflicts: list[Conflict], cutoffs: np.ndarray, traj,
+                     table: BoomTable, confidence: float) -> list[Conflict]:
+    """Each conflict with the probability that the boom touching it first reaches the
+    ground (``cutoffs``: the prediction's lowered cutoff per emission, indexed as
+    ``traj``)."""
+    out = []
+    for c in conflicts:
+        k = c.emission_index
+        if 0 <= k < cutoffs.size:
+            c = dataclasses.replace(c, probability=nominal_cutoff(
+                table, traj, float(cutoffs[k]), k, confidence)[2])
+        out.append(c)
+    return out

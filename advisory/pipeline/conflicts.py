@@ -68,14 +68,15 @@ def _find(pred: CarpetPrediction, on_ground: np.ndarray, eff: np.ndarray, start:
     best_t = np.full(n_zones, np.inf)
     best_dp = np.zeros(n_zones)
     best_focus = np.zeros(n_zones, dtype=np.bool_)
+    best_k = np.full(n_zones, -1, dtype=np.int64)
     conflict_kernel(
         pred.east_m[start:stop], pred.north_m[start:stop], pred.arrival_s[start:stop],
         eff[start:stop], pred.focus_factor[start:stop], ground, nodes,
         pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
         pz.chunk_edges, pz.chunk_bbox, pz.margin_m, pz.limit_pa, float(focus_threshold),
-        bool(first_only), best_t, best_dp, best_focus,
+        bool(first_only), best_t, best_dp, best_focus, best_k,
     )
-    return conflicts_from(zones, best_t, best_dp, best_focus)
+    return conflicts_from(zones, best_t, best_dp, best_focus, best_k + start)
 
 
 def prediction_part(pred: CarpetPrediction, start: int, stop: int) -> CarpetPrediction:
@@ -124,9 +125,11 @@ def split_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
 
 
 def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,
-                   best_focus: np.ndarray) -> list[Conflict]:
+                   best_focus: np.ndarray, best_k: np.ndarray | None = None
+                   ) -> list[Conflict]:
     """The zones with a finite first-contact time ``best_t`` (s), soonest first, with
-    their overpressure ``best_dp`` (Pa) and focus flag."""
+    their overpressure ``best_dp`` (Pa), focus flag and the index of the emission whose
+    boom touches first (``best_k``, -1 when not given)."""
     out: list[Conflict] = []
     if not np.isfinite(best_t).any():
         return out
@@ -135,7 +138,8 @@ def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,
             break
         zone = zones.zones[int(z)]
         out.append(Conflict(int(z), zone.id, zone.name or zone.id, float(best_t[z]),
-                            float(best_dp[z]), bool(best_focus[z])))
+                            float(best_dp[z]), bool(best_focus[z]),
+                            -1 if best_k is None else int(best_k[z])))
     return out
 
 
@@ -182,12 +186,14 @@ def _kernel_contact_time(e, n, arrival, k, start, j0, j1, margin, x, y, ring_sta
 @njit(cache=True)
 def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring_start,
                     part_start, zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox,
-                    margins, limits, focus_threshold, first_only, best_t, best_dp, best_focus):
+                    margins, limits, focus_threshold, first_only, best_t, best_dp, best_focus,
+                    best_k):
     """First contact of the carpet strips with each zone (see the module notes).
 
-    Writes ``best_t`` (s, inf for none), ``best_dp`` (Pa) and ``best_focus`` per zone:
-    the overpressure and focus flag are the largest across the touching strip (every
-    azimuth node from ``j0`` to ``j1``) at the touching emission and the one before it.
+    Writes ``best_t`` (s, inf for none), ``best_dp`` (Pa), ``best_focus`` and ``best_k``
+    per zone: the overpressure and focus flag are the largest across the touching strip
+    (every azimuth node from ``j0`` to ``j1``) at the touching emission and the one before
+    it; ``best_k`` is the touching emission's index.
     """
     nz = limits.size
     nk = e.shape[0]
@@ -239,6 +245,7 @@ def conflict_kernel(e, n, arrival, dp, focus, on_ground, strip_nodes, x, y, ring
                         best_t[z] = t
                         best_dp[z] = big
                         best_focus[z] = foc >= focus_threshold
+                        best_k[z] = kk
                         found = True
                 if first_only and found:
                     return

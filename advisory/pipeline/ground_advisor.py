@@ -48,10 +48,10 @@ from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.confidence import (
-    boom_probability,
     confident_table,
+    nominal_cutoff,
     spread_from_config,
-    z_one_sided,
+    with_probability,
 )
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
@@ -66,12 +66,18 @@ from advisory.pipeline.resolutions import (
     Search,
     TrialBase,
     max_mach_off_ground,
+    roll_out,
     run_search,
     search,
 )
 from advisory.pipeline.results import Advisory, Conflict
 from advisory.pipeline.table_range import mach_outside_table, outside_table
-from advisory.pipeline.trajectory import SpeedOfSound, Trajectory, predict_trajectory
+from advisory.pipeline.trajectory import (
+    SpeedOfSound,
+    Trajectory,
+    predict_trajectory,
+    subset_trajectory,
+)
 from advisory.pipeline.zone_projection import ZoneFrames
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
 from advisory.tables import lookup as lk
@@ -347,7 +353,7 @@ class GroundAdvisor:
             back = past_trajectory(ahead.traj, back_s, cfg.step_s)
             keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
             if keep.size:
-                part = _subset(back, keep)
+                part = subset_trajectory(back, keep)
                 fallback = FlownPast(part, *self._fallback_lookup.lookup(part))  # copied
         tail_break = win is not None and t_now - h.newest_t > h.gap_s
         return join_past(win, fallback, ahead, tail_break)
@@ -411,8 +417,9 @@ class GroundAdvisor:
         pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs,
                                        join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        fixed, later, conflicts = split_conflicts(pred, pz, self.zones, self._strips,
-                                                  cfg.focus_threshold, cfg.reaction_s)
+        fixed, later, conflicts = (self._with_probability(part, pred, traj) for part in
+                                   split_conflicts(pred, pz, self.zones, self._strips,
+                                                   cfg.focus_threshold, cfg.reaction_s))
         first = later[0] if later else None
         fixed = self._hold_on_way(fixed, now)
         cut_low = float(pred.cutoff_mach[now_k])  # its table lookup, already done
@@ -422,6 +429,8 @@ class GroundAdvisor:
             None if first is None else (0.0 if act_by is None else act_by), now)
         max_mach = max_mach_off_ground(cut_low, self._margin())
         cut_now, sigma, p_reach = self._nominal_cutoff(ahead, cut_low)
+        if named_zone := (fixed[0] if fixed else first):
+            p_reach = named_zone.probability if self._confident else None
         reaches_now = bool(pred.on_ground[now_k])
         near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
         if fixed:
@@ -441,7 +450,7 @@ class GroundAdvisor:
         held = first or named  # a held level names the zone last in conflict
         self._held_zone = held.zone_id if held else None
         self._held_name = held.zone_name if held else None
-        r = _roll_out(res or Resolution(), s)
+        r = roll_out(res or Resolution(), s)
         turning = r.turn_left_deg is not None or r.turn_right_deg is not None
         hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
         return Advisory(
@@ -468,17 +477,22 @@ class GroundAdvisor:
         confidence's edge, else the configured fixed one."""
         return 0.0 if self._confident else self.config.cutoff_margin_mach
 
-    def _nominal_cutoff(self, ahead: Trajectory, cut_low: float
+    def _nominal_cutoff(self, traj: Trajectory, cut_low: float, k: int = 0
                         ) -> tuple[float, float | None, float | None]:
-        """The present cutoff Mach as tabulated, its standard deviation and the probability
-        that the present boom reaches the ground (``cut_low``: the lookups' cutoff, lowered
-        by z sigma when confident)."""
+        """:func:`~advisory.pipeline.confidence.nominal_cutoff` with this advisor's table
+        (``cut_low`` as is when not confident)."""
         if not self._confident:
             return cut_low, None, None
-        hdg = float(ahead.heading_rad[0]) if self._table.has_wind else 0.0
-        nominal = self._table.cutoff_mach(float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), hdg)
-        sigma = max(nominal - cut_low, 0.0) / z_one_sided(self.config.confidence)
-        return nominal, sigma, boom_probability(float(ahead.mach[0]), nominal, sigma)
+        return nominal_cutoff(self._table, traj, cut_low, k, self.config.confidence)
+
+    def _with_probability(self, conflicts: list[Conflict], pred: CarpetPrediction,
+                          traj: Trajectory) -> list[Conflict]:
+        """:func:`~advisory.pipeline.confidence.with_probability` (unchanged when not
+        confident)."""
+        if not self._confident:
+            return conflicts
+        return with_probability(conflicts, pred.cutoff_mach, traj, self._table,
+                                self.config.confidence)
 
     def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:
         """The booms on their way into a zone, held: a boom found in the air toward a zone
@@ -554,36 +568,5 @@ class GroundAdvisor:
         return r, max(0.0, r.act_by_s - (now - self._result_t0))
 
 
-#: A Mach trial at the present Mach (to this much) clears only by its roll-out, Mach.
-SAME_MACH = 0.005
-#: Bank from which a roll-out is a turn resolution, rad (common practice, no source).
-ROLL_OUT_BANK_RAD = math.radians(5.0)
-
-
 def _no_grounds(_whole: ProjectedZones) -> list[OtherGround]:
     return []
-
-
-def _roll_out(r: Resolution, s: AirDataState) -> Resolution:
-    """A Mach resolution at the present Mach while banked, said as what it is: the trial
-    rolls the wings level after the reaction time and holds the speed, so what clears is
-    the roll-out, on the heading reached then (a turn of 0 deg from the onset heading, in
-    the direction of the bank). "M1.50" at Mach 1.50 would tell the crew nothing; the
-    crew model would hold the bank and fly on into the zone."""
-    if (r.resolve_mach is None or r.combined or r.resolve_mach < s.mach - SAME_MACH
-            or abs(s.bank_rad) < ROLL_OUT_BANK_RAD):
-        return r
-    if s.bank_rad > 0.0:
-        return dataclasses.replace(r, resolve_mach=None, turn_right_deg=0.0)
-    return dataclasses.replace(r, resolve_mach=None, turn_left_deg=0.0)
-
-
-def _subset(traj: Trajectory, idx: np.ndarray) -> Trajectory:
-    """The points ``idx`` of a trajectory (same frame and wind)."""
-    return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
-                      frame=traj.frame, wind_east_mps=traj.wind_east_mps,
-                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
-
-
-_TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
-              "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")

@@ -49,6 +49,7 @@ tolerances and the crew's preference are project choices (common practice, no so
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from collections.abc import Callable, Generator, Sequence
 from dataclasses import dataclass
@@ -56,6 +57,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from advisory import units
+from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.footprint import FootprintPredictor
 from advisory.pipeline.trajectory import Trajectory
@@ -63,7 +65,7 @@ from advisory.pipeline.trial import TRIAL_PARAMS, trial_clears_kernel
 from advisory.pipeline.zones import ProjectedZones
 from advisory.tables.table import BoomTable
 
-__all__ = ["max_mach_off_ground", "TrialBase", "Resolution", "search", "run_search",
+__all__ = ["max_mach_off_ground", "TrialBase", "Resolution", "search", "run_search", "roll_out",
            "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
 
 #: Heading changes tried first, deg (then refined between the last fail and first clear).
@@ -462,3 +464,23 @@ def run_search(gen: Search, budget: int | None = None) -> Resolution | None:
     except StopIteration as stop:
         return stop.value  # type: ignore[no-any-return]
     return None
+
+
+#: A Mach trial at the present Mach (to this much) clears only by its roll-out, Mach.
+SAME_MACH = 0.005
+#: Bank from which a roll-out is a turn resolution, rad (common practice, no source).
+ROLL_OUT_BANK_RAD = math.radians(5.0)
+
+
+def roll_out(r: Resolution, s: AirDataState) -> Resolution:
+    """A Mach resolution at the present Mach while banked, said as what it is: the trial
+    rolls the wings level after the reaction time and holds the speed, so what clears is
+    the roll-out, on the heading reached then (a turn of 0 deg from the onset heading, in
+    the direction of the bank). "M1.50" at Mach 1.50 would tell the crew nothing; the
+    crew model would hold the bank and fly on into the zone."""
+    if (r.resolve_mach is None or r.combined or r.resolve_mach < s.mach - SAME_MACH
+            or abs(s.bank_rad) < ROLL_OUT_BANK_RAD):
+        return r
+    if s.bank_rad > 0.0:
+        return dataclasses.replace(r, resolve_mach=None, turn_right_deg=0.0)
+    return dataclasses.replace(r, resolve_mach=None, turn_left_deg=0.0)

@@ -31,6 +31,10 @@ class Conflict:
     time_to_contact_s: float
     overpressure_pa: float
     focus: bool
+    #: Index (in the prediction) of the emission whose boom touches first; -1: unknown.
+    emission_index: int = -1
+    #: Probability that that boom reaches the ground (issue 16); None without a spread.
+    probability: float | None = None
 
 
 @dataclass(frozen=True)
@@ -84,8 +88,10 @@ class Advisory:
         Standard deviation of the present cutoff Mach from the spread of the air below
         (:mod:`advisory.pipeline.confidence`); None without sensitivity columns.
     boom_probability : float or None
-        Probability that the present boom reaches the ground, ``Phi((M - cutoff) /
-        sigma)``; None without ``cutoff_sigma``.
+        Probability that the boom reaches the zone named (that the boom of the emission
+        touching it first reaches the ground), or with no zone named that the present
+        boom reaches the ground: ``Phi((M - cutoff) / sigma)`` at that emission; None
+        without ``cutoff_sigma``.
     near_cutoff : bool
         The present Mach lies within :data:`advisory.tables.lookup.NEAR_CUTOFF_BAND` of
         the cutoff Mach: whether and where the boom reaches the ground is uncertain (ray
@@ -169,7 +175,9 @@ class Advisory:
                 {"zone_id": c.zone_id, "zone_name": c.zone_name,
                  "time_to_contact_s": round(c.time_to_contact_s, 1),
                  "overpressure_psf": round(units.pa_to_psf(c.overpressure_pa), 3),
-                 "focus": c.focus}
+                 "focus": c.focus,
+                 "boom_probability": None if c.probability is None
+                 else round(c.probability, 4)}
                 for c in self.conflicts
             ],
             "caution": SAFETY_CAUTION,

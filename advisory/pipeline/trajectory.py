@@ -67,6 +67,7 @@ from advisory.pipeline.propagate import (
 from advisory.units import G0
 
 __all__ = [
+    "subset_trajectory",
     "DEFAULT_LOOKAHEAD_S",
     "DEFAULT_STEP_S",
     "MIN_MACH",
@@ -420,3 +421,14 @@ def predict_trajectory(
         wind_north_mps=float(wn),
         wind_inferred=inferred,
     )
+
+
+def subset_trajectory(traj: Trajectory, idx: np.ndarray) -> Trajectory:
+    """The points ``idx`` of a trajectory (same frame and wind)."""
+    return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
+                      frame=traj.frame, wind_east_mps=traj.wind_east_mps,
+                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
+
+
+_TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
+              "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")

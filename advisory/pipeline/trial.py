@@ -326,7 +326,8 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     conflict_kernel(e[skip:].copy(), n[skip:].copy(), ta[skip:].copy(), eff,
                     amp[skip:].copy(), on_ground, nodes, x, y, ring_start, part_start,
                     zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins,
-                    limits, focus_threshold, True, best_t, best_dp, best_focus)
+                    limits, focus_threshold, True, best_t, best_dp, best_focus,
+                    np.zeros(nz, dtype=np.int64))
     for z in range(nz):
         if best_t[z] < np.inf:
             return False

@@ -16,7 +16,6 @@ import datetime as _dt
 import math
 import multiprocessing as mp
 import os
-import signal
 import sys
 import time
 from dataclasses import dataclass, replace
@@ -35,6 +34,7 @@ from advisory.tables.grid import TableGrid
 from advisory.tables.lift import build_lift_map
 from advisory.tables.spread_table import build_spread_arrays
 from advisory.tables.store import atmosphere_arrays
+from advisory.tables.workers import reset_signals
 
 
 @dataclass(frozen=True)
@@ -171,14 +171,7 @@ _WORKER: dict = {}
 
 
 def _worker_init(inputs: BuildInputs) -> None:
-    # A forked worker inherits its parent's signal handlers: the service's start-up
-    # handler raised its stop exception in every worker the pool terminated (a traceback
-    # per worker on stderr). A worker ends on the signal, as a process does by default;
-    # an interrupt is for the parent, which ends the pool.
-    for sig in (signal.SIGTERM, signal.SIGHUP, signal.SIGQUIT, signal.SIGUSR1,
-                signal.SIGUSR2):
-        signal.signal(sig, signal.SIG_DFL)
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    reset_signals()
     _WORKER["inputs"] = inputs
     _WORKER["tracer"] = RayTracer(inputs.atmosphere)
 

@@ -45,6 +45,7 @@ from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.spread import N_VARIABLES, NODES_M, perturbed
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
+from advisory.tables.workers import reset_signals
 
 __all__ = ["SPREAD_ARRAYS", "SpreadTable", "sub_grid", "column_cutoff", "edge_outputs",
            "cutoff_sensitivity", "build_spread_arrays"]
@@ -174,7 +175,9 @@ def cutoff_sensitivity(atm, altitude_m: float, heading_rad: float, fpa_rad: floa
 _WORKER: dict = {}
 
 
-def _init(args) -> None:
+def _init(args, worker: bool = True) -> None:
+    if worker:
+        reset_signals()  # as the builder's workers (advisory.tables.workers)
     _WORKER["args"] = args
 
 
@@ -203,7 +206,7 @@ def build_spread_arrays(atm, grid: TableGrid, workers: int | None = None
 
     args = (atm, grid)
     if workers <= 1:
-        _init(args)
+        _init(args, worker=False)
         for key in keys:
             store(*_work(key))
     else:

@@ -36,6 +36,7 @@ def find_conflicts_twin(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneS
     best_t = np.full(n_zones, np.inf)
     best_dp = np.zeros(n_zones)
     best_focus = np.zeros(n_zones, dtype=bool)
+    best_k = np.full(n_zones, -1, dtype=np.int64)
     for lim in groups:
         margin = np.where(limits == lim, pz.margin_m, _EXCLUDE)
         for j0, j1 in zip(strip_nodes[:-1], strip_nodes[1:]):
@@ -59,13 +60,14 @@ def find_conflicts_twin(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneS
                         best_dp[z] = float(np.max(dp[ks][:, j0:j1 + 1]))
                         best_focus[z] = bool(np.max(pred.focus_factor[ks][:, j0:j1 + 1])
                                              >= focus_threshold)
+                        best_k[z] = k
                 if first_only and np.isfinite(best_t).any():
                     break
             if first_only and np.isfinite(best_t).any():
                 break
         if first_only and np.isfinite(best_t).any():
             break
-    return conflicts_from(zones, best_t, best_dp, best_focus)
+    return conflicts_from(zones, best_t, best_dp, best_focus, best_k)
 
 
 def _contact_time(pred: CarpetPrediction, pz: ProjectedZones, z: int, k: int, start: int,

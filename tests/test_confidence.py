@@ -199,3 +199,29 @@ def test_the_advisory_frame_carries_the_probability_only_when_known(small_table)
     a = Advisor(small_table, zoneset(square("far", *point_along(400e3)))).step(
         state(mach=1.6), now_monotonic=0.0)
     assert a.to_fields()["boom_probability"] == 1.0  # far above cutoff
+
+
+def test_spread_campaign_draws_truths_of_the_assumed_size():
+    # campaign --spread: the advisor is given the planning air; the truth is that air plus
+    # an error drawn from the default spread (surface temperature sigma 2.0 K, wind 2.0 m/s
+    # per component at the ground: the module's stated defaults). Over 300 encounters the
+    # sample standard deviation must be within its own sampling error (+-8 % at 300).
+    from advisory.bench.campaign_sample import sample_encounter
+    from advisory.bench.sim_scenario import AirSpec
+    from advisory.bench.sim_world import atmosphere_of
+    dt, de = [], []
+    for i in range(300):
+        doc = sample_encounter(5, i, spread=True).doc
+        assert doc["advisor"]["atmosphere"]  # the planning air is given explicitly
+        truth = atmosphere_of(AirSpec(levels=tuple(tuple(r) for r in doc["atmosphere"]["levels"])),
+                              "truth").at(0.0)
+        plan = doc["advisor"]["atmosphere"]
+        base = (atmosphere_of(AirSpec(levels=tuple(tuple(r) for r in plan["levels"])), "plan")
+                if "levels" in plan else standard_atmosphere(plan.get("isa_offset_c", 0.0)))
+        dt.append(truth.temperature_k - base.at(0.0).temperature_k)
+        de.append(truth.wind_east_mps - base.at(0.0).wind_east_mps)
+    assert np.std(dt, ddof=1) == pytest.approx(2.0, rel=0.12)
+    assert np.std(de, ddof=1) == pytest.approx(2.0, rel=0.12)
+    assert abs(np.mean(dt)) < 3 * 2.0 / math.sqrt(300)
+    again = sample_encounter(5, 7, spread=True).doc
+    assert again == sample_encounter(5, 7, spread=True).doc  # deterministic by seed

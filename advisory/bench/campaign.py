@@ -52,6 +52,10 @@ class CampaignResult:
         Wall time of the runs, s.
     known : bool
         The advisor knew the air and the crew (``campaign --known``).
+    spread : bool
+        The advisor knew the air only to within the default spread (``campaign --spread``).
+    config : str or None
+        The advisor config every encounter ran with (None: the defaults).
     """
 
     seed: int
@@ -62,20 +66,30 @@ class CampaignResult:
     metrics: dict[str, Any] = field(default_factory=dict)
     elapsed_s: float = 0.0
     known: bool = False
+    spread: bool = False
+    config: str | None = None
 
 
-def sample_campaign(count: int, seed: int, known: bool = False) -> list[Encounter]:
+def sample_campaign(count: int, seed: int, known: bool = False, spread: bool = False,
+                    config: str | None = None) -> list[Encounter]:
     """The ``count`` encounters of the campaign seeded ``seed`` (``known``: as
-    :func:`advisory.bench.campaign_sample.as_known`)."""
+    :func:`advisory.bench.campaign_sample.as_known`; ``spread``: as
+    :func:`~advisory.bench.campaign_sample.as_spread`; ``config``: the advisor config file
+    every encounter runs with)."""
     if not 1 <= count <= MAX_COUNT:
         raise ValueError(f"--count: {count} is not in 1..{MAX_COUNT}")
     if seed < 0:
         raise ValueError(f"--seed: {seed} is not >= 0")
-    return [sample_encounter(seed, i, known) for i in range(count)]
+    out = [sample_encounter(seed, i, known, spread) for i in range(count)]
+    if config is not None:
+        for e in out:
+            e.doc["advisor"]["config"] = str(config)
+    return out
 
 
 def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
-                 progress: Progress | None = None, known: bool = False) -> CampaignResult:
+                 progress: Progress | None = None, known: bool = False, spread: bool = False,
+                 config: str | None = None) -> CampaignResult:
     """Sample, fly and measure a campaign.
 
     Parameters
@@ -91,12 +105,14 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
         Called as ``progress(done, total, failed)`` after each encounter completes.
     known : bool
         Encounters whose inputs the advisor knows (``campaign --known``).
+    spread, config : bool, str or None
+        As :func:`sample_campaign`.
 
     Returns
     -------
     CampaignResult
     """
-    encounters = sample_campaign(count, seed, known)
+    encounters = sample_campaign(count, seed, known, spread, config)
     by_index: dict[int, dict[str, Any]] = {}
     failed = 0
     t0 = time.perf_counter()
@@ -112,4 +128,4 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
     return CampaignResult(seed=seed, count=count, engine=engine.description,
                           encounters=encounters, records=records,
                           metrics=campaign_metrics(records, seed), elapsed_s=elapsed,
-                          known=known)
+                          known=known, spread=spread, config=config)

@@ -54,7 +54,8 @@ def summary(result: CampaignResult) -> dict[str, Any]:
     failures = [{"index": r["index"], "name": e.info["name"], "error": r["error"]}
                 for e, r in zip(result.encounters, result.records) if r.get("error")]
     return {"caution": SAFETY_CAUTION, "package_version": VERSION, "seed": result.seed,
-            "count": result.count, "known": result.known, "engine": result.engine,
+            "count": result.count, "known": result.known, "spread": result.spread,
+            "config": result.config, "engine": result.engine,
             "elapsed_s": round(result.elapsed_s, 3), "metrics": result.metrics,
             "failures": failures}
 
@@ -71,6 +72,11 @@ def text_lines(result: CampaignResult) -> list[str]:
     """The human-readable report: caution, the metrics table, failures."""
     m = result.metrics
     known = ("; the advisor knows the air and the crew (--known)" if result.known else "")
+    if result.spread:
+        known = ("; the advisor knows the crew, and the air to within the default spread "
+                 "(--spread)")
+    if result.config:
+        known += f"; advisor config {result.config}"
     lines = [f"boom-advisory campaign: {result.count} encounters, seed {result.seed} "
              f"({result.engine}), {result.elapsed_s:.0f} s{known}", SAFETY_CAUTION, ""]
     rows = [("metric", "value", "95 % interval", "over")]

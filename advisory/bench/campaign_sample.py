@@ -47,6 +47,12 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
 * ``known`` (``campaign --known``, :func:`as_known`): after the same draws, the advisor is
   given the true air, the zone's ground is set to sea level and the crew's numbers are
   the advisor's configured ones.
+* ``spread`` (``campaign --spread``, :func:`as_spread`, issue 16): as ``known``, but the
+  air the advisor is given is the planning air and the truth is that air plus an error
+  field drawn from the default spread (:mod:`advisory.physics.spread`, at the start
+  altitude taken as the height), from a generator of its own
+  (``SeedSequence(S, spawn_key=(i, 16))``): the advisor's confidence is then measured
+  against errors of exactly the size it assumes.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight. Encounters are invented flights over invented places.
@@ -61,8 +67,11 @@ from typing import Any
 import numpy as np
 
 from advisory import units
+from advisory.bench.sim_scenario import AirSpec
+from advisory.bench.sim_world import atmosphere_of
 from advisory.geo.geodesy import direct_deg
-from advisory.physics.atmosphere import ussa1976
+from advisory.physics.atmosphere import standard_atmosphere, ussa1976
+from advisory.physics.spread import NODES_M, default_spread, perturbed
 from advisory.pipeline.config import AdvisorConfig
 from advisory.schema import EARTH_MEAN_RADIUS_M
 
@@ -267,7 +276,8 @@ class Encounter:
     info: dict[str, Any]
 
 
-def sample_encounter(seed: int, index: int, known: bool = False) -> Encounter:
+def sample_encounter(seed: int, index: int, known: bool = False,
+                     spread: bool = False) -> Encounter:
     """Encounter ``index`` of the campaign seeded ``seed``.
 
     Parameters
@@ -279,6 +289,8 @@ def sample_encounter(seed: int, index: int, known: bool = False) -> Encounter:
     known : bool
         The advisor knows what it is told to assume (:func:`as_known`); the same draws,
         so the flight, zone and true air are those of the encounter without it.
+    spread : bool
+        As ``known``, the truth's air then perturbed by the spread (:func:`as_spread`).
 
     Returns
     -------
@@ -327,9 +339,12 @@ def sample_encounter(seed: int, index: int, known: bool = False) -> Encounter:
     }
     if truth:  # the standard atmosphere is the absence of an [atmosphere] table
         doc["atmosphere"] = truth
-    if known:
+    if known or spread:
         adv_kind = "same"
         as_known(doc)
+    if spread:
+        adv_kind = "spread"
+        as_spread(doc, seed, index)
     info = {"name": doc["name"], "geometry": geometry, "crossing_angle_deg": crossing,
             "manoeuvre": schedule[0]["kind"] if schedule else "hold",
             "true_air": true_kind, "advisor_air": adv_kind, "mach": start["mach"],
@@ -352,3 +367,31 @@ def as_known(doc: dict[str, Any]) -> None:
     doc["crew"].update(reaction_s=cfg.reaction_s, decel_mach_per_s=cfg.decel_mach_per_s,
                        bank_deg=cfg.turn_bank_deg, roll_rate_deg_s=cfg.roll_rate_deg_s)
     doc.setdefault("truth", {})["act_by"] = True  # the truth's act-by of every exposure
+
+
+def as_spread(doc: dict[str, Any], seed: int, index: int) -> None:
+    """Make a known encounter one whose air the advisor knows only to within the default
+    spread (module notes): the advisor is given the sampled air as its planning air; the
+    truth is that air plus one drawn error field, given as levels at the field's nodes
+    and every 10,000 ft (linear between them, as the field)."""
+    planning = doc.get("atmosphere", {})
+    if "levels" in planning:
+        atm = atmosphere_of(AirSpec(levels=tuple(tuple(r) for r in planning["levels"])),
+                            "planning")
+    else:
+        atm = standard_atmosphere(float(planning.get("isa_offset_c", 0.0)))
+    doc["advisor"]["atmosphere"] = dict(planning) or {"isa_offset_c": 0.0}
+    rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(index, 16)))
+    z_a = units.ft_to_m(float(doc["start"]["alt_ft"]))
+    delta = default_spread().sample(rng, z_a, 1)[0]
+    truth = perturbed(atm, delta, "campaign spread draw")
+    heights = sorted(set(NODES_M.tolist()) | {units.ft_to_m(a) for a in LEVELS_FT})
+    levels = []
+    for z in heights:
+        s = truth.at(z)
+        e, n = s.wind_east_mps, s.wind_north_mps
+        speed = math.hypot(e, n)
+        wind_from = (math.degrees(math.atan2(e, n)) + 180.0) % 360.0 if speed > 0.0 else 0.0
+        levels.append([_r(units.m_to_ft(z), 1), _r(units.k_to_c(s.temperature_k), 3),
+                       _r(wind_from, 2), _r(speed / units.KT, 3)])
+    doc["atmosphere"] = {"levels": levels}

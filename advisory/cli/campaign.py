@@ -26,6 +26,7 @@ from advisory.bench.campaign_engine import DaskEngine, Engine, PoolEngine
 from advisory.bench.campaign_report import summary, text_lines, write_outputs
 from advisory.bench.closed_loop import run_encounter
 from advisory.cli.options import UsageError, add_json_option
+from advisory.pipeline.config import load_config
 from advisory.schema import SAFETY_CAUTION
 
 DESCRIPTION = ("Fly randomized encounters closed-loop (crew ignores the cues, crew follows "
@@ -58,6 +59,13 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                    help="the advisor knows what it assumes: it is given the true air, the "
                         "zones' ground is at sea level and the crew reacts, slows, banks "
                         "and rolls as its configuration says (the same flights otherwise)")
+    p.add_argument("--spread", action="store_true",
+                   help="as --known, but the true air is the advisor's plus an error drawn "
+                        "from the default spread of the air below (issue 16: calibration of "
+                        "its confidence)")
+    p.add_argument("--config", metavar="FILE",
+                   help="advisor thresholds (TOML) for every encounter, e.g. [confidence] "
+                        "confidence = 0 for the fixed-margin baseline")
     p.add_argument("--out", metavar="DIR",
                    help="write encounters.csv, summary.json and summary.html here")
     add_json_option(p)
@@ -109,9 +117,13 @@ def campaign_command(args: argparse.Namespace) -> int:
     out = Path(args.out) if args.out else None
     if out is not None and out.exists() and not out.is_dir():
         raise UsageError(f"--out: {args.out} exists and is not a directory")
+    config = None
+    if args.config:
+        load_config(args.config)  # a bad file: one line, exit 2, before any work
+        config = str(Path(args.config).resolve())
     engine = engine_from(args)
     result = run_campaign(args.count, args.seed, engine, run_encounter, progress=_Progress(),
-                          known=args.known)
+                          known=args.known, spread=args.spread, config=config)
     if out is not None:
         for path in write_outputs(result, out):
             print(f"campaign: wrote {path}", file=sys.stderr)

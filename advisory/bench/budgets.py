@@ -67,6 +67,8 @@ class Budget:
 #: print order.
 BUDGETS = (
     Budget("table_build_s", "build", "table build, default grid", 60.0, "s"),
+    Budget("spread_size_ratio", "build", "table size with sensitivity columns vs without",
+           2.0, "x"),
     Budget("lookup_us", "lookup", "footprint lookup (31 azimuths)", 20.0, "us"),
     Budget("lookup_speedup", "lookup", "table vs direct tracing", 50.0, "x", upper=False),
     Budget("half_width_err", "verify", "interp. error: carpet half-width", 0.5, "%"),

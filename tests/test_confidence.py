@@ -225,3 +225,22 @@ def test_spread_campaign_draws_truths_of_the_assumed_size():
     assert abs(np.mean(dt)) < 3 * 2.0 / math.sqrt(300)
     again = sample_encounter(5, 7, spread=True).doc
     assert again == sample_encounter(5, 7, spread=True).doc  # deterministic by seed
+
+
+def test_lookup_band_parity_with_the_twin(small_table):
+    # the lookups' band below the cutoff (issue 16): kernel and readable twin agree, and a
+    # boom counts down to the band and not below it
+    from advisory.tables import lookup as lk
+    from tests.twins.lookup import lookup_twin
+    tb = small_table
+    z = _height_m()
+    args = (tb.ax_alt, tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells)
+    out = np.zeros((tb.eta.size, lk.N_QUANTITIES))
+    twin = np.zeros_like(out)
+    _, cut = lk.lookup_kernel(z, 0.0, 0.0, 0.0, *args, out)
+    for dm, reaches in ((-0.019, False), (-0.017, True), (-0.005, True), (0.01, True)):
+        code, _ = lk.lookup_kernel(z, cut + dm, 0.0, 0.0, *args, out, 0.018)
+        tcode, _ = lookup_twin(z, cut + dm, 0.0, 0.0, *args, twin, 0.018)
+        assert code == tcode and (code != lk.NO_BOOM) is reaches, dm
+        if reaches:
+            assert np.allclose(out, twin, rtol=1e-12, atol=1e-9)

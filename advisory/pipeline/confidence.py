@@ -24,17 +24,19 @@ The error of the air below the aircraft is the spread model of
 Checked against Monte Carlo with direct tracing (the readable ray tracer, 1,000 profiles
 drawn independently) in ``tests/test_spread_coverage.py``.
 
-The advisor (:func:`confident_table`) reads the table as if the air were at the
-confidence's unfavourable edge: every node's cutoff Mach lowered by ``z sigma`` (``z`` the
-one-sided normal quantile, 1.645 at 95 %, ``sigma`` the node's own). Every lookup then
-puts a boom on the ground wherever it reaches at that confidence, with the carpet of the
-larger Mach excess; the lowest Mach kept off the ground needs no further margin (the fixed
-0.02 of before, which had no basis, stays only for a table without sensitivities).
+The advisor reads the cutoff Mach at its configured confidence: each step it takes the
+present ``sigma`` (:func:`present_sigma`), and every lookup of the step (the prediction's
+and the resolution trials') counts a boom below the cutoff by less than ``z sigma``
+(:func:`lookup_band`; ``z`` the one-sided normal quantile, 1.645 at 95 %) with the carpet of
+the smallest tabulated Mach excess, as the near-cutoff band does; the Mach kept off the
+ground is the cutoff less ``z sigma`` (the fixed 0.02 of before, which had no basis, stays
+only for a table without sensitivities or confidence 0). Above the cutoff the carpet is
+the table's: reading the whole table at a lowered cutoff (tried first) biased every
+carpet's overpressure by 0.7-2 % and its arrival times against the truth.
 """
 
 from __future__ import annotations
 
-import copy
 import dataclasses
 import math
 from dataclasses import dataclass
@@ -47,13 +49,13 @@ from advisory.physics.rays import RayTracer
 from advisory.physics.spread import N_VARIABLES, SpreadModel, default_spread, perturbed
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Conflict
+from advisory.tables.lookup import NEAR_CUTOFF_BAND
 from advisory.tables.spread_table import edge_outputs
 from advisory.tables.table import BoomTable
 
 __all__ = ["DEFAULT_CONFIDENCE", "DEFAULT_SAMPLES", "CarpetSpread", "z_two_sided",
            "z_one_sided", "cutoff_interval", "boom_probability", "sample_carpet",
-           "spread_from_config", "node_sigmas", "confident_table", "nominal_cutoff",
-           "with_probability"]
+           "spread_from_config", "present_sigma", "lookup_band", "with_probability"]
 
 #: Default confidence of the intervals and of the advisor's margins (issue 16).
 DEFAULT_CONFIDENCE = 0.95
@@ -172,55 +174,34 @@ def spread_from_config(cfg: AdvisorConfig, ground_m: float = 0.0) -> SpreadModel
                           ground_m)
 
 
-def node_sigmas(table: BoomTable, model: SpreadModel) -> np.ndarray | None:
-    """Standard deviation of the cutoff Mach at every node of the table's cutoff array,
-    shape (altitude, fpa, heading); None for a table without sensitivity columns."""
+def present_sigma(table: BoomTable, model: SpreadModel, altitude_m: float, fpa_rad: float,
+                  heading_rad: float) -> float | None:
+    """Standard deviation of the cutoff Mach at a condition from the table's sensitivity
+    columns and the spread; None for a table without them."""
     st = table.spread
     if st is None:
         return None
-    out = np.zeros(table.cutoff.shape)
-    for a, alt in enumerate(table.ax_alt):
-        j = st.jacobians([alt], table.ax_fpa, table.ax_hdg)[0]
-        cov = model.covariance(float(alt))
-        out[a] = np.sqrt(np.clip(np.einsum("fhk,kl,fhl->fh", j, cov, j), 0.0, None))
-    return out
+    return st.cutoff_sigma(model.covariance(altitude_m), altitude_m, fpa_rad, heading_rad)
 
 
-def confident_table(table: BoomTable, model: SpreadModel, confidence: float
-                    ) -> tuple[BoomTable, np.ndarray | None]:
-    """The table read at the confidence's unfavourable edge (module notes): a shallow copy
-    whose cutoff array is lowered by ``z sigma`` node by node, and the sigmas; the table
-    itself and None when it has no sensitivity columns or ``confidence`` is 0."""
-    sig = node_sigmas(table, model) if confidence > 0.0 else None
-    if sig is None:
-        return table, None
-    view = copy.copy(table)
-    view.cutoff = np.ascontiguousarray(table.cutoff - z_one_sided(confidence) * sig)
-    return view, sig
+def lookup_band(sigma: float | None, confidence: float) -> float:
+    """The lookups' band below the cutoff: ``z sigma`` (one-sided), at least the
+    near-cutoff band; the near-cutoff band alone without ``sigma``."""
+    if sigma is None or confidence <= 0.0:
+        return NEAR_CUTOFF_BAND
+    return max(NEAR_CUTOFF_BAND, z_one_sided(confidence) * sigma)
 
 
-def nominal_cutoff(table: BoomTable, traj, cut_low: float, k: int, confidence: float
-                   ) -> tuple[float, float, float]:
-    """At point ``k`` of a trajectory: the cutoff Mach as tabulated, its standard deviation
-    (from the lookups' cutoff ``cut_low``, lowered by ``z sigma`` by
-    :func:`confident_table`) and the probability that the boom emitted there reaches the
-    ground."""
-    hdg = float(traj.heading_rad[k]) if table.has_wind else 0.0
-    nominal = table.cutoff_mach(float(traj.alt_m[k]), float(traj.fpa_rad[k]), hdg)
-    sigma = max(nominal - cut_low, 0.0) / z_one_sided(confidence)
-    return nominal, sigma, boom_probability(float(traj.mach[k]), nominal, sigma)
-
-
-def with_probability(conflicts: list[Conflict], cutoffs: np.ndarray, traj,
-                     table: BoomTable, confidence: float) -> list[Conflict]:
+def with_probability(conflicts: list[Conflict], cutoffs: np.ndarray, mach: np.ndarray,
+                     sigma: float) -> list[Conflict]:
     """Each conflict with the probability that the boom touching it first reaches the
-    ground (``cutoffs``: the prediction's lowered cutoff per emission, indexed as
-    ``traj``)."""
+    ground, ``Phi((M - cutoff) / sigma)`` at that emission (``cutoffs`` and ``mach``
+    indexed as the prediction's emissions)."""
     out = []
     for c in conflicts:
         k = c.emission_index
         if 0 <= k < cutoffs.size:
-            c = dataclasses.replace(c, probability=nominal_cutoff(
-                table, traj, float(cutoffs[k]), k, confidence)[2])
+            c = dataclasses.replace(c, probability=boom_probability(
+                float(mach[k]), float(cutoffs[k]), sigma))
         out.append(c)
     return out

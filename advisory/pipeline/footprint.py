@@ -108,13 +108,14 @@ def _same(a, b):
 
 @njit(cache=True)
 def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
-                       cells, rows, codes, cutoffs):
+                       cells, rows, codes, cutoffs, band=lk.NEAR_CUTOFF_BAND):
     """Table rows for every emission point (``rows``: (K, n_eta, N_QUANTITIES)).
 
     A point whose altitude, Mach, flight-path angle and heading are those of the point
     before it (steady flight: every point ahead) takes that point's lookup: the same
     code, cutoff and rows (rows left as they are where there is no boom, as the lookup
-    leaves them), which is what the lookup would give.
+    leaves them), which is what the lookup would give. ``band``: the lookup's (below the
+    cutoff by less than it a boom counts).
     """
     for k in range(alt.size):
         if k > 0 and (_same(alt[k], alt[k - 1]) and _same(mach[k], mach[k - 1])
@@ -126,7 +127,7 @@ def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_
                 rows[k, :, :] = rows[k - 1, :, :]
             continue
         code, mcut = lk.lookup_kernel(alt[k], mach[k], fpa[k], heading_true[k], ax_alt, ax_mex,
-                                      ax_fpa, ax_hdg, cutoff, cells, rows[k])
+                                      ax_fpa, ax_hdg, cutoff, cells, rows[k], band)
         codes[k] = code
         cutoffs[k] = mcut
 
@@ -346,6 +347,10 @@ class FootprintPredictor:
     def __init__(self, table: BoomTable, focus_cap: float = FOCUS_AMPLIFICATION_CAP) -> None:
         self.table = table
         self.focus_cap = float(focus_cap)
+        #: Below the cutoff by less than this a boom counts (the lookups' band): the
+        #: near-cutoff band, or z sigma of the cutoff where the advisor reads it at a
+        #: confidence (set each step, :mod:`advisory.pipeline.confidence`).
+        self.band = lk.NEAR_CUTOFF_BAND
         self._n = -1
 
     def _buffers(self, nk: int) -> None:
@@ -376,7 +381,7 @@ class FootprintPredictor:
             return
         lookup_rows_kernel(traj.alt_m, traj.mach, traj.fpa_rad, heading_true, tb.ax_alt,
                            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.ray_age,
-                           self._ages, self._age_codes, self._age_cut)
+                           self._ages, self._age_codes, self._age_cut, self.band)
         lift_scale_kernel(traj.alt_m, traj.mach, tb.lift_z, tb.lift_ln_p,
                           float(tb.lift_params[5]), self._scale)
         lift_correction_kernel(self._rows, self._ages, self._codes, lift, bank, traj.fpa_rad,
@@ -390,7 +395,7 @@ class FootprintPredictor:
         lookup_rows_kernel(traj.alt_m, traj.mach, traj.fpa_rad, heading_true,
                            self.table.ax_alt, self.table.ax_mex, self.table.ax_fpa,
                            self.table.ax_hdg, self.table.cutoff, self.table.cells,
-                           self._rows, self._codes, self._cut)
+                           self._rows, self._codes, self._cut, self.band)
         self._apply_lift(traj, heading_true)
         return self._rows, self._codes, self._cut
 

@@ -48,10 +48,12 @@ from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.confidence import (
-    confident_table,
-    nominal_cutoff,
+    boom_probability,
+    lookup_band,
+    present_sigma,
     spread_from_config,
     with_probability,
+    z_one_sided,
 )
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
@@ -185,16 +187,16 @@ class GroundAdvisor:
             np.ndarray]:
         """The table with its footprint predictor, atmosphere, speed of sound and strips."""
         atm = table.atmosphere()
-        # every lookup reads the cutoff at the configured confidence (issue 16)
-        view, sig = confident_table(table, spread_from_config(
-            self.config, table.grid.ground_elevation_m), self.config.confidence)
-        #: True when the lookups read the cutoff at the confidence's edge (no fixed margin)
-        self._confident = sig is not None
+        #: The spread of the air below when the cutoff is read at a confidence (issue 16):
+        #: the table has sensitivity columns and confidence is on; else None.
+        self._spread = (spread_from_config(self.config, table.grid.ground_elevation_m)
+                        if table.spread is not None and self.config.confidence > 0.0
+                        else None)
         #: the fallback past's lookups (own buffers: its length differs from the ahead's)
-        self._fallback_lookup = FootprintPredictor(view)
+        self._fallback_lookup = FootprintPredictor(table)
         #: pressure altitude -> geometric height through the table's profile
         self._heights = HeightConverter(atm)
-        return (table, FootprintPredictor(view), atm, _speed_of_sound_fn(atm),
+        return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
                 strip_indices(table.eta.size, self.config.strips))
 
     @property
@@ -405,6 +407,9 @@ class GroundAdvisor:
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
         t_state = self._state_time(s, now)
+        sigma = self._present_sigma(ahead)  # the cutoff's, from the air below (issue 16)
+        self._predictor.band = self._fallback_lookup.band = lookup_band(
+            sigma, self.config.confidence)
         rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
         self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
         beyond = mach_outside_table(self._table, s.mach, float(cuts[0]))
@@ -417,20 +422,22 @@ class GroundAdvisor:
         pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs,
                                        join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        fixed, later, conflicts = (self._with_probability(part, pred, traj) for part in
-                                   split_conflicts(pred, pz, self.zones, self._strips,
-                                                   cfg.focus_threshold, cfg.reaction_s))
+        fixed, later, conflicts = (
+            part if sigma is None else with_probability(part, pred.cutoff_mach, traj.mach,
+                                                        sigma)
+            for part in split_conflicts(pred, pz, self.zones, self._strips,
+                                        cfg.focus_threshold, cfg.reaction_s))
         first = later[0] if later else None
         fixed = self._hold_on_way(fixed, now)
-        cut_low = float(pred.cutoff_mach[now_k])  # its table lookup, already done
-        res, act_by = self._resolution(pz, ahead, cut_low, first, now)
+        cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
+        res, act_by = self._resolution(pz, ahead, cut_now, first, now, sigma)
         # an avoidable contact with nothing that clears is a warning (act-by 0)
         level = self._levels.update(
             None if first is None else (0.0 if act_by is None else act_by), now)
-        max_mach = max_mach_off_ground(cut_low, self._margin())
-        cut_now, sigma, p_reach = self._nominal_cutoff(ahead, cut_low)
-        if named_zone := (fixed[0] if fixed else first):
-            p_reach = named_zone.probability if self._confident else None
+        max_mach = max_mach_off_ground(cut_now, self._margin(sigma))
+        p_reach = None if sigma is None else boom_probability(s.mach, cut_now, sigma)
+        if sigma is not None and (named_zone := (fixed[0] if fixed else first)):
+            p_reach = named_zone.probability
         reaches_now = bool(pred.on_ground[now_k])
         near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
         if fixed:
@@ -472,27 +479,20 @@ class GroundAdvisor:
             cutoff_sigma=sigma, boom_probability=p_reach,
         )
 
-    def _margin(self) -> float:
-        """Mach margin under the cutoff read by the lookups: none when they read it at the
-        confidence's edge, else the configured fixed one."""
-        return 0.0 if self._confident else self.config.cutoff_margin_mach
+    def _present_sigma(self, ahead: Trajectory) -> float | None:
+        """Standard deviation of the present cutoff Mach (None: not read at a confidence)."""
+        if self._spread is None:
+            return None
+        hdg = float(ahead.heading_rad[0])
+        return present_sigma(self._table, self._spread, float(ahead.alt_m[0]),
+                             float(ahead.fpa_rad[0]), hdg)
 
-    def _nominal_cutoff(self, traj: Trajectory, cut_low: float, k: int = 0
-                        ) -> tuple[float, float | None, float | None]:
-        """:func:`~advisory.pipeline.confidence.nominal_cutoff` with this advisor's table
-        (``cut_low`` as is when not confident)."""
-        if not self._confident:
-            return cut_low, None, None
-        return nominal_cutoff(self._table, traj, cut_low, k, self.config.confidence)
-
-    def _with_probability(self, conflicts: list[Conflict], pred: CarpetPrediction,
-                          traj: Trajectory) -> list[Conflict]:
-        """:func:`~advisory.pipeline.confidence.with_probability` (unchanged when not
-        confident)."""
-        if not self._confident:
-            return conflicts
-        return with_probability(conflicts, pred.cutoff_mach, traj, self._table,
-                                self.config.confidence)
+    def _margin(self, sigma: float | None) -> float:
+        """Mach margin under the cutoff: ``z sigma`` at the configured confidence, else the
+        configured fixed one."""
+        if sigma is None:
+            return self.config.cutoff_margin_mach
+        return z_one_sided(self.config.confidence) * sigma
 
     def _hold_on_way(self, fixed: list[Conflict], now: float) -> list[Conflict]:
         """The booms on their way into a zone, held: a boom found in the air toward a zone
@@ -525,17 +525,19 @@ class GroundAdvisor:
         grid = float(np.interp(self.config.reaction_s, t[: h.size], h))
         return math.degrees(grid + offset) % 360.0
 
-    def _trial_base(self, pz: ProjectedZones, ahead: Trajectory) -> TrialBase:
+    def _trial_base(self, pz: ProjectedZones, ahead: Trajectory,
+                    sigma: float | None = None) -> TrialBase:
         """The trials' common part: this ground, and every other ground level's zones in
         the same projection (an offered action keeps the booms off all of them)."""
         others = self.other_grounds(self._whole) if self._whole is not None else []
         return TrialBase(self.config, self._predictor, self._strips, pz, ahead, others,
-                         margin_mach=self._margin())
+                         margin_mach=self._margin(sigma))
 
     def _resolution(self, pz: ProjectedZones, ahead: Trajectory, cut_now: float,
-                    first: Conflict | None, now: float) -> tuple[Resolution | None,
-                                                                 float | None]:
-        """The resolutions and the act-by time (counted down since their search).
+                    first: Conflict | None, now: float, sigma: float | None = None
+                    ) -> tuple[Resolution | None, float | None]:
+        """The resolutions and the act-by time (counted down since their search);
+        ``sigma``: the cutoff's standard deviation (the lowest Mach tried, issue 16).
 
         A new zone in conflict is searched at once, in full; afterwards the search is
         renewed every ``refresh_s``, :data:`TRIALS_PER_STEP` trials per step (so no step
@@ -548,14 +550,14 @@ class GroundAdvisor:
         cfg = self.config
         if self._result is None or self._result_zone != first.zone_id:
             self.resolution_searches += 1
-            gen = search(self._trial_base(pz, ahead), cut_now,
+            gen = search(self._trial_base(pz, ahead, sigma), cut_now,
                          first.time_to_contact_s)
             self._result, self._result_t0 = run_search(gen), now
             self._result_zone, self._search = first.zone_id, None
         else:
             if self._search is None and not 0.0 <= now - self._result_t0 < cfg.refresh_s:
                 self.resolution_searches += 1
-                self._search = search(self._trial_base(pz, ahead),
+                self._search = search(self._trial_base(pz, ahead, sigma),
                                       cut_now, first.time_to_contact_s)
                 self._search_t0 = now
             if self._search is not None:

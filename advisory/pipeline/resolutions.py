@@ -129,6 +129,7 @@ class TrialBase:
         self.margin_mach = cfg.cutoff_margin_mach if margin_mach is None else margin_mach
         self.table = predictor.table
         self.focus_cap = predictor.focus_cap
+        self.band = predictor.band  # the prediction's lookup band below the cutoff
         self.strips = np.ascontiguousarray(strips, dtype=np.int64)
         self.pz = pz
         #: The zones' limits the trials hold the booms to (``limit_fraction`` of each).
@@ -230,7 +231,7 @@ class TrialBase:
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         t, k0 = self._judged_from(onset, target_mach)
         if not self._clears_on(self.table, self.strips, self.pz, self.limit_pa,
-                               self.focus_cap, t, k0, p):
+                               self.focus_cap, t, k0, p, self.band):
             return False
         own_cutoff = self.cutoff_now
         try:
@@ -239,7 +240,7 @@ class TrialBase:
                 self.cutoff_now = cut  # its near-cutoff emissions at its own cutoff Mach
                 t, k0 = self._judged_from(onset, target_mach)
                 if not self._clears_on(g.predictor.table, g.strips, g.pz, limit,
-                                       g.predictor.focus_cap, t, k0, p):
+                                       g.predictor.focus_cap, t, k0, p, g.predictor.band):
                     return False
         finally:
             self.cutoff_now = own_cutoff
@@ -251,8 +252,8 @@ class TrialBase:
 
     def _clears_on(self, tb: BoomTable, strips: np.ndarray, pz: ProjectedZones,
                    limit_pa: np.ndarray, focus_cap: float, t: np.ndarray, k0: int,
-                   p: np.ndarray) -> bool:
-        """The trial ``p`` judged on one ground: its table, strips and zones."""
+                   p: np.ndarray, band: float) -> bool:
+        """The trial ``p`` judged on one ground: its table, strips, zones and lookup band."""
         has_wind = bool(tb.has_wind)
         hdg_offset = self.hdg_offset if has_wind == self.has_wind else (
             float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
@@ -263,7 +264,7 @@ class TrialBase:
             pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
-            self.cfg.focus_threshold))
+            self.cfg.focus_threshold, band))
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:

@@ -181,7 +181,7 @@ def fly_trial_kernel(t, p):
 
 @njit(cache=True)
 def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                cutoff, lift, strips, rows, codes):
+                cutoff, lift, strips, rows, codes, band=lk.NEAR_CUTOFF_BAND):
     """The trial's rows at the lift of its bank (level coordinated flight, the flight-path
     angle held: lift ``cos(gamma) / cos(bank)`` tilted by the bank;
     :func:`advisory.pipeline.footprint.lift_and_bank`)."""
@@ -215,7 +215,7 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
         if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
             lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                             cutoff, ray_age, scratch)
+                             cutoff, ray_age, scratch, band)
             last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
         for s in range(ns):
             ages[kk, s, 0] = scratch[strips[s], 0]
@@ -229,7 +229,7 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
 def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
                         cutoff, cells, lift, strips, x, y, ring_start, part_start, zone_start,
                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
-                        focus_cap, focus_threshold):
+                        focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND):
     """Whether the trial ``p`` keeps the booms of emissions ``k0`` on off every zone.
 
     Parameters
@@ -257,6 +257,9 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         The projected zones (:func:`advisory.pipeline.conflicts.conflict_kernel`).
     focus_cap, focus_threshold : float
         Largest focus amplification; amplification flagged as a focus.
+    band : float
+        The lookups' band below the cutoff (as the prediction's,
+        :attr:`advisory.pipeline.footprint.FootprintPredictor.band`).
 
     Returns
     -------
@@ -280,7 +283,7 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
         if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
             last_code, _ = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
-                                            ax_fpa, ax_hdg, cutoff, cells, scratch)
+                                            ax_fpa, ax_hdg, cutoff, cells, scratch, band)
             last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
         codes[kk] = last_code
         for s in range(ns):
@@ -303,7 +306,7 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
         tas[kk] = fl[3, k_lo + kk] * p[6]
     _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                cutoff, lift, strips, rows, codes)
+                cutoff, lift, strips, rows, codes, band)
     te = np.empty((nk, ns))
     tn = np.empty((nk, ns))
     steady_translation_kernel(vg_e, vg_n, tas, fl[3, k_lo:].copy(), fl[5, k_lo:].copy(), fpas,

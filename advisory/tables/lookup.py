@@ -123,7 +123,8 @@ def _heading_weights(axis, x):
 
 
 @njit(cache=True)
-def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells, out):
+def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells, out,
+                  band=NEAR_CUTOFF_BAND):
     """Interpolate one footprint.
 
     Parameters
@@ -138,11 +139,15 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
         Tabulated rays.
     out : ndarray, shape (n_eta, N_QUANTITIES)
         Receives the interpolated rows (untouched when there is no boom).
+    band : float
+        Below the cutoff by less than this a boom still counts (the first Mach-excess
+        node's carpet): :data:`NEAR_CUTOFF_BAND`, or wider where the advisor reads the
+        cutoff at a confidence (:mod:`advisory.pipeline.confidence`).
 
     Returns
     -------
     code, cutoff_mach : (int, float)
-        :data:`NO_BOOM` (Mach at or below the cutoff less :data:`NEAR_CUTOFF_BAND`),
+        :data:`NO_BOOM` (Mach at or below the cutoff less ``band``),
         :data:`OK` or :data:`CLAMPED`, and the interpolated cutoff Mach.
     """
     ia, wa, ca = _locate(ax_alt, alt)
@@ -161,7 +166,7 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
                 w = wa_ * wf_ * hw[dh]
                 if w != 0.0:
                     mcut += w * cutoff[a, f, hidx[dh]]
-    if mach <= mcut - NEAR_CUTOFF_BAND or mach <= 1.0:  # subsonic: no shock at all
+    if mach <= mcut - band or mach <= 1.0:  # subsonic: no shock at all
         return NO_BOOM, mcut
     im, wm, cm = _locate(ax_mex, mach - mcut)
     if mach - mcut < ax_mex[0]:

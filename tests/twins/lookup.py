@@ -44,7 +44,7 @@ def _weights_periodic(axis: np.ndarray, x: float) -> tuple[list[int], list[float
 
 
 def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff, cells,
-                out) -> tuple[int, float]:
+                out, band=lk.NEAR_CUTOFF_BAND) -> tuple[int, float]:
     """Twin of ``lookup_kernel`` (same arguments and results)."""
     ia, wa, ca = _weights(ax_alt, alt)
     jf, wf, cf = _weights(ax_fpa, fpa)
@@ -53,7 +53,7 @@ def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
         wa_ * wf_ * wh_ * cutoff[a, f, h]
         for a, wa_ in zip(ia, wa) for f, wf_ in zip(jf, wf) for h, wh_ in zip(hh, wh)
     )
-    if mach <= mcut - lk.NEAR_CUTOFF_BAND or mach <= 1.0:  # within the band: a boom
+    if mach <= mcut - band or mach <= 1.0:  # within the band: a boom
         return lk.NO_BOOM, float(mcut)
     im, wm, cm = _weights(ax_mex, mach - mcut)
     if mach - mcut < ax_mex[0]:

@@ -88,6 +88,7 @@ def test_advisor_reads_the_cutoff_at_its_confidence(small_table, direct):
         state(mach=mach), now_monotonic=0.0)
     assert off.status == "no_boom" and not off.reaches_ground
     assert on.status == "clear" and on.reaches_ground  # 0.010 < 1.645 sigma: may reach
+    assert on.near_cutoff and "BOOM MAY REACH" in on.cue and not off.near_cutoff
     assert on.cutoff_sigma == pytest.approx(sd, rel=0.12)
     assert on.boom_probability == pytest.approx(norm.cdf(-0.010 / sd), abs=0.04)
     # the Mach kept off the ground: cutoff less z sigma, rounded down to 0.01

@@ -41,7 +41,9 @@ fixed 0.02), and the advisory frame carries key 17, ``boom_probability`` (their 
 have sensitivity columns; the service records' tables have none and keep the fixed
 margin, unchanged). Decoded advisory frames compared field by field before and after:
 ``demo/coastal_approach`` offers M1.13 for M1.14 in its 301 frames with a Mach (110 act-by
-times differ with it); every other field of every frame of the five flights the same.
+times differ with it) and, slowed below the cutoff within the band, says "NEAR CUTOFF, BOOM
+MAY REACH" for "BOOM ON GROUND" in 9 frames (``near_cutoff`` now spans the band below the
+cutoff); every other field of every frame of the five flights the same.
 """
 
 from __future__ import annotations

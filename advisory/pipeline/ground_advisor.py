@@ -439,7 +439,8 @@ class GroundAdvisor:
         if sigma is not None and (named_zone := (fixed[0] if fixed else first)):
             p_reach = named_zone.probability
         reaches_now = bool(pred.on_ground[now_k])
-        near = abs(s.mach - cut_now) < lk.NEAR_CUTOFF_BAND  # ray theory unsure: say so
+        # ray theory unsure, or (below) the air below: say so
+        near = -self._predictor.band < s.mach - cut_now < lk.NEAR_CUTOFF_BAND
         if fixed:
             status = "unavoidable"  # never clear while a boom is on its way into a zone
         elif level == 0:

@@ -93,9 +93,11 @@ class Advisory:
         boom reaches the ground: ``Phi((M - cutoff) / sigma)`` at that emission; None
         without ``cutoff_sigma``.
     near_cutoff : bool
-        The present Mach lies within :data:`advisory.tables.lookup.NEAR_CUTOFF_BAND` of
-        the cutoff Mach: whether and where the boom reaches the ground is uncertain (ray
-        theory at the grazing ray); the prediction errs toward "the boom reaches".
+        The present Mach lies within :data:`advisory.tables.lookup.NEAR_CUTOFF_BAND` above
+        the cutoff Mach or within the lookups' band below it (the same 0.005, or ``z
+        sigma`` when the cutoff is read at a confidence): whether and where the boom
+        reaches the ground is uncertain (ray theory at the grazing ray, the air below); the
+        prediction errs toward "the boom reaches".
     """
 
     status: str

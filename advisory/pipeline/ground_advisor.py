@@ -192,6 +192,8 @@ class GroundAdvisor:
         self._spread = (spread_from_config(self.config, table.grid.ground_elevation_m)
                         if table.spread is not None and self.config.confidence > 0.0
                         else None)
+        self._sigma_key: tuple[int, ...] | None = None  # _present_sigma's memo
+        self._sigma: float | None = None
         #: the fallback past's lookups (own buffers: its length differs from the ahead's)
         self._fallback_lookup = FootprintPredictor(table)
         #: pressure altitude -> geometric height through the table's profile
@@ -481,12 +483,18 @@ class GroundAdvisor:
         )
 
     def _present_sigma(self, ahead: Trajectory) -> float | None:
-        """Standard deviation of the present cutoff Mach (None: not read at a confidence)."""
+        """Standard deviation of the present cutoff Mach (None: not read at a confidence);
+        kept while the height (10 m), flight-path angle (0.1 deg) and heading (1 deg) stay
+        (0.1-0.24 ms a computation, issue 16's step budget)."""
         if self._spread is None:
             return None
-        hdg = float(ahead.heading_rad[0])
-        return present_sigma(self._table, self._spread, float(ahead.alt_m[0]),
-                             float(ahead.fpa_rad[0]), hdg)
+        alt, fpa, hdg = float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), float(ahead.heading_rad[0])
+        key = (round(alt / 10.0), round(math.degrees(fpa) * 10.0), round(math.degrees(hdg)),
+               id(self._table))
+        if key != self._sigma_key:
+            self._sigma_key = key
+            self._sigma = present_sigma(self._table, self._spread, alt, fpa, hdg)
+        return self._sigma
 
     def _margin(self, sigma: float | None) -> float:
         """Mach margin under the cutoff: ``z sigma`` at the configured confidence, else the

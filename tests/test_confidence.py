@@ -245,3 +245,30 @@ def test_lookup_band_parity_with_the_twin(small_table):
         assert code == tcode and (code != lk.NO_BOOM) is reaches, dm
         if reaches:
             assert np.allclose(out, twin, rtol=1e-12, atol=1e-9)
+
+
+def test_check_keeps_the_configs_confidence_unless_told(tmp_path, small_table_path, capsys):
+    # a config with confidence 0 (the fixed margin) is not overridden by check's default
+    cfg = tmp_path / "fixed.toml"
+    cfg.write_text("[confidence]\nconfidence = 0\n")
+    sfile = tmp_path / "state.json"
+    st = state(mach=1.6)
+    sfile.write_text(json.dumps({"lat_deg": math.degrees(st.lat_rad),
+                                 "lon_deg": math.degrees(st.lon_rad), "alt_ft": ALT_FT,
+                                 "mach": 1.6, "heading_deg": 90.0,
+                                 "gs_kt": units.mps_to_kt(st.gs_mps), "bank_deg": 0.0,
+                                 "fpa_deg": 0.0}))
+    zfile = tmp_path / "zones.geojson"
+    zfile.write_text(json.dumps({"type": "FeatureCollection",
+                                 "features": [square("far", *point_along(400e3))]}))
+    base = ["check", "--state", str(sfile), "--zones", str(zfile), "--table",
+            str(small_table_path), "--json", "--spread-samples", "0"]
+    assert main(base + ["--config", str(cfg)]) == 0
+    fixed = json.loads(capsys.readouterr().out)
+    cut = fixed["cutoff_mach"]
+    assert fixed["max_mach_off_ground"] == math.floor(100 * (cut - 0.02) + 1e-9) / 100
+    assert fixed["cutoff_mach_interval"][0] is not None  # the command's intervals still are
+    assert main(base + ["--config", str(cfg), "--confidence", "0.95"]) == 0
+    told = json.loads(capsys.readouterr().out)
+    want = math.floor(100 * (cut - norm.ppf(0.95) * told["cutoff_mach_sigma"]) + 1e-9) / 100
+    assert told["max_mach_off_ground"] == want

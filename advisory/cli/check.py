@@ -100,9 +100,11 @@ def run(args: argparse.Namespace) -> int:
     else:
         table = default_table(args.aircraft)
     model = spread_model(args, table.grid.ground_elevation_m)
-    config = dataclasses.replace(config, confidence=float(args.confidence), **{
-        k: v for k, v in (("surface_temp_sigma_c", args.surface_temp_sigma_c),
-                          ("wind_sigma_kt", args.wind_sigma_kt)) if v is not None})
+    given: dict[str, Any] = {  # the options given override the config
+        k: float(v) for k, v in (("confidence", args.confidence),
+                                 ("surface_temp_sigma_c", args.surface_temp_sigma_c),
+                                 ("wind_sigma_kt", args.wind_sigma_kt)) if v is not None}
+    config = dataclasses.replace(config, **given)
     advisor = Advisor(table, zones, config)
     adv = advisor.step(state, now_monotonic=0.0)
     grounds = judged_grounds_ft(advisor, zones)

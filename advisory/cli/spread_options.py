@@ -29,8 +29,9 @@ def add_spread_options(p: argparse.ArgumentParser) -> None:
     """Register the confidence and spread options."""
     g = p.add_argument_group("confidence on the carpet (the air below is never known "
                              "exactly)")
-    g.add_argument("--confidence", type=float, default=DEFAULT_CONFIDENCE,
-                   help="confidence of the intervals, 0.5-0.999 (0.95)")
+    g.add_argument("--confidence", type=float, default=None,
+                   help="confidence of the intervals (and, for check, of the advisor), "
+                        "0.5-0.999 (0.95; check: the config's when not given)")
     g.add_argument("--surface-temp-sigma-c", type=float, default=None,
                    help="spread: surface temperature error, degC (default 2.0)")
     g.add_argument("--wind-sigma-kt", type=float, default=None,
@@ -46,9 +47,10 @@ def add_spread_options(p: argparse.ArgumentParser) -> None:
 
 def spread_model(args: argparse.Namespace, ground_m: float) -> SpreadModel:
     """The spread the options ask for; :class:`UsageError` names a bad option."""
-    conf = finite("--confidence", args.confidence)
-    if not 0.5 <= conf <= 0.999:
-        raise UsageError(f"--confidence: {args.confidence} must be from 0.5 to 0.999")
+    if args.confidence is not None:
+        conf = finite("--confidence", args.confidence)
+        if not 0.5 <= conf <= 0.999:
+            raise UsageError(f"--confidence: {args.confidence} must be from 0.5 to 0.999")
     if not (isinstance(args.spread_samples, int) and (args.spread_samples == 0
                                                       or 20 <= args.spread_samples <= 100_000)):
         raise UsageError(f"--spread-samples: {args.spread_samples} must be 0 or from 20 to "
@@ -98,7 +100,7 @@ def spread_fields(args: argparse.Namespace, model: SpreadModel, atm, aircraft,
                   fpa_rad: float, ground_m: float, cutoff: float, sigma: float
                   ) -> dict[str, Any]:
     """The interval fields of ``check --json`` / ``predict --json`` (aviation units)."""
-    conf = float(args.confidence)
+    conf = DEFAULT_CONFIDENCE if args.confidence is None else float(args.confidence)
     lo, hi = cutoff_interval(cutoff, sigma, conf) if math.isfinite(sigma) else (math.nan,
                                                                                  math.nan)
     out: dict[str, Any] = {

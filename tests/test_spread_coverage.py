@@ -26,13 +26,14 @@ import pytest
 
 from advisory import units
 from advisory.physics.aircraft import default_aircraft
-from advisory.physics.atmosphere import ProfileLevel, atmosphere_from_levels, standard_atmosphere
+from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR
 from advisory.physics.spread import default_spread, perturbed
 from advisory.pipeline.confidence import cutoff_interval, sample_carpet
-from advisory.tables.spread_table import column_cutoff, cutoff_sensitivity
+from advisory.tables.spread_table import column_cutoff, cutoff_sensitivity, to_east_north
+from tests.test_wind_tables import jet_day
 
 pytestmark = pytest.mark.slow
 
@@ -40,27 +41,14 @@ N_TRUTH = 1000
 BAND = (0.93, 0.97)  # issue 16, "done when"
 
 
-def windy_day():
-    """An invented windy day: standard temperatures, wind toward 070 deg, 10 kt at the
-    ground to 90 kt at 35,000 ft (as ``tests/test_wind_tables.py``)."""
-    std = standard_atmosphere()
-    levels = []
-    for ft, kt in ((0, 10), (10000, 25), (20000, 45), (30000, 70), (35000, 90), (40000, 70),
-                   (50000, 40), (60000, 30), (70000, 30)):
-        z = units.ft_to_m(ft)
-        w = units.kt_to_mps(kt)
-        levels.append(ProfileLevel(z, float(std.at(z).temperature_k),
-                                   w * math.cos(math.radians(20.0)),
-                                   w * math.sin(math.radians(20.0))))
-    return atmosphere_from_levels(levels, source="invented windy day")
-
-
 CASES = {
     # name: (atmosphere, altitude m, Mach, heading deg, spread overrides)
     "standard, 15,000 m, Mach 1.6": (standard_atmosphere, 15000.0, 1.6, 0.0, {}),
     "standard, 11,000 m, Mach 1.35": (standard_atmosphere, 11000.0, 1.35, 0.0, {}),
+    # the invented jet-stream day of tests/test_wind_tables.py: standard temperatures,
+    # wind toward 070 deg, 10 kt at the ground to 90 kt at 35,000 ft
     "windy, 14,000 m, Mach 1.5, heading 300, overrides": (
-        windy_day, 14000.0, 1.5, 300.0,
+        jet_day, 14000.0, 1.5, 300.0,
         {"surface_temp_sigma_k": 3.0, "wind_sigma_mps": units.kt_to_mps(6.0)}),
 }
 
@@ -83,11 +71,8 @@ def test_intervals_cover_93_to_97_percent_of_directly_traced_samples(name):
     hdg = math.radians(hdg_deg)
     model = default_spread(**over)
     # the tool: the cutoff's derivatives (what a table stores, here for this condition)
-    j = cutoff_sensitivity(atm, alt, hdg, 0.0, 0.0)
-    n = model.n_nodes
-    je = j.copy()  # along/across the heading -> east/north (as SpreadTable.jacobian)
-    je[n:2 * n] = j[n:2 * n] * math.sin(hdg) + j[2 * n:] * math.cos(hdg)
-    je[2 * n:] = j[n:2 * n] * math.cos(hdg) - j[2 * n:] * math.sin(hdg)
+    je = to_east_north(cutoff_sensitivity(atm, alt, hdg, 0.0, 0.0), math.sin(hdg),
+                       math.cos(hdg))
     cov = model.covariance(alt)
     sigma = math.sqrt(je @ cov @ je)
     cut0 = column_cutoff(RayTracer(atm), alt, hdg, 0.0, 0.0)

@@ -19,7 +19,7 @@ from advisory.pipeline.confidence import (
     cutoff_interval,
     sample_carpet,
 )
-from advisory.tables.spread_table import cutoff_sensitivity
+from advisory.tables.spread_table import cutoff_sensitivity, to_east_north
 
 __all__ = ["add_spread_options", "spread_model", "cutoff_sigma_direct", "spread_fields",
            "spread_lines"]
@@ -80,12 +80,8 @@ def cutoff_sigma_direct(atm, model: SpreadModel, altitude_m: float, heading_rad:
                         fpa_rad: float, ground_m: float) -> float:
     """Standard deviation of the cutoff Mach at one condition from derivatives computed
     for it (what a table's sensitivity columns hold, without the table)."""
-    j = cutoff_sensitivity(atm, altitude_m, heading_rad, fpa_rad, ground_m)
-    n = model.n_nodes
-    je = j.copy()
-    sh, ch = math.sin(heading_rad), math.cos(heading_rad)
-    je[n:2 * n] = j[n:2 * n] * sh + j[2 * n:] * ch
-    je[2 * n:] = j[n:2 * n] * ch - j[2 * n:] * sh
+    je = to_east_north(cutoff_sensitivity(atm, altitude_m, heading_rad, fpa_rad, ground_m),
+                       math.sin(heading_rad), math.cos(heading_rad))
     if not np.all(np.isfinite(je)):
         return math.nan
     return math.sqrt(max(float(je @ model.covariance(altitude_m) @ je), 0.0))

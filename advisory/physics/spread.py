@@ -49,7 +49,6 @@ from pathlib import Path
 
 import numpy as np
 
-from advisory import units
 from advisory.physics.atmosphere import (
     GAMMA,
     R_AIR,
@@ -304,7 +303,3 @@ def perturbed(atm: Atmosphere, delta: np.ndarray, source: str = "perturbed") -> 
                       description={"kind": "perturbed", "source": source,
                                    "base": atm.description})
 
-
-def kt_to_mps(kt: float) -> float:
-    """Knots to m/s (the commands' ``--wind-sigma-kt``)."""
-    return kt * units.KT

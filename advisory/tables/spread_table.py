@@ -48,7 +48,7 @@ from advisory.tables.grid import TableGrid
 from advisory.tables.workers import reset_signals
 
 __all__ = ["SPREAD_ARRAYS", "SpreadTable", "sub_grid", "column_cutoff", "edge_outputs",
-           "cutoff_sensitivity", "build_spread_arrays"]
+           "cutoff_sensitivity", "build_spread_arrays", "to_east_north"]
 
 #: Node steps of the central differences: small against the spread (1-4 K, 2-4 m/s), large
 #: against the bisection's tolerance (cutoff Mach 1e-6).
@@ -258,12 +258,8 @@ class SpreadTable:
         hdg = np.atleast_1d(np.asarray(headings_rad, dtype=np.float64))
         wh = _weights(self.ax_hdg, hdg, True)
         j = np.einsum("ai,fj,hk,ijkm->afhm", wa, wf, wh, self.sens)
-        n = NODES_M.size
-        sh, ch = np.sin(hdg)[None, None, :, None], np.cos(hdg)[None, None, :, None]
-        along, cross = j[..., n:2 * n].copy(), j[..., 2 * n:].copy()
-        j[..., n:2 * n] = along * sh + cross * ch
-        j[..., 2 * n:] = along * ch - cross * sh
-        return j
+        return to_east_north(j, np.sin(hdg)[None, None, :, None],
+                             np.cos(hdg)[None, None, :, None])
 
     def jacobian(self, altitude_m: float, fpa_rad: float, heading_rad: float) -> np.ndarray:
         """:meth:`jacobians` at one condition, shape (3 n,)."""
@@ -274,6 +270,18 @@ class SpreadTable:
         """Standard deviation of the cutoff Mach under the node covariance ``cov``."""
         j = self.jacobian(altitude_m, fpa_rad, heading_rad)
         return math.sqrt(max(float(j @ cov @ j), 0.0))
+
+
+def to_east_north(j: np.ndarray, sin_h, cos_h) -> np.ndarray:
+    """Derivatives with respect to the node values of temperature, wind along and across a
+    heading (last axis) turned to temperature, wind east and wind north (``sin_h``,
+    ``cos_h``: of the heading, broadcast against ``j``'s leading axes)."""
+    n = NODES_M.size
+    out = np.array(j, dtype=np.float64)
+    along, cross = out[..., n:2 * n].copy(), out[..., 2 * n:].copy()
+    out[..., n:2 * n] = along * sin_h + cross * cos_h
+    out[..., 2 * n:] = along * cos_h - cross * sin_h
+    return out
 
 
 def _weights(axis: np.ndarray, xs: np.ndarray, periodic: bool) -> np.ndarray:

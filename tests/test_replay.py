@@ -269,6 +269,7 @@ def test_bad_arguments_name_the_option(tmp_path, capsys) -> None:
         (["replay", str(d / "flight.rec"), "--zones", str(tmp_path / "z.geojson")],
          "--zones"),
         (["replay", str(d), str(d), "--send", "udp://127.0.0.1:9"], "--send"),
+        (["replay", str(d), "--edge-band", "-1"], "--edge-band: -1 is not in 0..100"),
     ):
         assert main(argv) == 2, argv
         err = capsys.readouterr().err

@@ -17,6 +17,7 @@ from typing import Any, cast
 import numpy as np
 
 from advisory import units
+from advisory.bench.edge_band import MAX_CONDITIONS, EdgeBand, band_row
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.footprint import CarpetPrediction, swath_polygon
 from advisory.pipeline.trajectory import Trajectory
@@ -37,10 +38,13 @@ class FlightCollector:
         Time origin (the first input's receive time), s.
     carpet_every_s : float
         Spacing of the carpet rows kept along the track, s of flight time.
+    edge_conditions : int
+        Conditions at which the carpet edge's confidence band is sampled at most
+        (:mod:`advisory.bench.edge_band`; 0: no band).
     """
 
     def __init__(self, loop: AdvisoryLoop, t0_monotonic: float,
-                 carpet_every_s: float = 1.0) -> None:
+                 carpet_every_s: float = 1.0, edge_conditions: int = MAX_CONDITIONS) -> None:
         self.loop = loop
         self.t0 = t0_monotonic
         self.every = carpet_every_s
@@ -58,6 +62,10 @@ class FlightCollector:
         self._last_row_t = -math.inf
         self._key: tuple[str, str | None] | None = None
         self._rank = 0
+        # a replay's loop always runs the real advisor (bench.scenario.make_loop)
+        self.band = EdgeBand(cast(Advisor, loop.advisor), max_conditions=edge_conditions)
+        #: The edge band beside the carpet rows (:func:`advisory.bench.edge_band.band_row`).
+        self.edge: list[dict[str, Any]] = []
 
     def on_step(self, now_monotonic: float) -> None:
         """Take what the step just computed (call after every advisor step)."""
@@ -114,6 +122,10 @@ class FlightCollector:
                           "lon": np.round(np.degrees(lo), 5).tolist(),
                           "psf": np.round(psf, 3).tolist()})
         self._last_row_t = t
+        iv = self.band.interval()
+        band = band_row(t, iv, pred, traj, k0) if iv is not None else None
+        if band is not None:
+            self.edge.append(band)
         foc = pred.focus_factor[k0][ok]
         for i in np.flatnonzero(foc >= self.threshold):
             self.focus.append([round(float(np.degrees(la[i])), 5),
@@ -165,4 +177,6 @@ class FlightCollector:
         """The collected data (plain lists; JSON-ready)."""
         return {"track": self.track, "rows": self.rows, "focus": self.focus,
                 "events": self.events, "focus_threshold": self.threshold,
-                "contacts": self.contacts}
+                "contacts": self.contacts,
+                "edge_band": {"confidence": self.band.confidence,
+                              "samples": self.band.samples, "rows": self.edge}}

@@ -118,6 +118,9 @@ def extent(flight: dict[str, Any], zones: list[dict[str, Any]],
         if ev.get("predicted"):
             lats += ev["predicted"][0]
             lons += ev["predicted"][1]
+    for ribbon in edge_ribbons(flight):
+        lats += [p[0] for p in ribbon]
+        lons += [p[1] for p in ribbon]
     for cell in (truth or {}).get("cells", []):
         lats.append(cell[0])
         lons.append(cell[1])
@@ -182,6 +185,31 @@ def swath_quads(rows: list[dict[str, Any]], every: float, max_rows: int = 400
             psf = 0.25 * (a["psf"][j] + a["psf"][j + 1] + b["psf"][j] + b["psf"][j + 1])
             quads.append((pts, psf))
     return quads
+
+
+def edge_ribbons(flight: dict[str, Any], max_rows: int = 400
+                 ) -> list[list[tuple[float, float]]]:
+    """The carpet edge's confidence band (:mod:`advisory.bench.edge_band`) as closed
+    rings of (lat, lon): one per side and per run of carpet rows at most 2.5 s apart,
+    outer edge forward then inner edge back. Long flights keep at most ``max_rows`` rows."""
+    rows = (flight.get("edge_band") or {}).get("rows", [])
+    stride = max(1, math.ceil(len(rows) / max_rows))
+    rows = rows[::stride]
+    runs: list[list[dict[str, Any]]] = []
+    for r in rows:
+        if runs and r["t_s"] - runs[-1][-1]["t_s"] <= 2.5 * stride:
+            runs[-1].append(r)
+        else:
+            runs.append([r])
+    rings = []
+    for run in runs:
+        if len(run) < 2:
+            continue
+        for side in ("left", "right"):
+            outer = [(r[side][1][0], r[side][1][1]) for r in run]
+            inner = [(r[side][0][0], r[side][0][1]) for r in reversed(run)]
+            rings.append(outer + inner)
+    return rings
 
 
 def advisory_series(outputs: list[tuple[float, float, bytes]], t0: float

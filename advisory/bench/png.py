@@ -25,6 +25,7 @@ from advisory.bench.figures import (
     RAMP,
     STATUS_COLOURS,
     TRUTH_PSF_MAX,
+    edge_ribbons,
     extent,
     fire_groups,
     missed_spans,
@@ -84,6 +85,10 @@ def map_png(name: str, flight: dict[str, Any], zones: list[dict[str, Any]],
                             linewidths=0.3, edgecolors="face")
         ax.add_collection(pc)
         fig.colorbar(pc, ax=ax, label="ground overpressure, psf", shrink=0.7, fraction=0.04)
+    for i, ring in enumerate(edge_ribbons(flight)):
+        ax.fill([p[1] for p in ring], [p[0] for p in ring], color="#1f3a5f", alpha=0.18,
+                lw=0.6, ls="--", ec="#1f3a5f", zorder=1.2,
+                label="carpet edge band (confidence)" if i == 0 else None)
     cells = (truth_fig or {}).get("cells", [])
     if cells:
         c = np.array(cells, dtype=float)

@@ -317,7 +317,8 @@ def replay_log(setup: ReplaySetup, loop: AdvisoryLoop | None = None) -> ReplayRe
     controls = scan.controls
     polls = (_recorded_polls(recorded, scan.recorded_counters, controls)
              if use_recorded or scan.service else [])
-    collector = FlightCollector(loop, res.t0_monotonic) if setup.collect else None
+    collector = (FlightCollector(loop, res.t0_monotonic, edge_conditions=setup.edge_conditions)
+                 if setup.collect else None)
     driver = _Driver(loop, carried_counters(polls) if scan.service else ())
     sender = _Sender(setup.send, loop.framing) if setup.send else None
     run = _Run(loop, driver, _Pacer(setup.speed, res.t0_monotonic), sender, collector)

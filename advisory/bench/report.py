@@ -100,6 +100,10 @@ def _flight_section(res: ReplayResult, out_dir: Path, pngs: bool) -> str:
                      + "<figcaption>Map: zones and their margins, track, carpet laid along the "
                      "track as predicted, coloured by ground overpressure, focus points, where "
                      "each cue fired, the carpet and contact points predicted then"
+                     + ("; beside the carpet's edges, the band where the edge lies at the "
+                        f"advisor's confidence ({100 * res.flight['edge_band']['confidence']:.0f}"
+                        " %; the air below is never known exactly)"
+                        if (res.flight.get("edge_band") or {}).get("rows") else "")
                      + ("; squares: where booms actually landed (truth), on a fixed scale"
                         if res.truth_figure is not None else "")
                      + ".</figcaption></figure>")

@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from advisory.bench.edge_band import MAX_CONDITIONS
 from advisory.bench.expect import load_expected
 from advisory.io.records import KIND_EVENT, Recorder, RecordReader, decode_event
 from advisory.physics.aircraft import default_aircraft, load_aircraft
@@ -68,6 +69,9 @@ class ReplaySetup:
         Transport URL that also receives the recorded input, paced at ``speed``.
     collect : bool
         Gather the track, carpet and advisory positions for a report.
+    edge_conditions : int
+        With ``collect``: conditions at which the carpet edge's confidence band is sampled
+        at most (:mod:`advisory.bench.edge_band`; 0: no band).
     clock : str
         ``auto`` (recorded output times when the log has them, else the loop's
         schedule), ``recorded`` or ``schedule``.
@@ -97,6 +101,7 @@ class ReplaySetup:
     speed: float = math.inf
     send: str | None = None
     collect: bool = False
+    edge_conditions: int = MAX_CONDITIONS
     clock: str = "auto"
     label_map: str | None = None
     framing: str | None = None

@@ -15,6 +15,7 @@ from advisory.bench.expect import Segment
 from advisory.bench.figures import (
     STATUS_COLOURS,
     Projection,
+    edge_ribbons,
     extent,
     fire_groups,
     nice_step,
@@ -50,6 +51,7 @@ def map_svg(name: str, flight: dict[str, Any], zones: list[dict[str, Any]], widt
            f'<rect class="sea" x="0" y="0" width="{width}" height="{height}" fill="#eef4f8"/>']
     out += _graticule(proj, width, height)
     out += _carpet(proj, flight, vmax)
+    out += _edge_band(proj, flight)
     if truth is not None:
         out += cells_layer(proj, truth)
     out += margins_layer(proj, zones)
@@ -102,6 +104,33 @@ def _carpet(proj: Projection, flight: dict[str, Any], vmax: float) -> list[str]:
     for pts, psf in swath_quads(flight["rows"], 1.0):
         c = ramp_colour(psf / vmax)
         out.append(f'<polygon points="{_pts(proj, pts)}" fill="{c}" stroke="{c}"/>')
+    out.append("</g>")
+    return out
+
+
+#: Colour of the carpet edge's confidence band.
+EDGE_BAND_COLOUR = "#1f3a5f"
+
+
+def _edge_band(proj: Projection, flight: dict[str, Any]) -> list[str]:
+    """The carpet edge's confidence band, each side a translucent ribbon."""
+    band = flight.get("edge_band") or {}
+    rings = edge_ribbons(flight)
+    if not rings:
+        return []
+    rows = band["rows"]
+    lo_l = min(r["half_width_km"]["left"][0] for r in rows)
+    hi_l = max(r["half_width_km"]["left"][1] for r in rows)
+    lo_r = min(r["half_width_km"]["right"][0] for r in rows)
+    hi_r = max(r["half_width_km"]["right"][1] for r in rows)
+    title = esc(f"carpet edge, {100 * band['confidence']:.0f} % band from "
+                f"{band['samples']} sampled atmospheres per condition: half-width left "
+                f"{lo_l:.1f}-{hi_l:.1f} km, right {lo_r:.1f}-{hi_r:.1f} km")
+    out = [f'<g class="edge-band" fill="{EDGE_BAND_COLOUR}" fill-opacity="0.18" '
+           f'stroke="{EDGE_BAND_COLOUR}" stroke-width="0.8" stroke-dasharray="3 2">'
+           f"<title>{title}</title>"]
+    for ring in rings:
+        out.append(f'<polygon points="{_pts(proj, ring)}"/>')
     out.append("</g>")
     return out
 
@@ -192,7 +221,7 @@ def _legend(proj: Projection, width: int, height: int, vmax: float) -> list[str]
     out: list[str] = []
     lx, ly = width - 200, 14
     out.append(f'<g class="legend" font-family="sans-serif" font-size="11" fill="#222">'
-               f'<rect x="{lx - 8}" y="{ly - 4}" width="200" height="98" fill="#fff" '
+               f'<rect x="{lx - 8}" y="{ly - 4}" width="200" height="114" fill="#fff" '
                'fill-opacity="0.85" stroke="#aaa"/>'
                f'<text x="{lx}" y="{ly + 10}">ground overpressure, psf</text>')
     for i in range(40):
@@ -211,7 +240,10 @@ def _legend(proj: Projection, width: int, height: int, vmax: float) -> list[str]
                f'<text x="{lx + 104}" y="{ly + 70}">focus</text>'
                f'<line x1="{lx}" y1="{ly + 82}" x2="{lx + 12}" y2="{ly + 82}" stroke="#f2994a" '
                'stroke-width="1.4" stroke-dasharray="4 2"/>'
-               f'<text x="{lx + 18}" y="{ly + 86}">carpet predicted at a cue</text></g>')
+               f'<text x="{lx + 18}" y="{ly + 86}">carpet predicted at a cue</text>'
+               f'<rect x="{lx}" y="{ly + 94}" width="12" height="9" fill="{EDGE_BAND_COLOUR}" '
+               f'fill-opacity="0.18" stroke="{EDGE_BAND_COLOUR}" stroke-dasharray="3 2"/>'
+               f'<text x="{lx + 18}" y="{ly + 102}">carpet edge band (confidence)</text></g>')
     km = nice_step(120.0 / proj.px_per_km(), 1)
     bar = km * proj.px_per_km()
     out.append(f'<g class="scalebar" font-family="sans-serif" font-size="11">'

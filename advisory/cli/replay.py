@@ -7,11 +7,13 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import argparse
+import dataclasses
 import json
 import sys
 
 from advisory.bench.batch import TruthRequest, replay_many
 from advisory.bench.campaign_engine import DaskEngine
+from advisory.bench.edge_band import MAX_CONDITIONS
 from advisory.bench.replay_truth import truth_lines
 from advisory.bench.report import write_report
 from advisory.bench.result import ReplayResult, cue_lines, read_notes, summary_table
@@ -26,6 +28,7 @@ from advisory.cli.options import (
 from advisory.schema import SAFETY_CAUTION
 
 MAX_WORKERS = 1024  #: most Dask workers a local cluster may be asked for
+MAX_EDGE_BAND = 100  #: most conditions a log's edge band may be sampled at
 
 
 def add_parser(sub: argparse._SubParsersAction) -> None:
@@ -58,6 +61,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="expected advisories (JSON); 'auto': the expected.json named by "
                         "each log's scenario.toml")
     p.add_argument("--report", metavar="DIR", help="write report.html and PNG figures here")
+    p.add_argument("--edge-band", type=int, default=MAX_CONDITIONS, metavar="N",
+                   help="with --report: sample the carpet edge's confidence band at up to N "
+                   f"flight conditions per log (about 2.5 s each; 0: none; default "
+                   f"{MAX_CONDITIONS})")
     p.add_argument("--truth", action="store_true",
                    help="also trace the ground truth of each flight from its air-data "
                         "frames (where every boom landed) and score the advice against it")
@@ -136,6 +143,8 @@ def run_replay(args: argparse.Namespace) -> int:
         raise ReplayError("--send: give exactly one LOG to send")
     if args.jobs < 0:
         raise ReplayError(f"--jobs: {args.jobs} must be >= 0")
+    if not 0 <= args.edge_band <= MAX_EDGE_BAND:
+        raise ReplayError(f"--edge-band: {args.edge_band} is not in 0..{MAX_EDGE_BAND}")
     engine = _engine(args)
     human = not args.json
     if human:
@@ -147,6 +156,7 @@ def run_replay(args: argparse.Namespace) -> int:
                       clock=args.clock, quiet=args.json,
                       trust_log_paths=args.trust_log_paths)
               for log in args.logs]
+    setups = [dataclasses.replace(s, edge_conditions=args.edge_band) for s in setups]
     results = []
     truth = TruthRequest(args.aircraft, bool(args.report)) if args.truth else None
     for res in replay_many(setups, args.jobs or None, truth=truth, engine=engine):

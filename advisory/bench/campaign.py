@@ -56,6 +56,8 @@ class CampaignResult:
         The advisor knew the air only to within the default spread (``campaign --spread``).
     config : str or None
         The advisor config every encounter ran with (None: the defaults).
+    near_cutoff : bool
+        The flights started near the cutoff Mach (``campaign --near-cutoff``).
     """
 
     seed: int
@@ -68,19 +70,21 @@ class CampaignResult:
     known: bool = False
     spread: bool = False
     config: str | None = None
+    near_cutoff: bool = False
 
 
 def sample_campaign(count: int, seed: int, known: bool = False, spread: bool = False,
-                    config: str | None = None) -> list[Encounter]:
+                    config: str | None = None, near_cutoff: bool = False) -> list[Encounter]:
     """The ``count`` encounters of the campaign seeded ``seed`` (``known``: as
     :func:`advisory.bench.campaign_sample.as_known`; ``spread``: as
     :func:`~advisory.bench.campaign_sample.as_spread`; ``config``: the advisor config file
-    every encounter runs with)."""
+    every encounter runs with; ``near_cutoff``: ``spread`` with the start Mach near the
+    cutoff, :mod:`advisory.bench.campaign_sample`)."""
     if not 1 <= count <= MAX_COUNT:
         raise ValueError(f"--count: {count} is not in 1..{MAX_COUNT}")
     if seed < 0:
         raise ValueError(f"--seed: {seed} is not >= 0")
-    out = [sample_encounter(seed, i, known, spread) for i in range(count)]
+    out = [sample_encounter(seed, i, known, spread, near_cutoff) for i in range(count)]
     if config is not None:
         for e in out:
             e.doc["advisor"]["config"] = str(config)
@@ -89,7 +93,7 @@ def sample_campaign(count: int, seed: int, known: bool = False, spread: bool = F
 
 def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
                  progress: Progress | None = None, known: bool = False, spread: bool = False,
-                 config: str | None = None) -> CampaignResult:
+                 config: str | None = None, near_cutoff: bool = False) -> CampaignResult:
     """Sample, fly and measure a campaign.
 
     Parameters
@@ -105,14 +109,14 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
         Called as ``progress(done, total, failed)`` after each encounter completes.
     known : bool
         Encounters whose inputs the advisor knows (``campaign --known``).
-    spread, config : bool, str or None
+    spread, config, near_cutoff : bool, str or None, bool
         As :func:`sample_campaign`.
 
     Returns
     -------
     CampaignResult
     """
-    encounters = sample_campaign(count, seed, known, spread, config)
+    encounters = sample_campaign(count, seed, known, spread, config, near_cutoff)
     by_index: dict[int, dict[str, Any]] = {}
     failed = 0
     t0 = time.perf_counter()
@@ -128,4 +132,5 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
     return CampaignResult(seed=seed, count=count, engine=engine.description,
                           encounters=encounters, records=records,
                           metrics=campaign_metrics(records, seed), elapsed_s=elapsed,
-                          known=known, spread=spread, config=config)
+                          known=known, spread=spread or near_cutoff, config=config,
+                          near_cutoff=near_cutoff)

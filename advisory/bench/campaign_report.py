@@ -55,6 +55,7 @@ def summary(result: CampaignResult) -> dict[str, Any]:
                 for e, r in zip(result.encounters, result.records) if r.get("error")]
     return {"caution": SAFETY_CAUTION, "package_version": VERSION, "seed": result.seed,
             "count": result.count, "known": result.known, "spread": result.spread,
+            "near_cutoff": result.near_cutoff,
             "config": result.config, "engine": result.engine,
             "elapsed_s": round(result.elapsed_s, 3), "metrics": result.metrics,
             "failures": failures}
@@ -75,6 +76,8 @@ def text_lines(result: CampaignResult) -> list[str]:
     if result.spread:
         known = ("; the advisor knows the crew, and the air to within the default spread "
                  "(--spread)")
+    if result.near_cutoff:
+        known += "; every flight starts near the cutoff Mach (--near-cutoff)"
     if result.config:
         known += f"; advisor config {result.config}"
     lines = [f"boom-advisory campaign: {result.count} encounters, seed {result.seed} "
@@ -97,6 +100,30 @@ def text_lines(result: CampaignResult) -> list[str]:
     rows.append(("unavailable_fraction", _num(u["value"]),
                  f"[{_num(u['low'])}, {_num(u['high'])}]", "flight time, every run"))
     rows.append(("scenarios", str(m["scenarios"]["value"]), "-", f"{m['failed']} failed"))
+    cal = m.get("calibration") or {}
+    for key, what in (("interval_coverage", "starts: truth cutoff inside the advisor's "
+                       "two-sided interval"),
+                      ("margin_exceedance", "starts: truth cutoff below the advisor's cutoff "
+                       "less its margin")):
+        r = cal.get(key)
+        if r and r["of"]:
+            rows.append((key, _num(r["value"]), f"[{_num(r['low'])}, {_num(r['high'])}]",
+                         f"{r['count']} of {r['of']} {what}"))
+    if cal.get("brier_score") is not None:
+        rows.append(("brier_score (boom reaches)", _num(cal["brier_score"]), "-",
+                     f"{cal['interval_coverage']['of']} starts; 0 perfect"))
+        for b in cal["reliability"]:
+            o = b["observed"]
+            if b["count"]:
+                rows.append((f"reaches, stated {b['bin'][0]:g}-{b['bin'][1]:g}",
+                             _num(o["value"]), f"[{_num(o['low'])}, {_num(o['high'])}]",
+                             f"{o['count']} of {o['of']} starts reached; stated mean "
+                             f"{b['stated']:.3f}"))
+    if cal.get("margin_mach_median") is not None:
+        sig = cal.get("sigma_median")
+        rows.append(("margin_mach (median)", f"{cal['margin_mach_median']:.4f}", "-",
+                     f"cutoff sigma median {sig:.4f}, confidence {cal['confidence']}"
+                     if sig is not None else "the fixed margin (no confidence)"))
     widths = [max(len(r[i]) for r in rows) for i in range(4)]
     for i, r in enumerate(rows):
         lines.append(" | ".join(c.ljust(w) for c, w in zip(r, widths)).rstrip())
@@ -219,7 +246,8 @@ def outcomes_svg(classes: dict[str, int], width: int = 560, row_h: int = 24) -> 
 
 def html_page(result: CampaignResult) -> str:
     """summary.html: caution, the metrics table, the two plots."""
-    table = "\n".join(f"<tr><td>{esc(line)}</td></tr>" for line in text_lines(result)[3:])
+    lines = text_lines(result)
+    table = "\n".join(f"<tr><td>{esc(line)}</td></tr>" for line in lines[3:])
     values = lead_times(result.records)
     return (
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
@@ -229,6 +257,7 @@ def html_page(result: CampaignResult) -> str:
         "</style></head><body>\n"
         f"<p class=\"caution\">{esc(SAFETY_CAUTION)}</p>\n"
         f"<h1>Campaign: {result.count} encounters, seed {result.seed}</h1>\n"
+        f"<p>{esc(lines[0])}</p>\n"
         f"<p>{esc(result.engine)}; {result.elapsed_s:.0f} s; boom-advisory {esc(VERSION)}; "
         f"per-scenario rows in <a href=\"{CSV_NAME}\">{CSV_NAME}</a>.</p>\n"
         f"<table>{table}</table>\n"

@@ -53,6 +53,12 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
   altitude taken as the height), from a generator of its own
   (``SeedSequence(S, spawn_key=(i, 16))``): the advisor's confidence is then measured
   against errors of exactly the size it assumes.
+* ``near_cutoff`` (``campaign --spread --near-cutoff``, issue 16): as ``spread``, but the
+  start Mach is the planning air's cutoff Mach at the start (height, heading, level,
+  sea-level ground) plus ``U(-0.04, 0.03)`` (floor 1.02), from a generator of its own
+  (``SeedSequence(S, spawn_key=(i, 17))``), and only a turn is kept of the manoeuvres (a
+  change of Mach or height would leave the band): the flights where the margin under the
+  cutoff decides, which uniform Mach rarely draws.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight. Encounters are invented flights over invented places.
@@ -70,10 +76,13 @@ from advisory import units
 from advisory.bench.sim_scenario import AirSpec
 from advisory.bench.sim_world import atmosphere_of
 from advisory.geo.geodesy import direct_deg
-from advisory.physics.atmosphere import standard_atmosphere, ussa1976
+from advisory.physics.atmosphere import Atmosphere, standard_atmosphere, ussa1976
+from advisory.physics.pressure_altitude import HeightConverter
+from advisory.physics.rays import RayTracer
 from advisory.physics.spread import NODES_M, default_spread, perturbed
 from advisory.pipeline.config import AdvisorConfig
 from advisory.schema import EARTH_MEAN_RADIUS_M
+from advisory.tables.spread_table import column_cutoff
 
 GEOMETRIES = ("ahead", "offset", "crossing")
 GEOMETRY_P = (0.40, 0.35, 0.25)
@@ -90,6 +99,8 @@ LEVELS_FT = tuple(float(x) for x in range(0, 90001, 10000))
 STRIP_LENGTH_KM = 150.0
 #: The boom that first reaches the zone is emitted at U(a, T - b) s (T: flight time).
 EMIT_S_RANGE = (40.0, 30.0)
+#: ``near_cutoff``: the start Mach less the planning air's cutoff Mach, U(a, b).
+NEAR_CUTOFF_OFFSET = (-0.04, 0.03)
 
 
 def encounter_rng(seed: int, index: int) -> np.random.Generator:
@@ -276,8 +287,31 @@ class Encounter:
     info: dict[str, Any]
 
 
+def _planning_atmosphere(air: dict[str, Any]) -> Atmosphere:
+    """The atmosphere of an ``[atmosphere]`` table as sampled (levels, an offset, or
+    none: the standard atmosphere)."""
+    if "levels" in air:
+        return atmosphere_of(AirSpec(levels=tuple(tuple(r) for r in air["levels"])),
+                             "planning")
+    return standard_atmosphere(float(air.get("isa_offset_c", 0.0)))
+
+
+def _near_cutoff(seed: int, index: int, start: dict[str, float],
+                 schedule: list[dict[str, Any]], air: dict[str, Any]) -> list[dict[str, Any]]:
+    """Set the start Mach near the planning air's cutoff (module notes, ``near_cutoff``);
+    the schedule kept (a turn, or nothing)."""
+    rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(index, 17)))
+    atm = _planning_atmosphere(air)
+    z = HeightConverter(atm).height(units.ft_to_m(start["alt_ft"]))
+    cut = column_cutoff(RayTracer(atm), z, math.radians(start["heading_deg"]), 0.0, 0.0)
+    offset = rng.uniform(*NEAR_CUTOFF_OFFSET)
+    if math.isfinite(cut):
+        start["mach"] = _r(max(1.02, cut + offset), 3)
+    return [m for m in schedule if m["kind"] == "turn"]
+
+
 def sample_encounter(seed: int, index: int, known: bool = False,
-                     spread: bool = False) -> Encounter:
+                     spread: bool = False, near_cutoff: bool = False) -> Encounter:
     """Encounter ``index`` of the campaign seeded ``seed``.
 
     Parameters
@@ -291,6 +325,8 @@ def sample_encounter(seed: int, index: int, known: bool = False,
         so the flight, zone and true air are those of the encounter without it.
     spread : bool
         As ``known``, the truth's air then perturbed by the spread (:func:`as_spread`).
+    near_cutoff : bool
+        As ``spread``, the start Mach near the cutoff (module notes).
 
     Returns
     -------
@@ -308,6 +344,9 @@ def sample_encounter(seed: int, index: int, known: bool = False,
     schedule = _manoeuvre(rng, start["mach"], start["alt_ft"])
     true_kind, truth = _true_air(rng)
     adv_kind, adv_air = _advisor_air(rng, truth)
+    spread = spread or near_cutoff
+    if near_cutoff:
+        schedule = _near_cutoff(seed, index, start, schedule, truth)
     geometry, crossing, zone = _zone(rng, start, duration_s)
     _off_antimeridian(start, zone)
     faults = []
@@ -375,11 +414,7 @@ def as_spread(doc: dict[str, Any], seed: int, index: int) -> None:
     truth is that air plus one drawn error field, given as levels at the field's nodes
     and every 10,000 ft (linear between them, as the field)."""
     planning = doc.get("atmosphere", {})
-    if "levels" in planning:
-        atm = atmosphere_of(AirSpec(levels=tuple(tuple(r) for r in planning["levels"])),
-                            "planning")
-    else:
-        atm = standard_atmosphere(float(planning.get("isa_offset_c", 0.0)))
+    atm = _planning_atmosphere(planning)
     doc["advisor"]["atmosphere"] = dict(planning) or {"isa_offset_c": 0.0}
     rng = np.random.default_rng(np.random.SeedSequence(seed, spawn_key=(index, 16)))
     z_a = units.ft_to_m(float(doc["start"]["alt_ft"]))

@@ -28,7 +28,10 @@ encounters whose ignore run has an exposure exceeding the zone's limit plus marg
 Over the encounters whose ignore run has no exposure at all, ``nuisance_alert_rate``
 (at least one nuisance alert). ``unavailable_fraction``: unavailable time over flight
 time, every run. ``scenarios``: encounters counted (those that ran; failures are
-counted apart).
+counted apart). ``calibration`` (:func:`calibration_metrics`): what the advisor said
+about the cutoff Mach at the start of each ignore run against the truth's air
+(:mod:`advisory.bench.calibration`): the coverage of its interval, how often the truth's
+cutoff fell below its margin, the Brier score and reliability of its probability.
 
 Intervals: the Wilson score interval for rates (E. B. Wilson, "Probable inference, the
 law of succession, and statistical inference", J. Amer. Statist. Assoc. 22 (1927)
@@ -48,6 +51,8 @@ from collections import Counter
 from typing import Any
 
 import numpy as np
+
+from advisory.pipeline.confidence import z_two_sided
 
 #: Two-sided 95 % standard normal quantile, Phi^-1(0.975) (any normal table).
 Z95 = 1.959963984540054
@@ -245,9 +250,48 @@ def campaign_metrics(records: list[dict[str, Any]], seed: int = 0) -> dict[str, 
         "scenarios": {"value": n, "low": n, "high": n},
         "failed": len(records) - n,
         "classes": dict(sorted(classes.items())),
+        "calibration": calibration_metrics([r["ignore"].get("calibration") for r in ok]),
     }
 
 
 def lead_times(records: list[dict[str, Any]]) -> list[float]:
     """Every alerted lead time of the exposed encounters (s), for the histogram."""
     return [t for r in records if not r.get("error") for t in classify(r)["lead_times"]]
+
+
+#: Bins of the stated probability for the reliability table (edges).
+RELIABILITY_BINS = (0.0, 0.05, 0.5, 0.95, 1.0)
+
+
+def calibration_metrics(points: list[dict[str, Any]]) -> dict[str, Any]:
+    """The campaign's calibration (:mod:`advisory.bench.calibration`) over the judged
+    points given (one an encounter); empty counts when none."""
+    judged = [p for p in points if p is not None and p.get("truth_cutoff_mach") is not None]
+    with_sigma = [p for p in judged if p.get("cutoff_sigma")]
+    inside = 0
+    for p in with_sigma:
+        half = z_two_sided(p["confidence"]) * p["cutoff_sigma"]
+        inside += abs(p["truth_cutoff_mach"] - p["cutoff_mach"]) <= half
+    below = sum(p["truth_cutoff_mach"] < p["cutoff_mach"] - p["margin_mach"] for p in judged)
+    probs = np.array([p["boom_probability"] for p in with_sigma], dtype=float)
+    outcome = np.array([p["truth_reaches"] for p in with_sigma], dtype=float)
+    reliability = []
+    for lo, hi in zip(RELIABILITY_BINS, RELIABILITY_BINS[1:]):
+        sel = (probs >= lo) & ((probs < hi) | (hi == 1.0))
+        n = int(sel.sum())
+        reliability.append({"bin": [lo, hi], "count": n,
+                            "stated": round(float(probs[sel].mean()), 4) if n else None,
+                            "observed": rate(int(outcome[sel].sum()), n)})
+    conf = sorted({p["confidence"] for p in with_sigma})
+    return {
+        "of": len(judged),
+        "confidence": conf[0] if len(conf) == 1 else conf,
+        "interval_coverage": rate(int(inside), len(with_sigma)),
+        "margin_exceedance": rate(int(below), len(judged)),
+        "margin_mach_median": round(float(np.median([p["margin_mach"] for p in judged])), 4)
+        if judged else None,
+        "sigma_median": round(float(np.median([p["cutoff_sigma"] for p in with_sigma])), 5)
+        if with_sigma else None,
+        "brier_score": round(float(np.mean((probs - outcome) ** 2)), 4) if probs.size else None,
+        "reliability": reliability,
+    }

@@ -37,6 +37,7 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
+from advisory.bench import calibration
 from advisory.bench.crew import Crew, CrewAction
 from advisory.bench.expect import Segment as StatusSegment
 from advisory.bench.expect import segments_of
@@ -95,6 +96,9 @@ class SimulationResult:
         The loop's counters at the end.
     truth_zones : list of TruthZone
         The zones the truth was traced for.
+    calibration : dict or None
+        What the advisor first said about the cutoff Mach, and the truth's cutoff there
+        (:mod:`advisory.bench.calibration`).
     """
 
     scenario: Scenario
@@ -107,6 +111,7 @@ class SimulationResult:
     feed_counts: dict[str, int] = field(default_factory=dict)
     counters: dict[str, int] = field(default_factory=dict)
     truth_zones: list[TruthZone] = field(default_factory=list)
+    calibration: dict[str, Any] | None = None
 
     def resolution(self) -> dict[str, Any]:
         """``followed`` (the crew acted on a cue), ``kind`` (``mach``/``turn``/None),
@@ -144,6 +149,7 @@ class SimulationResult:
             "resolution": self.resolution(),
             "unavailable_s": self.score.unavailable_s,
             "feed": dict(self.feed_counts),
+            "calibration": self.calibration,
         }
 
 
@@ -175,6 +181,8 @@ class _Flight:
         self.feed = FeedEncoder(sc.source, sc.seed, MONO_START_S, START_UTC_S)
         self.pending: deque[Chunk] = deque()
         self.outputs: list[Chunk] = []
+        #: What the advisor first said about the cutoff (:func:`calibration.take`).
+        self.said: dict[str, Any] | None = None
 
     def run(self) -> None:
         sc = self.sc
@@ -214,6 +222,8 @@ class _Flight:
                 f = decode_frame(payload)
                 if f.type == "adv":
                     self.crew.see(t_poll - MONO_START_S, f.fields)
+                    if self.said is None:
+                        self.said = calibration.take(loop, t_poll - MONO_START_S)
 
 
 def simulate(scenario: Scenario, record: str | Path | None = None, quiet: bool = True,
@@ -260,6 +270,7 @@ def simulate(scenario: Scenario, record: str | Path | None = None, quiet: bool =
     res.score = score_flight(res.truth, res.segments, scenario.crew.reaction_s,
                              zones=world.truth_zones)
     res.truth_zones = list(world.truth_zones)
+    res.calibration = calibration.judge(flight.said, world.true_atmosphere)
     if ts.act_by and scenario.crew.mode != "follow":
         _add_truth_act_by(res, world)
     return res

@@ -63,6 +63,9 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                    help="as --known, but the true air is the advisor's plus an error drawn "
                         "from the default spread of the air below (issue 16: calibration of "
                         "its confidence)")
+    p.add_argument("--near-cutoff", action="store_true",
+                   help="as --spread, with every flight starting within -0.04/+0.03 of the "
+                        "cutoff Mach of the advisor's air (where its margin decides)")
     p.add_argument("--config", metavar="FILE",
                    help="advisor thresholds (TOML) for every encounter, e.g. [confidence] "
                         "confidence = 0 for the fixed-margin baseline")
@@ -123,7 +126,8 @@ def campaign_command(args: argparse.Namespace) -> int:
         config = str(Path(args.config).resolve())
     engine = engine_from(args)
     result = run_campaign(args.count, args.seed, engine, run_encounter, progress=_Progress(),
-                          known=args.known, spread=args.spread, config=config)
+                          known=args.known, spread=args.spread, config=config,
+                          near_cutoff=args.near_cutoff)
     if out is not None:
         for path in write_outputs(result, out):
             print(f"campaign: wrote {path}", file=sys.stderr)

@@ -75,6 +75,9 @@ class Advisor(GroundAdvisor):
         for g in grounds:
             g.other_grounds = _others_of(g, grounds)
         self._level_base = table  # the base table the level tables were made from
+        #: The last step's advisory for the base table's own ground alone (before the
+        #: levels merge: its cutoff Mach and sigma are of that ground), None before one.
+        self.base_advisory: Advisory | None = None
 
     def _shared_projection(self, lat: float, lon: float) -> ProjectedZones:
         """The base's projection of every zone (made in its step, just before)."""
@@ -96,6 +99,7 @@ class Advisor(GroundAdvisor):
         """One advisory for one air-data state (every ground level); never raises on bad
         input. See :meth:`GroundAdvisor.step`."""
         base = super().step(state, now_monotonic)
+        self.base_advisory = base  # the table's own ground (calibration, issue 16)
         if not self.levels:
             return base
         self._follow_base_atmosphere()

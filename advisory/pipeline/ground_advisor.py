@@ -409,7 +409,7 @@ class GroundAdvisor:
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
         t_state = self._state_time(s, now)
-        sigma = self._present_sigma(ahead)  # the cutoff's, from the air below (issue 16)
+        sigma = self._present_sigma(ahead, s.heading_rad)  # the cutoff's (issue 16)
         self._predictor.band = self._fallback_lookup.band = lookup_band(
             sigma, self.config.confidence)
         rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
@@ -482,13 +482,15 @@ class GroundAdvisor:
             cutoff_sigma=sigma, boom_probability=p_reach,
         )
 
-    def _present_sigma(self, ahead: Trajectory) -> float | None:
+    def _present_sigma(self, ahead: Trajectory, heading_rad: float) -> float | None:
         """Standard deviation of the present cutoff Mach (None: not read at a confidence);
         kept while the height (10 m), flight-path angle (0.1 deg) and heading (1 deg) stay
-        (0.1-0.24 ms a computation, issue 16's step budget)."""
+        (0.1-0.24 ms a computation, issue 16's step budget). ``heading_rad``: the state's
+        true heading (the trajectory's first; taken from the state, so that a still-air
+        step does not locate the whole trajectory on the ellipsoid for it)."""
         if self._spread is None:
             return None
-        alt, fpa, hdg = float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), float(ahead.heading_rad[0])
+        alt, fpa, hdg = float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), float(heading_rad)
         key = (round(alt / 10.0), round(math.degrees(fpa) * 10.0), round(math.degrees(hdg)),
                id(self._table))
         if key != self._sigma_key:

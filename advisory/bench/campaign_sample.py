@@ -53,7 +53,7 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
   altitude taken as the height), from a generator of its own
   (``SeedSequence(S, spawn_key=(i, 16))``): the advisor's confidence is then measured
   against errors of exactly the size it assumes.
-* ``near_cutoff`` (``campaign --spread --near-cutoff``, issue 16): as ``spread``, but the
+* ``near_cutoff`` (``campaign --near-cutoff``, issue 16): as ``spread``, but the
   start Mach is the planning air's cutoff Mach at the start (height, heading, level,
   sea-level ground) plus ``U(-0.04, 0.03)`` (floor 1.02), from a generator of its own
   (``SeedSequence(S, spawn_key=(i, 17))``), and only a turn is kept of the manoeuvres (a

@@ -179,4 +179,5 @@ class FlightCollector:
                 "events": self.events, "focus_threshold": self.threshold,
                 "contacts": self.contacts,
                 "edge_band": {"confidence": self.band.confidence,
-                              "samples": self.band.samples, "rows": self.edge}}
+                              "samples": self.band.samples, "rows": self.edge,
+                              "errors": self.band.errors}}

@@ -87,6 +87,8 @@ class EdgeBand:
         self.samples = int(samples)
         self.max_conditions = int(max_conditions)
         self.sampled: list[EdgeInterval] = []
+        #: One line per condition whose sampling failed (its rows get no band).
+        self.errors: list[str] = []
 
     @property
     def enabled(self) -> bool:
@@ -108,11 +110,16 @@ class EdgeBand:
         table = self.advisor.table
         ground = float(table.grid.ground_elevation_m)
         model = spread_from_config(self.advisor.config, ground)
-        sp = sample_carpet(table.atmosphere(), aircraft_from_dict(table.header["aircraft"],
-                                                                  "table"),
-                           alt, mach, hdg, fpa, ground, float(table.header["reflection_factor"]),
-                           model, self.confidence, self.samples)
-        s = EdgeInterval(now, sp.half_width_left_m, sp.half_width_right_m)
+        try:
+            sp = sample_carpet(table.atmosphere(),
+                               aircraft_from_dict(table.header["aircraft"], "table"), alt, mach,
+                               hdg, fpa, ground, float(table.header["reflection_factor"]),
+                               model, self.confidence, self.samples)
+            left, right = sp.half_width_left_m, sp.half_width_right_m
+        except (ValueError, ArithmeticError) as exc:  # a report never stops a replay
+            self.errors.append(f"edge band at {alt:.0f} m, Mach {mach:.3f}: {exc}")
+            left = right = (math.nan, math.nan)  # kept: not tried again at this condition
+        s = EdgeInterval(now, left, right)
         self.sampled.append(s)
         return s
 

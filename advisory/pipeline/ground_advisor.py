@@ -5,19 +5,19 @@ and resolutions, for the zones its table's ground judges.
 :class:`GroundAdvisor` for the zones on its table's ground and holds one more for each
 higher ground level of the zone file (:mod:`.ground_levels`).
 
-One :meth:`GroundAdvisor.step` predicts the trajectory ahead (:mod:`.trajectory`), takes the
-booms still in the air from the states flown (:mod:`.history`: the advisor keeps every
-state it steps on, one per emission spacing, so a replay and the live loop feed it the
-same way), lays the boom carpet on the ground from the tables (:mod:`.footprint`), and
-finds the zones it reaches (:mod:`.conflicts`), split into the booms emitted before the
-crew can act (within ``reaction_s``: nothing changes them) and the later ones. For the
-later ones it flies the resolutions as trials (:mod:`.resolutions`, :mod:`.trial`): the
-largest Mach reached by decelerating that clears, the smallest left and right turns
-(with roll-in) that clear, both together when neither alone does, and the act-by time,
-the latest moment the offered action can start and still clear; the level is set on the
-act-by time with hysteresis (:mod:`.levels`). The air data's pressure altitude becomes the
-geometric height in the table's atmosphere first
-(:mod:`advisory.physics.pressure_altitude`). The advisory and its crew line are in
+One :meth:`GroundAdvisor.step` predicts the trajectory ahead (:mod:`.trajectory`), takes
+the booms still in the air from the states flown (:mod:`.in_air` and :mod:`.history`:
+the advisor keeps every state it steps on, one per emission spacing, so a replay and the
+live loop feed it the same way), lays the boom carpet on the ground from the tables
+(:mod:`.footprint`), and finds the zones it reaches (:mod:`.conflicts`), split into the
+booms emitted before the crew can act (within ``reaction_s``: nothing changes them) and
+the later ones. For the later ones it flies the resolutions as trials
+(:mod:`.resolutions`, :mod:`.trial`): the largest Mach reached by decelerating that
+clears, the smallest left and right turns (with roll-in) that clear, both together when
+neither alone does, and the act-by time, the latest moment the offered action can start
+and still clear; the level is set on the act-by time with hysteresis (:mod:`.levels`).
+The air data's pressure altitude becomes the geometric height in the table's atmosphere
+first (:mod:`advisory.physics.pressure_altitude`). The advisory and its crew line are in
 :mod:`.results` and :mod:`.cues`.
 
 Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
@@ -59,7 +59,8 @@ from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.ground_levels import masked_zones
-from advisory.pipeline.history import FlownHistory, FlownPast, join_past, past_trajectory
+from advisory.pipeline.history import FlownHistory, FlownPast
+from advisory.pipeline.in_air import InAir, state_time
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import (
@@ -77,8 +78,8 @@ from advisory.pipeline.table_range import mach_outside_table, outside_table
 from advisory.pipeline.trajectory import (
     SpeedOfSound,
     Trajectory,
+    heading_at_deg,
     predict_trajectory,
-    subset_trajectory,
 )
 from advisory.pipeline.zone_projection import ZoneFrames
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
@@ -171,11 +172,8 @@ class GroundAdvisor:
         # the live table and what is derived from it (renewed when a rebuilt one comes in)
         (self._table, self._predictor, self._atm, self._sound,
          self._strips) = self._table_parts(self._current_table())
-        #: Generation of the live table (stored with each flown-history entry).
-        self._table_gen = 0
-        #: The states flown, from which the booms still in the air are placed.
-        self.history = FlownHistory(self._table.eta.size, self.config.step_s,
-                                    self._history_window_s(self._table))
+        #: The flown history and the booms still in the air (:mod:`.in_air`).
+        self._in_air = InAir(self._table, self.config)
 
     # ---- tables --------------------------------------------------------------------
     def _current_table(self) -> BoomTable:
@@ -194,8 +192,6 @@ class GroundAdvisor:
                         else None)
         self._sigma_key: tuple[int, ...] | None = None  # _present_sigma's memo
         self._sigma: float | None = None
-        #: the fallback past's lookups (own buffers: its length differs from the ahead's)
-        self._fallback_lookup = FootprintPredictor(table)
         #: pressure altitude -> geometric height through the table's profile
         self._heights = HeightConverter(atm)
         return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
@@ -277,7 +273,7 @@ class GroundAdvisor:
         if table is not self._table:
             (self._table, self._predictor, self._atm, self._sound,
              self._strips) = self._table_parts(table)
-            self._new_table_history(table)
+            self._in_air.new_table(table)
         if state is None:
             return self.unavailable("no valid air data")
         problem = state_problem(state)
@@ -306,77 +302,10 @@ class GroundAdvisor:
                                     state.utc_s)
 
     # ---- the booms already in the air ----------------------------------------------
-    def _history_window_s(self, table: BoomTable) -> float:
-        """How far back the flown history must reach: the table's longest travel time
-        (over every cell) plus two emission spacings, at most ``in_air_s``."""
-        return min(self.config.in_air_s,
-                   table.max_travel_time_s + 2.0 * self.config.step_s)
-
-    def _new_table_history(self, table: BoomTable) -> None:
-        """A table came in: entries keep the rows of the table in force when flown; the
-        buffer grows for longer travel times (emptied only when the azimuth nodes
-        differ, since rows of two node sets cannot be laid side by side)."""
-        self._table_gen += 1
-        window = self._history_window_s(table)
-        if table.eta.size != self.history.n_eta:
-            self.history = FlownHistory(table.eta.size, self.config.step_s, window)
-        else:
-            self.history.grow(window)
-
-    def _in_air_s(self, present_rows: np.ndarray, present_code: int) -> float:
-        """How far back booms may still be on their way down: the longest travel time of
-        the present footprint (its table rows) and of the flown states held, plus one
-        step (at most ``in_air_s``); with neither on the ground, the table's longest."""
-        h = self.history
-        longest = float(np.max(h.travel[:len(h)])) if len(h) else -math.inf
-        if present_code != lk.NO_BOOM:
-            longest = max(longest, float(np.max(present_rows[:, lk.Q_TIME])))
-        if not math.isfinite(longest):
-            return h.window_s
-        return min(self.config.in_air_s, longest + self.config.step_s)
-
-    @staticmethod
-    def _state_time(s: AirDataState, now: float) -> float:
-        """The state's own time (s): its UTC stamp, else its receive time, else now."""
-        if s.utc_s is not None:
-            return s.utc_s
-        return s.rx_monotonic if s.rx_monotonic is not None else now
-
-    def _past(self, ahead: FlownPast, t_now: float) -> tuple[FlownPast, int]:
-        """The emission points whose booms may still be in the air, from the flown
-        history, followed by those ahead (with their lookups), and the index of the
-        present one; the part of the window older than the history (a fresh advisor) is
-        the present state flown backwards (:func:`past_trajectory`), kept apart from the
-        history by a separator."""
-        cfg, h = self.config, self.history
-        win = h.window(t_now, ahead.traj.frame)
-        back_s = self._in_air_s(ahead.rows[0], int(ahead.codes[0]))
-        have_s = t_now - h.oldest_t if len(h) else 0.0  # how far back the history goes
-        fallback = None
-        if have_s < back_s - 1e-6:
-            back = past_trajectory(ahead.traj, back_s, cfg.step_s)
-            keep = np.flatnonzero(back.t_s < -have_s - 0.5 * cfg.step_s)
-            if keep.size:
-                part = subset_trajectory(back, keep)
-                fallback = FlownPast(part, *self._fallback_lookup.lookup(part))  # copied
-        tail_break = win is not None and t_now - h.newest_t > h.gap_s
-        return join_past(win, fallback, ahead, tail_break)
-
-    def _remember(self, s: AirDataState, t_now: float, ahead: Trajectory, rows: np.ndarray,
-                  code: int, cutoff: float) -> None:
-        """Offer the present state (with its table rows) to the flown history."""
-        h = self.history
-        if len(h) and 0.0 <= t_now - h.newest_t < h.spacing_s - 1e-6:
-            return  # not due (the common case: no work)
-        e0, n0 = float(ahead.east_m[0]), float(ahead.north_m[0])
-        track = s.track_rad
-        if track is None:
-            track = float(ahead.frame.grid_to_azimuth(e0, n0, float(ahead.track_grid_rad[0])))
-        h.offer(t_now, s.lat_rad, s.lon_rad,
-                (s.alt_m, s.mach, float(ahead.tas_mps[0]), s.heading_rad, track,
-                 float(ahead.ground_speed_mps[0]), s.fpa_rad, s.bank_rad,
-                 float(ahead.turn_rate_rad_s[0])),
-                self._table_gen, rows, code, cutoff)
+    @property
+    def history(self) -> FlownHistory:
+        """The states flown, from which the booms still in the air are placed."""
+        return self._in_air.history
 
     def _learn_atmosphere(self, s: AirDataState, now: float) -> None:
         """Feed the stream profile; hand a disagreeing profile to the table manager."""
@@ -408,16 +337,16 @@ class GroundAdvisor:
         cfg = self.config
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
-        t_state = self._state_time(s, now)
+        t_state = state_time(s, now)
         sigma = self._present_sigma(ahead, s.heading_rad)  # the cutoff's (issue 16)
-        self._predictor.band = self._fallback_lookup.band = lookup_band(
+        self._predictor.band = self._in_air.fallback_lookup.band = lookup_band(
             sigma, self.config.confidence)
         rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
-        self._remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
+        self._in_air.remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
         beyond = mach_outside_table(self._table, s.mach, float(cuts[0]))
         if beyond:
             return self.unavailable(beyond, s.utc_s)
-        whole, now_k = self._past(FlownPast(ahead, rows, codes, cuts), t_state)
+        whole, now_k = self._in_air.past(FlownPast(ahead, rows, codes, cuts), t_state)
         if now_k == 0:  # no past: the prediction keeps the lookups (own copies)
             whole = FlownPast(ahead, rows.copy(), codes.copy(), cuts.copy())
         traj = whole.traj
@@ -462,7 +391,8 @@ class GroundAdvisor:
         self._held_name = held.zone_name if held else None
         r = roll_out(res or Resolution(), s)
         turning = r.turn_left_deg is not None or r.turn_right_deg is not None
-        hdg = self._onset_heading_deg(ahead) if turning else 0.0  # true headings cost ~0.1 ms
+        # true headings cost ~0.1 ms: only for a turn
+        hdg = heading_at_deg(ahead, cfg.reaction_s) if turning else 0.0
         return Advisory(
             status=status,
             zone_id=named.zone_id if named else None,
@@ -523,18 +453,6 @@ class GroundAdvisor:
             return [dataclasses.replace(c, time_to_contact_s=max(0.0, arrival - now))]
         self._on_way = None
         return fixed
-
-    def _onset_heading_deg(self, ahead: Trajectory) -> float:
-        """True heading (deg) at the onset of the crew's action (after the reaction time,
-        the present manoeuvre held): the heading the turn resolutions turn from."""
-        t = ahead.t_s
-        k = int(np.searchsorted(t, self.config.reaction_s))
-        k = min(max(k, 1), t.size - 1) if t.size > 1 else 0
-        # the grid-to-true difference at the start, applied to the grid heading there
-        offset = float(ahead.heading_rad[0] - ahead.heading_grid_rad[0])
-        h = np.unwrap(ahead.heading_grid_rad[: k + 1]) if t.size > 1 else ahead.heading_grid_rad
-        grid = float(np.interp(self.config.reaction_s, t[: h.size], h))
-        return math.degrees(grid + offset) % 360.0
 
     def _trial_base(self, pz: ProjectedZones, ahead: Trajectory,
                     sigma: float | None = None) -> TrialBase:

@@ -68,6 +68,7 @@ from advisory.units import G0
 
 __all__ = [
     "subset_trajectory",
+    "heading_at_deg",
     "DEFAULT_LOOKAHEAD_S",
     "DEFAULT_STEP_S",
     "MIN_MACH",
@@ -432,3 +433,16 @@ def subset_trajectory(traj: Trajectory, idx: np.ndarray) -> Trajectory:
 
 _TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",
               "ground_speed_mps", "bank_rad", "fpa_rad", "turn_rate_rad_s", "east_m", "north_m")
+
+
+def heading_at_deg(traj: Trajectory, t_s: float) -> float:
+    """True heading (deg) of ``traj`` at ``t_s`` s after its start (the resolutions' turn
+    onset: after the reaction time, the present manoeuvre held): the grid heading there,
+    unwrapped and interpolated, plus the grid-to-true difference at the start."""
+    t = traj.t_s
+    k = int(np.searchsorted(t, t_s))
+    k = min(max(k, 1), t.size - 1) if t.size > 1 else 0
+    offset = float(traj.heading_rad[0] - traj.heading_grid_rad[0])
+    h = np.unwrap(traj.heading_grid_rad[: k + 1]) if t.size > 1 else traj.heading_grid_rad
+    grid = float(np.interp(t_s, t[: h.size], h))
+    return math.degrees(grid + offset) % 360.0

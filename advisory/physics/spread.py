@@ -46,6 +46,7 @@ import csv
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
+from statistics import NormalDist
 
 import numpy as np
 
@@ -69,6 +70,7 @@ NODES_M = np.array([0.0, 500.0, 1000.0, 2000.0, 3000.0, 4500.0, 6000.0, 8000.0, 
                     12000.0, 14000.0, 16000.0, 18000.0, 20000.0, 22500.0, 25000.0])
 #: Variables of the field, in this order: temperature, wind east, wind north.
 N_VARIABLES = 3
+_NORMAL = NormalDist()
 #: Free-atmosphere temperature error at the nodes, K (engineering choice).
 FREE_TEMP_SIGMA_K = np.array([1.0, 1.0, 1.0, 1.0, 1.0, 1.0, 1.0, 1.1, 1.3, 1.5, 1.4, 1.2,
                               1.2, 1.2, 1.2, 1.2])
@@ -151,6 +153,21 @@ class SpreadModel:
         w, v = np.linalg.eigh(cov)
         root = v * np.sqrt(np.clip(w, 0.0, None))
         z = rng.standard_normal((count, cov.shape[0]))
+        return (z @ root.T).reshape(count, N_VARIABLES, self.n_nodes)
+
+    def sample_lhs(self, altitude_m: float, count: int, seed: int) -> np.ndarray:
+        """``count`` Latin-hypercube draws of ``delta`` at the nodes, shape (count, 3, n):
+        each principal axis of the covariance's normal quantiles stratified (common
+        practice for variance reduction, McKay, Beckman and Conover, Technometrics 21,
+        1979)."""
+        cov = self.covariance(altitude_m)
+        w, v = np.linalg.eigh(cov)
+        root = v * np.sqrt(np.clip(w, 0.0, None))
+        rng = np.random.default_rng(seed)
+        dim = cov.shape[0]
+        u = (np.argsort(rng.random((dim, count)), axis=1) + rng.random((dim, count))) / count
+        inv = np.vectorize(_NORMAL.inv_cdf)
+        z = inv(np.clip(u, 1e-12, 1.0 - 1e-12)).T
         return (z @ root.T).reshape(count, N_VARIABLES, self.n_nodes)
 
     def sigma_at(self, altitude_m: float, z_m: float) -> tuple[float, float]:

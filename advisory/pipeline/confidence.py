@@ -55,7 +55,7 @@ import numpy as np
 
 from advisory import units
 from advisory.physics.rays import RayTracer
-from advisory.physics.spread import N_VARIABLES, SpreadModel, default_spread, perturbed
+from advisory.physics.spread import SpreadModel, default_spread, perturbed
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Conflict
 from advisory.tables.lookup import NEAR_CUTOFF_BAND
@@ -130,20 +130,10 @@ class CarpetSpread:
     samples: int
 
 
-def _lhs_normal(rng: np.random.Generator, count: int, dim: int) -> np.ndarray:
-    """Latin-hypercube standard normal draws, shape (count, dim)."""
-    u = (np.argsort(rng.random((dim, count)), axis=1) + rng.random((dim, count))) / count
-    inv = np.vectorize(_N.inv_cdf)
-    return inv(np.clip(u, 1e-12, 1.0 - 1e-12)).T
-
-
 def draw_fields(model: SpreadModel, altitude_m: float, count: int, seed: int) -> np.ndarray:
-    """``count`` Latin-hypercube draws of the error field, shape (count, 3, n)."""
-    cov = model.covariance(altitude_m)
-    w, v = np.linalg.eigh(cov)
-    root = v * np.sqrt(np.clip(w, 0.0, None))
-    z = _lhs_normal(np.random.default_rng(seed), count, cov.shape[0])
-    return (z @ root.T).reshape(count, N_VARIABLES, model.n_nodes)
+    """``count`` Latin-hypercube draws of the error field, shape (count, 3, n)
+    (:meth:`advisory.physics.spread.SpreadModel.sample_lhs`)."""
+    return model.sample_lhs(altitude_m, count, seed)
 
 
 def sample_carpet(atm, aircraft, altitude_m: float, mach: float, heading_rad: float,

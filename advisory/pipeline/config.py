@@ -29,6 +29,11 @@ operators tune them in a config file::
     surface_temp_sigma_c = 2.0  # spread: surface temperature error, K
     wind_sigma_kt = -1      # spread: wind error per component at every height, kt
                             # (< 0: the default profile by height, 4-8 kt)
+    edge_confidence = 0     # the carpet's edge laid at this one-sided confidence (the
+                            # table's edge ratio: 0.95 puts it where fewer than 5 % of
+                            # the air's spread would carry the boom farther; 1.45-3 times
+                            # the table's edge from the track); 0: the table's own edge,
+                            # about the median. Each conflict's probability either way
 
     [resolution]
     cutoff_margin_mach = 0.02   # "Mach to stay under" is cutoff minus this, for a table
@@ -103,6 +108,7 @@ class AdvisorConfig:
     confidence: float = 0.95
     surface_temp_sigma_c: float = 2.0
     wind_sigma_kt: float = -1.0
+    edge_confidence: float = 0.0
 
     def validate(self) -> None:
         """Raise :class:`ConfigError` naming the first bad value."""
@@ -119,7 +125,7 @@ class AdvisorConfig:
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
             "confidence": (0.0, 0.999), "surface_temp_sigma_c": (0.0, 20.0),
-            "wind_sigma_kt": (-1.0, 100.0),
+            "wind_sigma_kt": (-1.0, 100.0), "edge_confidence": (0.0, 0.99),
         }
         for f in fields(self):
             v = getattr(self, f.name)
@@ -132,6 +138,9 @@ class AdvisorConfig:
         if 0.0 < self.confidence < 0.5:
             raise ConfigError(f"advisor config: confidence = {self.confidence!r} must be 0 "
                               "(off) or from 0.5 to 0.999")
+        if 0.0 < self.edge_confidence < 0.5:
+            raise ConfigError(f"advisor config: edge_confidence = {self.edge_confidence!r} "
+                              "must be 0 (the table's edge) or from 0.5 to 0.99")
         if self.warning_lead_s > self.caution_lead_s:
             raise ConfigError("advisor config: warning_lead_s must not exceed caution_lead_s")
         if self.warning_act_s > self.caution_act_s:
@@ -147,7 +156,7 @@ _SECTIONS = {
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
                    "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s",
                    "limit_fraction"),
-    "confidence": ("confidence", "surface_temp_sigma_c", "wind_sigma_kt"),
+    "confidence": ("confidence", "surface_temp_sigma_c", "wind_sigma_kt", "edge_confidence"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),
 }

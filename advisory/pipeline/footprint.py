@@ -108,14 +108,17 @@ def _same(a, b):
 
 @njit(cache=True)
 def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
-                       cells, rows, codes, cutoffs, band=lk.NEAR_CUTOFF_BAND):
+                       cells, rows, codes, cutoffs, band=lk.NEAR_CUTOFF_BAND, stretch=None,
+                       inner_left=0, inner_right=0):
     """Table rows for every emission point (``rows``: (K, n_eta, N_QUANTITIES)).
 
     A point whose altitude, Mach, flight-path angle and heading are those of the point
     before it (steady flight: every point ahead) takes that point's lookup: the same
     code, cutoff and rows (rows left as they are where there is no boom, as the lookup
     leaves them), which is what the lookup would give. ``band``: the lookup's (below the
-    cutoff by less than it a boom counts).
+    cutoff by less than it a boom counts). ``stretch``, ``inner_left``, ``inner_right``:
+    the edge ratio at the advisor's confidence and the inner rays of the outer strips
+    (:func:`advisory.tables.lookup.stretch_row`), or None (the table's edge).
     """
     for k in range(alt.size):
         if k > 0 and (_same(alt[k], alt[k - 1]) and _same(mach[k], mach[k - 1])
@@ -130,6 +133,8 @@ def lookup_rows_kernel(alt, mach, fpa, heading_true, ax_alt, ax_mex, ax_fpa, ax_
                                       ax_fpa, ax_hdg, cutoff, cells, rows[k], band)
         codes[k] = code
         cutoffs[k] = mcut
+        if stretch is not None and code != lk.NO_BOOM:
+            lk.stretch_row(rows[k], mach[k] - mcut, stretch, inner_left, inner_right)
 
 
 @njit(cache=True)
@@ -351,6 +356,12 @@ class FootprintPredictor:
         #: near-cutoff band, or z sigma of the cutoff where the advisor reads it at a
         #: confidence (set each step, :mod:`advisory.pipeline.confidence`).
         self.band = lk.NEAR_CUTOFF_BAND
+        #: The edge ratio at the advisor's confidence, (3, n) (Mach excess, left, right:
+        #: :func:`advisory.tables.lookup.stretch_row`), or None: the table's own edge
+        #: (set each step, :mod:`advisory.pipeline.edge_spread`).
+        self.stretch: np.ndarray | None = None
+        #: The inner rays of the outer strips (the advisor's strip nodes next to the edges).
+        self.edge_inner = (0, 0)
         self._n = -1
 
     def _buffers(self, nk: int) -> None:
@@ -395,7 +406,8 @@ class FootprintPredictor:
         lookup_rows_kernel(traj.alt_m, traj.mach, traj.fpa_rad, heading_true,
                            self.table.ax_alt, self.table.ax_mex, self.table.ax_fpa,
                            self.table.ax_hdg, self.table.cutoff, self.table.cells,
-                           self._rows, self._codes, self._cut, self.band)
+                           self._rows, self._codes, self._cut, self.band, self.stretch,
+                           *self.edge_inner)
         self._apply_lift(traj, heading_true)
         return self._rows, self._codes, self._cut
 

@@ -37,7 +37,6 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import dataclasses
-import math
 import time
 from collections.abc import Callable
 from typing import Protocol
@@ -50,13 +49,12 @@ from advisory.pipeline.airdata import AirDataState, state_problem
 from advisory.pipeline.confidence import (
     boom_probability,
     lookup_band,
-    present_sigma,
-    spread_from_config,
     with_probability,
     z_one_sided,
 )
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import split_conflicts
+from advisory.pipeline.edge_spread import EdgeSpread, PresentSpread, with_edge_probability
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.ground_levels import masked_zones
 from advisory.pipeline.history import FlownHistory, FlownPast
@@ -185,13 +183,8 @@ class GroundAdvisor:
             np.ndarray]:
         """The table with its footprint predictor, atmosphere, speed of sound and strips."""
         atm = table.atmosphere()
-        #: The spread of the air below when the cutoff is read at a confidence (issue 16):
-        #: the table has sensitivity columns and confidence is on; else None.
-        self._spread = (spread_from_config(self.config, table.grid.ground_elevation_m)
-                        if table.spread is not None and self.config.confidence > 0.0
-                        else None)
-        self._sigma_key: tuple[int, ...] | None = None  # _present_sigma's memo
-        self._sigma: float | None = None
+        #: The cutoff's spread and the edge ratio at the present condition (issue 16).
+        self._present = PresentSpread(table, self.config)
         #: pressure altitude -> geometric height through the table's profile
         self._heights = HeightConverter(atm)
         return (table, FootprintPredictor(table), atm, _speed_of_sound_fn(atm),
@@ -338,9 +331,15 @@ class GroundAdvisor:
         pz = self._zones_for(s.lat_rad, s.lon_rad)
         ahead = self._trajectory(s, pz)
         t_state = state_time(s, now)
-        sigma = self._present_sigma(ahead, s.heading_rad)  # the cutoff's (issue 16)
-        self._predictor.band = self._in_air.fallback_lookup.band = lookup_band(
-            sigma, self.config.confidence)
+        # the cutoff's spread and the edge at the confidence (issue 16); the state's true
+        # heading, so that a still-air step does not locate the trajectory on the ellipsoid
+        sigma, edge = self._present.at(float(ahead.alt_m[0]), float(ahead.fpa_rad[0]),
+                                       float(s.heading_rad))
+        lookups = (self._predictor, self._in_air.fallback_lookup)
+        for lookup in lookups:
+            lookup.band = lookup_band(sigma, self.config.confidence)
+            lookup.stretch = None if edge is None else edge.stretch
+            lookup.edge_inner = (int(self._strips[1]), int(self._strips[-2]))
         rows, codes, cuts = self._predictor.lookup(ahead)  # its buffers: copied below
         self._in_air.remember(s, t_state, ahead, rows[0], int(codes[0]), float(cuts[0]))
         beyond = mach_outside_table(self._table, s.mach, float(cuts[0]))
@@ -354,8 +353,7 @@ class GroundAdvisor:
                                        join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
         fixed, later, conflicts = (
-            part if sigma is None else with_probability(part, pred.cutoff_mach, traj.mach,
-                                                        sigma)
+            self._probabilities(part, pred, whole.rows, traj, sigma, edge, pz, self._strips)
             for part in split_conflicts(pred, pz, self.zones, self._strips,
                                         cfg.focus_threshold, cfg.reaction_s))
         first = later[0] if later else None
@@ -412,21 +410,18 @@ class GroundAdvisor:
             cutoff_sigma=sigma, boom_probability=p_reach,
         )
 
-    def _present_sigma(self, ahead: Trajectory, heading_rad: float) -> float | None:
-        """Standard deviation of the present cutoff Mach (None: not read at a confidence);
-        kept while the height (10 m), flight-path angle (0.1 deg) and heading (1 deg) stay
-        (0.1-0.24 ms a computation, issue 16's step budget). ``heading_rad``: the state's
-        true heading (the trajectory's first; taken from the state, so that a still-air
-        step does not locate the whole trajectory on the ellipsoid for it)."""
-        if self._spread is None:
-            return None
-        alt, fpa, hdg = float(ahead.alt_m[0]), float(ahead.fpa_rad[0]), float(heading_rad)
-        key = (round(alt / 10.0), round(math.degrees(fpa) * 10.0), round(math.degrees(hdg)),
-               id(self._table))
-        if key != self._sigma_key:
-            self._sigma_key = key
-            self._sigma = present_sigma(self._table, self._spread, alt, fpa, hdg)
-        return self._sigma
+    @staticmethod
+    def _probabilities(part: list[Conflict], pred: CarpetPrediction, rows: np.ndarray,
+                       traj: Trajectory, sigma: float | None, edge: EdgeSpread | None,
+                       pz: ProjectedZones, strips: np.ndarray) -> list[Conflict]:
+        """Each conflict's probability (issue 16): of the boom reaching its zone with the
+        edge ratio, of reaching the ground without it, none without a spread."""
+        if sigma is None or not part:
+            return part
+        if edge is None:
+            return with_probability(part, pred.cutoff_mach, traj.mach, sigma)
+        return with_edge_probability(part, pred.east_m, pred.north_m, rows, pred.cutoff_mach,
+                                     traj.mach, sigma, edge, pz, strips)
 
     def _margin(self, sigma: float | None) -> float:
         """Mach margin under the cutoff: ``z sigma`` at the configured confidence, else the

@@ -130,6 +130,7 @@ class TrialBase:
         self.table = predictor.table
         self.focus_cap = predictor.focus_cap
         self.band = predictor.band  # the prediction's lookup band below the cutoff
+        self.edge_ratio = predictor.stretch  # and its edge ratio (issue 16)
         self.strips = np.ascontiguousarray(strips, dtype=np.int64)
         self.pz = pz
         #: The zones' limits the trials hold the booms to (``limit_fraction`` of each).
@@ -231,7 +232,7 @@ class TrialBase:
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         t, k0 = self._judged_from(onset, target_mach)
         if not self._clears_on(self.table, self.strips, self.pz, self.limit_pa,
-                               self.focus_cap, t, k0, p, self.band):
+                               self.focus_cap, t, k0, p, self.band, self.edge_ratio):
             return False
         own_cutoff = self.cutoff_now
         try:
@@ -240,7 +241,8 @@ class TrialBase:
                 self.cutoff_now = cut  # its near-cutoff emissions at its own cutoff Mach
                 t, k0 = self._judged_from(onset, target_mach)
                 if not self._clears_on(g.predictor.table, g.strips, g.pz, limit,
-                                       g.predictor.focus_cap, t, k0, p, g.predictor.band):
+                                       g.predictor.focus_cap, t, k0, p, g.predictor.band,
+                                       g.predictor.stretch):
                     return False
         finally:
             self.cutoff_now = own_cutoff
@@ -252,8 +254,9 @@ class TrialBase:
 
     def _clears_on(self, tb: BoomTable, strips: np.ndarray, pz: ProjectedZones,
                    limit_pa: np.ndarray, focus_cap: float, t: np.ndarray, k0: int,
-                   p: np.ndarray, band: float) -> bool:
-        """The trial ``p`` judged on one ground: its table, strips, zones and lookup band."""
+                   p: np.ndarray, band: float, stretch: np.ndarray | None) -> bool:
+        """The trial ``p`` judged on one ground: its table, strips, zones, lookup band and
+        edge ratio."""
         has_wind = bool(tb.has_wind)
         hdg_offset = self.hdg_offset if has_wind == self.has_wind else (
             float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
@@ -264,7 +267,7 @@ class TrialBase:
             pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
-            self.cfg.focus_threshold, band))
+            self.cfg.focus_threshold, band, stretch))
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:

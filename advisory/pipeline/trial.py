@@ -229,7 +229,7 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
 def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
                         cutoff, cells, lift, strips, x, y, ring_start, part_start, zone_start,
                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
-                        focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND):
+                        focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND, stretch=None):
     """Whether the trial ``p`` keeps the booms of emissions ``k0`` on off every zone.
 
     Parameters
@@ -260,6 +260,9 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     band : float
         The lookups' band below the cutoff (as the prediction's,
         :attr:`advisory.pipeline.footprint.FootprintPredictor.band`).
+    stretch : ndarray or None
+        The edge ratio at the advisor's confidence (as the prediction's,
+        :attr:`advisory.pipeline.footprint.FootprintPredictor.stretch`), or None.
 
     Returns
     -------
@@ -282,8 +285,10 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         k = k_lo + kk
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
         if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
-            last_code, _ = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
-                                            ax_fpa, ax_hdg, cutoff, cells, scratch, band)
+            last_code, mcut = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
+                                               ax_fpa, ax_hdg, cutoff, cells, scratch, band)
+            if stretch is not None and last_code != lk.NO_BOOM:
+                lk.stretch_row(scratch, fl[3, k] - mcut, stretch, strips[1], strips[ns - 2])
             last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
         codes[kk] = last_code
         for s in range(ns):

@@ -30,6 +30,7 @@ from advisory.physics.rays import FlightCondition, RayPath, RayTracer
 from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, Signature, ground_signature
 from advisory.schema import VERSION
 from advisory.tables import lookup as lk
+from advisory.tables.edge_ratio import build_edge_arrays
 from advisory.tables.grid import TableGrid
 from advisory.tables.lift import build_lift_map
 from advisory.tables.spread_table import build_spread_arrays
@@ -255,6 +256,8 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
     lift_map, params = build_lift_map(inputs.aircraft, ages, p_lo, p_hi)
     arrays.update({"ray_age": ages, "lift_map": lift_map, "lift_map_params": params})
     arrays.update(build_spread_arrays(inputs.atmosphere, inputs.grid, workers))
+    arrays.update(build_edge_arrays(inputs.atmosphere, inputs.aircraft, inputs.grid,
+                                    inputs.reflection_factor, workers))
     return arrays
 
 

@@ -196,3 +196,61 @@ def lookup_kernel(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutof
                             out[e, q] += w * cells[a, m, f, h, e, q]
     code = CLAMPED if (ca or cm or cf) else OK
     return code, mcut
+
+
+@njit(cache=True)
+def stretch_row(out, mex, stretch, inner_left, inner_right):
+    """Carry one looked-up footprint's edges out to the edge ratio
+    (:mod:`advisory.tables.edge_ratio`), keeping every other ray where the table has it.
+
+    On each side the edge ray's offset across the heading is multiplied by the side's
+    ratio (when above 1), and its offset along the heading taken on the straight line
+    from the ``inner`` ray (the carpet's strip node next to the edge) through the table's
+    edge ray: the widened carpet's outer strip then holds the table's (no zone the table's
+    carpet touches is lost, and a zone ahead near the edge is touched no later), and
+    reaches as far across the track as the ratio says. The edge ray keeps its travel
+    time, overpressure and derivatives. Engineering choice (no source); the notes of
+    :mod:`advisory.pipeline.edge_spread` say what it leaves out.
+
+    Parameters
+    ----------
+    out : ndarray, shape (n_eta, N_QUANTITIES)
+        Rows of :func:`lookup_kernel`; the two edge rows are changed in place.
+    mex : float
+        The lookup's Mach excess (Mach less cutoff Mach; below the first node the first
+        node's ratio).
+    stretch : ndarray, shape (3, n)
+        Mach excess nodes (ascending), left ratios, right ratios; ``n == 0``: unchanged.
+    inner_left, inner_right : int
+        The inner ray of each side's outer strip.
+    """
+    n = stretch.shape[1]
+    if n == 0:
+        return
+    if n == 1 or mex <= stretch[0, 0]:
+        left = stretch[1, 0]
+        right = stretch[2, 0]
+    elif mex >= stretch[0, n - 1]:
+        left = stretch[1, n - 1]
+        right = stretch[2, n - 1]
+    else:
+        i = 0
+        while stretch[0, i + 1] < mex:
+            i += 1
+        w = (mex - stretch[0, i]) / (stretch[0, i + 1] - stretch[0, i])
+        left = stretch[1, i] * (1.0 - w) + stretch[1, i + 1] * w
+        right = stretch[2, i] * (1.0 - w) + stretch[2, i + 1] * w
+    last = out.shape[0] - 1
+    for side in range(2):
+        e = 0 if side == 0 else last
+        s = inner_left if side == 0 else inner_right
+        r = left if side == 0 else right
+        if r <= 1.0 or s == e:
+            continue
+        y_e = out[e, Q_RIGHT]
+        y_s = out[s, Q_RIGHT]
+        y_new = y_e * r
+        if y_e != y_s:
+            out[e, Q_FWD] = out[s, Q_FWD] + (out[e, Q_FWD] - out[s, Q_FWD]) * (
+                (y_new - y_s) / (y_e - y_s))
+        out[e, Q_RIGHT] = y_new

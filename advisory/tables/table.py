@@ -15,6 +15,7 @@ from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.atmosphere_merge import rebuild_atmosphere
 from advisory.physics.spread import N_VARIABLES, NODES_M
 from advisory.tables import lookup as lk
+from advisory.tables.edge_ratio import EDGE_ARRAYS, LEVELS, EdgeRatioTable
 from advisory.tables.grid import GridError, TableGrid
 from advisory.tables.lift import N_MAP_PARAMS, lift_correction_kernel, lift_scale_kernel
 from advisory.tables.spread_table import SPREAD_ARRAYS, SpreadTable
@@ -99,6 +100,10 @@ class BoomTable:
         #: None for a table built before them.
         self.spread: SpreadTable | None = (SpreadTable(arrays) if "cutoff_sens" in arrays
                                            else None)
+        #: The carpet edge's ratio quantiles (:mod:`advisory.tables.edge_ratio`); None for
+        #: a table built before them.
+        self.edge_ratio: EdgeRatioTable | None = (EdgeRatioTable(arrays) if "edge_ratio" in
+                                                  arrays else None)
         self.loaded_monotonic = time.monotonic()
         #: The file the table was loaded from (None for a table built in memory).
         self.path: str | None = None
@@ -252,6 +257,11 @@ class BoomTable:
             "headings (confidence on the cutoff Mach)" if self.spread is not None else
             "cutoff sensitivities: none (a table from an earlier builder): the Mach "
             "resolution keeps the fixed margin",
+            f"edge ratio: {self.edge_ratio.ratio.shape[0]} altitudes x "
+            f"{self.edge_ratio.ratio.shape[1]} headings x {self.edge_ratio.ratio.shape[2]} "
+            "Mach excesses (confidence on the carpet edge)" if self.edge_ratio is not None
+            else "edge ratio: none (a table from an earlier builder): the carpet edge is the "
+            "table's own line",
         ]
         return lines
 
@@ -287,6 +297,7 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
       ascending ranges and a positive area scale and weight;
     * the cutoff sensitivities (:data:`SPREAD_ARRAYS`), when present: see
       :func:`_check_spread`.
+    * the edge ratio (:data:`EDGE_ARRAYS`), when present: see :func:`_check_edge_ratio`.
 
     Raises
     ------
@@ -338,7 +349,33 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
     _check_atmosphere(arrays, header["atmosphere"])
     _check_lift_map(arrays, (n_alt, n_mex, n_fpa, n_hdg, n_eta))
     _check_spread(arrays)
+    _check_edge_ratio(arrays)
     return grid
+
+
+def _check_edge_ratio(arrays: dict[str, np.ndarray]) -> None:
+    """The edge ratio (:data:`EDGE_ARRAYS`): all or none; axes ascending and finite,
+    headings in [0, 2 pi), the levels this version's, every ratio in [0, 100] and
+    non-decreasing over the levels."""
+    present = [k for k in EDGE_ARRAYS if k in arrays]
+    if not present:
+        return
+    if len(present) != len(EDGE_ARRAYS):
+        absent = sorted(set(EDGE_ARRAYS) - set(present))
+        raise TableFileError(f"edge ratio: arrays {absent} missing beside {present}")
+    n = [_axis(arrays, f"edge_ratio_axis_{k}", 1) for k in ("altitude_m", "heading_rad",
+                                                            "mach_excess")]
+    hdg = arrays["edge_ratio_axis_heading_rad"]
+    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
+        raise TableFileError("array edge_ratio_axis_heading_rad: nodes must lie in "
+                             "[0, 2 pi) rad")
+    levels = arrays["edge_ratio_levels"]
+    if levels.shape != (len(LEVELS),) or not np.allclose(levels, LEVELS):
+        raise TableFileError("array edge_ratio_levels: not this version's levels "
+                             "(build the table again)")
+    _values(arrays, "edge_ratio", (*n, 2, len(LEVELS)), 0.0, 100.0)
+    if np.any(np.diff(arrays["edge_ratio"], axis=-1) < 0.0):
+        raise TableFileError("array edge_ratio: quantiles decrease over the levels")
 
 
 def _check_spread(arrays: dict[str, np.ndarray]) -> None:

@@ -66,3 +66,24 @@ def lookup_twin(alt, mach, fpa, heading, ax_alt, ax_mex, ax_fpa, ax_hdg, cutoff,
                     acc += wa_ * wm_ * wf_ * wh_ * cells[a, m, f, h]
     out[...] = acc
     return (lk.CLAMPED if (ca or cm or cf) else lk.OK), float(mcut)
+
+
+def stretch_row_twin(out: np.ndarray, mex: float, stretch: np.ndarray, inner_left: int,
+                     inner_right: int) -> None:
+    """Twin of ``stretch_row``: each side's ratio interpolated in the Mach excess (clamped),
+    the edge ray carried out across the heading by it and along the line from the inner
+    ray through the table's edge ray."""
+    if stretch.shape[1] == 0:
+        return
+    ratios = [float(np.interp(mex, stretch[0], stretch[1 + side])) for side in (0, 1)]
+    for side, edge, inner in ((0, 0, inner_left), (1, out.shape[0] - 1, inner_right)):
+        r = ratios[side]
+        if r <= 1.0 or edge == inner:
+            continue
+        inner_pt = np.array([out[inner, lk.Q_RIGHT], out[inner, lk.Q_FWD]])
+        edge_pt = np.array([out[edge, lk.Q_RIGHT], out[edge, lk.Q_FWD]])
+        new_right = edge_pt[0] * r
+        if edge_pt[0] != inner_pt[0]:
+            slope = (edge_pt[1] - inner_pt[1]) / (edge_pt[0] - inner_pt[0])
+            out[edge, lk.Q_FWD] = inner_pt[1] + slope * (new_right - inner_pt[0])
+        out[edge, lk.Q_RIGHT] = new_right

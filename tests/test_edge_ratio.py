@@ -35,7 +35,7 @@ from tests.test_advisor import ALT_FT, GEOD, point_along, square, state, zoneset
 from tests.test_pressure_altitude import standard_day_height_m
 from tests.twins.lookup import stretch_row_twin
 
-DRAWS = 1000
+DRAWS = 2000
 
 
 def _height_m() -> float:
@@ -105,52 +105,52 @@ def traced():
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("dm", [0.02, 0.1])
-def test_the_edge_at_95_percent_holds_95_percent_of_traced_atmospheres(small_table, traced,
-                                                                      dm) -> None:
+def test_the_edge_at_95_percent_and_the_probabilities_hold_against_traced_atmospheres(
+        small_table, traced) -> None:
     # Issue 16, done when: the 95 % edge covers 93-97 % of the sampled profiles. The live
     # carpet's edge at edge_confidence 0.95 (the table's ratio at the present condition,
     # the lookup's rows widened as the advisor widens them) against the half-widths of
-    # 1,000 atmospheres traced directly, among those in which the boom reaches the ground
-    # (the ratio is conditional on it; the others are covered by any edge). Before: the
-    # live edge was the table's, about the median (asserted: it holds under 80 %).
+    # 2,000 atmospheres traced directly, among those in which the boom reaches the ground
+    # (the ratio is conditional on it; the others are covered by any edge). The ratio's
+    # upper tail is long: the 95 % quantile of 4,000 plain draws moved by 0.08 between
+    # seeds (diagnosed in stop 29), hence 2,000 draws here. Before: the live edge was the
+    # table's, about the median (asserted: it holds under 80 %). One test for both
+    # checks, so that the traced draws are made once.
     tb = small_table
-    mach, hw, _ = traced[dm]
-    edge = present_edge(tb, 0.95, _height_m(), math.radians(90.0))
-    assert edge is not None and edge.stretch is not None
-    rows, cut = _rows(tb, mach)
-    reach = np.isfinite(hw[:, 0])
-    assert reach.sum() > 0.9 * DRAWS
-    table_edge = np.abs(rows[[0, -1], lk.Q_RIGHT])  # before: the table's own edge
-    assert float(np.mean(hw[reach] <= table_edge[None, :])) < 0.8
-    lk.stretch_row(rows, mach - cut, edge.stretch, 2, 12)
-    live = np.abs(rows[[0, -1], lk.Q_RIGHT])  # left, right
-    covered = np.mean(hw[reach] <= live[None, :], axis=0)
-    # still air: the sides are mirror images, so each side's share and their mean
-    assert np.all((covered >= 0.92) & (covered <= 0.98)), (dm, covered, live)
-    assert 0.93 <= float(covered.mean()) <= 0.97, (dm, covered, live)
+    for dm, (mach, hw, nominal) in traced.items():
+        edge = present_edge(tb, 0.95, _height_m(), math.radians(90.0))
+        assert edge is not None and edge.stretch is not None
+        rows, cut = _rows(tb, mach)
+        reach = np.isfinite(hw[:, 0])
+        assert reach.sum() > 0.9 * DRAWS
+        table_edge = np.abs(rows[[0, -1], lk.Q_RIGHT])  # before: the table's own edge
+        assert float(np.mean(hw[reach] <= table_edge[None, :])) < 0.8
+        lk.stretch_row(rows, mach - cut, edge.stretch, 2, 12)
+        live = np.abs(rows[[0, -1], lk.Q_RIGHT])  # left, right
+        covered = np.mean(hw[reach] <= live[None, :], axis=0)
+        # still air: the sides are mirror images, so each side's share and their mean
+        assert np.all((covered >= 0.92) & (covered <= 0.98)), (dm, covered, live)
+        assert 0.93 <= float(covered.mean()) <= 0.97, (dm, covered, live)
+        _probabilities_hold(tb, dm, mach, hw, nominal)
 
 
-@pytest.mark.slow
-def test_the_probability_of_reaching_a_zone_matches_traced_atmospheres(small_table,
-                                                                       traced) -> None:
-    # A zone the table's half-width times 0.9, 1.2 and 1.5 from the track: the chance the
-    # ratio's levels give against the share of the traced atmospheres whose edge reaches
-    # that far (within the binomial 99.9 % band of the traced draws, plus 0.03 for the
-    # table's own draws and its interpolation in altitude and Mach excess).
-    tb = small_table
-    mach, hw, nominal = traced[0.1]
+def _probabilities_hold(tb: BoomTable, dm: float, mach: float, hw: np.ndarray,
+                        nominal: tuple[float, float]) -> None:
+    """A zone the table's half-width times 0.9, 1.2 and 1.5 from the track: the chance the
+    ratio's levels give against the share of the traced atmospheres whose edge reaches
+    that far (within the binomial 99.9 % band of the traced draws, plus 0.03 for the
+    table's own draws and its interpolation in Mach excess)."""
     edge = present_edge(tb, 0.0, _height_m(), math.radians(90.0))
     assert edge is not None and edge.stretch is None
     reach = np.isfinite(hw[:, 0])
+    n = int(reach.sum())
     _, cut = _rows(tb, mach)
     for side in (0, 1):
         for f in (0.9, 1.2, 1.5):
             share = float(np.mean(hw[reach, side] >= f * nominal[side]))
             p = reach_given_ground(edge, mach - cut, side, f)
-            n = int(reach.sum())
             lo, hi = binom.interval(0.999, n, p)
-            assert lo / n - 0.03 <= share <= hi / n + 0.03, (side, f, share, p)
+            assert lo / n - 0.03 <= share <= hi / n + 0.03, (dm, side, f, share, p)
 
 
 def test_the_advisor_says_how_likely_a_zone_near_the_edge_is(small_table) -> None:

@@ -47,8 +47,8 @@ cutoff); every other field of every frame of the five flights the same.
 ``demo/crosswind_day`` and ``demo/turn_onto_park`` once more for issue 16's edge ratio:
 key 17 is now the probability that the boom reaches the zone named, not only the ground
 (``advisory/pipeline/edge_spread.py``). Decoded advisory frames compared field by field
-before and after: only ``boom_probability`` differs, 1.0 -> 0.68-0.71 in 1,000 frames of
-the crosswind flight (Orrinford lies near the windy carpet's edge) and 1.0 -> 0.57 in 80
+before and after: only ``boom_probability`` differs, 1.0 -> 0.66-0.70 in 1,000 frames of
+the crosswind flight (Orrinford lies near the windy carpet's edge) and 1.0 -> 0.56 in 80
 frames of the turn (the park near the turning carpet's edge); the other three flights and
 the service records identical.
 """

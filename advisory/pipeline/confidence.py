@@ -34,14 +34,16 @@ only for a table without sensitivities or confidence 0). Above the cutoff the ca
 the table's: reading the whole table at a lowered cutoff (tried first) biased every
 carpet's overpressure by 0.7-2 % and its arrival times against the truth.
 
-The live carpet's edge is the table's, which is about the median of the drawn edges
-(1.03-1.15 times it), not a bound: the 95 % quantile of the half-width lies 1.45-2.6
-times the table's edge from the track (35,000-55,000 ft, Mach 0.005-0.3 above the
-cutoff; README, "When the advisor knows the air only to within its spread"). Reading the
-carpet's lateral reach at the cutoff's upper confidence bound was tried and is exceeded
-by 16-52 % of drawn atmospheres, not 5 %: the tail comes from the air near the ground,
-not from the cutoff's shift. The edge's band is sampled here (:func:`sample_carpet`) for
-``check``, ``predict`` and the report.
+The table's carpet edge is about the median of the drawn edges (1.03-1.15 times it), not
+a bound: the 95 % quantile of the half-width lies 1.45-2.6 times the table's edge from the
+track (35,000-55,000 ft, Mach 0.005-0.3 above the cutoff; README, "When the advisor knows
+the air only to within its spread"). Reading the carpet's lateral reach at the cutoff's
+upper confidence bound was tried and is exceeded by 16-52 % of drawn atmospheres, not
+5 %: the tail comes from the air near the ground, not from the cutoff's shift. So the
+table carries the edge ratio's quantiles (:mod:`advisory.tables.edge_ratio`), from which
+:mod:`advisory.pipeline.edge_spread` gives each conflict the probability of reaching its
+zone and, with ``edge_confidence``, lays the edge at a confidence. The edge's band is
+sampled here (:func:`sample_carpet`) for ``check``, ``predict`` and the report.
 """
 
 from __future__ import annotations

@@ -58,7 +58,7 @@ import math
 import numpy as np
 
 from advisory.geo.polygons import segment_zone_distance
-from advisory.physics.spread import default_spread
+from advisory.physics.spread import DEFAULT_SURFACE_TEMP_SIGMA_K, default_spread
 from advisory.pipeline.confidence import boom_probability, present_sigma, spread_from_config
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Conflict
@@ -227,7 +227,8 @@ class PresentSpread:
         on = table.spread is not None and self.confidence > 0.0
         #: The spread of the air below (None: the cutoff is not read at a confidence).
         self.model = spread_from_config(config, ground) if on else None
-        overridden = (config.surface_temp_sigma_c != 2.0 or config.wind_sigma_kt >= 0.0)
+        overridden = (config.surface_temp_sigma_c != DEFAULT_SURFACE_TEMP_SIGMA_K
+                      or config.wind_sigma_kt >= 0.0)
         #: The default spread the table's edge ratio was sampled from, when the config
         #: overrides it (the ratio is then scaled, module notes).
         self.default = default_spread(ground_elevation_m=ground) if on and overridden \

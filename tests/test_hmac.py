@@ -234,7 +234,11 @@ def test_run_with_auth_key_admits_only_signed_new_frames(tmp_path, small_table_p
                 replayed += 1
                 tx.sendto(datagram(air_payload(i + 1000, i * 0.1)), ("127.0.0.1", port))
                 unsigned += 1
-        time.sleep(0.5)  # let the service take the last datagrams before it stops
+        # let the service take the last datagrams before it stops: wait for a status
+        # that counts them all (a fixed 0.5 s missed six of them on a loaded machine)
+        listener.wait_for(lambda f: running_status(f) and f.fields["counters"]["valid"]
+                          >= sent_signed, 15.0, "a status counting every signed frame",
+                          after=t0)
         code = stop(proc)
     finally:
         end_run(proc, listener, tx)

@@ -36,7 +36,7 @@ from advisory.pipeline.results import Conflict
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
 
 __all__ = ["find_conflicts", "conflicts_from", "conflict_kernel", "split_conflicts",
-           "prediction_part"]
+           "soonest_per_zone", "prediction_part"]
 
 
 def find_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
@@ -92,10 +92,10 @@ def prediction_part(pred: CarpetPrediction, start: int, stop: int) -> CarpetPred
 
 def split_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
                     strip_nodes: np.ndarray, focus_threshold: float, fixed_s: float
-                    ) -> tuple[list[Conflict], list[Conflict], list[Conflict]]:
+                    ) -> tuple[list[Conflict], list[Conflict]]:
     """Conflicts of the booms emitted up to ``fixed_s`` (s after the state: the past and
-    the reaction time, which no action changes), of the later ones, and of all (each zone
-    at its soonest), each soonest first.
+    the reaction time, which no action changes) and of the later ones, each soonest first
+    (:func:`soonest_per_zone` joins them).
 
     The two parts are searched apart, so the band between the last fixed and the first
     later emission (one emission step) is in neither: a zone narrower than the carpet
@@ -106,22 +106,27 @@ def split_conflicts(pred: CarpetPrediction, pz: ProjectedZones, zones: ZoneSet,
     n = pred.t_emit_s.size
     on_ground = pred.on_ground
     if len(pz) == 0 or not on_ground.any():
-        return [], [], []
+        return [], []
     eff = _effective(pred, on_ground)
     nodes = np.ascontiguousarray(strip_nodes, dtype=np.int64)
     fixed = _find(pred, on_ground, eff, 0, k, pz, zones, nodes,
                   focus_threshold) if k > 0 else []
     later = _find(pred, on_ground, eff, k, n, pz, zones, nodes,
                   focus_threshold) if k < n else []
+    return fixed, later
+
+
+def soonest_per_zone(fixed: list[Conflict], later: list[Conflict]) -> list[Conflict]:
+    """The conflicts of both parts of :func:`split_conflicts`, each zone at its soonest,
+    soonest first."""
     if not fixed or not later:
-        return fixed, later, list(fixed or later)
+        return list(fixed or later)
     soonest: dict[int, Conflict] = {}
     for c in fixed + later:
         known = soonest.get(c.zone_index)
         if known is None or c.time_to_contact_s < known.time_to_contact_s:
             soonest[c.zone_index] = c
-    every = sorted(soonest.values(), key=lambda c: (c.time_to_contact_s, c.zone_index))
-    return fixed, later, every
+    return sorted(soonest.values(), key=lambda c: (c.time_to_contact_s, c.zone_index))
 
 
 def conflicts_from(zones: ZoneSet, best_t: np.ndarray, best_dp: np.ndarray,

@@ -20,7 +20,10 @@ altitude and heading (:func:`present_edge`, :class:`PresentSpread`):
 * with ``edge_confidence`` (config ``[confidence]``, 0.5-0.99; default 0, the table's own
   edge, which is about the median of the drawn edges) **the carpet's edge laid at that
   confidence**: on each side the edge ray is carried out across the track by the
-  ratio's quantile at that level (never below 1), in the prediction, the booms in the
+  ratio's quantile (never below 1) at the level that leaves ``1 - edge_confidence`` of
+  the atmospheres reaching beyond it, those in which the boom stays off the ground
+  counted (:func:`present_edge`; near cutoff the conditional level is lower: at
+  ``P_ground`` 0.66 and 95 %, 0.924), in the prediction, the booms in the
   air and every resolution trial alike (:func:`advisory.tables.lookup.stretch_row`: the
   outer strip keeps the table's, so no zone the table's carpet touches is lost). A zone
   beyond that edge is reached in fewer than ``1 - edge_confidence`` of the drawn
@@ -38,7 +41,16 @@ that slowing down clears into "nothing clears" and put an "unavoidable" boom (st
 probability 0.05) on the park of a flight whose turn only grazes it; in the near-cutoff
 campaign (100 encounters) it removed the one missed alert for two more nuisance alerts
 and left fewer resolutions that held (8 of 13 against 14 of 16). README, "When the
-advisor knows the air only to within its spread".
+advisor knows the air only to within its spread". Why resolutions hold less (stop 30,
+encounters 29 and 43 of that campaign flown again): the crew is offered nothing to fly
+in time. The status says "unavoidable" or "warning" with no resolution until after the
+truth's act-by moment (encounter 29: act-by 21 s, first resolution 111 s; encounter 43:
+44 s and 64 s); with the table's edge both were resolved by slowing down. The likely
+cause (not measured ray by ray): a Mach trial emits just above cutoff, where the ratio's
+upper quantiles are largest (about 3 at 0.005 above cutoff), and the widened edge ray is
+carried along the line from the outer strip's inner ray; near cutoff that strip is
+narrow across and long along the track, so the widened edge lands far ahead, on zones
+the table's carpet never reaches.
 
 With the config's spread overrides (``surface_temp_sigma_c``, ``wind_sigma_kt``) the
 table's ratio, sampled from the default spread, is scaled about 1 by the ratio of the
@@ -58,6 +70,7 @@ import math
 import numpy as np
 
 from advisory.geo.polygons import segment_zone_distance
+from advisory.jit import njit
 from advisory.physics.spread import DEFAULT_SURFACE_TEMP_SIGMA_K, default_spread
 from advisory.pipeline.confidence import boom_probability, present_sigma, spread_from_config
 from advisory.pipeline.config import AdvisorConfig
@@ -67,7 +80,7 @@ from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
 
 __all__ = ["EdgeSpread", "PresentSpread", "present_edge", "reach_given_ground",
-           "with_edge_probability"]
+           "section_nearest_kernel", "with_edge_probability"]
 
 #: Bounds of the probability read off the stored levels (0.01-0.99).
 _P_FLOOR = 0.01
@@ -114,19 +127,32 @@ class EdgeSpread:
 
 
 def present_edge(table: BoomTable, confidence: float, altitude_m: float,
-                 heading_rad: float, scale: float = 1.0) -> EdgeSpread | None:
+                 heading_rad: float, scale: float = 1.0, sigma: float | None = None
+                 ) -> EdgeSpread | None:
     """The edge ratio at a condition, widened to the one-sided ``confidence`` (0: not
     widened); None for a table without it. ``scale``: the overrides' scaling about 1
-    (module notes)."""
+    (module notes).
+
+    ``sigma`` (the cutoff Mach's standard deviation): the edge is laid where the boom
+    reaches beyond it in ``1 - confidence`` of the atmospheres, counting those in which
+    it does not reach the ground at all: at Mach excess ``m`` the ratio's conditional
+    level ``1 - (1 - confidence) / P_ground(m)``, ``P_ground(m) = Phi(m / sigma)`` (the
+    probability :func:`with_edge_probability` states is ``P_ground`` times the
+    conditional share, so a zone on the widened edge is stated at about
+    ``1 - confidence``). Without ``sigma``, the conditional level ``confidence`` itself.
+    """
     er = table.edge_ratio
     if er is None:
         return None
     hdg = heading_rad if table.has_wind else 0.0
     q = 1.0 + (er.quantiles(altitude_m, hdg) - 1.0) * max(scale, 0.0)
     q = np.maximum.accumulate(np.clip(q, 0.0, None), axis=-1)
-    level = min(max(confidence, float(er.levels[0])), float(er.levels[-1]))
     at_conf = np.empty((2, er.ax_mex.size))
     for m in range(er.ax_mex.size):
+        p_ground = 1.0 if sigma is None else boom_probability(float(er.ax_mex[m]), 0.0,
+                                                               sigma)
+        level = 1.0 - (1.0 - confidence) / max(p_ground, 1e-9)
+        level = min(max(level, float(er.levels[0])), float(er.levels[-1]))
         for side in range(2):
             at_conf[side, m] = max(1.0, float(np.interp(level, er.levels, q[m, side])))
     stretch = np.ascontiguousarray(np.vstack([er.ax_mex, at_conf])) if confidence > 0.0 \
@@ -151,28 +177,44 @@ def reach_given_ground(edge: EdgeSpread, mex: float, side: int, need: float) -> 
     return float(min(1.0, max(_P_FLOOR, 1.0 - f)))
 
 
-def _nearest(east: np.ndarray, north: np.ndarray, right: np.ndarray, strips: np.ndarray,
-             pz: ProjectedZones, zone: int) -> tuple[float, float, int]:
-    """(distance m, offset across the heading m, side) of the point of one emission's
-    cross-section (the strip nodes walked out from the centre ray, each side) nearest
-    the zone; the distance is infinite where the row has no boom."""
-    n = east.size
-    c = n // 2
-    args = (pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start, zone)
-    best = (math.inf, 0.0, 0)
-    for side in (0, 1):
-        nodes = [c] + ([int(j) for j in strips[::-1] if j < c] if side == 0
-                       else [int(j) for j in strips if j > c])
-        for a, b in zip(nodes[:-1], nodes[1:]):
+@njit(cache=True)
+def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarray,
+                           strips: np.ndarray, x: np.ndarray, y: np.ndarray,
+                           ring_start: np.ndarray, part_start: np.ndarray,
+                           zone_start: np.ndarray, zone: int) -> tuple[float, float, int]:
+    """(distance m, offset across the heading m, side: 0 left, 1 right) of the point of
+    one emission's cross-section nearest zone ``zone``.
+
+    The cross-section is walked out from the centre ray (``n_eta // 2``) along the strip
+    nodes ``strips`` (ascending ray indices) on each side, segment by segment, until a
+    ray without a boom (NaN) or a segment touching the zone; the offset is interpolated
+    along the nearest segment from ``right`` (the rows' offsets across the heading, m).
+    The distance is infinite where the row has no boom. Twin:
+    ``tests/twins/edge_spread.py``.
+    """
+    c = east.size // 2
+    best_d = math.inf
+    best_lat = 0.0
+    best_side = 0
+    m = strips.size
+    for side in range(2):
+        a = c
+        for t in range(m):
+            b = strips[m - 1 - t] if side == 0 else strips[t]
+            if (side == 0 and b >= c) or (side == 1 and b <= c):
+                continue
             if not (math.isfinite(east[a]) and math.isfinite(east[b])):
                 break
-            d, u = segment_zone_distance(float(east[a]), float(north[a]), float(east[b]),
-                                         float(north[b]), *args)
-            if d < best[0]:
-                best = (d, float(right[a]) * (1.0 - u) + float(right[b]) * u, side)
+            d, u = segment_zone_distance(east[a], north[a], east[b], north[b], x, y,
+                                         ring_start, part_start, zone_start, zone)
+            if d < best_d:
+                best_d = d
+                best_lat = right[a] * (1.0 - u) + right[b] * u
+                best_side = side
             if d <= 0.0:
                 break
-    return best
+            a = b
+    return best_d, best_lat, best_side
 
 
 def with_edge_probability(conflicts: list[Conflict], east: np.ndarray, north: np.ndarray,
@@ -185,17 +227,24 @@ def with_edge_probability(conflicts: list[Conflict], east: np.ndarray, north: np
     ``strips`` the carpet's strip nodes."""
     out = []
     last = rows.shape[1] - 1
+    nodes = np.ascontiguousarray(strips, dtype=np.int64)
+    zone_arrays = (pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start)
     for c in conflicts:
         k = c.emission_index
         if not 0 <= k < cutoffs.size:
             out.append(c)
             continue
         # the touching emission and its neighbours (the contact may lie between two)
-        near = min(((*_nearest(east[kk], north[kk], rows[kk, :, lk.Q_RIGHT], strips, pz,
-                               c.zone_index), kk)
-                    for kk in (k - 1, k, k + 1) if 0 <= kk < cutoffs.size),
-                   key=lambda x: x[0])
-        _, lateral, side, kk = near
+        best: tuple[float, float, int, int] | None = None
+        for kk in (k - 1, k, k + 1):
+            if 0 <= kk < cutoffs.size:
+                d, lat, sd = section_nearest_kernel(
+                    east[kk], north[kk], np.ascontiguousarray(rows[kk, :, lk.Q_RIGHT]),
+                    nodes, *zone_arrays, c.zone_index)
+                if best is None or d < best[0]:
+                    best = (d, lat, sd, kk)
+        assert best is not None  # k itself is in range
+        _, lateral, side, kk = best
         mex = float(mach[kk]) - float(cutoffs[kk])
         reach = abs(float(rows[kk, 0 if side == 0 else last, lk.Q_RIGHT]))
         nominal = reach / edge.ratio_at(mex, side)  # the table's own half-width
@@ -254,5 +303,5 @@ class PresentSpread:
                 base = present_sigma(tb, self.default, altitude_m, fpa_rad, heading_rad)
                 scale = self.sigma / base if base else 1.0
             self.edge = present_edge(tb, self.edge_confidence, altitude_m, heading_rad,
-                                     scale)
+                                     scale, self.sigma)
         return self.sigma, self.edge

@@ -53,7 +53,7 @@ from advisory.pipeline.confidence import (
     z_one_sided,
 )
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.conflicts import split_conflicts
+from advisory.pipeline.conflicts import soonest_per_zone, split_conflicts
 from advisory.pipeline.edge_spread import EdgeSpread, PresentSpread, with_edge_probability
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.ground_levels import masked_zones
@@ -352,10 +352,11 @@ class GroundAdvisor:
         pred = self._predictor.predict(traj, whole.rows, whole.codes, whole.cutoffs,
                                        join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
-        fixed, later, conflicts = (
+        fixed, later = (
             self._probabilities(part, pred, whole.rows, traj, sigma, edge, pz, self._strips)
             for part in split_conflicts(pred, pz, self.zones, self._strips,
                                         cfg.focus_threshold, cfg.reaction_s))
+        conflicts = soonest_per_zone(fixed, later)
         first = later[0] if later else None
         fixed = self._hold_on_way(fixed, now)
         cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done

@@ -22,9 +22,12 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import math
+from typing import TYPE_CHECKING
 
 from advisory import units
-from advisory.tables.table import BoomTable
+
+if TYPE_CHECKING:  # annotations only: the start-up's cues import this module before numba
+    from advisory.tables.table import BoomTable
 
 __all__ = ["ALT_TOLERANCE_M", "FPA_TOLERANCE_RAD", "OUTSIDE_TABLE", "outside_table",
            "mach_outside_table", "table_range_text", "table_range_tag"]

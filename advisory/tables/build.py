@@ -14,7 +14,6 @@ from __future__ import annotations
 
 import datetime as _dt
 import math
-import multiprocessing as mp
 import os
 import sys
 import time
@@ -35,7 +34,7 @@ from advisory.tables.grid import TableGrid
 from advisory.tables.lift import build_lift_map
 from advisory.tables.spread_table import build_spread_arrays
 from advisory.tables.store import atmosphere_arrays
-from advisory.tables.workers import reset_signals
+from advisory.tables.workers import map_columns
 
 
 @dataclass(frozen=True)
@@ -167,19 +166,14 @@ def build_column_reference(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: 
     return m_cut, phi_l, phi_r, cells, ages
 
 
-# ---- worker-process plumbing ---------------------------------------------------------
-_WORKER: dict = {}
+def _column_state(inputs: BuildInputs):
+    """A worker's state: the inputs and a ray tracer in their atmosphere."""
+    return inputs, RayTracer(inputs.atmosphere)
 
 
-def _worker_init(inputs: BuildInputs) -> None:
-    reset_signals()
-    _WORKER["inputs"] = inputs
-    _WORKER["tracer"] = RayTracer(inputs.atmosphere)
-
-
-def _worker_column(key: tuple[int, int, int]):
-    ia, jf, kh = key
-    return key, build_column(_WORKER["inputs"], _WORKER["tracer"], ia, jf, kh)
+def _column(state, key: tuple[int, int, int]):
+    inputs, tracer = state
+    return build_column(inputs, tracer, *key)
 
 
 class _Progress:
@@ -236,16 +230,9 @@ def build_table_arrays(inputs: BuildInputs, workers: int | None = None,
          ages[a, :, f, h]) = res
         bar.step()
 
-    if workers <= 1:
-        tracer = RayTracer(inputs.atmosphere)
-        for key in keys:
-            store(key, build_column(inputs, tracer, *key))
-    else:
-        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
-        ctx = mp.get_context(method)
-        with ctx.Pool(workers, initializer=_worker_init, initargs=(inputs,)) as pool:
-            for key, res in pool.imap_unordered(_worker_column, keys, chunksize=2):
-                store(key, res)
+    for key, res in map_columns(_column, inputs, keys, workers, setup=_column_state,
+                                chunksize=2):
+        store(key, res)
     arrays = dict(inputs.grid.axes())
     arrays.update({"cutoff_mach": cutoff, "phi_left": phi_left, "phi_right": phi_right,
                    "cells": cells})

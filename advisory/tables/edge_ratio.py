@@ -37,7 +37,6 @@ height.
 from __future__ import annotations
 
 import math
-import multiprocessing as mp
 import os
 
 import numpy as np
@@ -46,8 +45,8 @@ from advisory import units
 from advisory.physics.rays import RayTracer
 from advisory.physics.spread import default_spread, perturbed
 from advisory.tables.grid import TableGrid
-from advisory.tables.spread_table import column_cutoff, edge_outputs, sub_grid
-from advisory.tables.workers import reset_signals
+from advisory.tables.spread_table import axis_weights, column_cutoff, edge_outputs, sub_grid
+from advisory.tables.workers import map_columns
 
 __all__ = ["EDGE_ARRAYS", "LEVELS", "MACH_EXCESS", "DRAWS", "ratio_grid", "ratio_column",
            "build_edge_arrays", "EdgeRatioTable"]
@@ -130,21 +129,12 @@ def ratio_column(atm, aircraft, altitude_m: float, heading_rad: float, ground_m:
     return out
 
 
-_WORKER: dict = {}
-
-
-def _init(args, worker: bool = True) -> None:
-    if worker:
-        reset_signals()  # as the builder's workers (advisory.tables.workers)
-    _WORKER["args"] = args
-
-
-def _work(key):
-    atm, aircraft, grid, reflection = _WORKER["args"]
+def _column(args, key):
+    atm, aircraft, grid, reflection = args
     a, h = key
-    return key, ratio_column(atm, aircraft, grid.altitudes_m[a], grid.headings_rad[h],
-                             grid.ground_elevation_m, reflection,
-                             symmetric=len(grid.headings_rad) == 1)
+    return ratio_column(atm, aircraft, grid.altitudes_m[a], grid.headings_rad[h],
+                        grid.ground_elevation_m, reflection,
+                        symmetric=len(grid.headings_rad) == 1)
 
 
 def build_edge_arrays(atm, aircraft, grid: TableGrid, reflection: float,
@@ -155,15 +145,8 @@ def build_edge_arrays(atm, aircraft, grid: TableGrid, reflection: float,
     keys = [(a, h) for a in ia for h in kh]
     where_a = {a: i for i, a in enumerate(ia)}
     where_h = {h: i for i, h in enumerate(kh)}
-    workers = min(workers or os.cpu_count() or 1, len(keys))
     args = (atm, aircraft, grid, reflection)
-    if workers <= 1:
-        _init(args, worker=False)
-        results = [_work(key) for key in keys]
-    else:
-        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
-        with mp.get_context(method).Pool(workers, initializer=_init, initargs=(args,)) as pool:
-            results = list(pool.imap_unordered(_work, keys))
+    results = map_columns(_column, args, keys, workers or os.cpu_count() or 1)
     for (a, h), col in results:
         ratio[where_a[a], where_h[h]] = col
     return {
@@ -191,35 +174,6 @@ class EdgeRatioTable:
     def quantiles(self, altitude_m: float, heading_rad: float) -> np.ndarray:
         """The ratio's quantiles at a condition, shape (n_mex, 2, n_levels): linear in
         altitude (clamped at the ends) and in heading (periodic)."""
-        wa = _weights(self.ax_alt, altitude_m, False)
-        wh = _weights(self.ax_hdg, heading_rad, True)
+        wa = axis_weights(self.ax_alt, np.array([altitude_m]), False)[0]
+        wh = axis_weights(self.ax_hdg, np.array([heading_rad]), True)[0]
         return np.einsum("a,h,ahmsl->msl", wa, wh, self.ratio)
-
-
-def _weights(axis: np.ndarray, x: float, periodic: bool) -> np.ndarray:
-    """Linear interpolation weights on ``axis`` at ``x`` (clamped; periodic on [0, 2 pi))."""
-    n = axis.size
-    w = np.zeros(n)
-    if n == 1:
-        w[0] = 1.0
-        return w
-    if periodic:
-        two_pi = 2.0 * math.pi
-        x = x % two_pi
-        ext = np.append(axis, axis[0] + two_pi)
-        if x < axis[0]:
-            x += two_pi
-        i = int(np.clip(np.searchsorted(ext, x, side="right") - 1, 0, n - 1))
-        u = (x - ext[i]) / (ext[i + 1] - ext[i])
-        w[i] += 1.0 - u
-        w[(i + 1) % n] += u
-        return w
-    if x <= axis[0]:
-        w[0] = 1.0
-    elif x >= axis[-1]:
-        w[-1] = 1.0
-    else:
-        i = int(np.searchsorted(axis, x, side="right") - 1)
-        u = (x - axis[i]) / (axis[i + 1] - axis[i])
-        w[i], w[i + 1] = 1.0 - u, u
-    return w

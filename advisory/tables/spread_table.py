@@ -34,7 +34,6 @@ covariance ``C`` at the aircraft's altitude.
 from __future__ import annotations
 
 import math
-import multiprocessing as mp
 import os
 
 import numpy as np
@@ -45,7 +44,7 @@ from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.spread import N_VARIABLES, NODES_M, perturbed
 from advisory.tables import lookup as lk
 from advisory.tables.grid import TableGrid
-from advisory.tables.workers import reset_signals
+from advisory.tables.workers import map_columns
 
 __all__ = ["SPREAD_ARRAYS", "SpreadTable", "sub_grid", "column_cutoff", "edge_outputs",
            "cutoff_sensitivity", "build_spread_arrays", "to_east_north"]
@@ -172,20 +171,11 @@ def cutoff_sensitivity(atm, altitude_m: float, heading_rad: float, fpa_rad: floa
     return sens
 
 
-_WORKER: dict = {}
-
-
-def _init(args, worker: bool = True) -> None:
-    if worker:
-        reset_signals()  # as the builder's workers (advisory.tables.workers)
-    _WORKER["args"] = args
-
-
-def _work(key):
-    atm, grid = _WORKER["args"]
+def _column(args, key):
+    atm, grid = args
     a, f, h = key
-    return key, cutoff_sensitivity(atm, grid.altitudes_m[a], grid.headings_rad[h],
-                                   grid.fpa_rad[f], grid.ground_elevation_m)
+    return cutoff_sensitivity(atm, grid.altitudes_m[a], grid.headings_rad[h],
+                              grid.fpa_rad[f], grid.ground_elevation_m)
 
 
 def build_spread_arrays(atm, grid: TableGrid, workers: int | None = None
@@ -204,16 +194,8 @@ def build_spread_arrays(atm, grid: TableGrid, workers: int | None = None
         a, f, h = key
         sens[where["a", a], where["f", f], where["h", h]] = col
 
-    args = (atm, grid)
-    if workers <= 1:
-        _init(args, worker=False)
-        for key in keys:
-            store(*_work(key))
-    else:
-        method = "fork" if "fork" in mp.get_all_start_methods() else "spawn"
-        with mp.get_context(method).Pool(workers, initializer=_init, initargs=(args,)) as pool:
-            for key, col in pool.imap_unordered(_work, keys, chunksize=2):
-                store(key, col)
+    for key, col in map_columns(_column, (atm, grid), keys, workers, chunksize=2):
+        store(key, col)
     _fill_altitude(sens)
     return {
         "cutoff_sens": sens,
@@ -253,10 +235,10 @@ class SpreadTable:
         n_hdg, 3 n), with respect to the node values of temperature (per K), wind east and
         wind north (per m/s): linear interpolation in each axis, the wind derivatives
         turned from along/across each heading to east/north."""
-        wa = _weights(self.ax_alt, np.atleast_1d(altitudes_m), False)
-        wf = _weights(self.ax_fpa, np.atleast_1d(fpas_rad), False)
+        wa = axis_weights(self.ax_alt, np.atleast_1d(altitudes_m), False)
+        wf = axis_weights(self.ax_fpa, np.atleast_1d(fpas_rad), False)
         hdg = np.atleast_1d(np.asarray(headings_rad, dtype=np.float64))
-        wh = _weights(self.ax_hdg, hdg, True)
+        wh = axis_weights(self.ax_hdg, hdg, True)
         j = np.einsum("ai,fj,hk,ijkm->afhm", wa, wf, wh, self.sens)
         return to_east_north(j, np.sin(hdg)[None, None, :, None],
                              np.cos(hdg)[None, None, :, None])
@@ -284,9 +266,9 @@ def to_east_north(j: np.ndarray, sin_h, cos_h) -> np.ndarray:
     return out
 
 
-def _weights(axis: np.ndarray, xs: np.ndarray, periodic: bool) -> np.ndarray:
+def axis_weights(axis: np.ndarray, xs: np.ndarray, periodic: bool) -> np.ndarray:
     """Linear interpolation weights, shape (len(xs), len(axis)) (clamped at the ends; the
-    heading axis periodic)."""
+    heading axis periodic). Also the edge ratio's (:mod:`advisory.tables.edge_ratio`)."""
     w = np.zeros((xs.size, axis.size))
     for r, x in enumerate(xs):
         if periodic:

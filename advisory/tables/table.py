@@ -330,9 +330,7 @@ def check_contents(header: dict, arrays: dict[str, np.ndarray]) -> TableGrid:
     n_fpa = _axis(arrays, "axis_fpa_rad", 1)
     n_hdg = _axis(arrays, "axis_heading_rad", 1)
     n_eta = _axis(arrays, "axis_eta", 3)
-    hdg = arrays["axis_heading_rad"]
-    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
-        raise TableFileError("array axis_heading_rad: nodes must lie in [0, 2 pi) rad")
+    _heading_axis(arrays, "axis_heading_rad")
     grid = _header_grid(header, arrays)
     _values(arrays, "cutoff_mach", (n_alt, n_fpa, n_hdg), *CUTOFF_MACH_RANGE)
     for name in ("phi_left", "phi_right"):
@@ -357,18 +355,11 @@ def _check_edge_ratio(arrays: dict[str, np.ndarray]) -> None:
     """The edge ratio (:data:`EDGE_ARRAYS`): all or none; axes ascending and finite,
     headings in [0, 2 pi), the levels this version's, every ratio in [0, 100] and
     non-decreasing over the levels."""
-    present = [k for k in EDGE_ARRAYS if k in arrays]
-    if not present:
+    if not _all_or_none(arrays, EDGE_ARRAYS, "edge ratio"):
         return
-    if len(present) != len(EDGE_ARRAYS):
-        absent = sorted(set(EDGE_ARRAYS) - set(present))
-        raise TableFileError(f"edge ratio: arrays {absent} missing beside {present}")
     n = [_axis(arrays, f"edge_ratio_axis_{k}", 1) for k in ("altitude_m", "heading_rad",
                                                             "mach_excess")]
-    hdg = arrays["edge_ratio_axis_heading_rad"]
-    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
-        raise TableFileError("array edge_ratio_axis_heading_rad: nodes must lie in "
-                             "[0, 2 pi) rad")
+    _heading_axis(arrays, "edge_ratio_axis_heading_rad")
     levels = arrays["edge_ratio_levels"]
     if levels.shape != (len(LEVELS),) or not np.allclose(levels, LEVELS):
         raise TableFileError("array edge_ratio_levels: not this version's levels "
@@ -382,19 +373,11 @@ def _check_spread(arrays: dict[str, np.ndarray]) -> None:
     """The cutoff sensitivities (:data:`SPREAD_ARRAYS`): all or none; axes ascending and
     finite, headings in [0, 2 pi), the error field's nodes this version's, derivatives
     finite and within +-1 per K or m/s."""
-    present = [k for k in SPREAD_ARRAYS if k in arrays]
-    if not present:
+    if not _all_or_none(arrays, SPREAD_ARRAYS, "cutoff sensitivities"):
         return
-    if len(present) != len(SPREAD_ARRAYS):
-        absent = sorted(set(SPREAD_ARRAYS) - set(present))
-        raise TableFileError(f"cutoff sensitivities: arrays {absent} missing beside "
-                             f"{present}")
     n = [_axis(arrays, f"cutoff_sens_axis_{k}", 1) for k in ("altitude_m", "fpa_rad",
                                                              "heading_rad")]
-    hdg = arrays["cutoff_sens_axis_heading_rad"]
-    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
-        raise TableFileError("array cutoff_sens_axis_heading_rad: nodes must lie in "
-                             "[0, 2 pi) rad")
+    _heading_axis(arrays, "cutoff_sens_axis_heading_rad")
     nodes = arrays["cutoff_sens_nodes_m"]
     if nodes.shape != NODES_M.shape or not np.array_equal(nodes, NODES_M):
         raise TableFileError("array cutoff_sens_nodes_m: not this version's error-field "
@@ -408,12 +391,8 @@ LIFT_ARRAYS = ("ray_age", "lift_map", "lift_map_params")
 
 
 def _check_lift_map(arrays: dict[str, np.ndarray], ray_shape: tuple[int, ...]) -> None:
-    present = [n for n in LIFT_ARRAYS if n in arrays]
-    if not present:
+    if not _all_or_none(arrays, LIFT_ARRAYS, "lift map"):
         return
-    if len(present) != len(LIFT_ARRAYS):
-        raise TableFileError(f"lift map arrays incomplete: missing "
-                             f"{sorted(set(LIFT_ARRAYS) - set(present))}")
     _values(arrays, "ray_age", ray_shape, 0.0, math.inf)
     m = arrays["lift_map"]
     if m.ndim != 2 or min(m.shape) < 2:
@@ -424,6 +403,23 @@ def _check_lift_map(arrays: dict[str, np.ndarray], ray_shape: tuple[int, ...]) -
     if not (p[0] < p[1] and p[2] < p[3] and p[4] > 0.0 and p[5] > 0.0):
         raise TableFileError("array lift_map_params: needs ln-age and area ranges that "
                              "ascend, a positive area scale and a positive weight")
+
+
+def _all_or_none(arrays: dict[str, np.ndarray], names: tuple[str, ...], what: str) -> bool:
+    """Whether the optional arrays ``names`` are present: all (True) or none (False); a
+    part of them is refused with one line naming what is missing."""
+    present = [k for k in names if k in arrays]
+    if present and len(present) != len(names):
+        absent = sorted(set(names) - set(present))
+        raise TableFileError(f"{what} arrays incomplete: {absent} missing beside {present}")
+    return bool(present)
+
+
+def _heading_axis(arrays: dict[str, np.ndarray], name: str) -> None:
+    """A heading axis's nodes lie in [0, 2 pi) rad (ascending is :func:`_axis`'s check)."""
+    hdg = arrays[name]
+    if hdg[0] < 0.0 or hdg[-1] >= 2.0 * math.pi:
+        raise TableFileError(f"array {name}: nodes must lie in [0, 2 pi) rad")
 
 
 def _axis(arrays: dict[str, np.ndarray], name: str, min_nodes: int) -> int:

@@ -81,7 +81,7 @@ def test_the_cross_section_nearest_a_zone_against_the_twin_and_shapely() -> None
     rng = np.random.default_rng(21)
     zones = [random_zone(rng, rng.uniform(-40, 40), rng.uniform(-40, 40), rng.uniform(2, 12),
                          multipart=bool(k % 3 == 0)) for k in range(6)]
-    x, y, rs, ps, zs, _, _ = pack(zones)
+    x, y, rs, ps, zs, bbox, _ = pack(zones)
     geoms = [to_shapely(z) for z in zones]
     n_eta = 31
     strips = np.array([0, 4, 8, 12, 15, 18, 22, 26, 30], dtype=np.int64)
@@ -99,7 +99,8 @@ def test_the_cross_section_nearest_a_zone_against_the_twin_and_shapely() -> None
             east[:cut] = np.nan
             east[n_eta - cut:] = np.nan
         for k, geom in enumerate(geoms):
-            got = section_nearest_kernel(east, north, right, strips, x, y, rs, ps, zs, k)
+            got = section_nearest_kernel(east, north, right, strips, x, y, rs, ps, zs, bbox,
+                                         k)
             twin = section_nearest_twin(east, north, right, strips, x, y, rs, ps, zs, k)
             assert got[0] == pytest.approx(twin[0], abs=1e-9)
             walked = [int(j) for j in strips if np.isfinite(east[j])]

@@ -45,12 +45,12 @@ advisor knows the air only to within its spread". Why resolutions hold less (sto
 encounters 29 and 43 of that campaign flown again): the crew is offered nothing to fly
 in time. The status says "unavoidable" or "warning" with no resolution until after the
 truth's act-by moment (encounter 29: act-by 21 s, first resolution 111 s; encounter 43:
-44 s and 64 s); with the table's edge both were resolved by slowing down. The likely
-cause (not measured ray by ray): a Mach trial emits just above cutoff, where the ratio's
-upper quantiles are largest (about 3 at 0.005 above cutoff), and the widened edge ray is
-carried along the line from the outer strip's inner ray; near cutoff that strip is
-narrow across and long along the track, so the widened edge lands far ahead, on zones
-the table's carpet never reaches.
+44 s and 64 s); with the table's edge both were resolved by slowing down. The cause is
+the edge itself: a Mach trial emits just above cutoff, where one atmosphere in twenty
+carries the edge far out and far ahead (traced at 35,000 ft, 0.005 above cutoff: drawn
+edges with a ratio of 2.6 or more land a median 62 km ahead, 11 km across; the table's
+edge 41.5 km and 3.8 km; :func:`advisory.tables.lookup.stretch_row` puts the 95 % edge
+71-82 km ahead and 11.1 km across), so a slow-down rarely clears the widened carpet.
 
 With the config's spread overrides (``surface_temp_sigma_c``, ``wind_sigma_kt``) the
 table's ratio, sampled from the default spread, is scaled about 1 by the ratio of the
@@ -181,7 +181,8 @@ def reach_given_ground(edge: EdgeSpread, mex: float, side: int, need: float) -> 
 def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarray,
                            strips: np.ndarray, x: np.ndarray, y: np.ndarray,
                            ring_start: np.ndarray, part_start: np.ndarray,
-                           zone_start: np.ndarray, zone: int) -> tuple[float, float, int]:
+                           zone_start: np.ndarray, zone_bbox: np.ndarray, zone: int
+                           ) -> tuple[float, float, int]:
     """(distance m, offset across the heading m, side: 0 left, 1 right) of the point of
     one emission's cross-section nearest zone ``zone``.
 
@@ -189,9 +190,15 @@ def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarra
     nodes ``strips`` (ascending ray indices) on each side, segment by segment, until a
     ray without a boom (NaN) or a segment touching the zone; the offset is interpolated
     along the nearest segment from ``right`` (the rows' offsets across the heading, m).
-    The distance is infinite where the row has no boom. Twin:
-    ``tests/twins/edge_spread.py``.
+    The distance is infinite where the row has no boom. A segment whose bounding box lies
+    farther from the zone's (``zone_bbox[zone]``: x min, y min, x max, y max) than the
+    nearest distance found so far is skipped (it cannot be nearer). Twin:
+    ``tests/twins/edge_spread.py`` (no screening).
     """
+    bx0 = zone_bbox[zone, 0]
+    by0 = zone_bbox[zone, 1]
+    bx1 = zone_bbox[zone, 2]
+    by1 = zone_bbox[zone, 3]
     c = east.size // 2
     best_d = math.inf
     best_lat = 0.0
@@ -205,6 +212,11 @@ def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarra
                 continue
             if not (math.isfinite(east[a]) and math.isfinite(east[b])):
                 break
+            gx = max(0.0, bx0 - max(east[a], east[b]), min(east[a], east[b]) - bx1)
+            gy = max(0.0, by0 - max(north[a], north[b]), min(north[a], north[b]) - by1)
+            if gx * gx + gy * gy > best_d * best_d:
+                a = b
+                continue
             d, u = segment_zone_distance(east[a], north[a], east[b], north[b], x, y,
                                          ring_start, part_start, zone_start, zone)
             if d < best_d:
@@ -228,7 +240,7 @@ def with_edge_probability(conflicts: list[Conflict], east: np.ndarray, north: np
     out = []
     last = rows.shape[1] - 1
     nodes = np.ascontiguousarray(strips, dtype=np.int64)
-    zone_arrays = (pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start)
+    zone_arrays = (pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox)
     for c in conflicts:
         k = c.emission_index
         if not 0 <= k < cutoffs.size:

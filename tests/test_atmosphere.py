@@ -12,10 +12,10 @@ from advisory.physics.atmosphere import (
     ProfileLevel,
     atmosphere_from_levels,
     geometric_altitude,
-    load_profile,
     standard_atmosphere,
     ussa1976,
 )
+from advisory.physics.profile_file import load_profile
 
 ALTITUDES_M = np.linspace(0.0, 30000.0, 37)  # 37 altitudes, every 833 m
 

@@ -56,8 +56,9 @@ from advisory.io.framing import DatagramReader, StreamDeframer
 from advisory.io.messages import FrameError, decode_frame
 from advisory.io.records import KIND_EVENT, KIND_INPUT, KIND_RAW_INPUT, decode_event, read_records
 from advisory.physics.aircraft import Aircraft, default_aircraft, load_aircraft
-from advisory.physics.atmosphere import Atmosphere, load_profile, standard_atmosphere
+from advisory.physics.atmosphere import Atmosphere, standard_atmosphere
 from advisory.physics.pressure_altitude import HeightConverter
+from advisory.physics.profile_file import load_profile
 from advisory.pipeline.zones import ZoneSet
 
 #: A frame whose sample time is further than this from the receive clock's line is left out, s.

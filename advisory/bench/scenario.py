@@ -21,7 +21,8 @@ from advisory.bench.edge_band import MAX_CONDITIONS
 from advisory.bench.expect import load_expected
 from advisory.io.records import KIND_EVENT, Recorder, RecordReader, decode_event
 from advisory.physics.aircraft import default_aircraft, load_aircraft
-from advisory.physics.atmosphere import load_profile, standard_atmosphere
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.physics.profile_file import load_profile
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import load_config
 from advisory.pipeline.state import StateValidator

@@ -37,9 +37,9 @@ from advisory.physics.atmosphere import (
     Atmosphere,
     ProfileLevel,
     atmosphere_from_levels,
-    load_profile,
     standard_atmosphere,
 )
+from advisory.physics.profile_file import load_profile
 from advisory.pipeline.zones import ZoneSet
 from advisory.tables.build import BuildInputs
 from advisory.tables.cache import cached_table

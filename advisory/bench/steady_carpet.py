@@ -18,9 +18,10 @@ import numpy as np
 
 from advisory import units
 from advisory.physics.aircraft import Aircraft, default_aircraft, load_aircraft
-from advisory.physics.atmosphere import Atmosphere, load_profile, standard_atmosphere
+from advisory.physics.atmosphere import Atmosphere, standard_atmosphere
 from advisory.physics.carlson import carlson_overpressure
 from advisory.physics.carpet import Carpet, best_reaching_azimuth, compute_carpet
+from advisory.physics.profile_file import load_profile
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.signature import ground_signature
 from advisory.tables import lookup as lk

@@ -8,7 +8,8 @@ import time
 
 from advisory.cli.options import add_aircraft_option
 from advisory.physics.aircraft import default_aircraft, load_aircraft
-from advisory.physics.atmosphere import load_profile, standard_atmosphere
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.physics.profile_file import load_profile
 from advisory.schema import SAFETY_CAUTION
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.grid import default_grid, load_grid

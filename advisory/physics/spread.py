@@ -56,10 +56,10 @@ from advisory.physics.atmosphere import (
     Atmosphere,
     AtmosphereError,
     _hydrostatic_pressure,
-    _level_from_row,
     atmosphere_from_levels,
 )
 from advisory.physics.atmosphere_merge import BLEND_M, _fade
+from advisory.physics.profile_file import level_from_row
 
 __all__ = ["NODES_M", "N_VARIABLES", "SpreadModel", "SpreadError", "default_spread",
            "load_ensemble", "perturbed", "wind_along_cross_to_east_north"]
@@ -241,7 +241,7 @@ def default_spread(surface_temp_sigma_k: float | None = None,
 def load_ensemble(path: str | Path) -> SpreadModel:
     """A spread from an ensemble file: a CSV of member profiles.
 
-    Columns as a profile file (:func:`advisory.physics.atmosphere.load_profile`: ``alt_ft``
+    Columns as a profile file (:func:`advisory.physics.profile_file.load_profile`: ``alt_ft``
     or ``alt_m``; ``temp_c`` or ``temp_k``; optional wind) plus ``member`` (any label);
     each member's rows ascend in altitude. The background covariance is the members'
     sample covariance (``N - 1`` in the denominator) at the nodes about their mean.
@@ -284,7 +284,7 @@ def load_ensemble(path: str | Path) -> SpreadModel:
     values = []
     for label, rows in members.items():
         try:
-            levels = [_level_from_row(r, f"{where}: member {label!r}") for r in rows]
+            levels = [level_from_row(r, f"{where}: member {label!r}") for r in rows]
             atm = atmosphere_from_levels(levels, source=f"{where} member {label}")
         except AtmosphereError as exc:
             raise SpreadError(f"{where}: member {label!r}: {exc}") from exc

@@ -24,7 +24,8 @@ from advisory.io.framing import AuthVerifier, load_auth_key
 from advisory.io.records import Recorder
 from advisory.io.transports import UdpTransport
 from advisory.io.transports.udp import SourceGate, parse_allow_from
-from advisory.physics.atmosphere import load_profile, standard_atmosphere
+from advisory.physics.atmosphere import standard_atmosphere
+from advisory.physics.profile_file import load_profile
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, load_config
 from advisory.pipeline.profile import StreamProfile

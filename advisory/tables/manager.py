@@ -32,8 +32,8 @@ from pathlib import Path
 from advisory.physics.atmosphere import (
     Atmosphere,
     AtmosphereError,
-    load_profile,
 )
+from advisory.physics.profile_file import load_profile
 from advisory.tables.build import BuildInputs, build_table_arrays, provenance
 from advisory.tables.store import write_table_file
 from advisory.tables.table import BoomTable

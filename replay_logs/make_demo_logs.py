@@ -67,9 +67,9 @@ from advisory.physics.atmosphere import (  # noqa: E402
     Atmosphere,
     ProfileLevel,
     atmosphere_from_levels,
-    load_profile,
     standard_atmosphere,
 )
+from advisory.physics.profile_file import load_profile  # noqa: E402
 
 RATE_HZ = 20.0  #: air-data frame rate of the synthesized feeds, Hz
 ROLL_RATE_DEG_S = 5.0  #: roll rate toward a new bank target, deg/s (invented, gentle)

@@ -22,8 +22,8 @@ from pathlib import Path
 import msgpack
 import pytest
 
+import advisory.io.auth as auth
 import advisory.io.framing as framing
-import advisory.io.messages as messages
 from advisory.io.framing import datagram
 from advisory.io.messages import decode_frame, encode_adv, encode_air, encode_status
 from advisory.io.records import KIND_INPUT, read_records
@@ -89,21 +89,21 @@ def frames(rng: random.Random, n: int) -> list[bytes]:
 
 @pytest.mark.parametrize("key,data,want", RFC4231)
 def test_tag_is_hmac_sha256_rfc4231(key, data, want) -> None:
-    assert messages.auth_tag(key, data).hex() == want  # RFC 4231 section 4
+    assert auth.auth_tag(key, data).hex() == want  # RFC 4231 section 4
 
 
 def test_signed_frames_decode_as_before_and_check() -> None:
     rng = random.Random(15)
     for payload in frames(rng, 30):
-        signed = messages.sign_payload(payload, KEY)
+        signed = auth.sign_payload(payload, KEY)
         # ICD 7.1: the tag is HMAC-SHA256 over every byte before it (Python's hmac)
         assert signed[-32:] == hmac.new(KEY, signed[:-32], hashlib.sha256).digest()
-        assert messages.check_auth(signed, KEY) == ""
-        assert messages.check_auth(payload, KEY) == "auth_missing"
-        assert messages.check_auth(signed, KEY[:-1] + b"!") == "auth_bad"
+        assert auth.check_auth(signed, KEY) == ""
+        assert auth.check_auth(payload, KEY) == "auth_missing"
+        assert auth.check_auth(signed, KEY[:-1] + b"!") == "auth_bad"
         bad = bytearray(signed)
         bad[rng.randrange(len(bad) - 39)] ^= 0x01
-        assert messages.check_auth(bytes(bad), KEY) in ("auth_bad", "auth_missing")
+        assert auth.check_auth(bytes(bad), KEY) in ("auth_bad", "auth_missing")
         # ICD section 7: a new optional field; receivers that do not check ignore it
         assert decode_frame(signed) == decode_frame(payload)
         assert msgpack.unpackb(signed)["auth"] == signed[-32:]
@@ -115,14 +115,14 @@ def test_fixmap_of_15_grows_to_map16() -> None:
     m.update({f"k{i}": i for i in range(11)})
     payload = msgpack.packb(m)
     assert payload[0] == 0x8F
-    signed = messages.sign_payload(payload, KEY)
+    signed = auth.sign_payload(payload, KEY)
     assert signed[:3] == b"\xde\x00\x10" and len(msgpack.unpackb(signed)) == 16
-    assert messages.check_auth(signed, KEY) == ""
+    assert auth.check_auth(signed, KEY) == ""
 
 
 def test_replayed_and_older_frames_are_refused() -> None:
     ver = framing.AuthVerifier(KEY, resync_s=2.0)
-    sign = messages.sign_payload
+    sign = auth.sign_payload
 
     def air(seq: int) -> bytes:
         return sign(encode_air({"lat_deg": 1.0, "lon_deg": 2.0, "alt_ft": 3.0, "mach": 1.2,
@@ -193,7 +193,7 @@ def test_c_signs_and_checks_like_python(cbuild) -> None:
     rng = random.Random(7)
     payloads = frames(rng, 60)
     signed_c = run_tool(cbuild, [f"sign {KEY.hex()} {p.hex()}" for p in payloads])
-    signed_py = [messages.sign_payload(p, KEY) for p in payloads]
+    signed_py = [auth.sign_payload(p, KEY) for p in payloads]
     assert signed_c == [f"ok {s.hex()}" for s in signed_py]
     tampered = [s[:-1] + bytes([s[-1] ^ 1]) for s in signed_py]
     checks = run_tool(cbuild, [f"auth {KEY.hex()} {s.hex()}" for s in signed_py + tampered]
@@ -226,7 +226,7 @@ def test_run_with_auth_key_admits_only_signed_new_frames(tmp_path, small_table_p
         t0 = time.monotonic()
         for i in range(30):  # 3 s at 10 Hz, one socket (one source)
             time.sleep(max(0.0, t0 + i * 0.1 - time.monotonic()))
-            signed = datagram(messages.sign_payload(air_payload(i, i * 0.1), KEY))
+            signed = datagram(auth.sign_payload(air_payload(i, i * 0.1), KEY))
             tx.sendto(signed, ("127.0.0.1", port))
             sent_signed += 1
             if i % 5 == 4:
@@ -294,7 +294,7 @@ def test_verifier_never_raises_on_any_bytes() -> None:
     # mutated inputs (common practice, no source).
     rng = random.Random(99)
     ver = framing.AuthVerifier(KEY)
-    good = [messages.sign_payload(p, KEY) for p in frames(rng, 12)]
+    good = [auth.sign_payload(p, KEY) for p in frames(rng, 12)]
     n = 0
     for k in range(3000):
         if k % 3 == 0:
@@ -319,5 +319,5 @@ def test_icd_signed_example() -> None:
     key = bytes(range(32))
     assert len(signed) == 144 and signed[0] == 0x88
     assert signed[-32:] == hmac.new(key, signed[:-32], hashlib.sha256).digest()
-    assert messages.check_auth(signed, key) == ""
+    assert auth.check_auth(signed, key) == ""
     assert decode_frame(signed).fields["reason"] == "stale air data"

@@ -104,7 +104,7 @@ def _cue_table() -> str:
 
 
 def _examples() -> str:
-    from advisory.io.messages import sign_payload
+    from advisory.io.auth import sign_payload
 
     air = encode_air(AIR_EXAMPLE, 7, 1893456000.0)
     crc = crc32c(air)

@@ -28,9 +28,10 @@ from pathlib import Path
 import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 import numpy as np
 
+from advisory.io.auth import check_auth
 from advisory.io.cobs import ERR_NO_ROOM, cobs_decode_into, cobs_encode, cobs_max_encoded_len
 from advisory.io.crc32c import crc32c, crc32c_kernel, crc32c_update
-from advisory.io.messages import FrameError, check_auth
+from advisory.io.messages import FrameError
 from advisory.jit import njit
 from advisory.schema import (
     AUTH_KEY_MIN_BYTES,
@@ -191,8 +192,8 @@ def _type_and_seq(payload: bytes) -> tuple[str, int] | None:
 class AuthVerifier:
     """Admits only authenticated frames that are newer than the last one (ICD 7.1).
 
-    A payload must end with a valid HMAC-SHA256 entry (:func:`advisory.io.messages.
-    check_auth`, constant-time compare); its ``seq`` must then be newer than the last
+    A payload must end with a valid HMAC-SHA256 entry (:func:`advisory.io.auth.check_auth`,
+    constant-time compare); its ``seq`` must then be newer than the last
     authenticated frame of its type: ``(seq - last) mod 2**32`` in ``1 .. 2**31 - 1``.
     When no authenticated frame of that type was admitted for :data:`AUTH_RESYNC_S`,
     the next one re-anchors the sequence (a restarted sender). Never raises on bad input.

@@ -25,6 +25,7 @@ from advisory.physics.carpet import compute_carpet, cutoff_mach
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.spread import default_spread, perturbed
 from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.confidence import boom_probability
 from advisory.pipeline.config import AdvisorConfig, ConfigError
 from advisory.pipeline.edge_spread import (
     PresentSpread,
@@ -218,6 +219,31 @@ def _probabilities_hold(tb: BoomTable, dm: float, mach: float, hw: np.ndarray,
             p = reach_given_ground(edge, mach - cut, side, f)
             lo, hi = binom.interval(0.999, n, p)
             assert lo / n - 0.03 <= share <= hi / n + 0.03, (dm, side, f, share, p)
+
+
+def test_a_zone_on_the_widened_edge_is_stated_at_one_less_the_edge_confidence(
+        small_table) -> None:
+    # Definition (the module notes): at edge_confidence c the edge is laid where the boom
+    # reaches beyond it in 1 - c of the atmospheres, those in which it stays off the
+    # ground counted; so the probability the advisor states for a zone on that edge,
+    # P_ground * P(R >= ratio), is 1 - c. Before stop 30 the edge was the conditional
+    # quantile c, and near the cutoff such a zone was stated at P_ground (1 - c), about
+    # 0.03 (the near-cutoff campaign's encounter 29 said "unavoidable" at 0.04).
+    tb = small_table
+    sigma, edge = PresentSpread(tb, AdvisorConfig(edge_confidence=0.95)).at(
+        _height_m(), 0.0, math.radians(90.0))
+    assert sigma is not None and edge is not None and edge.stretch is not None
+    checked = 0
+    for m, mex in enumerate(edge.mex):
+        p_ground = boom_probability(float(mex), 0.0, sigma)
+        for side in (0, 1):
+            ratio = float(edge.stretch[1 + side, m])
+            if ratio <= 1.0 or p_ground < 0.1:
+                continue  # the table's own edge, or a boom that hardly reaches
+            stated = p_ground * reach_given_ground(edge, float(mex), side, ratio)
+            assert stated == pytest.approx(0.05, abs=0.005), (mex, side, p_ground, ratio)
+            checked += 1
+    assert checked >= 4
 
 
 def test_the_advisor_says_how_likely_a_zone_near_the_edge_is(small_table) -> None:

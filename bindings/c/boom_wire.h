@@ -133,7 +133,8 @@ typedef struct {
     bool combined;         /* the resolution is the Mach and the turn together */
     bool near_cutoff;      /* issue 14: Mach within the near-cutoff band (absent: false) */
     bool has_boom_probability; /* issue 16: sent only when known */
-    double boom_probability;   /* probability the present boom reaches the ground, 0..1 */
+    double boom_probability;   /* probability the boom reaches the zone named (no zone named:
+                                  the ground), 0..1 (ICD key 17) */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;

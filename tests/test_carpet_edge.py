@@ -26,7 +26,8 @@ from scipy import integrate
 from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import standard_atmosphere
 from advisory.physics.carpet import compute_carpet
-from advisory.physics.fastpath import R_REACHED, R_X, trace_column
+from advisory.physics.column import trace_column
+from advisory.physics.fastpath import R_REACHED, R_X
 from advisory.physics.rays import FlightCondition, RayTracer
 
 #: The issue's budget for the edge, m.

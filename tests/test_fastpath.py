@@ -19,6 +19,7 @@ from advisory.physics import carpet
 from advisory.physics import fastpath as fp
 from advisory.physics.aircraft import default_aircraft
 from advisory.physics.atmosphere import ProfileLevel, atmosphere_from_levels, standard_atmosphere
+from advisory.physics.column import trace_column
 from advisory.physics.ffunction import f_function_parts
 from advisory.physics.rays import FlightCondition, FlightConditionError, RayTracer
 from advisory.physics.signature import ground_signature
@@ -70,7 +71,7 @@ def _assert_column_parity(inputs: BuildInputs, tracer: RayTracer, key) -> None:
     g = inputs.grid
     ia, jf, kh = key
     # The fast path must really run (not fall back to the reference).
-    assert fp.trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], g.headings_rad[kh],
+    assert trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], g.headings_rad[kh],
                            g.fpa_rad[jf], g.ground_elevation_m, np.asarray(g.mach_excess),
                            g.eta, inputs.reflection_factor) is not None
     cut, left, right, cells, ages = build_column(inputs, tracer, *key)
@@ -184,7 +185,7 @@ def test_declined_column_falls_back_to_reference_error(aircraft) -> None:
     grid = TableGrid(altitudes_m=(units.ft_to_m(50000.0),), mach_excess=(0.1, 4.5),
                      fpa_rad=(0.0,))
     inputs, tracer = BuildInputs(aircraft, atm, grid), RayTracer(atm)
-    assert fp.trace_column(tracer, aircraft, grid.altitudes_m[0], 0.0, 0.0, 0.0,
+    assert trace_column(tracer, aircraft, grid.altitudes_m[0], 0.0, 0.0, 0.0,
                            np.asarray(grid.mach_excess), grid.eta, 1.9) is None
     with pytest.raises(FlightConditionError, match="mach"):
         build_column(inputs, tracer, 0, 0, 0)

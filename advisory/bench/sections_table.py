@@ -17,7 +17,7 @@ import numpy as np
 
 from advisory.bench.budgets import NotMeasured
 from advisory.bench.context import Context, build_table, ensure_table, exc_text, median
-from advisory.physics import fastpath
+from advisory.physics import column
 from advisory.physics.carpet import best_reaching_azimuth, lateral_cutoff
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.tables import lookup as lk
@@ -178,7 +178,7 @@ def _compiled_direct(ctx: Context, table: BoomTable, inputs: BuildInputs, tracer
                      conds: list[Condition], table_t: float) -> None:
     """For information: the same footprints through the builder's compiled fast path.
 
-    ``advisory.physics.fastpath.trace_column`` with one Mach excess: cutoff-Mach search,
+    ``advisory.physics.column.trace_column`` with one Mach excess: cutoff-Mach search,
     lateral cutoffs and every ray with its signature, all compiled.
     """
     name = "table vs compiled direct trace"
@@ -188,7 +188,7 @@ def _compiled_direct(ctx: Context, table: BoomTable, inputs: BuildInputs, tracer
 
         def one(alt: float, mach: float, fpa: float, hdg: float) -> None:
             excess = max(mach - table.cutoff_mach(alt, fpa, hdg), 1e-3)
-            fastpath.trace_column(tracer, inputs.aircraft, alt, hdg, fpa, g.ground_elevation_m,
+            column.trace_column(tracer, inputs.aircraft, alt, hdg, fpa, g.ground_elevation_m,
                                   np.array([excess]), eta, inputs.reflection_factor)
 
         one(*conds[-1])  # warm-up (JIT load)
@@ -199,7 +199,7 @@ def _compiled_direct(ctx: Context, table: BoomTable, inputs: BuildInputs, tracer
             times.append(time.perf_counter() - t0)
         d = median(times)
         ctx.report.add_info("compiled_direct_speedup", name, d / table_t, "x",
-                            note=f"fastpath.trace_column with one Mach excess (cutoff-Mach "
+                            note=f"column.trace_column with one Mach excess (cutoff-Mach "
                                  f"search included): median {d * 1e3:.2f} ms per footprint "
                                  f"over {len(conds)} conditions vs table {table_t * 1e6:.2f} us")
     except Exception as exc:

@@ -127,3 +127,18 @@ def load_label_map(path: str | Path | None = None) -> LabelMap:
     except OSError as exc:
         raise ValueError(f"cannot read ARINC 429 label map {str(p)!r}: {exc}") from None
     return parse_label_map(text, source=str(p))
+
+
+def label_map_of(label_map: LabelMap | str | Path | None) -> LabelMap | None:
+    """The label map from an object or a TOML file (None stays None: the built-in map).
+
+    Raises
+    ------
+    ValueError
+        ``label_map`` is neither, or its file cannot be read or parsed.
+    """
+    if label_map is None or isinstance(label_map, LabelMap):
+        return label_map
+    if isinstance(label_map, (str, Path)):
+        return load_label_map(label_map)
+    raise ValueError(f"label_map must be a LabelMap or a file path, got {label_map!r}")

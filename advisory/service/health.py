@@ -68,6 +68,41 @@ def clip(text: str, limit: int = REASON_MAX_BYTES) -> str:
     return text if len(raw) <= limit else raw[:limit].decode("utf-8", "ignore")
 
 
+def no_state_reason(now: float, validator: StateValidator, *, link_reason: str | None,
+                    missing: tuple[str, ...], last_valid_rx: float | None,
+                    any_input: bool) -> str:
+    """Why the loop has no state to advise on, in one line for the advisory's reason.
+
+    Parameters
+    ----------
+    now : float
+        Monotonic time of the step, s.
+    validator : StateValidator
+        The loop's validator (its latest rejection and freshness refusal).
+    link_reason : str or None
+        None while the input link is up; else why it is down ("" if not known).
+    missing : tuple of str
+        Required fields the ARINC 429 words have not given yet (empty otherwise).
+    last_valid_rx : float or None
+        Monotonic receive time of the last valid frame, s.
+    any_input : bool
+        Whether any frame has been received.
+    """
+    if link_reason is not None:
+        detail = f" ({link_reason})" if link_reason else ""
+        return f"input link lost{detail}; reconnecting"
+    if missing:
+        return "ARINC 429 input incomplete: missing " + ", ".join(missing)
+    if last_valid_rx is not None:
+        why = f"air data stale: last valid frame {max(now - last_valid_rx, 0.0):.1f} s ago"
+        not_fresh = validator.not_fresh  # frozen or repeated data: say which
+        return why if not_fresh is None else f"{why} ({not_fresh.detail})"
+    if not any_input:
+        return "no air data received yet"
+    rej = validator.last_rejection
+    return "no valid air data yet" + (f" ({rej.detail})" if rej is not None else "")
+
+
 class DurationHistogram:
     """Durations in fixed 10-microsecond bins up to 100 ms (constant memory).
 
@@ -279,4 +314,4 @@ class LoopHealth:
         return fixed
 
 
-__all__ = ["LOOP_COUNTERS", "DurationHistogram", "LoopHealth", "clip"]
+__all__ = ["LOOP_COUNTERS", "DurationHistogram", "LoopHealth", "clip", "no_state_reason"]

@@ -38,7 +38,7 @@ from pathlib import Path
 from typing import Any, Protocol
 
 from advisory.io.arinc429 import Arinc429Assembler, LabelMap
-from advisory.io.arinc429_labels import load_label_map
+from advisory.io.arinc429_labels import label_map_of
 from advisory.io.framing import DatagramReader, StreamDeframer
 from advisory.io.messages import FrameDecoder, encode_adv, encode_status, next_seq
 from advisory.io.records import Recorder
@@ -46,8 +46,8 @@ from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Advisory
 from advisory.pipeline.state import AirDataState, Rejection, StateValidator, ValidatorLimits
 from advisory.schema import ADV_FORMAT_VERSION, AIR_REQUIRED, LINK_COUNTERS
-from advisory.service.health import DurationHistogram, LoopHealth, clip
-from advisory.service.settings import FRAMINGS, INPUT_FORMATS
+from advisory.service.health import DurationHistogram, LoopHealth, clip, no_state_reason
+from advisory.service.settings import FRAMINGS, INPUT_FORMATS, check_loop_options
 
 #: Reason of the first status frame: the advisory-only caution, short enough for the
 #: 127-byte reason field (the full sentence is ``advisory.SAFETY_CAUTION``).
@@ -140,22 +140,8 @@ class AdvisoryLoop:
                  label_map: LabelMap | str | Path | None = None, framing: str | None = None,
                  degraded_hold_s: float = 5.0, channel: int = 0,
                  advisory_version: int = ADV_FORMAT_VERSION) -> None:
-        if input_format not in INPUT_FORMATS:
-            raise ValueError(f"input_format must be one of {', '.join(INPUT_FORMATS)}, "
-                             f"got {input_format!r}")
-        if framing is None:
-            framing = "datagram" if input_format == "datagram" else "stream"
-        if framing not in FRAMINGS or (input_format != "arinc429"
-                                       and framing != input_format):
-            raise ValueError(f"framing {framing!r} does not fit input_format {input_format!r}")
-        for name, v, hi in (("rate_hz", rate_hz, 1000.0), ("heartbeat_s", heartbeat_s, 3600.0),
-                            ("degraded_hold_s", degraded_hold_s, 3600.0)):
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 < v <= hi:
-                raise ValueError(f"{name} must be a number in (0, {hi:g}], got {v!r}")
-        if advisory_version not in (1, ADV_FORMAT_VERSION) or isinstance(advisory_version,
-                                                                        bool):
-            raise ValueError(f"advisory_version must be 1 or {ADV_FORMAT_VERSION}, got "
-                             f"{advisory_version!r}")
+        framing = check_loop_options(input_format, framing, rate_hz, heartbeat_s,
+                                     degraded_hold_s, advisory_version)
         self.advisory_version = int(advisory_version)
         self.advisor = advisor
         self.input_format = input_format
@@ -176,7 +162,7 @@ class AdvisoryLoop:
         self._decoder: FrameDecoder | None = None
         self._assembler: Arinc429Assembler | None = None
         if input_format == "arinc429":
-            self._assembler = Arinc429Assembler(_label_map(label_map),
+            self._assembler = Arinc429Assembler(label_map_of(label_map),
                                                 max_age_s=self.validator.limits.max_age_s)
         else:
             self._decoder = FrameDecoder()
@@ -407,29 +393,16 @@ class AdvisoryLoop:
     # ------------------------------------------------------------------ the step
     def _input_state(self, now: float) -> tuple[AirDataState | None, str]:
         """The state to advise on, or None and why not (with :attr:`input_note`)."""
-        st, why = self._input_state_plain(now)
-        if st is None and self.input_note:
-            why = f"{why}; {self.input_note}"
-        return st, why
-
-    def _input_state_plain(self, now: float) -> tuple[AirDataState | None, str]:
-        if not self._link_up:
-            detail = f" ({self._link_reason})" if self._link_reason else ""
-            return None, f"input link lost{detail}; reconnecting"
-        st = self.validator.current(now)
+        st = self.validator.current(now) if self._link_up else None
         if st is not None:
             return st, ""
-        if self._assembler is not None and self._missing:
-            return None, "ARINC 429 input incomplete: missing " + ", ".join(self._missing)
-        last = self._last_valid_rx
-        if last is not None:
-            why = f"air data stale: last valid frame {max(now - last, 0.0):.1f} s ago"
-            not_fresh = self.validator.not_fresh  # frozen or repeated data: say which
-            return None, why if not_fresh is None else f"{why} ({not_fresh.detail})"
-        if not self._any_input:
-            return None, "no air data received yet"
-        rej = self.validator.last_rejection
-        return None, "no valid air data yet" + (f" ({rej.detail})" if rej is not None else "")
+        missing = self._missing if self._assembler is not None else ()
+        why = no_state_reason(now, self.validator, link_reason=None if self._link_up
+                              else self._link_reason, missing=missing,
+                              last_valid_rx=self._last_valid_rx, any_input=self._any_input)
+        if self.input_note:
+            why = f"{why}; {self.input_note}"
+        return None, why
 
     def _step(self, now: float, utc: float, nominal: float) -> list[bytes]:
         c = self._c
@@ -525,15 +498,6 @@ class AdvisoryLoop:
                 "rate_hz": self.rate_hz, "heartbeat_s": self.heartbeat_s,
                 "degraded_hold_s": self.degraded_hold_s,
                 "advisory_version": self.advisory_version}
-
-
-def _label_map(label_map: LabelMap | str | Path | None) -> LabelMap | None:
-    """The ARINC 429 label map from an object or a TOML file (None: the built-in map)."""
-    if label_map is None or isinstance(label_map, LabelMap):
-        return label_map
-    if isinstance(label_map, (str, Path)):
-        return load_label_map(label_map)
-    raise ValueError(f"label_map must be a LabelMap or a file path, got {label_map!r}")
 
 
 __all__ = ["FRAMINGS", "INPUT_FORMATS", "STARTUP_REASON", "STOP_REASON", "AdvisorLike",

@@ -153,6 +153,36 @@ def check_settings(s: RunSettings) -> None:
         raise RunError(f"--log-level: {s.log_level!r} must be one of {', '.join(LOG_LEVELS)}")
 
 
+def check_loop_options(input_format: str, framing: str | None, rate_hz: float,
+                       heartbeat_s: float, degraded_hold_s: float,
+                       advisory_version: int) -> str:
+    """Check the advisory loop's options; return the framing (its default resolved).
+
+    The framing defaults to ``"datagram"`` for ``input_format "datagram"``, else
+    ``"stream"``; ARINC 429 words may come either way.
+
+    Raises
+    ------
+    ValueError
+        Naming the first bad option and its value.
+    """
+    if input_format not in INPUT_FORMATS:
+        raise ValueError(f"input_format must be one of {', '.join(INPUT_FORMATS)}, "
+                         f"got {input_format!r}")
+    if framing is None:
+        framing = "datagram" if input_format == "datagram" else "stream"
+    if framing not in FRAMINGS or (input_format != "arinc429" and framing != input_format):
+        raise ValueError(f"framing {framing!r} does not fit input_format {input_format!r}")
+    for name, v, hi in (("rate_hz", rate_hz, 1000.0), ("heartbeat_s", heartbeat_s, 3600.0),
+                        ("degraded_hold_s", degraded_hold_s, 3600.0)):
+        if isinstance(v, bool) or not isinstance(v, (int, float)) or not 0 < v <= hi:
+            raise ValueError(f"{name} must be a number in (0, {hi:g}], got {v!r}")
+    if advisory_version not in (1, ADV_FORMAT_VERSION) or isinstance(advisory_version, bool):
+        raise ValueError(f"advisory_version must be 1 or {ADV_FORMAT_VERSION}, got "
+                         f"{advisory_version!r}")
+    return framing
+
+
 __all__ = ["CONFIG_KEYS", "CONFIG_PATH_KEYS", "EXIT_OK", "EXIT_RUNTIME", "EXIT_USAGE",
            "FRAMINGS", "INPUT_FORMATS", "LOG_LEVELS", "RunError", "RunSettings",
-           "check_settings", "read_service_config"]
+           "check_loop_options", "check_settings", "read_service_config"]

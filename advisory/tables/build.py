@@ -25,6 +25,7 @@ from advisory.physics import fastpath as fp
 from advisory.physics.aircraft import Aircraft, aircraft_document
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.carpet import best_reaching_azimuth, cutoff_mach, lateral_cutoff
+from advisory.physics.column import trace_column
 from advisory.physics.rays import FlightCondition, RayPath, RayTracer
 from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, Signature, ground_signature
 from advisory.schema import VERSION
@@ -87,7 +88,7 @@ def build_column(inputs: BuildInputs, tracer: RayTracer, ia: int, jf: int, kh: i
     """
     g = inputs.grid
     hdg = g.headings_rad[kh]
-    col = fp.trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], hdg, g.fpa_rad[jf],
+    col = trace_column(tracer, inputs.aircraft, g.altitudes_m[ia], hdg, g.fpa_rad[jf],
                           g.ground_elevation_m, np.asarray(g.mach_excess, dtype=np.float64),
                           g.eta, inputs.reflection_factor)
     if col is None:

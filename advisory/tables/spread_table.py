@@ -40,6 +40,7 @@ import numpy as np
 
 from advisory.physics import carpet as _carpet
 from advisory.physics import fastpath as fp
+from advisory.physics.column import trace_column
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.physics.spread import N_VARIABLES, NODES_M, perturbed
 from advisory.tables import lookup as lk
@@ -111,7 +112,7 @@ def edge_outputs(tracer: RayTracer, aircraft, altitude_m: float, heading_rad: fl
     ok = machs - m_cut > 1e-5
     if not np.any(ok):
         return m_cut, out
-    col = fp.trace_column(tracer, aircraft, altitude_m, heading_rad, fpa_rad, ground_m,
+    col = trace_column(tracer, aircraft, altitude_m, heading_rad, fpa_rad, ground_m,
                           machs[ok] - m_cut, np.array([-1.0, 0.0, 1.0]), reflection)
     if col is None:
         return None

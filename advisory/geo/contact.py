@@ -23,7 +23,7 @@ import numpy as np
 from advisory.geo.polygons import _point_segment_dist2, edge_run_near
 from advisory.jit import njit
 
-__all__ = ["build_edge_chunks", "first_contact"]
+__all__ = ["boxes_overlap", "build_edge_chunks", "first_contact"]
 
 
 @njit(cache=True)
@@ -38,8 +38,11 @@ def _circle_near_segment(bbox: np.ndarray, c: int, ax: float, ay: float, bx: flo
 
 
 @njit(cache=True)
-def _boxes_overlap(x0: float, y0: float, x1: float, y1: float, bbox: np.ndarray, k: int,
-                   margin: float) -> bool:
+def boxes_overlap(x0: float, y0: float, x1: float, y1: float, bbox: np.ndarray, k: int,
+                  margin: float) -> bool:
+    """Whether the box ``x0..x1, y0..y1`` (m) comes within ``margin`` (m) of zone ``k``'s
+    bounding box ``bbox[k]`` (x min, y min, x max, y max) on each axis: a screen that
+    never rejects a pair nearer than ``margin`` (an infinite margin accepts every pair)."""
     return not (x1 + margin < bbox[k, 0] or x0 - margin > bbox[k, 2]
                 or y1 + margin < bbox[k, 1] or y0 - margin > bbox[k, 3])
 
@@ -230,7 +233,7 @@ def first_contact(ax: np.ndarray, ay: np.ndarray, bx: np.ndarray, by: np.ndarray
     qy = np.empty(4)
     for k in range(n_zone):
         m = margin[k]
-        if not _boxes_overlap(gx0, gy0, gx1, gy1, zone_bbox, k, m):
+        if not boxes_overlap(gx0, gy0, gx1, gy1, zone_bbox, k, m):
             continue
         # a vertex of the zone, for the "zone wholly inside a band" case
         v = chunk_edges[ring_chunk[part_start[zone_start[k]]], 0]
@@ -238,12 +241,12 @@ def first_contact(ax: np.ndarray, ay: np.ndarray, bx: np.ndarray, by: np.ndarray
         vy = y[v]
         for i in range(n_seg):
             hit = False
-            if _boxes_overlap(sx0[i], sy0[i], sx1[i], sy1[i], zone_bbox, k, m) and (
+            if boxes_overlap(sx0[i], sy0[i], sx1[i], sy1[i], zone_bbox, k, m) and (
                     _circle_near_segment(zone_bbox, k, ax[i], ay[i], bx[i], by[i], m)):
                 hit = _near_zone_chunked(ax[i], ay[i], bx[i], by[i], m, x, y, part_start,
                                          zone_start, zone_bbox, ring_chunk, chunk_edges,
                                          chunk_bbox, k)
-            if not hit and swept and i > 0 and _boxes_overlap(
+            if not hit and swept and i > 0 and boxes_overlap(
                 min(sx0[i], sx0[i - 1]), min(sy0[i], sy0[i - 1]),
                 max(sx1[i], sx1[i - 1]), max(sy1[i], sy1[i - 1]), zone_bbox, k, m,
             ):

@@ -69,6 +69,7 @@ import math
 
 import numpy as np
 
+from advisory.geo.contact import boxes_overlap
 from advisory.geo.polygons import segment_zone_distance
 from advisory.jit import njit
 from advisory.physics.spread import DEFAULT_SURFACE_TEMP_SIGMA_K, default_spread
@@ -195,10 +196,6 @@ def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarra
     nearest distance found so far is skipped (it cannot be nearer). Twin:
     ``tests/twins/edge_spread.py`` (no screening).
     """
-    bx0 = zone_bbox[zone, 0]
-    by0 = zone_bbox[zone, 1]
-    bx1 = zone_bbox[zone, 2]
-    by1 = zone_bbox[zone, 3]
     c = east.size // 2
     best_d = math.inf
     best_lat = 0.0
@@ -212,9 +209,9 @@ def section_nearest_kernel(east: np.ndarray, north: np.ndarray, right: np.ndarra
                 continue
             if not (math.isfinite(east[a]) and math.isfinite(east[b])):
                 break
-            gx = max(0.0, bx0 - max(east[a], east[b]), min(east[a], east[b]) - bx1)
-            gy = max(0.0, by0 - max(north[a], north[b]), min(north[a], north[b]) - by1)
-            if gx * gx + gy * gy > best_d * best_d:
+            if not boxes_overlap(min(east[a], east[b]), min(north[a], north[b]),
+                                 max(east[a], east[b]), max(north[a], north[b]),
+                                 zone_bbox, zone, best_d):
                 a = b
                 continue
             d, u = segment_zone_distance(east[a], north[a], east[b], north[b], x, y,

@@ -45,8 +45,8 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
   ``U(0.008, 0.02)`` Mach/s, bank ``U(20, 30)`` deg, roll rate 5 deg/s, acts on a
   caution. The sampled ``mode`` is ``ignore``; each run sets its own.
 * ``known`` (``campaign --known``, :func:`as_known`): after the same draws, the advisor is
-  given the true air, the zone's ground is set to sea level and the crew's numbers are
-  the advisor's configured ones.
+  given the true air, the zone keeps its ground elevation (the zone file gives it to the
+  advisor) and the crew's numbers are the advisor's configured ones.
 * ``spread`` (``campaign --spread``, :func:`as_spread`, issue 16): as ``known``, but the
   air the advisor is given is the planning air and the truth is that air plus an error
   field drawn from the default spread (:mod:`advisory.physics.spread`, at the start

@@ -56,9 +56,10 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                         help="run on the Dask scheduler at ADDRESS, e.g. tcp://host:8786 "
                              "(needs boom-advisory[campaign])")
     p.add_argument("--known", action="store_true",
-                   help="the advisor knows what it assumes: it is given the true air, the "
-                        "zones' ground is at sea level and the crew reacts, slows, banks "
-                        "and rolls as its configuration says (the same flights otherwise)")
+                   help="the advisor knows what it assumes: it is given the true air, each "
+                        "zone's ground elevation (in its zone file) and a crew that reacts, "
+                        "slows, banks and rolls as its configuration says (the same "
+                        "flights otherwise)")
     p.add_argument("--spread", action="store_true",
                    help="as --known, but the true air is the advisor's plus an error drawn "
                         "from the default spread of the air below (issue 16: calibration of "

@@ -240,3 +240,24 @@ def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
         f"slowing to the offered M{offered:.2f} from T+{LATE_S + 5.0:.0f} s: the truth has "
         f"booms in the town (peak {exposure['peak_psf']:.2f} psf at "
         f"T+{exposure['first_arrival_s']:.0f} s)")
+
+
+@pytest.mark.parametrize("index, limit_psf", [(43, 0.79), (70, 0.77), (83, 0.55)])
+def test_a_zone_at_the_carpet_edge_gets_a_resolution_that_holds(index, limit_psf) -> None:
+    # Issue 13, done-when (resolution success): campaign --known, seed 1, encounters 43,
+    # 70 and 83. The truth harness (direct ray tracing along the path flown,
+    # advisory.bench.truth; its act-by flights, advisory.bench.truth_act_by) has the
+    # zone's booms over its limit when the crew does nothing, and an action begun a
+    # reaction time after the start that keeps them under it. With the carpet searched in
+    # 6 strips across its width the zone, near the carpet's edge, was read at the loudest
+    # node of a wide strip, no trial cleared, nothing was offered and the crew following
+    # the cues let 1.08, 0.94 and 0.98 psf reach it. With 10 strips a resolution is offered
+    # and flown, and the truth keeps every boom in the zone under the limit.
+    doc = sample_encounter(1, index, known=True).doc
+    sc = scenario_from_dict(doc)
+    assert sc.zones[0].limit_psf == pytest.approx(limit_psf)  # the encounter meant
+    res = simulate(dataclasses.replace(sc, crew=dataclasses.replace(sc.crew, mode="follow")))
+    flown = res.resolution()
+    assert flown["followed"], "no resolution was offered and flown"
+    over = [e for e in res.score.exposures if e["exceeds_limit"]]
+    assert not over, f"the truth has booms over the limit: {over[0]['peak_psf']:.2f} psf"

@@ -51,6 +51,19 @@ before and after: only ``boom_probability`` differs, 1.0 -> 0.66-0.70 in 1,000 f
 the crosswind flight (Orrinford lies near the windy carpet's edge) and 1.0 -> 0.56 in 80
 frames of the turn (the park near the turning carpet's edge); the other three flights and
 the service records identical.
+All of them once more for issue 13's strips: the carpet is searched in 10 strips across
+its width instead of 6 (``strips`` in ``advisory/pipeline/config.py``), so a zone touched
+near the carpet's edge is read at the overpressure of the narrower strip it touches.
+Decoded advisory frames compared field by field before and after: ``demo/below_cutoff``
+and ``demo/dropouts_and_garbage`` identical; ``demo/crosswind_day`` names 0.584 psf at
+Orrinford for 0.674 (the truth, ``replay --truth``: 0.417 psf) and a contact 25 s later,
+offers no right turn to 030 in 75 frames (the M1.20 stays), says caution for advisory in
+3 frames and for warning in one, and warning for unavoidable in 9 (the truth's booms into
+the zone are unavoidable from 90.5 s; the advisor now says so from 84.4 s, before from
+83.5 s); ``demo/coastal_approach`` one frame of caution for warning, act-by times 0.1 s
+later, contact 0.4 s later and 0.873 for 0.877 psf; ``demo/turn_onto_park`` act-by 0.1 s
+later and contact 15 s later in 80 frames; the service records 0.917 psf for 0.929 (0.873
+for 0.877), act-by 0.1 s earlier and contact 0.5-3 s later, every status the same.
 """
 
 from __future__ import annotations

@@ -9,6 +9,16 @@ operators tune them in a config file::
     in_air_s = 900          # absolute cap on how far back booms still in the air are
                             # looked for; the window itself is the longest travel time
                             # of the flown states (a jet-stream profile reaches 730 s)
+    strips = 10             # strips the carpet is cut into across its width for the
+                            # conflict search and the trials: a zone is read at the
+                            # loudest node of the strip it touches, so wider strips
+                            # overstate the edge's overpressure. With 6, 4 of the 31
+                            # avoidable exposures of campaign --known (seed 1, first
+                            # 100) went over the limit with the crew following the
+                            # cues (3 with nothing offered); with 10 the truth has all
+                            # 4 under it, for about 0.2 ms a step (issue 13)
+    reproject_km = 150      # the zones are projected again into a frame at the
+                            # aircraft once it is this far from the frame's origin
 
     [levels]                # set on the time left to act (act-by), issue 13
     caution_act_s = 60      # the offered action must start within this -> caution
@@ -103,7 +113,7 @@ class AdvisorConfig:
     warning_act_s: float = 20.0
     focus_threshold: float = 1.25
     stale_after_s: float = STALE_AFTER_S
-    strips: int = 6
+    strips: int = 10
     reproject_km: float = 150.0
     confidence: float = 0.95
     surface_temp_sigma_c: float = 2.0

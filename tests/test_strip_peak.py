@@ -22,6 +22,7 @@ from shapely.geometry import Point, Polygon
 from advisory import units
 from advisory.geo.frame import LocalFrame
 from advisory.pipeline.advisor import Advisor
+from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import find_conflicts
 from advisory.pipeline.footprint import CarpetPrediction
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
@@ -115,11 +116,13 @@ def test_quiet_carpet_over_the_zone_is_no_conflict(search) -> None:
 
 def test_turning_carpet_zone_at_an_inner_node(small_table) -> None:
     # A banked turn (Mach 1.6, 10 deg right bank, 45,000 ft) puts the carpet's loudest
-    # ray off the track, between the strip nodes 15 and 20 (31 azimuth nodes, 6 strips).
-    # A small zone around that ray's ground point, with a limit between the strip ends'
-    # overpressure and the ray's, receives a boom above its limit (shapely says which
-    # points lie inside); the search must name it.
-    probe = Advisor(small_table, zoneset(square("far", *point_along(900e3))))
+    # ray off the track, between the strip nodes 15 and 20 (31 azimuth nodes, 6 strips:
+    # strips this wide, not the default 10, so that the ray lies inside one). A small zone
+    # around that ray's ground point, with a limit between the strip ends' overpressure
+    # and the ray's, receives a boom above its limit (shapely says which points lie
+    # inside); the search must name it.
+    probe = Advisor(small_table, zoneset(square("far", *point_along(900e3))),
+                    AdvisorConfig(strips=6))
     probe.step(state(mach=1.6, bank=10.0), 0.0)
     pred, strips = probe.last_prediction, probe._strips
     assert pred is not None

@@ -189,7 +189,7 @@ def _compiled_direct(ctx: Context, table: BoomTable, inputs: BuildInputs, tracer
         def one(alt: float, mach: float, fpa: float, hdg: float) -> None:
             excess = max(mach - table.cutoff_mach(alt, fpa, hdg), 1e-3)
             column.trace_column(tracer, inputs.aircraft, alt, hdg, fpa, g.ground_elevation_m,
-                                  np.array([excess]), eta, inputs.reflection_factor)
+                                np.array([excess]), eta, inputs.reflection_factor)
 
         one(*conds[-1])  # warm-up (JIT load)
         times = []

@@ -23,7 +23,7 @@ from advisory import units
 from advisory.geo.frame import LocalFrame
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.conflicts import find_conflicts
+from advisory.pipeline.conflicts import conflict_kernel, find_conflicts
 from advisory.pipeline.footprint import CarpetPrediction
 from advisory.pipeline.zones import ProjectedZones, ZoneSet
 from tests.test_advisor import point_along, square, state, zoneset
@@ -146,3 +146,91 @@ def test_turning_carpet_zone_at_an_inner_node(small_table) -> None:
         found = search(pred, pz, zones, strips, 1.25)
         assert [c.zone_id for c in found] == ["town"], search.__name__
         assert found[0].overpressure_pa / units.PSF > limit
+
+
+def _loud_part_search(pred: CarpetPrediction, pz: ProjectedZones, loud_part: bool
+                      ) -> list[float]:
+    """The compiled search over the strips between neighbouring nodes (as a resolution's
+    trial sees its carpet), with or without the loud-part cut: each zone's contact time
+    (s, inf: none)."""
+    n_zones = len(pz)
+    best_t = np.full(n_zones, np.inf)
+    conflict_kernel(pred.east_m, pred.north_m, pred.arrival_s,
+                    pred.effective_overpressure_pa, pred.focus_factor, pred.on_ground,
+                    np.arange(pred.east_m.shape[1], dtype=np.int64), pz.x, pz.y, pz.ring_start,
+                    pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk, pz.chunk_edges,
+                    pz.chunk_bbox, pz.margin_m, pz.limit_pa, 1.25, False, loud_part, best_t,
+                    np.zeros(n_zones), np.zeros(n_zones, dtype=np.bool_),
+                    np.zeros(n_zones, dtype=np.int64))
+    return [float(t) for t in best_t]
+
+
+@pytest.mark.parametrize("search", ["kernel", "twin"])
+@pytest.mark.parametrize("centre_km, loud", [(18.0, False), (13.0, True), (15.5, True)])
+def test_trial_reads_the_zone_where_the_strip_meets_it(search, centre_km, loud) -> None:
+    # A resolution's trial reads a zone where the strip meets it: between the nodes at
+    # 10 km (0.9 psf) and 20 km (0.6 psf) east of the track the overpressure is taken as
+    # linear, so it is above a 0.75 psf limit only nearer the track than 15 km (closed
+    # form: 10 km + (0.9 - 0.75) / (0.9 - 0.6) x 10 km). A zone from 16 to 20 km is clear
+    # of it (before, the strip's loudest node, 0.9 psf, was read across the whole strip
+    # and no trial near the carpet's edge could clear); zones reaching inside 15 km are
+    # not. Without the cut (the conflict search itself, which warns) every one of them is
+    # found.
+    frame = LocalFrame.from_deg(LAT0, LON0)
+    half = 0.55e3 if centre_km == 15.5 else 1.0e3  # 14.95-16.05 km: 50 m over 15 km
+    zones = _square_zone(frame, centre_km * 1e3, 60e3, half, limit_psf=0.75)
+    pz = zones.project(frame)
+    pred = _straight_carpet(peak_psf=1.5)
+    if search == "kernel":
+        cut = _loud_part_search(pred, pz, True)
+        whole = _loud_part_search(pred, pz, False)
+        assert math.isfinite(whole[0])
+        assert math.isfinite(cut[0]) is loud
+    else:
+        nodes = np.arange(NODES_E_M.size)
+        assert find_conflicts_twin(pred, pz, zones, nodes, 1.25)
+        found = find_conflicts_twin(pred, pz, zones, nodes, 1.25, loud_part=True)
+        assert bool(found) is loud
+
+
+@pytest.mark.parametrize("fraction", [0.3, 0.5, 0.7])
+def test_loud_part_kernel_matches_the_twin(small_table, fraction) -> None:
+    # Parity: the compiled loud-part cut and its twin on a turning carpet's neighbouring
+    # node pairs. Eight small zones sit on the chords between two nodes a minute or more
+    # ahead, across the point where the overpressure (linear between the nodes) crosses
+    # the limit, some on the loud side and some on the quiet side (contact times).
+    probe = Advisor(small_table, zoneset(square("far", *point_along(900e3))))
+    probe.step(state(mach=1.6, bank=10.0), 0.0)
+    pred = probe.last_prediction
+    assert pred is not None and probe._projected is not None
+    frame = probe._projected.frame
+    eff = pred.effective_overpressure_pa
+    nj = eff.shape[1]
+    k0 = int(np.searchsorted(pred.t_emit_s, 60.0))
+    feats = []
+    for i in range(8):
+        k, j = k0 + 8 * i, (0, nj - 2)[i % 2]  # the outer strip, either side
+        d0, d1 = eff[k, j], eff[k, j + 1]
+        lim = d0 + fraction * (d1 - d0)  # crosses at ``fraction`` from node j
+        u = fraction + (0.2 if i % 4 < 2 else -0.2) * (1.0 if d1 > d0 else -1.0)
+        e = pred.east_m[k, j] + u * (pred.east_m[k, j + 1] - pred.east_m[k, j])
+        n = pred.north_m[k, j] + u * (pred.north_m[k, j + 1] - pred.north_m[k, j])
+        lat, lon = frame.from_enu(float(e), float(n))
+        feats.append(square(f"z{i}", math.degrees(float(lat)), math.degrees(float(lon)),
+                            half_km=0.2, limit_psf=float(lim) / units.PSF))
+    zones = zoneset(*feats)
+    pz = zones.project(frame)
+    nodes = np.arange(nj, dtype=np.int64)
+    best_t = _loud_part_search(pred, pz, True)
+    whole = _loud_part_search(pred, pz, False)
+    twin = {c.zone_id: c.time_to_contact_s
+            for c in find_conflicts_twin(pred, pz, zones, nodes, 1.25, loud_part=True)}
+    for i in range(len(pz)):
+        if math.isfinite(best_t[i]):
+            assert twin[f"z{i}"] == pytest.approx(best_t[i], abs=1e-6), i
+        else:
+            assert f"z{i}" not in twin, i
+    # the cut keeps the loud side's zones and drops the quiet side's; uncut, every zone
+    # lies under a strip louder than its limit somewhere
+    assert [math.isfinite(v) for v in best_t] == [i % 4 < 2 for i in range(8)]
+    assert all(math.isfinite(v) for v in whole)

@@ -109,7 +109,10 @@ class TrialBase:
     predictor : FootprintPredictor
         The live table (and its focus cap).
     strips : ndarray
-        int64 azimuth nodes of the carpet strips.
+        int64 azimuth nodes of the carpet strips. The trials read the carpet at every
+        azimuth node of the table, each strip between two neighbouring nodes cut to its
+        part louder than the limit (:mod:`advisory.pipeline.conflicts`); the strips'
+        inner nodes carry the edge ratio's widened edges, as in the prediction.
     pz : ProjectedZones
         The zones in the trajectory's frame.
     ahead : Trajectory
@@ -256,18 +259,22 @@ class TrialBase:
                    limit_pa: np.ndarray, focus_cap: float, t: np.ndarray, k0: int,
                    p: np.ndarray, band: float, stretch: np.ndarray | None) -> bool:
         """The trial ``p`` judged on one ground: its table, strips, zones, lookup band and
-        edge ratio."""
+        edge ratio, on every azimuth node of the table: over the default 31-node table's
+        rows, overpressure taken as linear between the 10 strips' nodes under-reads the
+        nodes between by up to 8.0 % of the row's peak (6.1 % at the 99th percentile);
+        between neighbouring nodes the table has nothing finer."""
         has_wind = bool(tb.has_wind)
         hdg_offset = self.hdg_offset if has_wind == self.has_wind else (
             float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
             if has_wind else 0.0)
         return bool(trial_clears_kernel(
             t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
-            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(), strips,
+            tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(),
+            np.arange(tb.eta.size, dtype=np.int64),  # every azimuth node
             pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
-            self.cfg.focus_threshold, band, stretch))
+            self.cfg.focus_threshold, band, stretch, int(strips[1]), int(strips[-2])))
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:

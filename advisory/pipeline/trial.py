@@ -27,7 +27,9 @@ table (a lookup is reused while altitude, Mach and heading stay the same), place
 the ground, applies the ray-tube focus factor of the trial's own trajectory (so a
 deceleration through cutoff carries its focus, :mod:`advisory.pipeline.footprint`) and
 searches the zones (:func:`advisory.pipeline.conflicts.conflict_kernel`), on the strip
-azimuths only (the conflict search reads no other column, so the answer is the same).
+azimuths only, each strip read where its overpressure, linear between its two nodes,
+exceeds the zone's limit (``loud_part``: where the carpet meets the zone, not the strip's
+louder node; the conflict module's notes say why).
 Both kernels have readable numpy twins in ``tests/twins/trial.py`` with parity tests in
 ``tests/test_checked_resolutions.py``.
 """
@@ -229,7 +231,8 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
 def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
                         cutoff, cells, lift, strips, x, y, ring_start, part_start, zone_start,
                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
-                        focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND, stretch=None):
+                        focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND, stretch=None,
+                        inner_left=-1, inner_right=-1):
     """Whether the trial ``p`` keeps the booms of emissions ``k0`` on off every zone.
 
     Parameters
@@ -252,7 +255,8 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         The table's lift map (:meth:`advisory.tables.table.BoomTable.lift_args`): each
         ray's overpressure at the lift of the trial's bank (:mod:`advisory.tables.lift`).
     strips : ndarray
-        int64 azimuth nodes of the carpet strips.
+        int64 azimuth nodes the trial's carpet is kept at (ascending, both edges
+        included), each strip between two of them read where it is louder than the limit.
     x, y, ring_start, ... limits
         The projected zones (:func:`advisory.pipeline.conflicts.conflict_kernel`).
     focus_cap, focus_threshold : float
@@ -263,6 +267,10 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     stretch : ndarray or None
         The edge ratio at the advisor's confidence (as the prediction's,
         :attr:`advisory.pipeline.footprint.FootprintPredictor.stretch`), or None.
+    inner_left, inner_right : int
+        The inner node of each outer strip of the prediction, which the edge ratio widens
+        the edges from (:func:`advisory.tables.lookup.stretch_row`); -1: ``strips[1]`` and
+        ``strips[-2]``.
 
     Returns
     -------
@@ -288,7 +296,9 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
             last_code, mcut = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
                                                ax_fpa, ax_hdg, cutoff, cells, scratch, band)
             if stretch is not None and last_code != lk.NO_BOOM:
-                lk.stretch_row(scratch, fl[3, k] - mcut, stretch, strips[1], strips[ns - 2])
+                lk.stretch_row(scratch, fl[3, k] - mcut, stretch,
+                               strips[1] if inner_left < 0 else inner_left,
+                               strips[ns - 2] if inner_right < 0 else inner_right)
             last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
         codes[kk] = last_code
         for s in range(ns):
@@ -334,7 +344,7 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     conflict_kernel(e[skip:].copy(), n[skip:].copy(), ta[skip:].copy(), eff,
                     amp[skip:].copy(), on_ground, nodes, x, y, ring_start, part_start,
                     zone_start, zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins,
-                    limits, focus_threshold, True, best_t, best_dp, best_focus,
+                    limits, focus_threshold, True, True, best_t, best_dp, best_focus,
                     np.zeros(nz, dtype=np.int64))
     for z in range(nz):
         if best_t[z] < np.inf:

@@ -5,7 +5,8 @@
 point-mass coordinated turn is integrated in the same sub-steps. :func:`trial_clears_twin`
 is the composition of the readable twins of the table lookup, the footprint placement,
 the focus factor and the conflict search, on every azimuth (the kernel keeps only the
-strip azimuths).
+strip azimuths; the conflict twin is run on those, each strip read where it is louder
+than the limit, as the kernel does).
 """
 
 from __future__ import annotations
@@ -138,4 +139,12 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
         arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],
         duration_s=rows[s:, :, lk.Q_DURATION],
         focus_factor=amp[s:], edge_flag=rows[s:, :, lk.Q_EDGE] > 0.5)
-    return not find_conflicts_twin(pred, pz, zones, strips, focus_threshold, first_only=True)
+    at = np.asarray(strips)  # the kernel keeps the strip azimuths only: the same columns
+    strip_pred = CarpetPrediction(
+        t_emit_s=pred.t_emit_s, codes=pred.codes, cutoff_mach=pred.cutoff_mach,
+        east_m=pred.east_m[:, at], north_m=pred.north_m[:, at],
+        arrival_s=pred.arrival_s[:, at], overpressure_pa=pred.overpressure_pa[:, at],
+        duration_s=pred.duration_s[:, at], focus_factor=pred.focus_factor[:, at],
+        edge_flag=pred.edge_flag[:, at])
+    return not find_conflicts_twin(strip_pred, pz, zones, np.arange(at.size), focus_threshold,
+                                   first_only=True, loud_part=True)

@@ -28,7 +28,7 @@ from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.resolutions import TrialBase
+from advisory.pipeline.resolutions import TrialBase, trial_nodes
 from advisory.pipeline.state import AirDataState
 from advisory.pipeline.trial import TRIAL_PARAMS, fly_trial_kernel, trial_clears_kernel
 from advisory.schema import ADV_STATUSES, CONFLICT_STATUSES, STATUS_RANK
@@ -89,8 +89,8 @@ def test_trial_turn_and_deceleration_against_closed_forms() -> None:
 
 
 def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
-    # Parity: the compiled trial (on the azimuths it is given: every node, as the
-    # resolutions run it, and the strip nodes alone) equals the composition of the
+    # Parity: the compiled trial (on the azimuths it is given: every node, the strip
+    # nodes alone, and the resolutions' own choice) equals the composition of the
     # readable twins of lookup, placement, focus and conflict search on every azimuth,
     # read at those azimuths.
     feats = [square(f"z{i}", *point_along(90e3 + 25e3 * i, 90.0 + 3.0 * (i - 1)),
@@ -105,7 +105,8 @@ def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
     trials = [(5.0, math.nan, math.nan, math.nan), (5.0, 1.13, math.nan, math.nan),
               (60.0, 1.13, math.nan, math.nan), (5.0, math.nan, 0.44, 0.5),
               (5.0, math.nan, -0.44, -1.5), (12.0, 1.4, 0.44, 0.3)]
-    for (onset, mach, bank, turn), nodes in itertools.product(trials, [every, base.strips]):
+    for (onset, mach, bank, turn), nodes in itertools.product(
+            trials, [every, base.strips, trial_nodes(base.strips)]):
         p = base.params.copy()
         p[14], p[15], p[17], p[18] = onset, mach, bank, turn
         fast = trial_clears_kernel(base.t_judged, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
@@ -285,3 +286,14 @@ def test_a_zone_at_the_quiet_end_of_a_strip_gets_a_resolution_that_holds(index, 
     assert res.resolution()["followed"], "no resolution was offered and flown"
     over = [e for e in res.score.exposures if e["exceeds_limit"]]
     assert not over, f"the truth has booms over the limit: {over[0]['peak_psf']:.2f} psf"
+
+
+def test_trials_read_every_node_of_the_outer_strips() -> None:
+    # The trials' azimuth nodes (advisory.pipeline.resolutions.trial_nodes): on the
+    # default table's 31 nodes in 10 strips (nodes 0, 3, ..., 30), every node of the two
+    # outer strips and the strip nodes between (listed by hand); on the campaign's 15
+    # nodes, whose outer strips are one node interval wide, the strip nodes alone.
+    assert trial_nodes(np.arange(0, 31, 3)).tolist() == [
+        0, 1, 2, 3, 6, 9, 12, 15, 18, 21, 24, 27, 28, 29, 30]
+    strips15 = np.array([0, 1, 3, 4, 6, 7, 8, 10, 11, 13, 14])
+    assert trial_nodes(strips15).tolist() == strips15.tolist()

@@ -28,9 +28,14 @@ from advisory.physics.carpet import compute_carpet
 from advisory.physics.rays import FlightCondition, RayTracer
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig
-from advisory.pipeline.resolutions import TrialBase, trial_nodes
+from advisory.pipeline.resolutions import TrialBase
 from advisory.pipeline.state import AirDataState
-from advisory.pipeline.trial import TRIAL_PARAMS, fly_trial_kernel, trial_clears_kernel
+from advisory.pipeline.trial import (
+    TRIAL_PARAMS,
+    fly_trial_kernel,
+    trial_clears_kernel,
+    trial_nodes,
+)
 from advisory.schema import ADV_STATUSES, CONFLICT_STATUSES, STATUS_RANK
 from tests.test_act_by import DECEL, encounter, town_exposure
 from tests.test_advisor import ALT_FT, C_45K, point_along, square, state, zoneset
@@ -289,7 +294,7 @@ def test_a_zone_at_the_quiet_end_of_a_strip_gets_a_resolution_that_holds(index, 
 
 
 def test_trials_read_every_node_of_the_outer_strips() -> None:
-    # The trials' azimuth nodes (advisory.pipeline.resolutions.trial_nodes): on the
+    # The trials' azimuth nodes (advisory.pipeline.trial.trial_nodes): on the
     # default table's 31 nodes in 10 strips (nodes 0, 3, ..., 30), every node of the two
     # outer strips and the strip nodes between (listed by hand); on the campaign's 15
     # nodes, whose outer strips are one node interval wide, the strip nodes alone.

@@ -17,16 +17,17 @@ after the first boom into the zone was emitted, where the truth's act-by asked f
 by 50.0 s).
 
 A resolution's trial asks a finer question: whether its booms stay under the limit
-where the carpet meets the zone. It searches strips between neighbouring nodes (the
-trial's carpet is kept at the strip nodes only) with ``loud_part``: each strip segment is
-cut to the part where the overpressure, taken as linear between the segment's two nodes,
-exceeds the limit, so a zone touched only by the strip's quieter end is clear. Before, a
-trial read a zone near the carpet's edge at the strip's louder node: campaign --known,
-seed 1, encounter 8 (limit 0.77 psf, held to 90 %: 0.693) read 0.82 psf between nodes of
-0.44 and 0.81 psf, no trial cleared and nothing was offered, where the truth's slow-down
-with a right turn keeps 0.66 psf in the zone. The warning itself keeps the whole strip
-(conservative). Linear between two nodes: common practice, no source; whether it
-under-reads is measured by the campaign's "offered resolutions that held".
+where the carpet meets the zone. It searches the stretches between neighbouring nodes of
+its carpet (kept at some azimuth nodes only, :func:`advisory.pipeline.trial.trial_nodes`)
+with ``loud_part``: each segment is cut to the part where the overpressure, taken as
+linear between the segment's two nodes, exceeds the limit, so a zone touched only by the
+strip's quieter end is clear. Before, a trial read a zone near the carpet's edge at the
+strip's louder node: campaign --known, seed 1, encounter 8 (limit 0.77 psf, held to 90 %:
+0.693) read 0.82 psf between nodes of 0.44 and 0.81 psf, no trial cleared and nothing was
+offered, where the truth's slow-down with a right turn keeps 0.66 psf in the zone. The
+warning itself keeps the whole strip (conservative). Linear between two nodes: common
+practice, no source; whether it under-reads is measured by the campaign's "offered
+resolutions that held".
 
 The numba kernel :func:`conflict_kernel` has a readable numpy twin
 (``find_conflicts_twin`` in ``tests/twins/conflicts.py``) compared in

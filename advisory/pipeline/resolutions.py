@@ -61,12 +61,12 @@ from advisory.pipeline.airdata import AirDataState
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.footprint import FootprintPredictor
 from advisory.pipeline.trajectory import Trajectory
-from advisory.pipeline.trial import TRIAL_PARAMS, trial_clears_kernel
+from advisory.pipeline.trial import TRIAL_PARAMS, trial_clears_kernel, trial_nodes
 from advisory.pipeline.zones import ProjectedZones
 from advisory.tables.table import BoomTable
 
 __all__ = ["max_mach_off_ground", "TrialBase", "Resolution", "search", "run_search", "roll_out",
-           "trial_nodes", "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
+           "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
 
 #: Heading changes tried first, deg (then refined between the last fail and first clear).
 COARSE_TURNS_DEG = (10.0, 20.0, 30.0, 45.0, 60.0, 90.0, 135.0, 180.0)
@@ -110,10 +110,10 @@ class TrialBase:
         The live table (and its focus cap).
     strips : ndarray
         int64 azimuth nodes of the carpet strips. The trials read the carpet at the nodes
-        of :func:`trial_nodes` (every node of the two outer strips, the strip nodes
-        between), each stretch between two of them cut to its part louder than the limit
-        (:mod:`advisory.pipeline.conflicts`); the strips' inner nodes carry the edge
-        ratio's widened edges, as in the prediction.
+        of :func:`advisory.pipeline.trial.trial_nodes` (every node of the two outer
+        strips, the strip nodes between), each stretch between two of them cut to its part
+        louder than the limit (:mod:`advisory.pipeline.conflicts`); the strips' inner
+        nodes carry the edge ratio's widened edges, as in the prediction.
     pz : ProjectedZones
         The zones in the trajectory's frame.
     ahead : Trajectory
@@ -136,7 +136,7 @@ class TrialBase:
         self.band = predictor.band  # the prediction's lookup band below the cutoff
         self.edge_ratio = predictor.stretch  # and its edge ratio (issue 16)
         self.strips = np.ascontiguousarray(strips, dtype=np.int64)
-        self._nodes = {id(self.strips): trial_nodes(self.strips)}  # per ground's strips
+        self.nodes = trial_nodes(self.strips)  #: the azimuth nodes the trials read
         self.pz = pz
         #: The zones' limits the trials hold the booms to (``limit_fraction`` of each).
         self.limit_pa = np.ascontiguousarray(pz.limit_pa * cfg.limit_fraction)
@@ -166,8 +166,7 @@ class TrialBase:
                                           float(ahead.heading_rad[0])) for g in self.others]
         self._other_limits = [np.ascontiguousarray(g.pz.limit_pa * cfg.limit_fraction)
                               for g in self.others]
-        for g in self.others:
-            self._nodes[id(g.strips)] = trial_nodes(g.strips)
+        self._other_nodes = [trial_nodes(g.strips) for g in self.others]
 
     def stretch(self, slowest_mach: float) -> None:
         """Make the trials that change the Mach cover the same ground as the prediction:
@@ -238,16 +237,17 @@ class TrialBase:
         p = self.params.copy()
         p[14], p[15], p[17], p[18] = onset, target_mach, bank, turn
         t, k0 = self._judged_from(onset, target_mach)
-        if not self._clears_on(self.table, self.strips, self.pz, self.limit_pa,
+        if not self._clears_on(self.table, self.strips, self.nodes, self.pz, self.limit_pa,
                                self.focus_cap, t, k0, p, self.band, self.edge_ratio):
             return False
         own_cutoff = self.cutoff_now
         try:
-            for g, cut, limit in zip(self.others, self.other_cutoffs, self._other_limits,
-                                     strict=True):
+            for g, cut, limit, nodes in zip(self.others, self.other_cutoffs,
+                                            self._other_limits, self._other_nodes,
+                                            strict=True):
                 self.cutoff_now = cut  # its near-cutoff emissions at its own cutoff Mach
                 t, k0 = self._judged_from(onset, target_mach)
-                if not self._clears_on(g.predictor.table, g.strips, g.pz, limit,
+                if not self._clears_on(g.predictor.table, g.strips, nodes, g.pz, limit,
                                        g.predictor.focus_cap, t, k0, p, g.predictor.band,
                                        g.predictor.stretch):
                     return False
@@ -259,11 +259,13 @@ class TrialBase:
         """The lowest cutoff Mach of this ground (``cutoff_now``) and the others."""
         return min([cutoff_now, *self.other_cutoffs])
 
-    def _clears_on(self, tb: BoomTable, strips: np.ndarray, pz: ProjectedZones,
-                   limit_pa: np.ndarray, focus_cap: float, t: np.ndarray, k0: int,
-                   p: np.ndarray, band: float, stretch: np.ndarray | None) -> bool:
-        """The trial ``p`` judged on one ground: its table, strips, zones, lookup band and
-        edge ratio, at the nodes of :func:`trial_nodes`."""
+    def _clears_on(self, tb: BoomTable, strips: np.ndarray, nodes: np.ndarray,
+                   pz: ProjectedZones, limit_pa: np.ndarray, focus_cap: float,
+                   t: np.ndarray, k0: int, p: np.ndarray, band: float,
+                   stretch: np.ndarray | None) -> bool:
+        """The trial ``p`` judged on one ground: its table, strips, the azimuth nodes read
+        (:func:`advisory.pipeline.trial.trial_nodes` of the strips), zones, lookup band
+        and edge ratio."""
         has_wind = bool(tb.has_wind)
         hdg_offset = self.hdg_offset if has_wind == self.has_wind else (
             float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
@@ -271,31 +273,11 @@ class TrialBase:
         return bool(trial_clears_kernel(
             t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(),
-            self._nodes[id(strips)],
+            nodes,
             pz.x, pz.y,
             pz.ring_start, pz.part_start, pz.zone_start, pz.zone_bbox, pz.ring_chunk,
             pz.chunk_edges, pz.chunk_bbox, pz.margin_m, limit_pa, focus_cap,
             self.cfg.focus_threshold, band, stretch, int(strips[1]), int(strips[-2])))
-
-
-def trial_nodes(strips: np.ndarray) -> np.ndarray:
-    """The azimuth nodes a trial reads its carpet at: every node of the two outer strips
-    and the strip nodes between (int64, ascending).
-
-    Between two of them a trial takes the overpressure as linear
-    (:mod:`advisory.pipeline.conflicts`). Over the default table's rows (31 nodes, 10
-    strips of 3 node intervals) that reading under-reads the nodes it skips by at most
-    6.7 % of the row's peak in an outer strip (6.2 % at the 99th percentile: the
-    overpressure falls steeply and not linearly toward the carpet's edge) and at most 2.9 %
-    in any other (0.8 % at the 99th percentile); the trials hold a zone to 90 % of its
-    limit. On the bench's cruise a trial at these 15 nodes takes 1.16 times as long as at
-    the 11 strip nodes (92 against 79 us; at all 31 nodes 146 us, 1.83 times).
-    """
-    s = np.asarray(strips, dtype=np.int64)
-    if s.size < 3:
-        return np.ascontiguousarray(s)
-    outer = np.concatenate((np.arange(s[0], s[1] + 1), np.arange(s[-2], s[-1] + 1)))
-    return np.unique(np.concatenate((s, outer))).astype(np.int64)
 
 
 def _merged(t: np.ndarray, values: set[float], extra: Sequence[float]) -> np.ndarray:

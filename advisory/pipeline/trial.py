@@ -26,10 +26,11 @@ step's mid heading plus the wind, corrected for the frame's map scale as
 table (a lookup is reused while altitude, Mach and heading stay the same), places them on
 the ground, applies the ray-tube focus factor of the trial's own trajectory (so a
 deceleration through cutoff carries its focus, :mod:`advisory.pipeline.footprint`) and
-searches the zones (:func:`advisory.pipeline.conflicts.conflict_kernel`), on the strip
-azimuths only, each strip read where its overpressure, linear between its two nodes,
-exceeds the zone's limit (``loud_part``: where the carpet meets the zone, not the strip's
-louder node; the conflict module's notes say why).
+searches the zones (:func:`advisory.pipeline.conflicts.conflict_kernel`), on the azimuth
+nodes it is given (the resolutions give :func:`trial_nodes`), each stretch between two of
+them read where its overpressure, linear between them, exceeds the zone's limit
+(``loud_part``: where the carpet meets the zone, not at its louder node; the conflict
+module's notes say why).
 Both kernels have readable numpy twins in ``tests/twins/trial.py`` with parity tests in
 ``tests/test_checked_resolutions.py``.
 """
@@ -48,7 +49,7 @@ from advisory.tables import lookup as lk
 from advisory.tables.lift import lift_correction_kernel, lift_scale_kernel
 
 __all__ = ["TRIAL_PARAMS", "TRIAL_ROWS", "SUBSTEP_S", "fly_trial_kernel",
-           "trial_clears_kernel"]
+           "trial_clears_kernel", "trial_nodes"]
 
 SUBSTEP_S = 0.5  #: longest integration sub-step of a trial, s
 
@@ -350,3 +351,23 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
         if best_t[z] < np.inf:
             return False
     return True
+
+
+def trial_nodes(strips: np.ndarray) -> np.ndarray:
+    """The azimuth nodes a trial reads its carpet at: every node of the two outer strips
+    and the strip nodes between (int64, ascending).
+
+    Between two of them a trial takes the overpressure as linear
+    (:mod:`advisory.pipeline.conflicts`). Over the default table's rows (31 nodes, 10
+    strips of 3 node intervals) that reading under-reads the nodes it skips by at most
+    6.7 % of the row's peak in an outer strip (6.2 % at the 99th percentile: the
+    overpressure falls steeply and not linearly toward the carpet's edge) and at most 2.9 %
+    in any other (0.8 % at the 99th percentile); the trials hold a zone to 90 % of its
+    limit. On the bench's cruise a trial at these 15 nodes takes 1.16 times as long as at
+    the 11 strip nodes (92 against 79 us; at all 31 nodes 146 us, 1.83 times).
+    """
+    s = np.asarray(strips, dtype=np.int64)
+    if s.size < 3:
+        return np.ascontiguousarray(s)
+    outer = np.concatenate((np.arange(s[0], s[1] + 1), np.arange(s[-2], s[-1] + 1)))
+    return np.unique(np.concatenate((s, outer))).astype(np.int64)

@@ -171,7 +171,7 @@ def test_trial_reads_the_zone_where_the_strip_meets_it(search, centre_km, loud) 
     # A resolution's trial reads a zone where the strip meets it: between the nodes at
     # 10 km (0.9 psf) and 20 km (0.6 psf) east of the track the overpressure is taken as
     # linear, so it is above a 0.75 psf limit only nearer the track than 15 km (closed
-    # form: 10 km + (0.9 - 0.75) / (0.9 - 0.6) x 10 km). A zone from 16 to 20 km is clear
+    # form: 10 km + (0.9 - 0.75) / (0.9 - 0.6) x 10 km). A zone from 17 to 19 km is clear
     # of it (before, the strip's loudest node, 0.9 psf, was read across the whole strip
     # and no trial near the carpet's edge could clear); zones reaching inside 15 km are
     # not. Without the cut (the conflict search itself, which warns) every one of them is

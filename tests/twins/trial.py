@@ -5,8 +5,8 @@
 point-mass coordinated turn is integrated in the same sub-steps. :func:`trial_clears_twin`
 is the composition of the readable twins of the table lookup, the footprint placement,
 the focus factor and the conflict search, on every azimuth (the kernel keeps only the
-strip azimuths; the conflict twin is run on those, each strip read where it is louder
-than the limit, as the kernel does).
+azimuths it is given; the conflict twin is run on those, each stretch between two of them
+read where it is louder than the limit, as the kernel does).
 """
 
 from __future__ import annotations

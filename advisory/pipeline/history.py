@@ -2,15 +2,15 @@
 
 Booms emitted over the last minutes may still be on their way down. The advisor keeps
 the states it actually stepped on in a :class:`FlownHistory` (a bounded ring buffer, one
-entry per emission spacing, each with the table rows of its state in the table in force
-then) and places every boom still in the air from those states, each with its own
-emission time, Mach, heading, altitude, flight-path angle and position
-(:func:`join_past`): a turn entered 10 s ago or an acceleration just begun changes only
-the booms emitted since. The window is the longest travel time of the states held, not
-a fixed span. A fresh advisor has no history for the older part of the window: there,
-and only there, it flies the present manoeuvre backwards (:func:`past_trajectory`),
-kept apart from the flown part by a no-boom separator. The past is joined to the
-trajectory ahead (:func:`join_past`).
+entry per emission spacing, closer while the flight-path angle changes, each with the
+table rows of its state in the table in force then) and places every boom still in the
+air from those states, each with its own emission time, Mach, heading, altitude,
+flight-path angle and position (:func:`join_past`): a turn entered 10 s ago or an
+acceleration just begun changes only the booms emitted since. The window is the longest
+travel time of the states held, not a fixed span. A fresh advisor has no history for the
+older part of the window: there, and only there, it flies the present manoeuvre
+backwards (:func:`past_trajectory`), kept apart from the flown part by a no-boom
+separator. The past is joined to the trajectory ahead (:func:`join_past`).
 
 Resolution trials fly the trajectory ahead again with a turn that rolls out after a
 heading change (:func:`turned_trajectory`). Backward flight and trials run the
@@ -37,7 +37,14 @@ from advisory.schema import EARTH_MEAN_RADIUS_M
 from advisory.tables.lookup import N_QUANTITIES, NO_BOOM, Q_TIME
 
 __all__ = ["kernel_inputs", "past_trajectory", "turned_trajectory", "FlownHistory",
-           "FlownPast", "join_past"]
+           "FlownPast", "join_past", "PITCH_SPACING_S", "PITCH_ENTRY_RAD"]
+
+#: Closest spacing of flown entries while the flight-path angle changes, s (the
+#: :class:`FlownHistory` notes; an engineering choice, measured there).
+PITCH_SPACING_S = 1.0
+#: A change of the flight-path angle since the newest entry that takes an entry early,
+#: rad (0.5 deg; the :class:`FlownHistory` notes).
+PITCH_ENTRY_RAD = math.radians(0.5)
 
 
 def kernel_inputs(base: Trajectory, t: np.ndarray, bank_rad: float, turn_limit: float
@@ -119,7 +126,8 @@ def turned_trajectory(base: Trajectory, bank_rad: float, heading_change_rad: flo
 
 
 class FlownHistory:
-    """Ring buffer of the states actually flown, one entry per emission spacing.
+    """Ring buffer of the states actually flown, one entry per emission spacing (closer
+    while the flight-path angle changes).
 
     Each entry keeps what placing its booms needs, as the aircraft flew it: time (s, on
     the state's own clock), latitude and longitude (rad), altitude (m), Mach, true
@@ -130,16 +138,29 @@ class FlownHistory:
     rows are the lookup the step made anyway for its present state, so the past costs no
     table lookups and a later table swap does not re-place booms already emitted.
 
+    Pitch manoeuvres
+    ----------------
+    A push-over or a pull-up of a few seconds focuses (or spreads) the booms of those
+    seconds only, and the ray-tube differences between entries 3 s apart blur it: at a
+    level-off from a 3.1 deg climb at 1 deg/s (Mach 2.28, 46,000 ft; campaign --known,
+    seed 1, encounter 3) the booms the truth's direct tracing puts on the zone at
+    1.49 psf were placed at 1.27 psf (under the zone's 1.39 psf limit: the alert was
+    missed), at 1.48 psf with entries 1 s apart and 1.49-1.55 psf 0.5 s apart. So an
+    entry is also taken once :data:`PITCH_SPACING_S` has passed when the flight-path
+    angle has changed by :data:`PITCH_ENTRY_RAD` or more since the newest entry
+    (:meth:`due`); a steady climb, a turn or an acceleration keeps the spacing.
+
     Bound
     -----
-    ``capacity = ceil(window_s / spacing_s) + 2`` entries, allocated once (grown only
-    when a swapped-in table has longer travel times, never past the absolute cap). The
-    advisor sets ``window_s`` to the longest travel time of its table plus two spacings,
-    at most ``AdvisorConfig.in_air_s`` (the absolute cap, default 900 s, at most
-    3,600 s). Memory: ``capacity * (BYTES_PER_ENTRY_FIXED + n_eta * BYTES_PER_RAY)``
-    bytes, i.e. 158 + 72 ``n_eta`` per entry; with the default 31-node tables, a 3 s
-    spacing and the default cap, 302 entries, 722 kB; at the 3,600 s hard cap, 1,202
-    entries, 2.9 MB.
+    ``capacity = ceil(window_s / fine) + 2`` entries, ``fine`` the smaller of the
+    spacing and :data:`PITCH_SPACING_S` (room for a window that pitches throughout),
+    allocated once (grown only when a swapped-in table has longer travel times, never
+    past the absolute cap). The advisor sets ``window_s`` to the longest travel time of
+    its table plus two spacings, at most ``AdvisorConfig.in_air_s`` (the absolute cap,
+    default 900 s, at most 3,600 s). Memory: ``capacity * (BYTES_PER_ENTRY_FIXED +
+    n_eta * BYTES_PER_RAY)`` bytes, i.e. 158 + 72 ``n_eta`` per entry; with the default
+    31-node tables and the default cap, 902 entries, 2.2 MB; at the 3,600 s hard cap,
+    3,602 entries, 8.6 MB.
 
     Gaps and jumps
     --------------
@@ -164,7 +185,9 @@ class FlownHistory:
         self.spacing_s = float(spacing_s)
         self.gap_s = 2.0 * self.spacing_s
         self.window_s = float(window_s)
-        self.capacity = int(math.ceil(self.window_s / self.spacing_s - 1e-9)) + 2
+        #: the closest spacing (pitching), s
+        self.fine_s = min(self.spacing_s, PITCH_SPACING_S)
+        self.capacity = int(math.ceil(self.window_s / self.fine_s - 1e-9)) + 2
         self._alloc(self.capacity)
         self._n = 0  # entries held
         self._head = 0  # index of the next write
@@ -219,7 +242,7 @@ class FlownHistory:
 
     def grow(self, window_s: float) -> None:
         """Make room for a longer window (keeps the entries, in order)."""
-        cap = int(math.ceil(window_s / self.spacing_s - 1e-9)) + 2
+        cap = int(math.ceil(window_s / self.fine_s - 1e-9)) + 2
         if cap <= self.capacity:
             return
         idx = self.order()
@@ -232,9 +255,22 @@ class FlownHistory:
         self._frame = frame
         self._head = self._n
 
+    def due(self, t_s: float, fpa_rad: float) -> bool:
+        """Whether a state at ``t_s`` with flight-path angle ``fpa_rad`` (rad) is to be
+        appended: a spacing has passed since the newest entry, or :data:`PITCH_SPACING_S`
+        with the angle changed by :data:`PITCH_ENTRY_RAD` (class notes), or the state is
+        earlier than the newest entry (it empties the buffer), or the buffer is empty."""
+        if not self._n:
+            return True
+        dt = t_s - self.newest_t
+        if dt < 0.0 or dt >= self.spacing_s - 1e-6:
+            return True
+        return dt >= self.fine_s - 1e-6 and abs(
+            fpa_rad - float(self.st[(self._head - 1) % self.capacity, 6])) >= PITCH_ENTRY_RAD
+
     def offer(self, t_s: float, lat_rad: float, lon_rad: float, state: Sequence[float],
               table: int, rows: np.ndarray, code: int, cutoff: float) -> bool:
-        """Append the state at ``t_s`` when a spacing has passed since the newest entry.
+        """Append the state at ``t_s`` when it is :meth:`due`.
 
         ``state`` holds :attr:`N_STATE` values (alt m, Mach, TAS m/s, true heading and
         track rad, ground speed m/s, fpa, bank rad, turn rate rad/s); ``rows`` (n_eta,
@@ -246,7 +282,7 @@ class FlownHistory:
             dt = t_s - self.newest_t
             if dt < 0.0:
                 self.clear()
-            elif dt < self.spacing_s - 1e-6:
+            elif not self.due(t_s, float(state[6])):
                 return False
             else:
                 i = (self._head - 1) % self.capacity

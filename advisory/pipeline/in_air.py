@@ -3,12 +3,13 @@ points it places from it (:mod:`.history` holds the buffer and the joining).
 
 :class:`InAir` is the part of :class:`advisory.pipeline.ground_advisor.GroundAdvisor`
 that remembers what was flown: every state stepped on is offered to a
-:class:`~advisory.pipeline.history.FlownHistory` (one entry per emission spacing, with
-the table rows of its state and the table generation in force then), the window reaches
-back the longest travel time of the present footprint and of the states held (at most
-``in_air_s``), and the part of that window older than the history (a fresh advisor) is
-the present state flown backwards (:func:`~advisory.pipeline.history.past_trajectory`),
-kept apart from the flown part by a separator.
+:class:`~advisory.pipeline.history.FlownHistory` (one entry per emission spacing, closer
+while the flight-path angle changes, with the table rows of its state and the table
+generation in force then), the window reaches back the longest travel time of the
+present footprint and of the states held (at most ``in_air_s``), and the part of that
+window older than the history (a fresh advisor) is the present state flown backwards
+(:func:`~advisory.pipeline.history.past_trajectory`), kept apart from the flown part by
+a separator.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
@@ -109,7 +110,7 @@ class InAir:
                  code: int, cutoff: float) -> None:
         """Offer the present state (with its table rows) to the flown history."""
         h = self.history
-        if len(h) and 0.0 <= t_now - h.newest_t < h.spacing_s - 1e-6:
+        if not h.due(t_now, s.fpa_rad):
             return  # not due (the common case: no work)
         e0, n0 = float(ahead.east_m[0]), float(ahead.north_m[0])
         track = s.track_rad

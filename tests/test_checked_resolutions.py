@@ -250,40 +250,26 @@ def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
         f"T+{exposure['first_arrival_s']:.0f} s)")
 
 
-@pytest.mark.parametrize("index, limit_psf", [(43, 0.79), (70, 0.77), (83, 0.55)])
-def test_a_zone_at_the_carpet_edge_gets_a_resolution_that_holds(index, limit_psf) -> None:
-    # Issue 13, done-when (resolution success): campaign --known, seed 1, encounters 43,
-    # 70 and 83. The truth harness (direct ray tracing along the path flown,
-    # advisory.bench.truth; its act-by flights, advisory.bench.truth_act_by) has the
-    # zone's booms over its limit when the crew does nothing, and an action begun a
-    # reaction time after the start that keeps them under it. With the carpet searched in
-    # 6 strips across its width the zone, near the carpet's edge, was read at the loudest
-    # node of a wide strip, no trial cleared, nothing was offered and the crew following
-    # the cues let 1.08, 0.94 and 0.98 psf reach it. With 10 strips a resolution is offered
-    # and flown, and the truth keeps every boom in the zone under the limit.
-    doc = sample_encounter(1, index, known=True).doc
-    sc = scenario_from_dict(doc)
-    assert sc.zones[0].limit_psf == pytest.approx(limit_psf)  # the encounter meant
-    res = simulate(dataclasses.replace(sc, crew=dataclasses.replace(sc.crew, mode="follow")))
-    flown = res.resolution()
-    assert flown["followed"], "no resolution was offered and flown"
-    over = [e for e in res.score.exposures if e["exceeds_limit"]]
-    assert not over, f"the truth has booms over the limit: {over[0]['peak_psf']:.2f} psf"
-
-
-@pytest.mark.parametrize("index, limit_psf", [(8, 0.77), (40, 0.51), (47, 0.61)])
-def test_a_zone_at_the_quiet_end_of_a_strip_gets_a_resolution_that_holds(index, limit_psf
-                                                                         ) -> None:
-    # Issue 13, done-when (resolution success): campaign --known, seed 1, encounters 8,
-    # 40 and 47. The truth harness (direct ray tracing along the path flown,
-    # advisory.bench.truth; its act-by flights, advisory.bench.truth_act_by) has the
-    # zone's booms over its limit when the crew does nothing, and a slow-down with a turn
-    # begun a reaction time after the start that keeps them under it (encounter 8: 0.66
-    # psf, limit 0.77). The trials read a zone at the louder node of the strip it touched
-    # (encounter 8: 0.82 psf between nodes of 0.44 and 0.81, the trials holding to 0.69),
-    # no trial cleared, nothing was offered, and the crew following the cues let 1.55,
-    # 0.70 and 1.00 psf reach the zone. Read where the strip meets the zone, a resolution
-    # is offered and flown, and the truth keeps every boom in the zone under the limit.
+# Issue 13, done-when (resolution success): campaign --known, seed 1. The truth harness
+# (direct ray tracing along the path flown, advisory.bench.truth; its act-by flights,
+# advisory.bench.truth_act_by) has the zone's booms over its limit when the crew does
+# nothing, and an action begun a reaction time after the start that keeps them under it.
+# Before, no trial cleared, nothing was offered, and the crew following the cues let the
+# booms reach the zone over its limit:
+# - at the carpet's edge (43, 70, 83: 1.08, 0.94 and 0.98 psf): with the carpet searched
+#   in 6 strips across its width, the zone was read at the loudest node of a wide strip
+#   (10 strips since);
+# - at the quiet end of a strip (8, 40, 47: 1.55, 0.70 and 1.00 psf): the trials read the
+#   zone at the louder node of the strip it touched (encounter 8: 0.82 psf between nodes
+#   of 0.44 and 0.81, the trials holding to 0.69; the truth's slow-down with a turn keeps
+#   0.66 psf, limit 0.77); they now read it where the strip meets the zone.
+# Now a resolution is offered and flown, and the truth keeps every boom in the zone under
+# the limit.
+@pytest.mark.parametrize("index, limit_psf", [
+    pytest.param(43, 0.79, id="edge-43"), pytest.param(70, 0.77, id="edge-70"),
+    pytest.param(83, 0.55, id="edge-83"), pytest.param(8, 0.77, id="strip-end-8"),
+    pytest.param(40, 0.51, id="strip-end-40"), pytest.param(47, 0.61, id="strip-end-47")])
+def test_an_avoidable_exposure_gets_a_resolution_that_holds(index, limit_psf) -> None:
     doc = sample_encounter(1, index, known=True).doc
     sc = scenario_from_dict(doc)
     assert sc.zones[0].limit_psf == pytest.approx(limit_psf)  # the encounter meant

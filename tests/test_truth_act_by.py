@@ -102,3 +102,26 @@ def test_a_planned_push_over_near_cutoff_is_not_avoidable_before_it_begins():
     assert act["visible_s"] == pytest.approx(37.1)
     assert not act["avoidable"] and act["act_by_s"] is None
     assert act["flights"] == 1  # the level flight without the descent: no boom over it
+
+
+def test_an_alert_at_the_first_step_is_in_time_when_the_crew_must_act_at_once():
+    # The definition (module notes of advisory.bench.truth_act_by, docs/scenarios.md),
+    # worked by hand: a 5 s reaction time and an act-by at the earliest start, 5.0 s (the
+    # flight led into the zone from the start, visible at 0): the crew had to act the
+    # moment it could, and an alert at the advisor's first step (campaign --known, seed
+    # 1, encounter 223: 0.006 s; the step lands within 0.004 + 0.003 + 0.1 s of a sample
+    # being sent) is as soon as any advisor can speak. Before, it counted as late.
+    from advisory.bench.truth_act_by import alerted_in_time, first_step_s
+
+    sc = scenario_from_dict(sample_encounter(1, 223, known=True).doc)
+    step = first_step_s(sc)
+    assert step == pytest.approx(0.004 + 0.003 + 1.0 / 10.0)
+    assert alerted_in_time(0.006, 5.0, 0.0, 5.0, step)
+    assert not alerted_in_time(0.2, 5.0, 0.0, 5.0, step)  # after the first step
+    assert not alerted_in_time(None, 5.0, 0.0, 5.0, step)
+    # an act-by later than the earliest start keeps the reaction time in full
+    assert alerted_in_time(2.0, 7.0, 0.0, 5.0, step)
+    assert not alerted_in_time(2.01, 7.0, 0.0, 5.0, step)
+    # visible from a planned manoeuvre at 30 s: the first step after it
+    assert alerted_in_time(30.05, 35.0, 30.0, 5.0, step)
+    assert not alerted_in_time(29.0 + 2.0, 35.0, 30.0, 5.0, step)

@@ -123,9 +123,8 @@ def _progress(text: str) -> None:
     print(f"bench: {text}", file=sys.stderr, flush=True)
 
 
-#: Sections timed in a fresh process of their own when the run holds others: the process
-#: after a table build and the other sections measured the advisor step 3.2 ms where the
-#: same table gave 1.7-2.1 ms alone (stop 30, the 2-core machine of the README).
+#: Sections timed in a fresh process of their own when the run holds others (why: the
+#: module notes).
 FRESH_PROCESS_SECTIONS = ("advisor", "replay")
 #: Longest a fresh-process section may take, s.
 FRESH_PROCESS_TIMEOUT_S = 1800.0

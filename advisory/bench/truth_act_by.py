@@ -24,7 +24,12 @@ and each turn with the deceleration.
   clears when an earlier one does not: common practice, no source).
 * ``alerted_in_time``: the first alert naming the zone (any alert status, ``unavoidable``
   included: a boom on its way names the zone too) came at least
-  the reaction time before ``act_by_s``.
+  the reaction time before ``act_by_s``; or, when the act-by is the earliest start
+  itself (the crew had to act the moment it could), at the advisor's first step after
+  the flight led into the zone (:func:`first_step_s`: no advisor speaks before air data
+  reach it; the act-by is known only to :data:`TOLERANCE_S`). Before, an alert at the
+  first step, 6 ms after the start, counted as late against an act-by of 5.0 s with a
+  5 s reaction time (campaign --known, seed 1, encounter 223).
 
 This module is the bench's; the core never imports it. ADVISORY AID ONLY: not certified
 flight software; local regulations and licensed practice govern supersonic flight.
@@ -197,5 +202,26 @@ def truth_act_by(sc: Scenario, world: World, exposure: dict[str, Any], emitted_o
         else:
             hi = mid
     out.update(avoidable=True, action=best, act_by_s=lo,
-               alerted_in_time=first_alert is not None and first_alert <= lo - react)
+               alerted_in_time=alerted_in_time(first_alert, lo, visible, react,
+                                               first_step_s(sc)))
     return out
+
+
+def alerted_in_time(first_alert: float | None, act_by: float, visible: float,
+                    react: float, first_step: float) -> bool:
+    """Whether the first alert ``first_alert`` (s, None: none) came the reaction time
+    ``react`` before ``act_by``, or, when ``act_by`` is the earliest start
+    (``visible + react``), by the advisor's first step ``first_step`` (s after a sample
+    is sent) after ``visible`` (module notes)."""
+    if first_alert is None:
+        return False
+    deadline = act_by - react
+    if act_by <= visible + react:  # act at once: the first step is as soon as any can be
+        deadline = max(deadline, visible + first_step)
+    return first_alert <= deadline
+
+
+def first_step_s(sc: Scenario) -> float:
+    """Latest time after a sample is sent that the advisor has stepped on it, s: the
+    source's latency and jitter plus one advisor step period (module notes)."""
+    return sc.source.latency_s + sc.source.jitter_s + 1.0 / sc.advisor.rate_hz

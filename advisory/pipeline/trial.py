@@ -363,8 +363,9 @@ def trial_nodes(strips: np.ndarray) -> np.ndarray:
     6.7 % of the row's peak in an outer strip (6.2 % at the 99th percentile: the
     overpressure falls steeply and not linearly toward the carpet's edge) and at most 2.9 %
     in any other (0.8 % at the 99th percentile); the trials hold a zone to 90 % of its
-    limit. On the bench's cruise a trial at these 15 nodes takes 1.16 times as long as at
-    the 11 strip nodes (92 against 79 us; at all 31 nodes 146 us, 1.83 times).
+    limit. A trial at these 15 nodes took 1.16 times as long as at the 11 strip nodes
+    (at all 31 nodes 1.83 times: one trial on the bench's cruise state, 200 repeats, timed
+    in process; not a benchmark figure).
     """
     s = np.asarray(strips, dtype=np.int64)
     if s.size < 3:

@@ -64,6 +64,15 @@ the zone are unavoidable from 90.5 s; the advisor now says so from 84.4 s, befor
 later, contact 0.4 s later and 0.873 for 0.877 psf; ``demo/turn_onto_park`` act-by 0.1 s
 later and contact 15 s later in 80 frames; the service records 0.917 psf for 0.929 (0.873
 for 0.877), act-by 0.1 s earlier and contact 0.5-3 s later, every status the same.
+``demo/crosswind_day`` and three service records once more for issue 13's Mach hold
+margin: below a target that failed, the Mach offered is the largest that clears less
+0.01 (``mach_hold_margin``, ``advisory/pipeline/resolutions.py``). Decoded advisory frames
+compared field by field before and after: the crosswind flight offers M1.19 for M1.20 in
+637 of its 1,000 frames (act-by times 0.2-0.4 s apart in 51, a left turn to 350 offered
+besides in one), ``full_output``, ``serial_unplugged`` and ``udp_sigterm`` M1.13 for M1.14
+(act-by 0.1-0.7 s apart in 5 frames); every status the same; the other flights and
+``live`` identical (``demo/coastal_approach``'s M1.13 is its lowest candidate, which
+keeps no margin; ``demo/turn_onto_park``'s roll-out is a target at the present Mach).
 """
 
 from __future__ import annotations

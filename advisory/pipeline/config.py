@@ -61,6 +61,9 @@ operators tune them in a config file::
     limit_fraction = 0.9        # a resolution's trial holds the booms in a zone with an
                                 # overpressure limit to this fraction of the limit (the
                                 # prediction's error; the alerts use the limit itself)
+    mach_hold_margin = 0.01     # the Mach offered clears with this much more too (a
+                                # crew's Mach hold, +-0.01: value from memory; near
+                                # cutoff the carpet's edge moves 1-1.5 km per 0.01)
 
     [focus]
     threshold = 1.25        # amplification above which a focus boom is flagged
@@ -109,6 +112,7 @@ class AdvisorConfig:
     decel_mach_per_s: float = 0.01
     roll_rate_deg_s: float = 5.0
     limit_fraction: float = 0.9
+    mach_hold_margin: float = 0.01
     caution_act_s: float = 60.0
     warning_act_s: float = 20.0
     focus_threshold: float = 1.25
@@ -130,7 +134,7 @@ class AdvisorConfig:
             "max_turn_deg": (5.0, 180.0), "turn_step_deg": (1.0, 45.0),
             "refresh_s": (0.0, 30.0), "reaction_s": (0.0, 60.0),
             "decel_mach_per_s": (0.001, 0.1), "roll_rate_deg_s": (1.0, 30.0),
-            "limit_fraction": (0.1, 1.0),
+            "limit_fraction": (0.1, 1.0), "mach_hold_margin": (0.0, 0.1),
             "caution_act_s": (1.0, 1800.0), "warning_act_s": (1.0, 1800.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
             "strips": (2, 30), "reproject_km": (10.0, 400.0),
@@ -165,7 +169,7 @@ _SECTIONS = {
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",
                    "refresh_s", "reaction_s", "decel_mach_per_s", "roll_rate_deg_s",
-                   "limit_fraction"),
+                   "limit_fraction", "mach_hold_margin"),
     "confidence": ("confidence", "surface_temp_sigma_c", "wind_sigma_kt", "edge_confidence"),
     "focus": ("threshold",),
     "input": ("stale_after_s",),

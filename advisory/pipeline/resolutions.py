@@ -18,14 +18,19 @@ limit itself), so an offered resolution does not sit on the limit.
   (:data:`NEAR_CUTOFF_EXCESS`), not only every ``step_s``. The lowest candidate is the
   present cutoff Mach less the margin (none when the table's cutoff is read at the
   configured confidence, :mod:`advisory.pipeline.confidence`; else the fixed
-  ``cutoff_margin_mach``), rounded down to 0.01 (every boom
-  after it stays off the ground), the lowest cutoff over every ground level with zones
-  (higher ground is reached at a lower Mach; every trial is judged on every level's
-  zones, :class:`OtherGround`); when it clears, the largest clearing target between
-  it and the present Mach is found by bisection on a 0.01 grid (every offered value is
-  a trial that cleared; the bisection assumes that a lower target clears when a higher
-  one does, which holds except near odd geometry, where the value offered is still one
-  that cleared). When the lowest candidate does not clear, no Mach alone clears (None).
+  ``cutoff_margin_mach``), rounded down to 0.01 (every boom after it stays off the
+  ground), the lowest cutoff over every ground level with zones (higher ground is
+  reached at a lower Mach; every trial is judged on every level's zones,
+  :class:`OtherGround`); when it clears, the largest clearing target between it and the
+  present Mach is found by bisection on a 0.01 grid (assuming that a lower target clears
+  when a higher one does, true but near odd geometry). Below a target that failed, the
+  value offered is that target less ``mach_hold_margin``, not below the lowest
+  candidate, tried once more (a crew holds a Mach to about 0.01, and near cutoff the
+  carpet's edge moves 1-1.5 km per 0.01: campaign --known, seed 2, encounter 79 offered
+  M1.21, the largest that cleared, whose trial laid the edge 2.94 km from a zone with a
+  2.32 km margin; the truth put it inside the margin at 1.43 psf, limit 0.85); when that
+  try fails (odd geometry) the target itself is: every value offered is a trial that
+  cleared. When the lowest candidate does not clear, no Mach alone clears.
 * **Turns** (``turn_left_deg`` / ``turn_right_deg``): roll at ``roll_rate_deg_s`` to
   ``turn_bank_deg``, hold, roll out at the heading change; heading changes are tried on
   a coarse list (10, 20, 30, 45, 60, 90, 135, 180 deg up to ``max_turn_deg``) and refined
@@ -374,6 +379,12 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
             else:
                 bad = mid
         mach = round(good, 2)
+        held = round(max(math.floor((good - cfg.mach_hold_margin) / MACH_GRID + 1e-9)
+                         * MACH_GRID, lo), 2)
+        # only below a target that failed (at the present Mach, what clears is the
+        # roll-out or holding the speed: :func:`roll_out`)
+        if bad <= hi + 1e-9 and held < mach and (yield from trial(target_mach=held)):
+            mach = held
     bank = math.radians(cfg.turn_bank_deg)
     coarse = [a for a in COARSE_TURNS_DEG if a <= cfg.max_turn_deg]
     if not coarse or coarse[-1] < cfg.max_turn_deg:

@@ -61,9 +61,10 @@ operators tune them in a config file::
     limit_fraction = 0.9        # a resolution's trial holds the booms in a zone with an
                                 # overpressure limit to this fraction of the limit (the
                                 # prediction's error; the alerts use the limit itself)
-    mach_hold_margin = 0.01     # the Mach offered clears with this much more too (a
-                                # crew's Mach hold, +-0.01: value from memory; near
-                                # cutoff the carpet's edge moves 1-1.5 km per 0.01)
+    mach_hold_margin = 0.01     # when a faster target fails, the Mach offered is the
+                                # largest that clears less this (a crew's Mach hold,
+                                # +-0.01: value from memory; near cutoff the carpet's
+                                # edge moves 1-1.5 km per 0.01 Mach)
 
     [focus]
     threshold = 1.25        # amplification above which a focus boom is flagged

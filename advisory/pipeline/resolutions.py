@@ -26,11 +26,10 @@ limit itself), so an offered resolution does not sit on the limit.
   when a higher one does, true but near odd geometry). Below a target that failed, the
   value offered is that target less ``mach_hold_margin``, not below the lowest
   candidate, tried once more (a crew holds a Mach to about 0.01, and near cutoff the
-  carpet's edge moves 1-1.5 km per 0.01: campaign --known, seed 2, encounter 79 offered
-  M1.21, the largest that cleared, whose trial laid the edge 2.94 km from a zone with a
-  2.32 km margin; the truth put it inside the margin at 1.43 psf, limit 0.85); when that
-  try fails (odd geometry) the target itself is: every value offered is a trial that
-  cleared. When the lowest candidate does not clear, no Mach alone clears.
+  carpet's edge moves 1-1.5 km per 0.01; the measured case: ``hold-margin-s2-79`` in
+  ``tests/test_checked_resolutions.py``); when that try fails (odd geometry) the target
+  itself is: every value offered is a trial that cleared. When the lowest candidate does
+  not clear, no Mach alone clears.
 * **Turns** (``turn_left_deg`` / ``turn_right_deg``): roll at ``roll_rate_deg_s`` to
   ``turn_bank_deg``, hold, roll out at the heading change; heading changes are tried on
   a coarse list (10, 20, 30, 45, 60, 90, 135, 180 deg up to ``max_turn_deg``) and refined
@@ -379,8 +378,7 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
             else:
                 bad = mid
         mach = round(good, 2)
-        held = round(max(math.floor((good - cfg.mach_hold_margin) / MACH_GRID + 1e-9)
-                         * MACH_GRID, lo), 2)
+        held = round(max(max_mach_off_ground(good, cfg.mach_hold_margin), lo), 2)
         # only below a target that failed (at the present Mach, what clears is the
         # roll-out or holding the speed: :func:`roll_out`)
         if bad <= hi + 1e-9 and held < mach and (yield from trial(target_mach=held)):

@@ -46,7 +46,7 @@ This module is the bench's; the core never imports it.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -55,6 +55,7 @@ from advisory.bench.truth_kernels import (
     N_TRUTH_COLUMNS,
     T_TRANS_X,
     T_TRANS_Y,
+    trace_edge_band_kernel,
     trace_emissions_kernel,
 )
 from advisory.bench.truth_path import (
@@ -73,6 +74,7 @@ from advisory.physics.fastpath import (
     R_DX_DPHI,
     R_DY_DPHI,
     R_EDGE,
+    R_PHI,
     R_REACHED,
     R_TIME,
     R_X,
@@ -83,6 +85,10 @@ from advisory.physics.signature import DEFAULT_REFLECTION_FACTOR, FOCUS_AMPLIFIC
 
 #: Default azimuth step around the Mach cone, deg (issue 12).
 DEFAULT_AZIMUTH_STEP_DEG = 1.0
+#: Default number of edge-band rays each side (:attr:`TruthSettings.edge_band`): their
+#: landing points about evenly spaced between the outermost grid ray and the cutoff,
+#: at most about 0.6 km apart where the grid ray falls 9 km short (project choice).
+DEFAULT_EDGE_BAND = 16
 
 
 @dataclass(frozen=True)
@@ -100,15 +106,32 @@ class TruthSettings:
         Bound of the focus amplification (value from memory, see the module notes).
     level_stride : int
         Integrate over every ``level_stride``-th node of the atmosphere grid (1: every
-        node, the same numbers as ``predict``; 2 on the 20 m default grid moves ground
-        points by under a metre and overpressures by under 0.05 %, measured, and halves
-        the work).
+        node, the same numbers as ``predict``; 2, the default, on the 20 m default grid
+        moves ground points by under a metre and overpressures by under 0.1 %, measured on
+        the first six campaign encounters of seed 1 with the edge band, and takes 14 s
+        where 1 takes 23 s for the benchmark's ten-minute flight, which pays for the band).
+    edge_band : int
+        Rays traced on each side between the outermost grid ray and the lateral cutoff
+        (:func:`advisory.bench.truth_kernels.trace_edge_band_kernel`; 0: none). With
+        rays every 1 deg alone the outermost boom fell 3.7-5.2 km short of the carpet's
+        edge in the standard atmosphere (Mach 1.2-2.0), 0.5-9.2 km on campaign
+        encounters, where the edge booms carry 0.4-1.1 psf.
     """
 
     azimuth_step_deg: float = DEFAULT_AZIMUTH_STEP_DEG
     reflection_factor: float = DEFAULT_REFLECTION_FACTOR
     amplification_cap: float = FOCUS_AMPLIFICATION_CAP
-    level_stride: int = 1
+    level_stride: int = 2
+    edge_band: int = DEFAULT_EDGE_BAND
+
+    def band_fractions(self) -> np.ndarray:
+        """Positions of the edge band's rays between the grid ray (0) and the cutoff (1):
+        ``1 - (1 - k / K)^2``, k = 1..K, the last a hair inside the cutoff."""
+        k = int(self.edge_band)
+        if k != self.edge_band or not 0 <= k <= 256:
+            raise TruthInputError(f"edge_band: {self.edge_band} must be a whole number 0..256")
+        u = np.arange(1, k + 1, dtype=np.float64) / max(k, 1)
+        return np.minimum(1.0 - (1.0 - u) ** 2, 1.0 - 1e-6)
 
     def azimuths_rad(self, limit_rad: float = math.pi) -> np.ndarray:
         """Ray azimuths, rad: multiples of the step (0 included) with ``|phi| < limit_rad``."""
@@ -169,6 +192,12 @@ class GroundMap:
         time or in azimuth).
     edge : ndarray of bool
         Grazing ray near the lateral cutoff (signature flag).
+    band : GroundMap or None
+        The edge band (:attr:`TruthSettings.edge_band`): the same fields over (E, 2K)
+        rays, ``azimuth_rad`` (E, 2K) per emission (side 0's K rays, then side 1's);
+        its ray tube from time differences at a fixed band ray (the band's rays move
+        with the cutoff, but that motion is along ``dG/dphi`` and drops out of
+        ``J = dG/dt x dG/dphi``); None without one.
     """
 
     ground_elevation_m: float
@@ -185,12 +214,20 @@ class GroundMap:
     amplification: np.ndarray
     focus: np.ndarray
     edge: np.ndarray
+    band: GroundMap | None = None
 
     def events(self, frame: LocalFrame | None = None) -> BoomEvents:
-        """The rays that reach the ground as boom events, in order of arrival."""
+        """The rays that reach the ground (the edge band's too) as boom events, in order
+        of arrival."""
+        if self.band is not None:
+            return _merged_events(self._events(frame), self.band._events(frame))
+        return self._events(frame)
+
+    def _events(self, frame: LocalFrame | None) -> BoomEvents:
         ie, ip = np.nonzero(self.reached)
         order = np.argsort(self.arrival_s[ie, ip], kind="stable")
         ie, ip = ie[order], ip[order]
+        az = self.azimuth_rad[ie, ip] if self.azimuth_rad.ndim == 2 else self.azimuth_rad[ip]
         east, north = self.east_m[ie, ip], self.north_m[ie, ip]
         lat = lon = np.full(ie.size, math.nan)
         if frame is not None and ie.size:
@@ -198,7 +235,7 @@ class GroundMap:
             lat, lon = np.degrees(la), np.degrees(lo)
         return BoomEvents(
             ground_elevation_m=self.ground_elevation_m,
-            emission_time_s=self.emission_time_s[ie], azimuth_rad=self.azimuth_rad[ip],
+            emission_time_s=self.emission_time_s[ie], azimuth_rad=az,
             arrival_s=self.arrival_s[ie, ip], east_m=east, north_m=north,
             lat_deg=np.asarray(lat), lon_deg=np.asarray(lon),
             overpressure_psf=self.overpressure_pa[ie, ip] / units.PSF,
@@ -344,7 +381,75 @@ def trace_ground_map(path: FlownPath, atmosphere: Atmosphere, aircraft: Aircraft
                            np.log(p), parts.y_m, parts.f_volume, parts.area_volume,
                            parts.f_lift_unit, parts.area_lift_unit,
                            float(settings.reflection_factor), out)
-    return _assemble(path, phis, float(ground_elevation_m), out, settings)
+    grid = _assemble(path, phis, float(ground_elevation_m), out, settings)
+    fractions = settings.band_fractions()
+    if fractions.size == 0:
+        return grid
+    band = np.empty((path.size, 2, fractions.size, N_TRUTH_COLUMNS))
+    trace_edge_band_kernel(path.altitude_m, path.mach, path.heading_rad, path.fpa_rad, lift,
+                           np.ascontiguousarray(bank, dtype=np.float64),
+                           float(ground_elevation_m), phis, out, zz, c, wx, wy, np.log(rho),
+                           np.log(p), parts.y_m, parts.f_volume, parts.area_volume,
+                           parts.f_lift_unit, parts.area_lift_unit,
+                           float(settings.reflection_factor), fractions, band)
+    sides = [_band_side(path, band[:, k], grid, k, float(ground_elevation_m), settings)
+             for k in range(2)]
+    j = {f: np.concatenate([getattr(sides[0], f), getattr(sides[1], f)], axis=1)
+         for f in _MAP_ARRAYS}
+    band_map = GroundMap(
+        ground_elevation_m=float(ground_elevation_m), emission_time_s=path.time_s.copy(),
+        azimuth_rad=j["azimuth_rad"], reached=j["reached"], east_m=j["east_m"],
+        north_m=j["north_m"], arrival_s=j["arrival_s"], overpressure_pa=j["overpressure_pa"],
+        steady_overpressure_pa=j["steady_overpressure_pa"], duration_s=j["duration_s"],
+        tube_ratio=j["tube_ratio"], amplification=j["amplification"], focus=j["focus"],
+        edge=j["edge"])
+    return replace(grid, band=band_map)
+
+
+def _band_side(path: FlownPath, out: np.ndarray, grid: GroundMap, side: int, zg: float,
+               settings: TruthSettings) -> GroundMap:
+    """One side of the edge band as a map: its rays placed as the grid's, each with the
+    amplification and focus of the outermost grid ray of its emission on that side (a
+    time difference at a fixed band ray is not a ray tube: the band's rays move with the
+    cutoff, and near grazing the landing point's second derivative in azimuth is large,
+    so differences across a moving band read folds that are not there)."""
+    m = _assemble(path, out[..., R_PHI], zg, out, settings)
+    reached = grid.reached
+    cols = np.arange(reached.shape[1])
+    has = reached.any(axis=1)
+    j = np.where(reached, cols[None, :], -1).max(axis=1) if side == 1 else \
+        np.where(reached, cols[None, :], reached.shape[1]).min(axis=1)
+    j = np.where(has, j, 0)
+    rows = np.arange(reached.shape[0])
+    amp = np.where(has, grid.amplification[rows, j], 1.0)[:, None]
+    focus = (has & grid.focus[rows, j])[:, None]
+    ratio = np.where(has, grid.tube_ratio[rows, j], math.nan)[:, None]
+    steady = m.steady_overpressure_pa
+    return replace(m, overpressure_pa=steady * amp,
+                   amplification=np.broadcast_to(amp, steady.shape).copy(),
+                   tube_ratio=np.broadcast_to(ratio, steady.shape).copy(),
+                   focus=np.broadcast_to(focus, steady.shape) & m.reached)
+
+
+#: The (E, P) arrays of a :class:`GroundMap`.
+_MAP_ARRAYS = ("azimuth_rad", "reached", "east_m", "north_m", "arrival_s", "overpressure_pa",
+               "steady_overpressure_pa", "duration_s", "tube_ratio", "amplification",
+               "focus", "edge")
+
+
+def _merged_events(a: BoomEvents, b: BoomEvents) -> BoomEvents:
+    """Two sets of events of one ground elevation as one, in order of arrival."""
+    if len(b) == 0:
+        return a
+    order = np.argsort(np.concatenate([a.arrival_s, b.arrival_s]), kind="stable")
+    return BoomEvents(ground_elevation_m=a.ground_elevation_m, **{
+        f: np.concatenate([getattr(a, f), getattr(b, f)])[order] for f in _EVENT_ARRAYS})
+
+
+#: The arrays of :class:`BoomEvents`.
+_EVENT_ARRAYS = ("emission_time_s", "azimuth_rad", "arrival_s", "east_m", "north_m",
+                 "lat_deg", "lon_deg", "overpressure_psf", "duration_ms", "focus",
+                 "amplification", "edge")
 
 
 def _assemble(path: FlownPath, phis: np.ndarray, zg: float, out: np.ndarray,

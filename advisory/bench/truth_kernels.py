@@ -36,7 +36,13 @@ import math
 import numpy as np
 
 from advisory.jit import njit
-from advisory.physics.fastpath import N_RAY_RESULTS, R_EDGE, R_PHI, ray_ground_kernel
+from advisory.physics.fastpath import (
+    N_RAY_RESULTS,
+    R_EDGE,
+    R_PHI,
+    R_REACHED,
+    ray_ground_kernel,
+)
 from advisory.physics.ray_kernels import emission_slowness, ray_levels_kernel, reaches_ground_kernel
 
 # Extra per-ray columns written after the ``R_*`` columns of the fast path.
@@ -151,3 +157,114 @@ def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c
             c20 = lc[0] * lc[0]
             out[i, j, T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
             out[i, j, T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
+
+
+@njit(cache=True)
+def _reaches(mach, heading, fpa, phi, c0, w0x, w0y, lc, lwx, lwy, m):
+    """The cheap reach test of one azimuth (as :func:`trace_emissions_kernel` runs it)."""
+    sx, sy, nz, _, _ = emission_slowness(mach, heading, fpa, phi, c0, w0x, w0y)
+    return nz < 0.0 and reaches_ground_kernel(lc, lwx, lwy, m, sx, sy) > 0.0
+
+
+@njit(cache=True)
+def trace_edge_band_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, grid, z, c, wx,
+                           wy, log_rho, log_p, fy, fv, av, fl, al, reflection_factor,
+                           fractions, out):
+    """Rays between each side's outermost grid ray and the lateral cutoff (the edge band).
+
+    Per emission and side (0: negative azimuths, 1: positive), the outermost azimuth of
+    ``grid`` (the output of :func:`trace_emissions_kernel` over ``phis``) that reached
+    the ground and the next grid azimuth outward that did not bracket the lateral cutoff;
+    the cutoff ``phi_e`` is found by bisection on the reach test (60 halvings), and a
+    ray is traced at ``phi_last + fractions[k] * (phi_e - phi_last)`` for each ``k``.
+    Near a grazing edge the landing point moves like the square root of the azimuth gap
+    (common practice, no source), so fractions ``1 - (1 - k / K)^2`` put the band's
+    landing points about evenly between the grid ray and the edge.
+
+    Parameters
+    ----------
+    alt ... reflection_factor
+        As :func:`trace_emissions_kernel` (``grid`` its filled output over ``phis``).
+    fractions : ndarray, shape (K,)
+        Positions of the band's rays between the grid ray (0) and the cutoff (1).
+    out : ndarray, shape (E, 2, K, N_TRUTH_COLUMNS)
+        Output, the columns of :func:`trace_emissions_kernel`; ``R_REACHED`` 0 where no
+        band was traced (no grid ray reached on that side, the grid ends there, or the
+        next grid azimuth passes the reach test).
+    """
+    n_lev = z.size + 2
+    lz = np.empty(n_lev)
+    lc = np.empty(n_lev)
+    lwx = np.empty(n_lev)
+    lwy = np.empty(n_lev)
+    work = np.empty((n_lev, 9))
+    t_buf = np.empty(n_lev)
+    g_buf = np.empty(n_lev)
+    shocks = np.empty((fy.size + 2, 3))
+    n_phi = phis.size
+    for i in range(alt.size):
+        for s in range(2):
+            for k in range(fractions.size):
+                for q in range(N_TRUTH_COLUMNS):
+                    out[i, s, k, q] = 0.0
+                out[i, s, k, R_EDGE] = 1.0
+        if not (mach[i] > 1.0 and alt[i] > zg):
+            continue
+        if i > 0 and same_state(alt, mach, heading, fpa, lift_n, bank, i):
+            out[i, :, :, :] = out[i - 1, :, :, :]
+            continue
+        m = ray_levels_kernel(z, c, wx, wy, alt[i], zg, lz, lc, lwx, lwy)
+        rho = np.exp(np.interp(lz[:m], z, log_rho))
+        c0 = np.interp(alt[i], z, c)
+        w0x = np.interp(alt[i], z, wx)
+        w0y = np.interp(alt[i], z, wy)
+        p0 = math.exp(np.interp(alt[i], z, log_p))
+        u = mach[i] * c0
+        vgx = u * math.cos(fpa[i]) * math.sin(heading[i]) + w0x
+        vgy = u * math.cos(fpa[i]) * math.cos(heading[i]) + w0y
+        vgz = u * math.sin(fpa[i])
+        for s in range(2):
+            j_last = -1
+            if s == 1:
+                for j in range(n_phi):
+                    if grid[i, j, R_REACHED] > 0.5:
+                        j_last = j
+                j_next = j_last + 1
+            else:
+                for j in range(n_phi - 1, -1, -1):
+                    if grid[i, j, R_REACHED] > 0.5:
+                        j_last = j
+                j_next = j_last - 1
+            if j_last < 0 or j_next < 0 or j_next >= n_phi:
+                continue
+            lo = phis[j_last]
+            hi = phis[j_next]
+            if not _reaches(mach[i], heading[i], fpa[i], lo, c0, w0x, w0y, lc, lwx, lwy, m):
+                continue
+            if _reaches(mach[i], heading[i], fpa[i], hi, c0, w0x, w0y, lc, lwx, lwy, m):
+                continue
+            for _ in range(60):
+                mid = 0.5 * (lo + hi)
+                if _reaches(mach[i], heading[i], fpa[i], mid, c0, w0x, w0y, lc, lwx, lwy, m):
+                    lo = mid
+                else:
+                    hi = mid
+            phi_last = phis[j_last]
+            for k in range(fractions.size):
+                phi = phi_last + fractions[k] * (lo - phi_last)
+                row = out[i, s, k]
+                row[R_PHI] = phi
+                lift = effective_lift(lift_n[i], bank[i], phi)
+                reached = ray_ground_kernel(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y,
+                                            p0, lz, lc, lwx, lwy, rho, m, fy, fv, av, fl,
+                                            al, lift, reflection_factor, work, t_buf, g_buf,
+                                            shocks, row[:N_RAY_RESULTS])
+                if not reached:
+                    continue
+                sx, sy, _, _, _ = emission_slowness(mach[i], heading[i], fpa[i], phi, c0,
+                                                    w0x, w0y)
+                q0 = work[0, 3]
+                om0 = work[0, 8]
+                c20 = lc[0] * lc[0]
+                row[T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
+                row[T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz

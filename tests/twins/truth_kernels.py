@@ -60,3 +60,46 @@ def trace_emissions_twin(alt: np.ndarray, mach: np.ndarray, heading: np.ndarray,
             row[T_TRANS_X] = vg[0] + (c2 * ray.sx + air.wind_east_mps * om) / (c2 * q) * vg[2]
             row[T_TRANS_Y] = vg[1] + (c2 * ray.sy + air.wind_north_mps * om) / (c2 * q) * vg[2]
     return out
+
+
+def trace_edge_band_twin(alt: np.ndarray, mach: np.ndarray, heading: np.ndarray,
+                         fpa: np.ndarray, lift_n: np.ndarray, bank: np.ndarray, zg: float,
+                         phis: np.ndarray, grid: np.ndarray, atmosphere: Atmosphere,
+                         aircraft: Aircraft, reflection_factor: float,
+                         fractions: np.ndarray) -> np.ndarray:
+    """The edge band of :func:`advisory.bench.truth_kernels.trace_edge_band_kernel`, read
+    plainly: per side, the outermost grid ray that reached and the next one out bracket
+    the cutoff; 60 halvings with the readable tracer's reach test; each band ray traced
+    as :func:`trace_emissions_twin` traces one azimuth."""
+    tracer = RayTracer(atmosphere)
+    out = np.zeros((alt.size, 2, fractions.size, N_TRUTH_COLUMNS))
+    out[..., fp.R_EDGE] = 1.0
+    for i in range(alt.size):
+        if not (mach[i] > 1.0 and alt[i] > zg):
+            continue
+        fc = FlightCondition(float(mach[i]), float(alt[i]), float(heading[i]), float(fpa[i]),
+                             float(zg))
+
+        def reaches(phi: float, fc: FlightCondition = fc) -> bool:
+            return tracer.trace(fc, phi).reaches_ground
+
+        hit = np.flatnonzero(grid[i, :, fp.R_REACHED] > 0.5)
+        if hit.size == 0:
+            continue
+        for side, (j_last, j_next) in enumerate(((hit[0], hit[0] - 1), (hit[-1], hit[-1] + 1))):
+            if not 0 <= j_next < phis.size:
+                continue
+            lo, hi = float(phis[j_last]), float(phis[j_next])
+            if not reaches(lo) or reaches(hi):
+                continue
+            for _ in range(60):
+                mid = 0.5 * (lo + hi)
+                lo, hi = (mid, hi) if reaches(mid) else (lo, mid)
+            for k, f in enumerate(fractions):
+                phi = float(phis[j_last]) + float(f) * (lo - float(phis[j_last]))
+                one = trace_emissions_twin(alt[i:i + 1], mach[i:i + 1], heading[i:i + 1],
+                                           fpa[i:i + 1], lift_n[i:i + 1], bank[i:i + 1], zg,
+                                           np.array([phi]), atmosphere, aircraft,
+                                           reflection_factor)
+                out[i, side, k] = one[0, 0]
+    return out

@@ -624,3 +624,19 @@ def test_a_version_1_frame_for_older_receivers() -> None:
     assert set(m) - v1_keys == set(NEW_KEYS)  # what a version-1 receiver skips
     with pytest.raises(ValueError, match="version"):
         encode_adv({"status": "clear"}, 1, 1.0, version=3)
+
+
+def test_at_limit_is_sent_only_when_true():
+    # ICD section 5, key 18, and section 7 (a compatible optional key): a frame whose
+    # resolution is not at the limit is byte for byte the frame without the key, so
+    # every frame sent before it stays as it was; a receiver reads its absence as false.
+    base = {"status": "caution", "zone_id": "zone-3", "time_to_contact_s": 80.0,
+            "overpressure_psf": 1.1, "cue": "R TO 075 ACT 30S", "act_by_s": 30.0,
+            "turn_right_deg": 20.0, "turn_right_hdg": 75.0}
+    without = encode_adv(base, 9, 1893456000.0)
+    assert encode_adv(dict(base, at_limit=False), 9, 1893456000.0) == without
+    assert "at_limit" not in msgpack.unpackb(without)
+    assert decode_frame(without).fields["at_limit"] is False
+    marked = encode_adv(dict(base, at_limit=True), 9, 1893456000.0)
+    assert msgpack.unpackb(marked)["at_limit"] is True
+    assert decode_frame(marked).fields["at_limit"] is True

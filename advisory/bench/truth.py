@@ -195,9 +195,8 @@ class GroundMap:
     band : GroundMap or None
         The edge band (:attr:`TruthSettings.edge_band`): the same fields over (E, 2K)
         rays, ``azimuth_rad`` (E, 2K) per emission (side 0's K rays, then side 1's);
-        its ray tube from time differences at a fixed band ray (the band's rays move
-        with the cutoff, but that motion is along ``dG/dphi`` and drops out of
-        ``J = dG/dt x dG/dphi``); None without one.
+        each ray's amplification, focus and tube ratio those of the outermost grid ray
+        of its emission on its side (:func:`_band_side` says why); None without one.
     """
 
     ground_elevation_m: float

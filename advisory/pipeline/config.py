@@ -60,7 +60,8 @@ operators tune them in a config file::
     roll_rate_deg_s = 5         # roll rate of the turn resolutions (roll-in and out)
     limit_fraction = 0.9        # a resolution's trial holds the booms in a zone with an
                                 # overpressure limit to this fraction of the limit (the
-                                # prediction's error; the alerts use the limit itself)
+                                # prediction's error; the alerts use the limit itself);
+                                # when nothing clears so, the limit itself (at_limit)
     mach_hold_margin = 0.01     # when a faster target fails, the Mach offered is the
                                 # largest that clears less this (a crew's Mach hold,
                                 # +-0.01: value from memory; near cutoff the carpet's

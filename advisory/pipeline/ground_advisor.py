@@ -409,6 +409,7 @@ class GroundAdvisor:
             turn_right_hdg_deg=None if r.turn_right_deg is None
             else (hdg + r.turn_right_deg) % 360.0, near_cutoff=near,
             cutoff_sigma=sigma, boom_probability=p_reach,
+            at_limit=r.at_limit and r.kind is not None,
         )
 
     @staticmethod

@@ -98,6 +98,10 @@ class Advisory:
         sigma`` when the cutoff is read at a confidence): whether and where the boom
         reaches the ground is uncertain (ray theory at the grazing ray, the air below); the
         prediction errs toward "the boom reaches".
+    at_limit : bool
+        The offered resolution keeps the booms under each zone's limit itself, not under
+        ``limit_fraction`` of it: nothing clears with that room
+        (:func:`advisory.pipeline.resolutions.search`).
     """
 
     status: str
@@ -123,6 +127,7 @@ class Advisory:
     near_cutoff: bool = False
     cutoff_sigma: float | None = None
     boom_probability: float | None = None
+    at_limit: bool = False
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -158,6 +163,7 @@ class Advisory:
             "combined": bool(self.combined),
             "near_cutoff": bool(self.near_cutoff),  # issue 14: sent only when true
             "boom_probability": r(self.boom_probability, 2),  # issue 16: when known
+            "at_limit": bool(self.at_limit),  # sent only when true
         }
 
     def to_record(self) -> dict:

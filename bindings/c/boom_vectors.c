@@ -221,6 +221,8 @@ static void cmd_dec(const uint8_t *p, size_t n)
             printf(" near_cutoff=T");
         if (a->has_boom_probability)
             print_opt("boom_probability", true, a->boom_probability);
+        if (a->at_limit)
+            printf(" at_limit=T");
         printf(" v=%u", f.version);
     } else {
         const boom_status *s = &f.u.status;

@@ -135,6 +135,8 @@ typedef struct {
     bool has_boom_probability; /* issue 16: sent only when known */
     double boom_probability;   /* probability the boom reaches the zone named (no zone named:
                                   the ground), 0..1 (ICD key 17) */
+    bool at_limit; /* the resolution keeps the booms under each zone's limit itself, not
+                      under the configured fraction of it (ICD key 18; absent: false) */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;

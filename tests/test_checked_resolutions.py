@@ -269,13 +269,19 @@ def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
 #   steady Mach 1.21 edge inside the margin at 1.43 psf (limit 0.85). Near cutoff the
 #   edge moves 1.3-1.4 km per 0.01 Mach; the Mach offered now keeps mach_hold_margin
 #   (0.01) below the largest target that clears.
+# - nothing clears with the trials' room (seed 1: 63 and 170, where the truth's best
+#   action at the reaction time, a slow-down with a turn, keeps 96 % and 98 % of the
+#   limit): no trial kept the booms under limit_fraction (0.9) of the limit and nothing
+#   was offered; the search is now flown again at the limit itself and what clears is
+#   offered marked at_limit (a turn with a slow-down in both).
 # Now a resolution is offered and flown, and the truth keeps every boom in the zone under
 # the limit.
 @pytest.mark.parametrize("seed, index, limit_psf", [
     pytest.param(1, 43, 0.79, id="edge-43"), pytest.param(1, 70, 0.77, id="edge-70"),
     pytest.param(1, 83, 0.55, id="edge-83"), pytest.param(1, 8, 0.77, id="strip-end-8"),
     pytest.param(1, 40, 0.51, id="strip-end-40"), pytest.param(1, 47, 0.61, id="strip-end-47"),
-    pytest.param(2, 79, 0.85, id="hold-margin-s2-79")])
+    pytest.param(2, 79, 0.85, id="hold-margin-s2-79"),
+    pytest.param(1, 63, 0.85, id="at-limit-63"), pytest.param(1, 170, 0.56, id="at-limit-170")])
 def test_an_avoidable_exposure_gets_a_resolution_that_holds(seed, index, limit_psf) -> None:
     doc = sample_encounter(seed, index, known=True).doc
     sc = scenario_from_dict(doc)

@@ -73,6 +73,12 @@ besides in one), ``full_output``, ``serial_unplugged`` and ``udp_sigterm`` M1.13
 (act-by 0.1-0.7 s apart in 5 frames); every status the same; the other flights and
 ``live`` identical (``demo/coastal_approach``'s M1.13 is its lowest candidate, which
 keeps no margin; ``demo/turn_onto_park``'s roll-out is a target at the present Mach).
+``demo/turn_onto_park`` once more for the trials' roll emissions (every 1 s while a trial
+rolls, ``advisory/pipeline/trial_base.py``) and the search at the limit itself (key 18,
+``at_limit``, sent only when true: no frame of these flights carries it). Decoded advisory
+frames compared field by field before and after: the right turn's act-by 0.6 s sooner in
+16 frames (41.2 -> 40.6 s at 32.3 s; the cue's "ACT 41S" -> "ACT 40S" in 7 of them);
+every other field of every frame of every flight and service record the same.
 """
 
 from __future__ import annotations

@@ -180,8 +180,9 @@ class TrialBase:
         """Emission times every :data:`ROLL_SPACING_S` while the trial rolls from the
         present bank to ``bank`` (rad; NaN: wings level) after ``onset``: a roll sweeps
         the carpet's edge across the ground, and booms 3 s apart blur the fold it makes
-        (campaign --known, seed 2, encounter 28: a roll-out's booms folded onto a zone
-        at 1.82 psf, limit 0.58, between the trial's emissions)."""
+        (found on campaign --known, seed 2, encounter 28, with the 1-deg truth: a
+        roll-out's booms folded onto a zone at 1.82 psf, limit 0.58, between the trial's
+        emissions)."""
         roll_s = abs((0.0 if math.isnan(bank) else bank) - self.params[3]) / self.params[19]
         n = int(roll_s / ROLL_SPACING_S)
         return [onset + k * ROLL_SPACING_S for k in range(1, n + 1)] + [onset + roll_s]

@@ -91,16 +91,22 @@ def _straight(t, alt, mach, c, heading=0.0, fpa=0.0):
 # --------------------------------------------------------------------------------------
 
 
+def _parity_emissions(aircraft):
+    """The twin-parity emissions: a jet-stream atmosphere and three emissions, climbing,
+    banked, and descending at another Mach and heading (atmosphere, then the per-emission
+    altitude, Mach, heading, flight-path angle, lift and bank of the kernels)."""
+    atm = atmosphere_from_levels(WIND_LEVELS, source="test jet stream")
+    fpa = np.radians([2.0, 2.0, -4.0])
+    return (atm, np.array([14000.0, 14000.0, 12500.0]), np.array([1.6, 1.6, 1.9]),
+            np.radians([30.0, 30.0, 250.0]), fpa,
+            np.array([1.0, 1.3, 1.1]) * aircraft.weight_n * np.cos(fpa),
+            np.radians([0.0, 15.0, -10.0]))
+
+
 def test_kernel_matches_readable_twin(aircraft):
     """Twin parity (no outside source): the compiled loop equals RayTracer.trace +
     ground_signature ray by ray, in wind, climbing, descending and banked."""
-    atm = atmosphere_from_levels(WIND_LEVELS, source="test jet stream")
-    alt = np.array([14000.0, 14000.0, 12500.0])
-    mach = np.array([1.6, 1.6, 1.9])
-    heading = np.radians([30.0, 30.0, 250.0])
-    fpa = np.radians([2.0, 2.0, -4.0])
-    lift = np.array([1.0, 1.3, 1.1]) * aircraft.weight_n * np.cos(fpa)
-    bank = np.radians([0.0, 15.0, -10.0])
+    atm, alt, mach, heading, fpa, lift, bank = _parity_emissions(aircraft)
     phis = np.radians(np.arange(-70.0, 71.0, 10.0))
     z, c, wx, wy, rho, p = atm.arrays()
     parts = f_function_parts(aircraft)
@@ -124,13 +130,7 @@ def test_kernel_matches_readable_twin(aircraft):
 def test_edge_band_kernel_matches_readable_twin(aircraft):
     """Twin parity (no outside source): the edge band's bisection and rays equal the
     readable tracer's, in wind, climbing, descending and banked."""
-    atm = atmosphere_from_levels(WIND_LEVELS, source="test jet stream")
-    alt = np.array([14000.0, 14000.0, 12500.0])
-    mach = np.array([1.6, 1.6, 1.9])
-    heading = np.radians([30.0, 30.0, 250.0])
-    fpa = np.radians([2.0, 2.0, -4.0])
-    lift = np.array([1.0, 1.3, 1.1]) * aircraft.weight_n * np.cos(fpa)
-    bank = np.radians([0.0, 15.0, -10.0])
+    atm, alt, mach, heading, fpa, lift, bank = _parity_emissions(aircraft)
     phis = np.radians(np.arange(-80.0, 81.0, 5.0))
     z, c, wx, wy, rho, p = atm.arrays()
     parts = f_function_parts(aircraft)

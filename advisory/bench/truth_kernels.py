@@ -80,6 +80,54 @@ def same_state(alt, mach, heading, fpa, lift_n, bank, i):
 
 
 @njit(cache=True)
+def _buffers(n_z, n_f):
+    """Scratch arrays of the tracing: levels (sound speed, wind), the ray kernel's work,
+    time and ground buffers and its shocks, for ``n_z`` atmosphere nodes and ``n_f``
+    F-function points."""
+    n_lev = n_z + 2
+    return (np.empty(n_lev), np.empty(n_lev), np.empty(n_lev), np.empty(n_lev),
+            np.empty((n_lev, 9)), np.empty(n_lev), np.empty(n_lev), np.empty((n_f + 2, 3)))
+
+
+@njit(cache=True)
+def _emission_air(z, c, wx, wy, log_rho, log_p, alt, mach, heading, fpa, zg, lz, lc, lwx,
+                  lwy):
+    """The air of one emission: its integration levels (into ``lz``, ``lc``, ``lwx``,
+    ``lwy``; their count ``m``), the density at them, the sound speed, wind and pressure
+    at the aircraft (module notes) and the aircraft's ground velocity (m/s)."""
+    m = ray_levels_kernel(z, c, wx, wy, alt, zg, lz, lc, lwx, lwy)
+    rho = np.exp(np.interp(lz[:m], z, log_rho))
+    c0 = np.interp(alt, z, c)
+    w0x = np.interp(alt, z, wx)
+    w0y = np.interp(alt, z, wy)
+    p0 = math.exp(np.interp(alt, z, log_p))
+    u = mach * c0
+    vgx = u * math.cos(fpa) * math.sin(heading) + w0x
+    vgy = u * math.cos(fpa) * math.cos(heading) + w0y
+    vgz = u * math.sin(fpa)
+    return m, rho, c0, w0x, w0y, p0, vgx, vgy, vgz
+
+
+@njit(cache=True)
+def _trace_ray(mach, heading, fpa, lift_n, bank, phi, sx, sy, c0, w0x, w0y, p0, vgx, vgy,
+               vgz, lz, lc, lwx, lwy, rho, m, fy, fv, av, fl, al, reflection_factor, work,
+               t_buf, g_buf, shocks, row):
+    """Trace one azimuth ``phi`` (horizontal slowness ``sx``, ``sy``) into ``row`` (the
+    ``R_*`` columns and the steady translation, module notes); True when it reached."""
+    lift = effective_lift(lift_n, bank, phi)
+    if not ray_ground_kernel(mach, heading, fpa, phi, c0, w0x, w0y, p0, lz, lc, lwx, lwy,
+                             rho, m, fy, fv, av, fl, al, lift, reflection_factor, work,
+                             t_buf, g_buf, shocks, row[:N_RAY_RESULTS]):
+        return False
+    q0 = work[0, 3]
+    om0 = work[0, 8]
+    c20 = lc[0] * lc[0]
+    row[T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
+    row[T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
+    return True
+
+
+@njit(cache=True)
 def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c, wx, wy,
                            log_rho, log_p, fy, fv, av, fl, al, reflection_factor, out):
     """Trace every azimuth of every emission to the ground elevation ``zg``.
@@ -106,15 +154,7 @@ def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c
         overpressure, Pa; duration, s; edge; azimuth; reached) and the steady
         translation ``T_TRANS_X``, ``T_TRANS_Y`` (m/s).
     """
-    n_lev = z.size + 2
-    lz = np.empty(n_lev)
-    lc = np.empty(n_lev)
-    lwx = np.empty(n_lev)
-    lwy = np.empty(n_lev)
-    work = np.empty((n_lev, 9))
-    t_buf = np.empty(n_lev)
-    g_buf = np.empty(n_lev)
-    shocks = np.empty((fy.size + 2, 3))
+    lz, lc, lwx, lwy, work, t_buf, g_buf, shocks = _buffers(z.size, fy.size)
     for i in range(alt.size):
         for j in range(phis.size):
             for k in range(N_TRUTH_COLUMNS):
@@ -128,16 +168,9 @@ def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c
             # (the atmosphere is stratified), so they are copied, bit for bit.
             out[i, :, :] = out[i - 1, :, :]
             continue
-        m = ray_levels_kernel(z, c, wx, wy, alt[i], zg, lz, lc, lwx, lwy)
-        rho = np.exp(np.interp(lz[:m], z, log_rho))
-        c0 = np.interp(alt[i], z, c)
-        w0x = np.interp(alt[i], z, wx)
-        w0y = np.interp(alt[i], z, wy)
-        p0 = math.exp(np.interp(alt[i], z, log_p))
-        u = mach[i] * c0
-        vgx = u * math.cos(fpa[i]) * math.sin(heading[i]) + w0x
-        vgy = u * math.cos(fpa[i]) * math.cos(heading[i]) + w0y
-        vgz = u * math.sin(fpa[i])
+        m, rho, c0, w0x, w0y, p0, vgx, vgy, vgz = _emission_air(
+            z, c, wx, wy, log_rho, log_p, alt[i], mach[i], heading[i], fpa[i], zg, lz, lc,
+            lwx, lwy)
         for j in range(phis.size):
             phi = phis[j]
             sx, sy, nz, _, _ = emission_slowness(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y)
@@ -145,18 +178,9 @@ def trace_emissions_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, z, c
             # that turns above the ground costs a fraction of a full trace.
             if nz >= 0.0 or not reaches_ground_kernel(lc, lwx, lwy, m, sx, sy) > 0.0:
                 continue
-            lift = effective_lift(lift_n[i], bank[i], phi)
-            reached = ray_ground_kernel(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y, p0,
-                                        lz, lc, lwx, lwy, rho, m, fy, fv, av, fl, al, lift,
-                                        reflection_factor, work, t_buf, g_buf, shocks,
-                                        out[i, j, :N_RAY_RESULTS])
-            if not reached:
-                continue
-            q0 = work[0, 3]
-            om0 = work[0, 8]
-            c20 = lc[0] * lc[0]
-            out[i, j, T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
-            out[i, j, T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
+            _trace_ray(mach[i], heading[i], fpa[i], lift_n[i], bank[i], phi, sx, sy, c0,
+                       w0x, w0y, p0, vgx, vgy, vgz, lz, lc, lwx, lwy, rho, m, fy, fv, av,
+                       fl, al, reflection_factor, work, t_buf, g_buf, shocks, out[i, j])
 
 
 @njit(cache=True)
@@ -192,15 +216,7 @@ def trace_edge_band_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, grid
         band was traced (no grid ray reached on that side, the grid ends there, or the
         next grid azimuth passes the reach test).
     """
-    n_lev = z.size + 2
-    lz = np.empty(n_lev)
-    lc = np.empty(n_lev)
-    lwx = np.empty(n_lev)
-    lwy = np.empty(n_lev)
-    work = np.empty((n_lev, 9))
-    t_buf = np.empty(n_lev)
-    g_buf = np.empty(n_lev)
-    shocks = np.empty((fy.size + 2, 3))
+    lz, lc, lwx, lwy, work, t_buf, g_buf, shocks = _buffers(z.size, fy.size)
     n_phi = phis.size
     for i in range(alt.size):
         for s in range(2):
@@ -213,16 +229,9 @@ def trace_edge_band_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, grid
         if i > 0 and same_state(alt, mach, heading, fpa, lift_n, bank, i):
             out[i, :, :, :] = out[i - 1, :, :, :]
             continue
-        m = ray_levels_kernel(z, c, wx, wy, alt[i], zg, lz, lc, lwx, lwy)
-        rho = np.exp(np.interp(lz[:m], z, log_rho))
-        c0 = np.interp(alt[i], z, c)
-        w0x = np.interp(alt[i], z, wx)
-        w0y = np.interp(alt[i], z, wy)
-        p0 = math.exp(np.interp(alt[i], z, log_p))
-        u = mach[i] * c0
-        vgx = u * math.cos(fpa[i]) * math.sin(heading[i]) + w0x
-        vgy = u * math.cos(fpa[i]) * math.cos(heading[i]) + w0y
-        vgz = u * math.sin(fpa[i])
+        m, rho, c0, w0x, w0y, p0, vgx, vgy, vgz = _emission_air(
+            z, c, wx, wy, log_rho, log_p, alt[i], mach[i], heading[i], fpa[i], zg, lz, lc,
+            lwx, lwy)
         for s in range(2):
             j_last = -1
             if s == 1:
@@ -254,17 +263,9 @@ def trace_edge_band_kernel(alt, mach, heading, fpa, lift_n, bank, zg, phis, grid
                 phi = phi_last + fractions[k] * (lo - phi_last)
                 row = out[i, s, k]
                 row[R_PHI] = phi
-                lift = effective_lift(lift_n[i], bank[i], phi)
-                reached = ray_ground_kernel(mach[i], heading[i], fpa[i], phi, c0, w0x, w0y,
-                                            p0, lz, lc, lwx, lwy, rho, m, fy, fv, av, fl,
-                                            al, lift, reflection_factor, work, t_buf, g_buf,
-                                            shocks, row[:N_RAY_RESULTS])
-                if not reached:
-                    continue
                 sx, sy, _, _, _ = emission_slowness(mach[i], heading[i], fpa[i], phi, c0,
                                                     w0x, w0y)
-                q0 = work[0, 3]
-                om0 = work[0, 8]
-                c20 = lc[0] * lc[0]
-                row[T_TRANS_X] = vgx + (c20 * sx + w0x * om0) / (c20 * q0) * vgz
-                row[T_TRANS_Y] = vgy + (c20 * sy + w0y * om0) / (c20 * q0) * vgz
+                _trace_ray(mach[i], heading[i], fpa[i], lift_n[i], bank[i], phi, sx, sy,
+                           c0, w0x, w0y, p0, vgx, vgy, vgz, lz, lc, lwx, lwy, rho, m, fy,
+                           fv, av, fl, al, reflection_factor, work, t_buf, g_buf, shocks,
+                           row)

@@ -108,8 +108,9 @@ class TruthSettings:
         Integrate over every ``level_stride``-th node of the atmosphere grid (1: every
         node, the same numbers as ``predict``; 2, the default, on the 20 m default grid
         moves ground points by under a metre and overpressures by under 0.1 %, measured on
-        the first six campaign encounters of seed 1 with the edge band, and takes 14 s
-        where 1 takes 23 s for the benchmark's ten-minute flight, which pays for the band).
+        the first six campaign encounters of seed 1 with the edge band, and pays for the
+        band: ``bench --only truth`` gives 19.0 s with both where the band alone gave
+        30.8 s, README).
     edge_band : int
         Rays traced on each side between the outermost grid ray and the lateral cutoff
         (:func:`advisory.bench.truth_kernels.trace_edge_band_kernel`; 0: none). With

@@ -292,6 +292,26 @@ def test_an_avoidable_exposure_gets_a_resolution_that_holds(seed, index, limit_p
     assert not over, f"the truth has booms over the limit: {over[0]['peak_psf']:.2f} psf"
 
 
+# Offered at the limit within the table's near-cutoff rows (campaign --known, seed 1;
+# the truth of advisory.bench.truth, the crew following the cues): in 208 (present Mach
+# 0.002 under the lowest cutoff the trials see) the search at the limit offered the present
+# Mach held, in 279 (0.010 above) a 5-deg turn; flown, the truth put booms emitted after the
+# action over the zone's limit in both. Near the cutoff the booms graze and focus and the
+# trials' margin is what keeps them honest: there is no search at the limit there since, and
+# what is offered (as before that search came) keeps every boom emitted from the action on
+# under the limit.
+@pytest.mark.parametrize("index, limit_psf", [
+    pytest.param(208, 0.69, id="near-cutoff-208"), pytest.param(279, 1.01, id="near-cutoff-279")])
+def test_no_resolution_at_the_limit_near_the_cutoff(index, limit_psf) -> None:
+    sc = scenario_from_dict(sample_encounter(1, index, known=True).doc)
+    assert sc.zones[0].limit_psf == pytest.approx(limit_psf)  # the encounter meant
+    res = simulate(dataclasses.replace(sc, crew=dataclasses.replace(sc.crew, mode="follow")))
+    r = res.resolution()
+    assert r["followed"], "no resolution was offered and flown"
+    assert not r["exceeds_after_action"], \
+        f"booms emitted after the action reach {r['peak_psf_after_action']:.2f} psf"
+
+
 def test_trials_read_every_node_of_the_outer_strips() -> None:
     # The trials' azimuth nodes (advisory.pipeline.trial.trial_nodes): on the
     # default table's 31 nodes in 10 strips (nodes 0, 3, ..., 30), every node of the two

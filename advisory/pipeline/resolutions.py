@@ -66,7 +66,7 @@ from collections.abc import Callable, Generator
 from dataclasses import dataclass
 
 from advisory.pipeline.airdata import AirDataState
-from advisory.pipeline.trial_base import OtherGround, TrialBase
+from advisory.pipeline.trial_base import NEAR_CUTOFF_EXCESS, OtherGround, TrialBase
 
 __all__ = ["max_mach_off_ground", "OtherGround", "TrialBase", "Resolution", "search",
            "run_search", "roll_out", "COARSE_TURNS_DEG", "ACT_BY_TOLERANCE_S"]
@@ -76,6 +76,12 @@ COARSE_TURNS_DEG = (10.0, 20.0, 30.0, 45.0, 60.0, 90.0, 135.0, 180.0)
 #: Precision of the act-by bisection, s.
 ACT_BY_TOLERANCE_S = 1.0
 MACH_GRID = 0.01  #: resolution of the offered Mach
+#: No search at the limit itself while the present Mach is less than this above the
+#: cutoff Mach: the table's near-cutoff rows (the largest of
+#: :data:`advisory.pipeline.trial_base.NEAR_CUTOFF_EXCESS`), where the booms graze and
+#: focus and the prediction is least sure (campaign --known, seed 1: the two resolutions
+#: offered at the limit that failed in truth were 0.01 or less above the cutoff).
+AT_LIMIT_MIN_EXCESS = float(NEAR_CUTOFF_EXCESS[-1])
 
 
 def max_mach_off_ground(cutoff_mach: float, margin_mach: float) -> float:
@@ -120,7 +126,8 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
         Time to the first avoidable contact, s (the act-by search's upper end).
     """
     found = yield from _search_once(base, cutoff_now, contact_s)
-    if found.kind is None and base.hold_to(1.0):
+    near = base.mach0 - base.lowest_cutoff(cutoff_now) < AT_LIMIT_MIN_EXCESS
+    if found.kind is None and not near and base.hold_to(1.0):
         at_limit = yield from _search_once(base, cutoff_now, contact_s)
         if at_limit.kind is not None:
             return dataclasses.replace(at_limit, at_limit=True)

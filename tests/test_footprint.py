@@ -87,17 +87,17 @@ def test_place_and_focus_match_their_twins(small_table, bank, mach, rate) -> Non
     steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
                               traj.fpa_rad, rows, codes, te, tn)
     amp = np.ones((nk, nj))
-    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp)
-    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0)
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0, amp)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     assert np.all(np.isfinite(amp)) and np.all((amp >= ATTENUATION_FLOOR) & (amp <= 5.0))
     first = nk // 3  # a trial's first judged emission: its forward factor only
-    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp, first)
-    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, first)
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0, amp, first)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0, first)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
     join = nk // 2  # the history/ahead join: no difference across it
-    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, amp, -1, join)
-    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, 5.0, -1, join)
+    focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0, amp, -1, join)
+    twin = focus_kernel_twin(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, 5.0, -1, join)
     np.testing.assert_allclose(amp, twin, rtol=1e-12)
 
 

@@ -41,6 +41,21 @@ which a fold gets (the finite value caustic theory gives in place of ray theory'
 infinite one, taken at its commonly quoted upper end), and by :data:`ATTENUATION_FLOOR`
 below.
 
+At the carpet's two lateral cutoffs (the edge nodes, ``eta`` = -1 and +1) the ray
+grazes the ground: its landing point's derivative in azimuth diverges (1e13-1e14 m per
+rad in the table's edge rows). The edge node follows the cutoff azimuth, which moves
+with the Mach, and there a change of Mach of 0.03 between emissions moved the landing
+point by tens to hundreds of kilometres: the finite differences measure the grazing
+ray's sensitivity, not the manoeuvre's tube. A slow-down with a turn (campaign --known,
+seed 1, encounter 130) read a fold, so the cap, at the edge node alone and no trial
+cleared, where the truth keeps the zone at 83 % of its limit. While the Mach changes by
+more than :data:`EDGE_MACH_STEP` across an emission's differences, the edge nodes take
+the factor of the node inside them (as the truth's edge band takes its outermost grid
+ray's, :mod:`advisory.bench.truth`). At a steady Mach the edge keeps its own: the
+level-off at the end of a climb folds the tubes at the edge (seed 1, encounter 245,
+1.49 psf in truth on a zone limited to 1.46), and the inner node alone did not see it
+(``tests/test_flown_history.py``).
+
 Before, every spreading tube kept the factor 1 and every inverted map the cap: slowing
 from Mach 1.89 (campaign --known, seed 1, encounter 15) was never offered although the
 truth has it keep a zone under its limit; a deceleration at 0.01 per s from Mach 1.9
@@ -80,6 +95,11 @@ from advisory.units import G0
 #: Smallest amplification where the ray tubes spread (project choice, no source): the
 #: finite difference over emissions ``step_s`` apart is not trusted to attenuate further.
 ATTENUATION_FLOOR = 0.5
+#: Change of Mach across an emission's ray-tube differences above which the carpet's edge
+#: nodes take their inner neighbours' focus factor (project choice, no source: above the
+#: air data's noise between two states, 0.002, well below a 1-s deceleration at the
+#: crew's 0.01 per s over the trials' 3-s spacing).
+EDGE_MACH_STEP = 0.005
 
 
 def lift_and_bank(traj: Trajectory) -> tuple[np.ndarray, np.ndarray]:
@@ -220,12 +240,17 @@ def _tube_ratio(t, ground_e, ground_n, ka, kb, j, de, dn, j_std):
 
 
 @njit(cache=True)
-def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap, out,
-                 first=-1, join=-1):
+def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, mach, cap,
+                 out, first=-1, join=-1):
     """Focus amplification per (k, j); see the module notes. Never NaN.
 
     ``trans_e``, ``trans_n``: the steady translation per (k, j), m/s
     (:func:`steady_translation_kernel`).
+
+    ``mach``: the Mach per emission. Columns 0 and ``nj - 1`` are the carpet's lateral
+    cutoffs (the table's ``eta`` -1 and +1; both callers read the carpet edge to edge);
+    where the Mach changes by more than :data:`EDGE_MACH_STEP` across an emission's
+    differences they take the factor of the column inside them (module notes).
 
     ``first``: the first emission judged (a trial's, at the crew's reaction time; -1:
     none). Its backward difference spans booms emitted before it, which are not judged:
@@ -291,6 +316,13 @@ def focus_kernel(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes,
             amp = cap if fold else min(max(amp, ATTENUATION_FLOOR), cap)
             prev_sign[j] = sign
             out[k, j] = amp
+        if nj >= 3 and abs(mach[k1] - mach[k0]) > EDGE_MACH_STEP:
+            # the lateral cutoffs while the Mach changes: the inner neighbours' factors,
+            # and no sign to compare the next emission's with (module notes)
+            out[k, 0] = out[k, 1]
+            out[k, nj - 1] = out[k, nj - 2]
+            prev_sign[0] = 0.0
+            prev_sign[nj - 1] = 0.0
 
 
 @dataclass
@@ -434,7 +466,8 @@ class FootprintPredictor:
         tn = np.empty((nk, nj))
         steady_translation_kernel(vg_e, vg_n, traj.tas_mps, traj.mach, traj.heading_grid_rad,
                                   traj.fpa_rad, rows, codes, te, tn)
-        focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, self.focus_cap, amp, -1, join)
+        focus_kernel(traj.t_s, e, n, de, dn, te, tn, codes, traj.mach, self.focus_cap, amp,
+                     -1, join)
         return CarpetPrediction(
             t_emit_s=traj.t_s, codes=codes, cutoff_mach=cutoffs, east_m=e, north_m=n,
             arrival_s=ta, overpressure_pa=rows[:, :, lk.Q_DP].copy(),

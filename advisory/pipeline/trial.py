@@ -329,7 +329,7 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
                               rows, codes, te, tn)
     amp = np.ones((nk, ns))
     skip = k0 - k_lo  # the emission before k0 is only for the focus
-    focus_kernel(tk, e, n, de, dn, te, tn, codes, focus_cap, amp, skip)
+    focus_kernel(tk, e, n, de, dn, te, tn, codes, fl[3, k_lo:].copy(), focus_cap, amp, skip)
     m = nk - skip
     on_ground = np.empty(m, dtype=np.bool_)
     eff = np.empty((m, ns))

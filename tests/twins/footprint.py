@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from advisory.pipeline.footprint import ATTENUATION_FLOOR
+from advisory.pipeline.footprint import ATTENUATION_FLOOR, EDGE_MACH_STEP
 from advisory.tables import lookup as lk
 from tests.twins.lookup import lookup_twin
 
@@ -67,8 +67,8 @@ def steady_translation_twin(vg_e, vg_n, tas, mach, heading_grid, fpa, rows, code
     return te, tn
 
 
-def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, cap,
-                      first: int = -1, join: int = -1) -> np.ndarray:
+def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, codes, mach,
+                      cap, first: int = -1, join: int = -1) -> np.ndarray:
     """Readable twin of :func:`advisory.pipeline.footprint.focus_kernel`; returns the
     amplification array (``trans_e``, ``trans_n``: the steady translation, (K, J))."""
     nk, nj = ground_e.shape
@@ -121,4 +121,8 @@ def focus_kernel_twin(t, ground_e, ground_n, dphi_e, dphi_n, trans_e, trans_n, c
         amp = np.where(fold, cap, tube)
         out[k] = np.where(usable, amp, 1.0)
         prev_sign = np.where(usable, sign, prev_sign)
+        if nj >= 3 and abs(mach[k1] - mach[k0]) > EDGE_MACH_STEP:
+            # the lateral cutoffs while the Mach changes: the inner neighbours' factors
+            out[k, [0, -1]] = out[k, [1, -2]]
+            prev_sign[[0, -1]] = 0.0
     return out

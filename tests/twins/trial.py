@@ -133,7 +133,7 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
     te, tn = steady_translation_twin(fl[8, lo:] * np.sin(fl[7, lo:]),
                                      fl[8, lo:] * np.cos(fl[7, lo:]), fl[3, lo:] * params[6],
                                      fl[3, lo:], fl[5, lo:], np.full(tk.size, fpa), rows, codes)
-    amp = focus_kernel_twin(tk, e, n, de, dn, te, tn, codes, focus_cap, s)
+    amp = focus_kernel_twin(tk, e, n, de, dn, te, tn, codes, fl[3, lo:], focus_cap, s)
     pred = CarpetPrediction(
         t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],
         arrival_s=ta[s:], overpressure_pa=rows[s:, :, lk.Q_DP],

@@ -43,18 +43,18 @@ below.
 
 At the carpet's two lateral cutoffs (the edge nodes, ``eta`` = -1 and +1) the ray
 grazes the ground: its landing point's derivative in azimuth diverges (1e13-1e14 m per
-rad in the table's edge rows). The edge node follows the cutoff azimuth, which moves
-with the Mach, and there a change of Mach of 0.03 between emissions moved the landing
-point by tens to hundreds of kilometres: the finite differences measure the grazing
-ray's sensitivity, not the manoeuvre's tube. A slow-down with a turn (campaign --known,
-seed 1, encounter 130) read a fold, so the cap, at the edge node alone and no trial
-cleared, where the truth keeps the zone at 83 % of its limit. While the Mach changes by
-more than :data:`EDGE_MACH_STEP` across an emission's differences, the edge nodes take
-the factor of the node inside them (as the truth's edge band takes its outermost grid
-ray's, :mod:`advisory.bench.truth`). At a steady Mach the edge keeps its own: the
-level-off at the end of a climb folds the tubes at the edge (seed 1, encounter 245,
-1.49 psf in truth on a zone limited to 1.46), and the inner node alone did not see it
-(``tests/test_flown_history.py``).
+rad in the edge rows of seed 1's encounter 130, below). The edge node follows the
+cutoff azimuth, which moves with the Mach, and there a change of Mach of 0.03 between
+emissions moved the landing point by tens to hundreds of kilometres: the finite
+differences measure the grazing ray's sensitivity, not the manoeuvre's tube. A
+slow-down with a turn (campaign --known, seed 1, encounter 130) read a fold, so the cap,
+at the edge node alone and no trial cleared, where the truth keeps the zone at 83 % of
+its limit. While the Mach changes by more than :data:`EDGE_MACH_STEP` across an
+emission's differences, the edge nodes take the factor of the node inside them (as the
+truth's edge band takes its outermost grid ray's, :mod:`advisory.bench.truth`). At a
+steady Mach the edge keeps its own: the level-off at the end of a climb folds the tubes
+at the edge (seed 1, encounter 245, 1.49 psf in truth on a zone limited to 1.46), and
+the inner node alone did not see it (``tests/test_flown_history.py``).
 
 Before, every spreading tube kept the factor 1 and every inverted map the cap: slowing
 from Mach 1.89 (campaign --known, seed 1, encounter 15) was never offered although the

@@ -32,6 +32,7 @@ from advisory.bench.campaign_engine import (
     dask_available,
     run_pair,
 )
+from advisory.bench.campaign_journal import JOURNAL_NAME, Journal, JournalError, campaign_header
 from advisory.bench.campaign_report import (
     CSV_NAME,
     HTML_NAME,
@@ -407,6 +408,58 @@ def test_dask_missing_says_how_to_install():
     assert out.strip() == "Dask is not installed: pip install 'boom-advisory[campaign]'"
 
 
+# ---------------------------------------------------------------------- the journal
+
+
+def test_a_resumed_campaign_flies_only_what_its_journal_lacks(tmp_path):
+    # Bookkeeping, no source needed: a campaign stopped after 6 encounters (the machine
+    # stopping mid-write of a 7th line) and resumed to 9 holds the records of one flown
+    # at once. The resumed run flies with a runner that fails encounters 0, 3 and 6: the
+    # first two come from the journal and do not fail, the third is flown and does.
+    path = tmp_path / JOURNAL_NAME
+    header = campaign_header(21, False, False, False, None)
+    journal = Journal(path, header, resume=False)
+    first = run_campaign(6, 21, PoolEngine(1), toy_encounter, on_record=journal.append)
+    journal.close()
+    with path.open("a") as f:
+        f.write('{"index": 6, "ignore": {"scen')  # torn
+    journal = Journal(path, header, resume=True)
+    assert sorted(journal.done) == list(range(6))
+    resumed = run_campaign(9, 21, PoolEngine(1), failing_encounter, done=journal.done,
+                           on_record=journal.append)
+    journal.close()
+    assert resumed.resumed == 6 and first.resumed == 0
+    at_once = run_campaign(9, 21, PoolEngine(1), toy_encounter)
+    failed = [r["index"] for r in resumed.records if r.get("error")]
+    assert failed == [6]
+    assert [r for r in resumed.records if r["index"] != 6] == \
+        [r for r in at_once.records if r["index"] != 6]
+    lines = path.read_text().splitlines()
+    assert all(json.loads(line) for line in lines)  # the torn line is gone
+    again = Journal(path, header, resume=True)
+    again.close()
+    assert sorted(again.done) == [0, 1, 2, 3, 4, 5, 7, 8]
+
+
+def test_a_journal_of_another_campaign_is_refused(tmp_path, capsys):
+    path = tmp_path / JOURNAL_NAME
+    Journal(path, campaign_header(5, True, False, False, None), resume=False).close()
+    other = campaign_header(6, True, False, False, None)
+    with pytest.raises(JournalError, match="seed 5, this run 6"):
+        Journal(path, other, resume=True)
+    changed = dict(campaign_header(5, True, False, False, None), code_sha256="0" * 64)
+    with pytest.raises(JournalError, match="code_sha256"):
+        Journal(path, changed, resume=True)  # advice from other code is never mixed in
+    # the command refuses it before flying anything: one line, exit 2
+    assert main(["campaign", "--count", "1", "--seed", "6", "--known", "--out",
+                 str(tmp_path), "--resume"]) == EXIT_USAGE
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "another campaign: seed 5, this run 6" in err[0], err
+    path.write_text("not a journal\n")
+    with pytest.raises(JournalError, match="not a campaign journal"):
+        Journal(path, other, resume=True)
+
+
 # ------------------------------------------------------------------- command line
 
 
@@ -415,7 +468,8 @@ def test_command_line_checks_its_options(capsys):
                                                               "--seed: -1"),
                          (["--count", "2", "--workers", "0"], "--workers: 0"),
                          (["--count", "2", "--processes", "0"], "--processes: 0"),
-                         (["--count", "2", "--scheduler", " "], "--scheduler: empty")):
+                         (["--count", "2", "--scheduler", " "], "--scheduler: empty"),
+                         (["--count", "2", "--resume"], "--resume: needs --out")):
         assert main(["campaign", *argv]) == EXIT_USAGE
         err = capsys.readouterr().err.strip().splitlines()
         assert len(err) == 1 and needle in err[0], err
@@ -444,6 +498,8 @@ def test_command_line_flies_a_real_encounter(tmp_path, capsys):
     assert json.loads((tmp_path / JSON_NAME).read_text())["metrics"] == doc["metrics"]
     rows = list(csv.DictReader((tmp_path / CSV_NAME).open()))
     assert [r["run"] for r in rows] == ["ignore", "follow"] and rows[0]["error"] == ""
+    header, record = map(json.loads, (tmp_path / JOURNAL_NAME).read_text().splitlines())
+    assert header["seed"] == 4 and record["index"] == 0 and record["error"] is None
 
 
 @pytest.mark.slow

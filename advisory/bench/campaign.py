@@ -58,6 +58,9 @@ class CampaignResult:
         The advisor config every encounter ran with (None: the defaults).
     near_cutoff : bool
         The flights started near the cutoff Mach (``campaign --near-cutoff``).
+    resumed : int
+        Records read back from the campaign's journal, not flown in this run
+        (:mod:`advisory.bench.campaign_journal`); ``elapsed_s`` is this run's.
     """
 
     seed: int
@@ -71,6 +74,7 @@ class CampaignResult:
     spread: bool = False
     config: str | None = None
     near_cutoff: bool = False
+    resumed: int = 0
 
 
 def sample_campaign(count: int, seed: int, known: bool = False, spread: bool = False,
@@ -93,7 +97,9 @@ def sample_campaign(count: int, seed: int, known: bool = False, spread: bool = F
 
 def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
                  progress: Progress | None = None, known: bool = False, spread: bool = False,
-                 config: str | None = None, near_cutoff: bool = False) -> CampaignResult:
+                 config: str | None = None, near_cutoff: bool = False,
+                 done: dict[int, dict[str, Any]] | None = None,
+                 on_record: Callable[[dict[str, Any]], None] | None = None) -> CampaignResult:
     """Sample, fly and measure a campaign.
 
     Parameters
@@ -111,18 +117,28 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
         Encounters whose inputs the advisor knows (``campaign --known``).
     spread, config, near_cutoff : bool, str or None, bool
         As :func:`sample_campaign`.
+    done : dict, optional
+        Records already finished, by encounter index (a resumed campaign's journal): those
+        encounters are not flown again and their records count as flown.
+    on_record : callable, optional
+        Called with each record flown in this run as it comes back (the journal's
+        :meth:`~advisory.bench.campaign_journal.Journal.append`).
 
     Returns
     -------
     CampaignResult
     """
     encounters = sample_campaign(count, seed, known, spread, config, near_cutoff)
-    by_index: dict[int, dict[str, Any]] = {}
+    by_index = {e.index: (done or {})[e.index] for e in encounters if e.index in (done or {})}
+    resumed = len(by_index)
+    todo = [e for e in encounters if e.index not in by_index]
     failed = 0
     t0 = time.perf_counter()
-    for record in engine.run(encounters, runner):
+    for record in engine.run(todo, runner) if todo else ():
         by_index[int(record["index"])] = record
         failed += bool(record.get("error"))
+        if on_record is not None:
+            on_record(record)
         if progress is not None:
             progress(len(by_index), count, failed)
     elapsed = time.perf_counter() - t0
@@ -133,4 +149,4 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
                           encounters=encounters, records=records,
                           metrics=campaign_metrics(records, seed), elapsed_s=elapsed,
                           known=known, spread=spread or near_cutoff, config=config,
-                          near_cutoff=near_cutoff)
+                          near_cutoff=near_cutoff, resumed=resumed)

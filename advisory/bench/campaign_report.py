@@ -57,7 +57,8 @@ def summary(result: CampaignResult) -> dict[str, Any]:
             "count": result.count, "known": result.known, "spread": result.spread,
             "near_cutoff": result.near_cutoff,
             "config": result.config, "engine": result.engine,
-            "elapsed_s": round(result.elapsed_s, 3), "metrics": result.metrics,
+            "elapsed_s": round(result.elapsed_s, 3), "resumed": result.resumed,
+            "metrics": result.metrics,
             "failures": failures}
 
 
@@ -80,6 +81,9 @@ def text_lines(result: CampaignResult) -> list[str]:
         known += "; every flight starts near the cutoff Mach (--near-cutoff)"
     if result.config:
         known += f"; advisor config {result.config}"
+    if result.resumed:
+        known += (f"; {result.resumed} encounters read back from the journal (the time is "
+                  "this run's)")
     lines = [f"boom-advisory campaign: {result.count} encounters, seed {result.seed} "
              f"({result.engine}), {result.elapsed_s:.0f} s{known}", SAFETY_CAUTION, ""]
     rows = [("metric", "value", "95 % interval", "over")]

@@ -6,8 +6,10 @@ per core (``--processes K`` sets its size); ``--workers K`` starts a local Dask 
 (``LocalCluster`` on 127.0.0.1, K worker processes of one thread each) and runs there;
 ``--scheduler ADDRESS`` submits the same tasks to a running Dask scheduler. The Dask
 options need the optional extra ``boom-advisory[campaign]``. Same seed, same results,
-whatever the engine. Progress goes to stderr; exit code 1 when an encounter failed
-(each is named), 2 for bad options.
+whatever the engine. With ``--out DIR`` each finished encounter is journalled to
+``DIR/records.jsonl`` as it comes back; ``--resume`` flies only what the journal lacks
+(:mod:`advisory.bench.campaign_journal`). Progress goes to stderr; exit code 1 when an
+encounter failed (each is named), 2 for bad options.
 
 ADVISORY AID ONLY: not certified flight software; local regulations and licensed
 practice govern supersonic flight.
@@ -23,6 +25,7 @@ from pathlib import Path
 
 from advisory.bench.campaign import MAX_COUNT, run_campaign
 from advisory.bench.campaign_engine import DaskEngine, Engine, PoolEngine
+from advisory.bench.campaign_journal import JOURNAL_NAME, Journal, JournalError, campaign_header
 from advisory.bench.campaign_report import summary, text_lines, write_outputs
 from advisory.bench.closed_loop import run_encounter
 from advisory.cli.options import UsageError, add_json_option
@@ -71,7 +74,13 @@ def add_parser(sub: argparse._SubParsersAction) -> None:
                    help="advisor thresholds (TOML) for every encounter, e.g. [confidence] "
                         "confidence = 0 for the fixed-margin baseline")
     p.add_argument("--out", metavar="DIR",
-                   help="write encounters.csv, summary.json and summary.html here")
+                   help="write encounters.csv, summary.json and summary.html here, and "
+                        "each finished encounter's record to records.jsonl as it comes "
+                        "back")
+    p.add_argument("--resume", action="store_true",
+                   help="with --out: read DIR/records.jsonl of the same campaign (seed, "
+                        "options, config and code) and fly only the encounters it does "
+                        "not hold; a larger --count extends it")
     add_json_option(p)
     p.set_defaults(func=campaign_command)
 
@@ -125,10 +134,29 @@ def campaign_command(args: argparse.Namespace) -> int:
     if args.config:
         load_config(args.config)  # a bad file: one line, exit 2, before any work
         config = str(Path(args.config).resolve())
+    if args.resume and out is None:
+        raise UsageError("--resume: needs --out DIR (the campaign's journal is there)")
     engine = engine_from(args)
-    result = run_campaign(args.count, args.seed, engine, run_encounter, progress=_Progress(),
-                          known=args.known, spread=args.spread, config=config,
-                          near_cutoff=args.near_cutoff)
+    journal = None
+    if out is not None:
+        header = campaign_header(args.seed, args.known, args.spread, args.near_cutoff,
+                                 config)
+        try:
+            journal = Journal(out / JOURNAL_NAME, header, args.resume)
+        except JournalError as exc:
+            raise UsageError(str(exc)) from None
+        if journal.done:
+            print(f"campaign: {len(journal.done)} finished encounters read back from "
+                  f"{journal.path}", file=sys.stderr)
+    try:
+        result = run_campaign(args.count, args.seed, engine, run_encounter,
+                              progress=_Progress(), known=args.known, spread=args.spread,
+                              config=config, near_cutoff=args.near_cutoff,
+                              done=journal.done if journal else None,
+                              on_record=journal.append if journal else None)
+    finally:
+        if journal is not None:
+            journal.close()
     if out is not None:
         for path in write_outputs(result, out):
             print(f"campaign: wrote {path}", file=sys.stderr)

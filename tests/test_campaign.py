@@ -439,6 +439,11 @@ def test_a_resumed_campaign_flies_only_what_its_journal_lacks(tmp_path):
     again = Journal(path, header, resume=True)
     again.close()
     assert sorted(again.done) == [0, 1, 2, 3, 4, 5, 7, 8]
+    # started afresh (no --resume) on it, the journal is kept, not thrown away
+    kept = path.read_text()
+    Journal(path, header, resume=False).close()
+    assert (tmp_path / (JOURNAL_NAME + ".prev")).read_text() == kept
+    assert len(path.read_text().splitlines()) == 1  # the header alone
 
 
 def test_a_journal_of_another_campaign_is_refused(tmp_path, capsys):

@@ -73,7 +73,8 @@ class Journal:
         :func:`campaign_header` of the campaign.
     resume : bool
         Read the records of an existing journal with the same header and keep
-        appending to it; False starts the journal afresh (an old one is replaced).
+        appending to it; False starts the journal afresh (an existing one is kept
+        beside it as ``records.jsonl.prev``, replacing an older ``.prev``).
 
     Raises
     ------
@@ -85,6 +86,8 @@ class Journal:
         self.path = path
         #: finished records read back, by encounter index (failed ones left out)
         self.done: dict[int, dict[str, Any]] = {}
+        #: where an earlier journal went when this one started afresh (one kept)
+        self.kept_as: Path | None = None
         if resume and path.exists():
             text = path.read_text(encoding="utf-8")
             self.done, kept = self._read(text, header)
@@ -93,6 +96,9 @@ class Journal:
             self._file: IO[str] = path.open("a", encoding="utf-8")
         else:
             path.parent.mkdir(parents=True, exist_ok=True)
+            if path.exists():  # never thrown away: hours of records may be in it
+                self.kept_as = path.with_name(path.name + ".prev")
+                path.replace(self.kept_as)
             self._file = path.open("w", encoding="utf-8")
             self._write(header)
 

@@ -145,6 +145,9 @@ def campaign_command(args: argparse.Namespace) -> int:
             journal = Journal(out / JOURNAL_NAME, header, args.resume)
         except JournalError as exc:
             raise UsageError(str(exc)) from None
+        if journal.kept_as is not None:
+            print(f"campaign: the earlier journal is kept as {journal.kept_as} (--resume "
+                  "continues one)", file=sys.stderr)
         if journal.done:
             print(f"campaign: {len(journal.done)} finished encounters read back from "
                   f"{journal.path}", file=sys.stderr)

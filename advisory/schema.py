@@ -36,13 +36,25 @@ AIR_REQUIRED = (
 )
 #: Air-data fields a frame may carry (nil or absent when the source does not have them).
 #: ``pitch_rate_dps`` (body pitch rate, deg/s, nose up positive) and ``load_factor``
-#: (normal load factor, g) were appended later under the ICD's version rule (section 7).
+#: (normal load factor, g) were appended later under the ICD's version rule (section 7),
+#: then the flight-guidance targets the crew has selected: ``selected_alt_ft`` (pressure
+#: altitude the climb or descent levels off at, ft), ``selected_heading_deg`` (true
+#: heading the turn rolls out on, deg) and ``selected_mach`` (Mach the acceleration or
+#: deceleration ends at).
 AIR_OPTIONAL = ("track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt",
-                "pitch_rate_dps", "load_factor")
-#: The optional fields appended after the first release, last in AIR_OPTIONAL: encoders
-#: write both keys (nil for one not sent) when the sender has either, and neither when it
-#: has none, so a frame without them is the earlier 13-field frame byte for byte.
-AIR_LATER_OPTIONAL = ("pitch_rate_dps", "load_factor")
+                "pitch_rate_dps", "load_factor",
+                "selected_alt_ft", "selected_heading_deg", "selected_mach")
+#: The groups of optional fields appended after the first release, in the order they
+#: came, last in AIR_OPTIONAL. Encoders write every group up to the last one the sender
+#: has a value of (nil for a key of those groups not sent) and no group after it, so a
+#: frame without later fields is the first release's 13-field frame byte for byte, and a
+#: frame with only the pitch and load pair is the 15-field frame of that release.
+AIR_LATER_GROUPS = (("pitch_rate_dps", "load_factor"),
+                    ("selected_alt_ft", "selected_heading_deg", "selected_mach"))
+#: Every later optional field (the groups of AIR_LATER_GROUPS, in order).
+AIR_LATER_OPTIONAL = tuple(name for group in AIR_LATER_GROUPS for name in group)
+#: The flight-guidance targets (the second later group): where the present manoeuvre ends.
+AIR_TARGETS = AIR_LATER_GROUPS[1]
 AIR_FIELDS = AIR_REQUIRED + AIR_OPTIONAL  #: canonical order after the header
 
 # ----------------------------------------------------------------------------- advisories

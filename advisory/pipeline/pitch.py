@@ -17,6 +17,18 @@ choices, no source: a pitch manoeuvre of a large aircraft lasts seconds, and the
 default table's fpa axis ends at 10 deg). The fold of a push-over comes from the
 first emissions of the manoeuvre; the hold only decides where it ends.
 
+A climb or descent toward the altitude the crew has selected levels off there
+(:func:`level_off`): the angle is held until the capture, then taken to zero at a
+constant rate ``q``; with the true airspeed ``V`` held, the height gained during the
+capture is ``V (1 - cos gamma0) / q`` (the integral of ``V sin(gamma0 - q t)`` over the
+capture's ``gamma0 / q`` seconds; closed form), so the capture starts that far short of
+the selected altitude. The rate comes from the incremental load factor of the capture,
+``q = g dn / V`` (the equation above with ``n = 1 + dn``, wings level, ``gamma`` small);
+:data:`CAPTURE_LOAD_G` is 0.1 g (a gentle autopilot capture; common practice, no
+source). A pitch manoeuvre under way that takes the angle toward zero with a selected
+altitude ahead is a capture already flown by hand: it ends at zero, not after
+:data:`PITCH_HOLD_S`.
+
 These helpers feed :func:`advisory.pipeline.trajectory.predict_trajectory`, whose kernel
 steps the angle :func:`fpa_profile` gives (its mean over each step).
 """
@@ -29,8 +41,8 @@ import numpy as np
 
 from advisory.units import G0
 
-__all__ = ["PITCH_HOLD_S", "PITCH_FPA_LIMIT_RAD", "PITCH_DEADBAND_RAD_S",
-           "flight_path_rate", "pitch_end_s", "fpa_profile"]
+__all__ = ["PITCH_HOLD_S", "PITCH_FPA_LIMIT_RAD", "PITCH_DEADBAND_RAD_S", "CAPTURE_LOAD_G",
+           "flight_path_rate", "pitch_end_s", "fpa_profile", "level_off"]
 
 #: How long a pitch rate is held ahead, s (module notes; engineering choice, no source).
 PITCH_HOLD_S = 5.0
@@ -38,6 +50,9 @@ PITCH_HOLD_S = 5.0
 PITCH_FPA_LIMIT_RAD = math.radians(10.0)
 #: Flight-path-angle rates below this are taken as zero, rad/s (module notes).
 PITCH_DEADBAND_RAD_S = math.radians(0.1)
+#: Incremental load factor of a predicted level-off at the selected altitude, g (module
+#: notes; common practice, no source).
+CAPTURE_LOAD_G = 0.1
 
 
 def flight_path_rate(fpa_rad: float, bank_rad: float, tas_mps: float,
@@ -84,6 +99,46 @@ def pitch_end_s(fpa_rad: float, rate_rad_s: float) -> float:
     return min(PITCH_HOLD_S, max(room, 0.0) / abs(rate_rad_s))
 
 
-def fpa_profile(t: np.ndarray, fpa0: float, rate_rad_s: float, end_s: float) -> np.ndarray:
-    """Flight-path angle at times ``t``: ``fpa0 + rate min(max(t, 0), end_s)``, rad."""
-    return fpa0 + rate_rad_s * np.clip(t, 0.0, end_s)
+def fpa_profile(t: np.ndarray, fpa0: float, rate_rad_s: float, end_s: float,
+                start_s: float = 0.0) -> np.ndarray:
+    """Flight-path angle at times ``t``, rad:
+    ``fpa0 + rate (min(max(t, start_s), end_s) - start_s)``."""
+    return fpa0 + rate_rad_s * (np.clip(t, start_s, end_s) - start_s)
+
+
+def level_off(fpa_rad: float, alt_m: float, target_alt_m: float, tas_mps: float,
+              g: float = G0) -> tuple[float, float, float] | None:
+    """The capture of the selected altitude ahead (module notes), or None.
+
+    Parameters
+    ----------
+    fpa_rad : float
+        Present flight-path angle, rad, positive climbing.
+    alt_m, target_alt_m : float
+        Present and selected altitude, m (the same reference).
+    tas_mps : float
+        True airspeed, m/s (> 0), taken as held through the capture.
+    g : float
+        Gravity, m/s^2.
+
+    Returns
+    -------
+    (rate, start, end) or None
+        The angle's rate during the capture (rad/s, toward zero) and when it starts and
+        ends (s from now), for :func:`fpa_profile`; None when the path is level or
+        leads away from the selected altitude. When the capture should have started
+        already it starts now, at the rate that still ends at the selected altitude.
+    """
+    if fpa_rad == 0.0:
+        return None
+    up = 1.0 if fpa_rad > 0.0 else -1.0
+    left = (target_alt_m - alt_m) * up
+    if left <= 0.0:
+        return None
+    gam = abs(fpa_rad)
+    rise = tas_mps * (1.0 - math.cos(gam))  # height of the capture times its rate, m rad/s
+    q = CAPTURE_LOAD_G * g / tas_mps
+    start = (left - rise / q) / (tas_mps * math.sin(gam))
+    if start < 0.0:
+        start, q = 0.0, rise / left
+    return -up * q, start, start + gam / q

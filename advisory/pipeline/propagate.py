@@ -21,9 +21,11 @@ __all__ = ["PROPAGATE_PARAMS", "PROPAGATE_ROWS", "ground_to_plane", "propagate_k
 PROPAGATE_ROWS = ("east_m", "north_m", "alt_m", "tas_mps", "heading_grid_rad",
                   "turn_rate_rad_s", "bank_rad", "track_grid_rad", "ground_speed_mps")
 #: Order of the entries of the ``params`` argument of :func:`propagate_kernel`; the last
-#: two are optional (12 entries: the flight-path angle is held).
+#: three are optional (12 entries: the flight-path angle is held; 14: it changes from
+#: t = 0).
 PROPAGATE_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank", "turn_limit", "psi0", "wind_e",
-                    "wind_n", "e0", "n0", "radius", "g", "fpa_rate", "pitch_end_s")
+                    "wind_n", "e0", "n0", "radius", "g", "fpa_rate", "pitch_end_s",
+                    "pitch_start_s")
 
 
 
@@ -85,8 +87,9 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         t = 0 (rad); wind grid components east and north (m/s); start position in the
         frame (m, m); the frame's Gaussian radius (m; map scales
         ``h = sqrt(1 - (rho/2R)**2)`` radial, ``1/h`` transverse); gravity (m/s^2);
-        optionally the flight-path angle's rate (rad/s) and the time it is held to (s):
-        the angle is then ``gamma0 + rate min(max(t, 0), end)``
+        optionally the flight-path angle's rate (rad/s), the time it is held to (s) and
+        the time it starts (s, default 0): the angle is then
+        ``gamma0 + rate (min(max(t, start), end) - start)``
         (:func:`advisory.pipeline.pitch.fpa_profile`),
         stepped with its mean over each step (12 entries: held constant, as before).
 
@@ -118,7 +121,8 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
     bank_out = out[6]
     tan_b = math.tan(bank)
     has_limit = not math.isnan(turn_limit)
-    pitching = params.shape[0] > 13 and params[12] != 0.0 and params[13] > 0.0
+    g_start = params[14] if params.shape[0] > 14 else 0.0
+    pitching = params.shape[0] > 13 and params[12] != 0.0 and params[13] > g_start
     g_rate = params[12] if pitching else 0.0
     g_end = params[13] if pitching else 0.0
     gam0 = math.atan2(sin_g, cos_g)
@@ -140,8 +144,8 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         sg = sin_g
         cg = cos_g
         if pitching:
-            gm = gam0 + 0.5 * g_rate * (min(max(t[i - 1], 0.0), g_end)
-                                        + min(max(t[i], 0.0), g_end))
+            gm = gam0 + 0.5 * g_rate * (min(max(t[i - 1], g_start), g_end)
+                                        + min(max(t[i], g_start), g_end) - 2.0 * g_start)
             sg = math.sin(gm)
             cg = math.cos(gm)
         alt[i] = alt[i - 1] + 0.5 * (tas[i] + tas[i - 1]) * sg * dt
@@ -172,7 +176,7 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
     for i in range(n):
         cg = cos_g
         if pitching:
-            cg = math.cos(gam0 + g_rate * min(max(t[i], 0.0), g_end))
+            cg = math.cos(gam0 + g_rate * (min(max(t[i], g_start), g_end) - g_start))
         vh = tas[i] * cg
         ge = vh * math.sin(psi[i]) + wind_e
         gn = vh * math.cos(psi[i]) + wind_n

@@ -3,7 +3,10 @@
 The prediction holds the present manoeuvre: a coordinated turn at the current bank,
 a constant Mach rate and the flight-path angle (changing at the present pitch rate for a
 bounded time when the air data carry a pitch rate or a load factor, then held), in a
-wind that is constant over the look-ahead. It is propagated in a
+wind that is constant over the look-ahead. When the air data carry the targets the crew
+has selected, the manoeuvre ends at them: the turn rolls out on the selected heading,
+the Mach change stops at the selected Mach and the climb or descent levels off at the
+selected altitude (each only when it lies ahead of the manoeuvre under way). It is propagated in a
 :class:`~advisory.geo.frame.LocalFrame` plane (about the start point unless another
 frame is given), where straight flight is a geodesic on WGS 84, then turned into
 latitude and longitude with the direct problem.
@@ -22,7 +25,12 @@ Physics
 * Pitch (push-over, pull-up): the flight-path angle changes at the rate
   :func:`advisory.pipeline.pitch.flight_path_rate` gives (from the load factor or the
   pitch rate, sources there) for a bounded time, then holds (:mod:`advisory.pipeline.pitch`).
-* Mach: ``M(t) = M0 + Mdot t`` (held at or above :data:`MIN_MACH`), ``V = M a(h)``.
+* Level-off at the selected altitude: :func:`advisory.pipeline.pitch.level_off` (the
+  capture's closed form there, with the airspeed at the start); where the speed of sound
+  changes with height the capture's start is moved once so that the integrated altitude
+  levels at the selected one (to well under a metre).
+* Mach: ``M(t) = M0 + Mdot t`` (held at or above :data:`MIN_MACH`, and at the selected
+  Mach once reached), ``V = M a(h)``.
 * Wind: ground velocity = air velocity + wind. Without a wind, it is inferred from the
   ground track and ground speed when a track is given (``wind = ground velocity - air
   velocity``), otherwise along the heading from ground speed minus horizontal true
@@ -57,7 +65,7 @@ from functools import cached_property
 import numpy as np
 
 from advisory.geo.frame import FramePoints, LocalFrame
-from advisory.pipeline.pitch import flight_path_rate, fpa_profile, pitch_end_s
+from advisory.pipeline.pitch import flight_path_rate, fpa_profile, level_off, pitch_end_s
 from advisory.pipeline.propagate import (
     PROPAGATE_PARAMS,
     PROPAGATE_ROWS,
@@ -223,6 +231,47 @@ def _sound_speed(speed_of_sound: SpeedOfSound, alt: np.ndarray) -> np.ndarray:
     return np.ascontiguousarray(a)
 
 
+def _altitudes(t: np.ndarray, m: np.ndarray, h0: float, a0: float, fpa: float,
+               pitch: tuple[float, float, float] | None, speed_of_sound: Callable
+               ) -> tuple[np.ndarray, np.ndarray]:
+    """Altitudes (m) and speeds of sound (m/s) over ``t``: fixed-point passes until the
+    altitudes settle, the climb stepped as the kernel steps it (the mean angle over each
+    step when ``pitch`` = (rate, start, end) is given)."""
+    sin_g = math.sin(fpa)
+    alt = h0 + (float(m[0]) * a0 * sin_g) * t
+    a = _sound_speed(speed_of_sound, alt)
+    if sin_g == 0.0 and pitch is None:
+        return alt, a
+    dt = np.diff(t)
+    if pitch is not None:
+        fpa_t = fpa_profile(t, fpa, pitch[0], pitch[2], pitch[1])
+        sin_mid = np.sin(0.5 * (fpa_t[1:] + fpa_t[:-1]))
+    for _ in range(PICARD_PASSES):
+        if pitch is not None:
+            v = m * a
+            new_alt = np.concatenate(([h0], h0 + np.cumsum(
+                0.5 * (v[1:] + v[:-1]) * sin_mid * dt)))
+        else:
+            new_alt = h0 + _cumtrapz(m * a * sin_g, dt)
+        a = _sound_speed(speed_of_sound, new_alt)
+        settled = np.abs(new_alt - alt).max() < 1e-3
+        alt = new_alt
+        if settled:
+            break
+    return alt, a
+
+
+def _capture_moved(t: np.ndarray, alt: np.ndarray, h_sel: float, rate: float, start: float,
+                   end: float, v_start: float, fpa: float) -> tuple[float, float]:
+    """The capture's (start, end), s, moved so that the path levels at ``h_sel``: the
+    level reached misses it by ``err`` where the airspeed changed with height, and
+    starting ``err / (V sin gamma0)`` earlier takes that much height off."""
+    err = float(np.interp(end, t, alt)) - h_sel
+    shift = err / (v_start * math.sin(fpa))
+    shift = min(shift, start)  # never before now
+    return start - shift, end - shift
+
+
 def predict_trajectory(
     lat_rad: float,
     lon_rad: float,
@@ -244,6 +293,9 @@ def predict_trajectory(
     frame: LocalFrame | None = None,
     pitch_rate_rad_s: float | None = None,
     load_factor: float | None = None,
+    target_alt_m: float | None = None,
+    target_heading_rad: float | None = None,
+    target_mach: float | None = None,
 ) -> Trajectory:
     """Predict the trajectory ahead from one air-data state.
 
@@ -291,6 +343,14 @@ def predict_trajectory(
     load_factor : float, optional
         Normal load factor, g units (-3 .. 9). With either, the flight-path angle
         changes for a bounded time (module notes, "Pitch").
+    target_alt_m : float, optional
+        Selected altitude, m (the reference of ``alt_m``): a climb or descent toward it
+        levels off there (module notes, "Level-off").
+    target_heading_rad : float, optional
+        Selected true heading, rad: a turn toward it rolls out there when it lies at most
+        half a turn ahead in the bank's direction (``roll_out_heading_rad`` wins).
+    target_mach : float, optional
+        Selected Mach: a Mach change toward it stops there.
 
     Returns
     -------
@@ -316,6 +376,12 @@ def predict_trajectory(
     q = None if pitch_rate_rad_s is None else _check(
         "pitch_rate_rad_s", pitch_rate_rad_s, -math.radians(30.0), math.radians(30.0))
     n_load = None if load_factor is None else _check("load_factor", load_factor, -3.0, 9.0)
+    h_sel = None if target_alt_m is None else _check("target_alt_m", target_alt_m,
+                                                      -1000.0, 100_000.0)
+    m_sel = None if target_mach is None else _check("target_mach", target_mach, 0.0, 10.0,
+                                                     open_lo=True)
+    hdg_sel = None if target_heading_rad is None else _check("target_heading_rad",
+                                                             target_heading_rad)
     if (wind_east_mps is None) != (wind_north_mps is None):
         raise ValueError("wind_east_mps and wind_north_mps must be given together, got "
                          f"{wind_east_mps!r} and {wind_north_mps!r}")
@@ -332,35 +398,35 @@ def predict_trajectory(
     t = np.arange(n_steps + 1, dtype=np.float64) * dt_nom
     t[-1] = horizon
     m = np.maximum(m0 + mdot * t, MIN_MACH)
+    if m_sel is not None and (m_sel - m0) * mdot > 0.0:  # the change stops at the target
+        m = np.minimum(m, m_sel) if mdot > 0.0 else np.maximum(m, m_sel)
     sin_g = math.sin(fpa)
     cos_g = math.cos(fpa)
     a0 = (float(_sound_speed(speed_of_sound, np.array([h0]))[0]) if callable(speed_of_sound)
           else float(speed_of_sound))
     g_rate = flight_path_rate(fpa, bank, m0 * a0, q, n_load)
     g_end = pitch_end_s(fpa, g_rate)
-    pitching = g_end > 0.0
-    fpa_t = fpa_profile(t, fpa, g_rate, g_end) if pitching else np.full_like(t, fpa)
+    g_start = 0.0
+    capture = None if h_sel is None else level_off(fpa, h0, h_sel, m0 * a0)
+    if capture is not None and g_rate * fpa < 0.0:  # a capture flown by hand: ends level
+        g_end, capture = abs(fpa / g_rate), None
+    elif capture is not None and g_end == 0.0:
+        g_rate, g_start, g_end = capture
+    else:  # a pitch manoeuvre away from level goes on as before
+        capture = None
+    pitching = g_end > g_start
     if callable(speed_of_sound):
-        if pitching:  # the kernel's climb: mean angle over each step
-            sin_mid = np.sin(0.5 * (fpa_t[1:] + fpa_t[:-1]))
-        alt = h0 + (m0 * a0 * sin_g) * t
-        a = _sound_speed(speed_of_sound, alt)
-        if sin_g != 0.0 or pitching:  # fixed-point passes until the altitudes settle
-            dt = np.diff(t)
-            for _ in range(PICARD_PASSES):
-                if pitching:
-                    v = m * a
-                    new_alt = np.concatenate(([h0], h0 + np.cumsum(
-                        0.5 * (v[1:] + v[:-1]) * sin_mid * dt)))
-                else:
-                    new_alt = h0 + _cumtrapz(m * a * sin_g, dt)
-                a = _sound_speed(speed_of_sound, new_alt)
-                settled = np.abs(new_alt - alt).max() < 1e-3
-                alt = new_alt
-                if settled:
-                    break
+        alt, a = _altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end) if pitching else None,
+                            speed_of_sound)
+        if capture is not None and h_sel is not None and g_end < t[-1]:  # level at h_sel
+            v_start = float(np.interp(g_start, t, m * a))
+            g_start, g_end = _capture_moved(t, alt, h_sel, g_rate, g_start, g_end, v_start,
+                                            fpa)
+            alt, a = _altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end), speed_of_sound)
     else:
         a = np.full_like(t, float(speed_of_sound))
+    fpa_t = (fpa_profile(t, fpa, g_rate, g_end, g_start) if pitching
+             else np.full_like(t, fpa))
     vh0 = m[0] * a[0] * cos_g
 
     # --- frame, start heading, roll-out ---
@@ -375,8 +441,12 @@ def predict_trajectory(
         n0 = float(start.north_m[0])
         psi_g0 = _grid_bearing(start, hdg0)
     turn_limit = math.nan
-    if roll_out_heading_rad is not None and bank != 0.0:
-        target = _check("roll_out_heading_rad", roll_out_heading_rad)
+    roll_out = roll_out_heading_rad
+    if roll_out is None and hdg_sel is not None and bank != 0.0:
+        ahead_rad = ((hdg_sel - hdg0) if bank > 0.0 else (hdg0 - hdg_sel)) % (2.0 * math.pi)
+        roll_out = hdg_sel if ahead_rad <= math.pi else None
+    if roll_out is not None and bank != 0.0:
+        target = _check("roll_out_heading_rad", roll_out)
         if bank > 0.0:
             turn_limit = (target - hdg0) % (2.0 * math.pi)
         else:
@@ -402,7 +472,8 @@ def predict_trajectory(
         wg_e, wg_n = we, wn
 
     params = np.array([h0, sin_g, cos_g, bank, turn_limit, psi_g0, wg_e, wg_n, float(e0),
-                       float(n0), frame.radius_m, G0] + ([g_rate, g_end] if pitching else []))
+                       float(n0), frame.radius_m, G0]
+                      + ([g_rate, g_end, g_start] if pitching else []))
     out = propagate_kernel(t, m, a, params)
     return Trajectory(
         t_s=t,

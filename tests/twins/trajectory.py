@@ -21,10 +21,12 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
     h0, sin_g, cos_g, bank, turn_limit, psi0, wind_e, wind_n, e0, n0, radius, g = params[:12]
     dt = np.diff(t)
     tas = mach * a
-    # flight-path angle: held, or changing at a rate until a time (entries 12 and 13)
+    # flight-path angle: held, or changing at a rate from a time until a time (entries
+    # 12, 13 and 14, the start 0 when absent)
     rate, end = (params[12], params[13]) if params.size > 13 else (0.0, 0.0)
-    gamma = math.atan2(sin_g, cos_g) + rate * np.clip(t, 0.0, end)
-    if rate != 0.0 and end > 0.0:
+    start = params[14] if params.size > 14 else 0.0
+    gamma = math.atan2(sin_g, cos_g) + rate * (np.clip(t, start, end) - start)
+    if rate != 0.0 and end > start:
         mean = 0.5 * (gamma[1:] + gamma[:-1])  # the angle's mean over each step
         alt = np.concatenate(([h0], h0 + np.cumsum(
             0.5 * (tas[1:] + tas[:-1]) * np.sin(mean) * dt)))

@@ -16,8 +16,10 @@ bytes big-endian, nil = ``c0``).
 
 from __future__ import annotations
 
+import json
 import math
 import struct
+from pathlib import Path
 
 import msgpack
 import pytest
@@ -39,6 +41,8 @@ AIR = {"lat_deg": 40.0, "lon_deg": -100.0, "alt_ft": 45000.0, "mach": 1.4,
 #: An invented climb and turn: level off at 52,000 ft, roll out on 135, end at Mach 1.6.
 GOAL = {"selected_alt_ft": 52000.0, "selected_heading_deg": 135.0, "selected_mach": 1.6}
 SEQ, UTC = 11, 1893456000.5
+VECTORS = json.loads((Path(__file__).parent / "vectors" / "wire_vectors.json").read_text(
+    encoding="utf-8"))
 
 
 def _ref(fields: dict, keys: tuple[str, ...]) -> bytes:
@@ -274,3 +278,23 @@ def test_any_subset_and_order_of_optional_keys_decodes(opt, order) -> None:
             for k in ALL}
     assert f.fields == want
     assert _same(f, _general(p))
+
+
+def test_shared_vectors_with_later_groups_are_msgpack_python_bytes() -> None:
+    # The shared vectors (also read by the C binding's tests) hold one frame of each
+    # later layout; each payload must be what msgpack-python packs for the keys in the
+    # ICD's order, cut after the last group given (ICD section 4).
+    seen = set()
+    for case in VECTORS["air"]:
+        fields = case["fields"]
+        if any(k in TARGETS for k in fields):
+            keys = ALL
+        elif any(k in PAIR for k in fields):
+            keys = FIRST + PAIR
+        else:
+            keys = FIRST
+        m = {"v": 1, "type": "air", "seq": case["seq"], "utc_s": case["utc_s"]}
+        m.update({k: fields.get(k) for k in keys})
+        assert case["payload"] == msgpack.packb(m, use_bin_type=True).hex()
+        seen.add(len(m))
+    assert seen == {17, 19, 22}

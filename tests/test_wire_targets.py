@@ -298,3 +298,19 @@ def test_shared_vectors_with_later_groups_are_msgpack_python_bytes() -> None:
         assert case["payload"] == msgpack.packb(m, use_bin_type=True).hex()
         seen.add(len(m))
     assert seen == {17, 19, 22}
+
+
+def test_the_icd_lists_the_targets_in_order_with_their_ranges() -> None:
+    # docs/interface.md section 4: the field table numbers the keys 1-18 in canonical
+    # order, and the receiver's ranges for the targets are the ones the ICD states.
+    text = (Path(__file__).resolve().parents[1] / "docs" / "interface.md").read_text(
+        encoding="utf-8")
+    sec4 = text[text.index("## 4. Air-data frame"):text.index("## 5. Advisory frame")]
+    rows = [line.split("|") for line in sec4.splitlines()
+            if line.startswith("| ") and line.split("|")[1].strip().isdigit()]
+    assert [r[2].strip().strip("`") for r in rows] == list(ALL)
+    ranges = {r[2].strip().strip("`"): r[6].strip() for r in rows}
+    assert ranges["selected_alt_ft"] == "-2000 .. 100000"
+    assert ranges["selected_heading_deg"] == "0 .. 360 (360 excluded)"
+    assert ranges["selected_mach"] == "0.1 .. 5.0"
+    assert "| 1-18 | 22 | `de 00 16` |" in sec4

@@ -260,3 +260,83 @@ def test_pitch_rate_and_load_factor_words_reach_the_state():
     assert isinstance(st_, AirDataState), st_
     assert st_.pitch_rate_rad_s == pytest.approx(math.radians(2.0))
     assert st_.load_factor == pytest.approx(1.5, abs=1e-3)
+
+
+# ------------------------------------------------------- the flight-guidance targets
+
+#: Labels 101 (selected heading), 102 (selected altitude), 106 (selected Mach): label
+#: numbers, significant bits and ranges are values from memory of ARINC 429 attachment 2
+#: (ICD section 11); the resolution is range / 2**bits (ARINC 429 Part 1, 2.1; value from
+#: memory).
+TARGET_LABELS = {"101": ("selected_heading_deg", 12, 180.0),
+                 "102": ("selected_alt_ft", 16, 65536.0),
+                 "106": ("selected_mach", 12, 4.096)}
+
+
+def test_target_labels_in_the_default_map():
+    for octal, (name, bits, full) in TARGET_LABELS.items():
+        spec = a429.DEFAULT_LABELS[int(octal, 8)]
+        assert (spec.field, spec.encoding, spec.sig_bits, spec.range) == (name, "bnr", bits,
+                                                                          full)
+    # headings follow the existing heading label 314: a signed angle read on 0..360
+    assert a429.DEFAULT_LABELS[0o101].wrap_360 == a429.DEFAULT_LABELS[0o314].wrap_360 is True
+
+
+def test_target_words_by_hand():
+    # Words built bit by bit (ARINC 429 Part 1, 2.1; value from memory): the data's MSB
+    # in bit 28, so 16 bits sit in bits 13-28 (data19 << 2) and 12 bits in bits 17-28
+    # (data19 << 6); two's complement over sign bit 29 and the bits.
+    alt = _word_by_hand("102", 0, 52000 << 2, 3)  # 52,000 ft at 1 ft a count
+    low = _word_by_hand("102", 0, ((-1000) & ((1 << 17) - 1)) << 2, 3)  # -1,000 ft
+    hdg = _word_by_hand("101", 0, 3072 << 6, 3)  # 135 deg = 3072 x 180/4096
+    west = _word_by_hand("101", 0, ((-2048) & ((1 << 13) - 1)) << 6, 3)  # -90 deg = 270
+    mach = _word_by_hand("106", 0, 1600 << 6, 3)  # Mach 1.6 = 1600 x 4.096/4096
+    # Label 102 = 01 000 010 sent MSB first: the low byte reads 0100 0010 = 0x42;
+    # 101 = 01 000 001 -> 1000 0010 = 0x82; 106 = 01 000 110 -> 0110 0010 = 0x62.
+    assert (alt & 0xFF, hdg & 0xFF, mach & 0xFF) == (0x42, 0x82, 0x62)
+    asm = a429.Arinc429Assembler()
+    for w in (alt, hdg, mach):
+        assert asm.feed_word(w, 1.0) is not None
+    got = asm.fields(1.1)
+    assert got["selected_alt_ft"] == 52000.0
+    assert got["selected_heading_deg"] == 135.0
+    assert got["selected_mach"] == pytest.approx(1.6, abs=1e-12)
+    assert asm.feed_word(low, 1.2) == "selected_alt_ft"
+    assert asm.feed_word(west, 1.2) == "selected_heading_deg"
+    got = asm.fields(1.3)
+    assert got["selected_alt_ft"] == -1000.0 and got["selected_heading_deg"] == 270.0
+    # the encoder builds the same words
+    assert a429.encode_bnr(0o102, 52000.0, 16, 65536.0) == alt
+    assert a429.encode_bnr(0o102, -1000.0, 16, 65536.0) == low
+    assert a429.encode_bnr(0o101, 135.0, 12, 180.0) == hdg
+    assert a429.encode_bnr(0o101, -90.0, 12, 180.0) == west
+    assert a429.encode_bnr(0o106, 1.6, 12, 4.096) == mach
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.floats(-1999.0, 65535.0), st.floats(0.0, 359.99), st.floats(0.1, 4.09))
+def test_target_labels_round_trip_within_half_resolution(alt, hdg, mach):
+    # Resolution range / 2**bits (ARINC 429 Part 1, 2.1; value from memory): 1 ft,
+    # 180/4096 deg, 0.001; a heading comes back on 0..360 (as label 314 does) and is
+    # compared on the circle.
+    asm = a429.Arinc429Assembler()
+    d = a429.DEFAULT_LABELS
+    signed = hdg if hdg < 180.0 - 180.0 / 2**13 else hdg - 360.0  # past the top code: -180
+    words = [a429.encode_bnr(0o102, alt, 16, 65536.0),
+             a429.encode_bnr(0o101, signed, 12, 180.0),
+             a429.encode_bnr(0o106, mach, 12, 4.096)]
+    assert asm.feed_payload(a429.payload_from_words(words), 5.0) == 3
+    got = asm.fields(5.0)
+    assert abs(got["selected_alt_ft"] - alt) <= d[0o102].range / 2**16 / 2 + 1e-9
+    err = (got["selected_heading_deg"] - hdg + 180.0) % 360.0 - 180.0
+    assert abs(err) <= 180.0 / 2**12 / 2 + 1e-9
+    assert 0.0 <= got["selected_heading_deg"] < 360.0
+    assert abs(got["selected_mach"] - mach) <= 4.096 / 2**12 / 2 + 1e-12
+
+
+def test_target_labels_in_a_label_map_file():
+    # The label map file names the new fields like any other (ICD section 11).
+    lm = parse_label_map('[labels.102]\nfield = "selected_alt_ft"\nsig_bits = 17\n'
+                         'range = 131072.0\n')
+    assert lm.labels[0o102].sig_bits == 17
+    assert lm.labels[0o101] == a429.DEFAULT_LABELS[0o101]

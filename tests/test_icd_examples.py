@@ -89,11 +89,15 @@ def _header_text(p: bytes) -> str:
 
 def _sizes() -> str:
     air = encode_air(AIR_EXAMPLE, 7, 1893456000.0)
+    pair = encode_air(dict(AIR_EXAMPLE, load_factor=1.0), 7, 1893456000.0)
+    goal = encode_air(dict(AIR_EXAMPLE, selected_mach=1.6), 7, 1893456000.0)
     adv = encode_adv(ADV_EXAMPLE.to_fields(), 5, 1893456001.0)
     st = encode_status({"state": "ok", "reason": "", "counters": {}}, 9, 1893456002.0)
-    n = [len(msgpack.unpackb(p)) for p in (air, adv, st)]
-    return (f"An air-data frame has {n[0]} entries ({_header_text(air)}), an advisory frame "
-            f"{n[1]} ({_header_text(adv)}), a status frame {n[2]} ({_header_text(st)}).")
+    n = [len(msgpack.unpackb(p)) for p in (air, pair, goal, adv, st)]
+    return (f"An air-data frame has {n[0]} entries ({_header_text(air)}), {n[1]} with the "
+            f"pitch and load pair ({_header_text(pair)}) and {n[2]} with a\n"
+            f"flight-guidance target ({_header_text(goal)}; section 4), an advisory frame "
+            f"{n[3]} ({_header_text(adv)}), a status frame {n[4]} ({_header_text(st)}).")
 
 
 def _cue_table() -> str:

@@ -74,9 +74,10 @@ def test_air_payload_is_what_msgpack_python_packs():
     assert list(msgpack.unpackb(p)) == list(HEADER_KEYS + FIRST_RELEASE_AIR)
     fields = dict(AIR, sat_c=-56.5, load_factor=1.25)
     p = encode_air(fields, 7, 1893456000.0)
-    ref.update({k: fields.get(k) for k in AIR_FIELDS})
+    pair = ("pitch_rate_dps", "load_factor")  # ICD section 4, keys 14-15
+    ref.update({k: fields.get(k) for k in pair})
     assert p == msgpack.packb(ref, use_bin_type=True)
-    assert list(msgpack.unpackb(p)) == list(HEADER_KEYS + AIR_FIELDS)
+    assert list(msgpack.unpackb(p)) == list(HEADER_KEYS + FIRST_RELEASE_AIR + pair)
 
 
 def test_int_values_are_sent_as_float64():
@@ -135,27 +136,32 @@ def test_air_round_trip_with_optional_fields():
     fields = dict(AIR, track_deg=91.0, mach_rate_per_s=0.001, sat_c=-50.0,
                   wind_from_deg=270.0, wind_kt=30.0, pitch_rate_dps=-1.5, load_factor=-0.25)
     f = decode_frame(encode_air(fields, 42, 1893456000.25))
-    assert f == Frame("air", 42, 1893456000.25, fields, 1)
+    targets = dict.fromkeys(("selected_alt_ft", "selected_heading_deg", "selected_mach"))
+    assert f == Frame("air", 42, 1893456000.25, dict(fields, **targets), 1)
     fields.update(pitch_rate_dps=None)  # one of the pair: the other is sent as nil
     p = encode_air(fields, 43, 1893456000.25)
     assert b"\xaepitch_rate_dps\xc0" in p
-    assert decode_frame(p) == Frame("air", 43, 1893456000.25, fields, 1) == _general(p)
+    assert decode_frame(p) == Frame("air", 43, 1893456000.25, dict(fields, **targets),
+                                    1) == _general(p)
 
 
 def test_air_absent_optionals_decode_as_none():
     f = decode_frame(encode_air(AIR, 1, 1893456000.0))
     assert f.fields == dict(AIR, track_deg=None, mach_rate_per_s=None, sat_c=None,
                             wind_from_deg=None, wind_kt=None, pitch_rate_dps=None,
-                            load_factor=None)
+                            load_factor=None, selected_alt_ft=None,
+                            selected_heading_deg=None, selected_mach=None)
     assert list(f.fields) == list(AIR_FIELDS)
 
 
 def test_frames_without_the_later_pair_keep_their_bytes_and_decode():
     # Version rule (ICD section 7): a new optional field keeps v = 1. A frame without
-    # the pair is the first release's frame byte for byte (the shared vectors predate
-    # the pair and are still what the encoder writes, test_shared_vectors_python_side),
-    # and it decodes on both paths with the pair None.
-    for case in VECTORS["air"]:
+    # the pair is the first release's frame byte for byte (the first five shared vectors
+    # predate the pair and are still what the encoder writes,
+    # test_shared_vectors_python_side), and it decodes on both paths with the pair None.
+    first = [c for c in VECTORS["air"] if not set(c["fields"]) & set(AIR_LATER_OPTIONAL)]
+    assert len(first) == 5
+    for case in first:
         p = bytes.fromhex(case["payload"])
         assert list(msgpack.unpackb(p))[4:] == list(FIRST_RELEASE_AIR)
         f = decode_frame(p)

@@ -1,14 +1,16 @@
 """Canonical air frames read without a general MessagePack unpacker (the hot path).
 
-An air-data frame written by :func:`advisory.io.messages.encode_air` has one of two exact
-byte layouts: a map 16 of the header keys and :data:`advisory.schema.AIR_FIELDS` in
-canonical order, every number a float 64, each optional field a float 64 or nil; the
-later optional pair (:data:`advisory.schema.AIR_LATER_OPTIONAL`) is either written or
-left out together. The kernel here
-reads that layout straight from the bytes; anything else (a different key order, ints,
-float 32, extra keys) makes it answer "not canonical" and the caller falls back to the
-general decoder, which applies every rule of the ICD (``docs/interface.md``, "Decoding
-rules").
+An air-data frame written by :func:`advisory.io.messages.encode_air` has one of three
+exact byte layouts: a map 16 of the header keys and :data:`advisory.schema.AIR_FIELDS`
+in canonical order, every number a float 64, each optional field a float 64 or nil,
+cut after the first release's fields (17 entries), after the pitch and load pair (19)
+or after the flight-guidance targets (22): the later groups
+(:data:`advisory.schema.AIR_LATER_GROUPS`) are written up to the last one the sender has
+a value of (ICD section 4). The kernel here reads those layouts straight from the
+bytes; anything else (a different key order, ints, float 32, extra keys, a later group
+left out before one that is written) makes it answer "not canonical" and the caller
+falls back to the general decoder, which applies every rule of the ICD
+(``docs/interface.md``, "Decoding rules").
 
 References
 ----------
@@ -29,7 +31,13 @@ import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 import numpy as np
 
 from advisory.jit import njit
-from advisory.schema import AIR_FIELDS, AIR_LATER_OPTIONAL, AIR_REQUIRED, WIRE_FORMAT_VERSION
+from advisory.schema import (
+    AIR_FIELDS,
+    AIR_LATER_GROUPS,
+    AIR_LATER_OPTIONAL,
+    AIR_REQUIRED,
+    WIRE_FORMAT_VERSION,
+)
 
 
 def _air_template() -> tuple[np.ndarray, np.ndarray]:
@@ -47,11 +55,17 @@ _AIR_KEYS, _AIR_KEY_OFFSETS = _air_template()
 AIR_FULL_MASK = (1 << len(AIR_FIELDS)) - 1
 #: Indices in AIR_FIELDS of the optional fields (nil allowed).
 AIR_OPTIONAL_IDX = tuple(range(len(AIR_REQUIRED), len(AIR_FIELDS)))
-#: Map sizes of the two canonical layouts: header + the first-release fields, and header
-#: + every field (the later optional pair written, ICD section 4).
 _N_ALL = len(AIR_FIELDS)
 _N_FIRST = _N_ALL - len(AIR_LATER_OPTIONAL)
 _N_REQ = len(AIR_REQUIRED)
+#: Fields of each canonical layout (ICD section 4): the first release's, then one more
+#: later group each (13, 15 and 18 fields; map sizes 17, 19 and 22 with the header).
+AIR_LAYOUT_FIELDS = tuple(_N_FIRST + sum(len(g) for g in AIR_LATER_GROUPS[:k])
+                          for k in range(len(AIR_LATER_GROUPS) + 1))
+_LAYOUT_FIELDS = np.array(AIR_LAYOUT_FIELDS, dtype=np.int64)
+if _N_ALL != 18:  # the kernel's result tuple is written out for 18 fields
+    raise ImportError(f"air_canonical_kernel returns 18 fields, AIR_FIELDS has {_N_ALL}: "
+                      "extend its result tuples")
 
 
 @njit(cache=True)
@@ -66,27 +80,29 @@ def air_canonical_kernel(buf):  # pragma: no cover - compiled
     Returns
     -------
     tuple
-        ``(mask, seq, utc_s, f0 .. f14)``: ``mask`` is -1 when ``buf`` is not in one of
-        the two exact canonical layouts (map 16 of 17 entries without the later optional
-        pair, or of 19 with it; the caller then uses the general decoder), else bit i
+        ``(mask, seq, utc_s, f0 .. f17)``: ``mask`` is -1 when ``buf`` is not in one of
+        the three exact canonical layouts (map 16 of 17, 19 or 22 entries, see
+        :data:`AIR_LAYOUT_FIELDS`; the caller then uses the general decoder), else bit i
         set when field i of ``AIR_FIELDS`` is a float (clear: nil or absent, value NaN
-        placeholder).
+        or 0.0 placeholder).
     """
     keys = _AIR_KEYS
     offs = _AIR_KEY_OFFSETS
+    layouts = _LAYOUT_FIELDS
     n = len(buf)
     bits = np.zeros(_N_ALL + 1, dtype=np.uint64)
     vals = bits.view(np.float64)
-    bits[_N_FIRST + 1:] = np.uint64(0x7FF8000000000000)  # NaN: the later pair absent
+    bits[_N_FIRST + 1:] = np.uint64(0x7FF8000000000000)  # NaN: a later group absent
     bad = (-1, 0, vals[0], vals[1], vals[2], vals[3], vals[4], vals[5], vals[6], vals[7],
-           vals[8], vals[9], vals[10], vals[11], vals[12], vals[13], vals[14], vals[15])
+           vals[8], vals[9], vals[10], vals[11], vals[12], vals[13], vals[14], vals[15],
+           vals[16], vals[17], vals[18])
     if n < 3 or buf[0] != 0xDE or buf[1] != 0:
         return bad
-    if buf[2] == 4 + _N_FIRST:
-        nf = _N_FIRST
-    elif buf[2] == 4 + _N_ALL:
-        nf = _N_ALL
-    else:
+    nf = -1
+    for j in range(len(layouts)):
+        if buf[2] == 4 + layouts[j]:
+            nf = layouts[j]
+    if nf < 0:
         return bad
     p = 3
     # header prefix up to the seq key
@@ -138,4 +154,4 @@ def air_canonical_kernel(buf):  # pragma: no cover - compiled
         return bad
     return (mask, seq, vals[0], vals[1], vals[2], vals[3], vals[4], vals[5], vals[6],
             vals[7], vals[8], vals[9], vals[10], vals[11], vals[12], vals[13], vals[14],
-            vals[15])
+            vals[15], vals[16], vals[17], vals[18])

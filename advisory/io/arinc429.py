@@ -264,6 +264,11 @@ def _spec(label: str, field_name: str, sig_bits: int, full_range: float,
 #: and bit count here is a value from memory of ARINC 429 attachment 2; confirm against
 #: the installed equipment's interface description.
 DEFAULT_LABELS: dict[int, LabelSpec] = {s.label: s for s in (
+    # The flight-guidance targets the crew has selected (label numbers, bits and ranges
+    # all values from memory; each resolution is range / 2**sig_bits):
+    _spec("101", "selected_heading_deg", 12, 180.0, wrap=True),  # deg, resolution 0.044
+    _spec("102", "selected_alt_ft", 16, 65536.0),  # ft, resolution 1 ft, up to 65,535 ft
+    _spec("106", "selected_mach", 12, 4.096),  # Mach, resolution 0.001
     _spec("203", "alt_ft", 17, 131072.0),  # pressure altitude, ft, resolution 1 ft
     _spec("205", "mach", 16, 4.096),  # Mach, resolution 0.0000625
     _spec("213", "sat_c", 11, 512.0),  # static air temperature, degC, resolution 0.25

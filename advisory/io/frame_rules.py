@@ -96,23 +96,33 @@ _AIR_FIRST = AIR_FIELDS[:len(AIR_FIELDS) - len(AIR_LATER_OPTIONAL)]
 _AIR_GETTER = operator.itemgetter(*_AIR_FIRST)
 _FLOAT_ONLY = frozenset((float,))
 _FLOAT_OR_NIL = frozenset((float, type(None)))
-_NONE_LATER = (None,) * len(AIR_LATER_OPTIONAL)
+_FLOAT_NIL_OR_MISSING = frozenset((float, type(None), object))  # object: _MISSING
 
 
 def _dec_air(m: dict) -> tuple[dict, int]:
-    try:  # fast path: every first-release key present, required all float, optional
-        vals = _AIR_GETTER(m)  # float or nil; the later pair both absent or float/nil
+    """The air-data fields of map ``m`` and how many of its keys they are.
+
+    A quick path takes the maps every encoder writes (the first release's keys present,
+    required ones float, optional ones float or nil, each later key of
+    :data:`advisory.schema.AIR_LATER_OPTIONAL` float, nil or absent: any of the layouts
+    of ICD section 4, and any other subset of the later keys); anything else takes the
+    full rules below, which give the same answer and name the first field that breaks
+    them.
+    """
+    try:  # quick path: every first-release key present, required all float, optional
+        vals = _AIR_GETTER(m)  # float or nil; each later key float, nil or absent
     except KeyError:
         pass
     else:
         if (_FLOAT_ONLY.issuperset(map(type, vals[:8]))
                 and _FLOAT_OR_NIL.issuperset(map(type, vals[8:]))):
             later = tuple(m.get(k, _MISSING) for k in AIR_LATER_OPTIONAL)
-            if _MISSING not in later:
-                if _FLOAT_OR_NIL.issuperset(map(type, later)):
-                    return dict(zip(AIR_FIELDS, vals + later)), len(AIR_FIELDS)
-            elif later == (_MISSING,) * len(later):
-                return dict(zip(AIR_FIELDS, vals + _NONE_LATER)), len(_AIR_FIRST)
+            if _FLOAT_OR_NIL.issuperset(map(type, later)):  # every later key written
+                return dict(zip(AIR_FIELDS, vals + later)), len(AIR_FIELDS)
+            if _FLOAT_NIL_OR_MISSING.issuperset(map(type, later)):
+                missing = sum(x is _MISSING for x in later)
+                later = tuple(None if x is _MISSING else x for x in later)
+                return dict(zip(AIR_FIELDS, vals + later)), len(AIR_FIELDS) - missing
     out: dict[str, Any] = {}
     present = 0
     get = m.get

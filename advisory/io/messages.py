@@ -47,6 +47,7 @@ from advisory.schema import (
     ADV_SENT_WHEN_TRUE,
     ADV_STATUSES,
     AIR_FIELDS,
+    AIR_LATER_GROUPS,
     AIR_LATER_OPTIONAL,
     AIR_OPTIONAL,
     AIR_REQUIRED,
@@ -158,6 +159,14 @@ def _pack(m: dict) -> bytes:
     return data
 
 
+#: The optional keys an encoder writes, by the number of later groups written (0: the
+#: first release's frame; ICD section 4).
+_AIR_WRITTEN = tuple(
+    AIR_OPTIONAL[:len(AIR_OPTIONAL) - len(AIR_LATER_OPTIONAL)]
+    + tuple(name for group in AIR_LATER_GROUPS[:k] for name in group)
+    for k in range(len(AIR_LATER_GROUPS) + 1))
+
+
 def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     """Encode an air-data frame.
 
@@ -167,11 +176,15 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
         Wire names to values: ``lat_deg``, ``lon_deg``, ``alt_ft``, ``mach``,
         ``heading_deg``, ``gs_kt``, ``bank_deg``, ``fpa_deg`` (required numbers) and
         ``track_deg``, ``mach_rate_per_s``, ``sat_c``, ``wind_from_deg``, ``wind_kt``,
-        ``pitch_rate_dps``, ``load_factor`` (optional: missing or ``None`` is sent as
-        nil; the last two, :data:`advisory.schema.AIR_LATER_OPTIONAL`, are left out
-        together when neither is given, ICD section 4). Ranges are not checked here
-        (the receiver's :class:`advisory.pipeline.state.StateValidator` does); NaN is sendable
-        so that fault tests can send it.
+        ``pitch_rate_dps``, ``load_factor``, ``selected_alt_ft``,
+        ``selected_heading_deg``, ``selected_mach`` (optional: missing or ``None`` is sent
+        as nil). The optional fields appended after the first release come in groups,
+        :data:`advisory.schema.AIR_LATER_GROUPS` (the pitch and load pair, then the
+        flight-guidance targets): every group up to the last one with a value is
+        written (nil for a key of those groups not given) and no group after it (ICD
+        sections 4 and 7). Ranges are not checked here (the receiver's
+        :class:`advisory.pipeline.state.StateValidator` does); NaN is sendable so that
+        fault tests can send it.
     seq : int
         Sequence number, 0..2**32-1.
     utc_s : float
@@ -180,8 +193,10 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
     Returns
     -------
     bytes
-        MessagePack payload in canonical key order (header, then :data:`AIR_FIELDS`,
-        without the later optional pair when neither is given).
+        MessagePack payload in canonical key order: the header, then
+        :data:`AIR_FIELDS` up to the end of the last later group written. Without any
+        later field it is the first release's map of 17 entries, with the pair only a
+        map of 19, with a target a map of 22.
 
     Raises
     ------
@@ -195,11 +210,12 @@ def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:
         if value is None:
             raise ValueError(f"air-data field {name!r} is required")
         m[name] = _num(name, value)
-    later = any(fields.get(name) is not None for name in AIR_LATER_OPTIONAL)
-    for name in AIR_OPTIONAL:
+    groups = 0  # later groups to write: up to the last one the sender has a value of
+    for i, group in enumerate(AIR_LATER_GROUPS, 1):
+        if any(fields.get(name) is not None for name in group):
+            groups = i
+    for name in _AIR_WRITTEN[groups]:
         value = fields.get(name)
-        if value is None and not later and name in AIR_LATER_OPTIONAL:
-            continue  # neither later field: the earlier 13-field frame, byte for byte
         m[name] = None if value is None else _num(name, value)
     return _pack(m)
 

@@ -2,7 +2,7 @@
  * boom_vectors.c - test-vector tool for the C binding (used by tests/test_c_binding.py).
  *
  * Reads one command per line on stdin and writes one result line per command:
- *   air SEQ UTC F1 .. F15   encode an air frame; UTC and Fi are the 16 hex digits of a
+ *   air SEQ UTC F1 .. F18   encode an air frame; UTC and Fi are the 16 hex digits of a
  *                           double's IEEE 754 bits, "-" for an absent optional field;
  *                           prints "PAYLOAD STREAM DATAGRAM" in hex
  *   dec HEX                 decode a payload: "ok TYPE key=value ..." or "err REASON"
@@ -106,8 +106,8 @@ static int parse_double(const char *tok, double *d, bool *has)
 static void cmd_air(char *rest)
 {
     boom_air a;
-    double v[16];
-    bool has[16];
+    double v[19];
+    bool has[19];
     unsigned long seq;
     char *tok = strtok(rest, " ");
     size_t n = 0, m = 0;
@@ -118,7 +118,7 @@ static void cmd_air(char *rest)
         return;
     }
     seq = strtoul(tok, NULL, 10);
-    for (i = 0; i < 16; i++) {
+    for (i = 0; i < 19; i++) {
         if (parse_double(strtok(NULL, " "), &v[i], &has[i]) != 0 || (i < 9 && !has[i])) {
             printf("err bad_argument\n");
             return;
@@ -147,6 +147,12 @@ static void cmd_air(char *rest)
     a.pitch_rate_dps = v[14];
     a.has_load_factor = has[15];
     a.load_factor = v[15];
+    a.has_selected_alt_ft = has[16];
+    a.selected_alt_ft = v[16];
+    a.has_selected_heading_deg = has[17];
+    a.selected_heading_deg = v[17];
+    a.has_selected_mach = has[18];
+    a.selected_mach = v[18];
     if (boom_encode_air(&a, (uint32_t)seq, v[0], payload, sizeof payload, &n) != BOOM_OK) {
         printf("err encode\n");
         return;
@@ -197,6 +203,10 @@ static void cmd_dec(const uint8_t *p, size_t n)
         print_opt("wind_kt", a->has_wind_kt, a->wind_kt);
         print_opt("pitch_rate_dps", a->has_pitch_rate_dps, a->pitch_rate_dps);
         print_opt("load_factor", a->has_load_factor, a->load_factor);
+        print_opt("selected_alt_ft", a->has_selected_alt_ft, a->selected_alt_ft);
+        print_opt("selected_heading_deg", a->has_selected_heading_deg,
+                  a->selected_heading_deg);
+        print_opt("selected_mach", a->has_selected_mach, a->selected_mach);
     } else if (f.type == BOOM_FRAME_ADV) {
         const boom_adv *a = &f.u.adv;
         printf(" status=%s", boom_adv_status_name(a->status));

@@ -392,17 +392,23 @@ int boom_encode_air(const boom_air *a, uint32_t seq, double utc_s, uint8_t *out,
                     size_t cap, size_t *out_len)
 {
     writer w;
-    bool later;
+    int groups; /* later groups written (ICD section 4): up to the last one given */
     if (a == NULL || out == NULL || out_len == NULL)
         return BOOM_E_ARG;
     w.p = out;
     w.n = 0;
     w.cap = cap;
     w.full = false;
-    later = a->has_pitch_rate_dps || a->has_load_factor;
-    w_byte(&w, 0xDE); /* map 16: 4 header keys + 13 fields (+ 2 later optional ones) */
+    if (a->has_selected_alt_ft || a->has_selected_heading_deg || a->has_selected_mach)
+        groups = 2;
+    else if (a->has_pitch_rate_dps || a->has_load_factor)
+        groups = 1;
+    else
+        groups = 0;
+    /* map 16: 4 header keys + 13 fields, + 2 with the pair, + 3 more with the targets */
+    w_byte(&w, 0xDE);
     w_byte(&w, 0x00);
-    w_byte(&w, later ? 19 : 17);
+    w_byte(&w, groups == 2 ? 22 : groups == 1 ? 19 : 17);
     w_str(&w, "v");
     w_uint(&w, BOOM_WIRE_FORMAT_VERSION);
     w_str(&w, "type");
@@ -437,11 +443,19 @@ int boom_encode_air(const boom_air *a, uint32_t seq, double utc_s, uint8_t *out,
     w_opt_double(&w, a->has_wind_from_deg, a->wind_from_deg);
     w_str(&w, "wind_kt");
     w_opt_double(&w, a->has_wind_kt, a->wind_kt);
-    if (later) {
+    if (groups >= 1) {
         w_str(&w, "pitch_rate_dps");
         w_opt_double(&w, a->has_pitch_rate_dps, a->pitch_rate_dps);
         w_str(&w, "load_factor");
         w_opt_double(&w, a->has_load_factor, a->load_factor);
+    }
+    if (groups >= 2) {
+        w_str(&w, "selected_alt_ft");
+        w_opt_double(&w, a->has_selected_alt_ft, a->selected_alt_ft);
+        w_str(&w, "selected_heading_deg");
+        w_opt_double(&w, a->has_selected_heading_deg, a->selected_heading_deg);
+        w_str(&w, "selected_mach");
+        w_opt_double(&w, a->has_selected_mach, a->selected_mach);
     }
     if (w.full)
         return BOOM_E_NO_ROOM;
@@ -729,7 +743,7 @@ enum {
     KEY_V, KEY_TYPE, KEY_SEQ, KEY_UTC,
     KEY_LAT, KEY_LON, KEY_ALT, KEY_MACH, KEY_HDG, KEY_GS, KEY_BANK, KEY_FPA,
     KEY_TRACK, KEY_MRATE, KEY_SAT, KEY_WFROM, KEY_WKT,
-    KEY_PITCH, KEY_LOAD,
+    KEY_PITCH, KEY_LOAD, KEY_SELALT, KEY_SELHDG, KEY_SELMACH,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
     KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB, KEY_NEAR,
     KEY_PROB, KEY_ATLIM,
@@ -741,7 +755,8 @@ static const char *const key_names[N_KEYS] = {
     "v", "type", "seq", "utc_s",
     "lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg", "fpa_deg",
     "track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt",
-    "pitch_rate_dps", "load_factor",
+    "pitch_rate_dps", "load_factor", "selected_alt_ft", "selected_heading_deg",
+    "selected_mach",
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
     "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
@@ -892,6 +907,9 @@ static int decode_air(const keymap *km, boom_air *a)
     OPT(KEY_WKT, wind_kt);
     OPT(KEY_PITCH, pitch_rate_dps);
     OPT(KEY_LOAD, load_factor);
+    OPT(KEY_SELALT, selected_alt_ft);
+    OPT(KEY_SELHDG, selected_heading_deg);
+    OPT(KEY_SELMACH, selected_mach);
     return BOOM_OK;
 }
 

@@ -86,12 +86,23 @@ typedef struct {
     double wind_from_deg; /* direction the wind blows from, deg true */
     bool has_wind_kt;
     double wind_kt; /* wind speed, kt */
-    /* Added later (ICD section 4): both keys are written when either has_ flag is set,
-     * neither otherwise (the earlier 13-field frame, byte for byte). */
+    /* Added later (ICD section 4) in two groups: the pitch and load pair, then the
+     * flight-guidance targets. The encoder writes every group up to the last one with a
+     * has_ flag set (nil for a key of those groups whose flag is clear) and no group
+     * after it: no flag set gives the first release's 13-field frame byte for byte, the
+     * pair only the 15-field frame, any target the 18-field frame. */
     bool has_pitch_rate_dps;
     double pitch_rate_dps; /* body pitch rate, deg/s, nose up positive */
     bool has_load_factor;
     double load_factor; /* normal load factor, g (1 in level unaccelerated flight) */
+    bool has_selected_alt_ft;
+    double selected_alt_ft; /* selected altitude: pressure altitude the climb or descent
+                               levels off at, ft */
+    bool has_selected_heading_deg;
+    double selected_heading_deg; /* selected heading: true heading the turn rolls out on,
+                                    deg, 0..360 (360 excluded) */
+    bool has_selected_mach;
+    double selected_mach; /* selected Mach: Mach the acceleration or deceleration ends at */
 } boom_air;
 
 typedef enum {

@@ -43,6 +43,22 @@ AIR = [
         "lat_deg": 12.345678901234, "lon_deg": 98.7654321, "alt_ft": 60000.5, "mach": 1.05,
         "heading_deg": 45.0, "gs_kt": 620.0, "bank_deg": 5.5, "fpa_deg": -0.25,
         "mach_rate_per_s": 0.01}},
+    # the later groups (ICD section 4): the pitch and load pair alone (a map of 19), the
+    # flight-guidance targets without the pair (22, the pair as nil), both (22)
+    {"seq": 200, "utc_s": 1893456200.0, "fields": {
+        "lat_deg": 35.5, "lon_deg": -117.25, "alt_ft": 48000.0, "mach": 1.3,
+        "heading_deg": 300.0, "gs_kt": 760.0, "bank_deg": 0.0, "fpa_deg": 2.0,
+        "pitch_rate_dps": 3.25}},
+    {"seq": 201, "utc_s": 1893456200.05, "fields": {
+        "lat_deg": 35.5, "lon_deg": -117.25, "alt_ft": 48000.0, "mach": 1.3,
+        "heading_deg": 300.0, "gs_kt": 760.0, "bank_deg": 20.0, "fpa_deg": 2.0,
+        "track_deg": 301.5, "sat_c": -57.0, "selected_alt_ft": 52000.0,
+        "selected_heading_deg": 135.0, "selected_mach": 1.6}},
+    {"seq": 202, "utc_s": 1893456200.1, "fields": {
+        "lat_deg": -12.0, "lon_deg": 45.0, "alt_ft": 1500.0, "mach": 0.8,
+        "heading_deg": 10.0, "gs_kt": 480.0, "bank_deg": -30.0, "fpa_deg": -3.0,
+        "pitch_rate_dps": -1.5, "load_factor": 0.8, "selected_alt_ft": -1000.0,
+        "selected_heading_deg": 0.0}},
 ]
 
 ADV = [

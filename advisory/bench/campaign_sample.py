@@ -40,7 +40,8 @@ Distributions (each encounter; uniform ``U(a, b)`` unless said otherwise)
   advisor has time to warn. Limit: 0 psf (no boom, 50 %) or ``U(0.3, 1.5)``
   psf; margin ``U(0, 3)`` km; ground elevation 0 ft (50 %) or ``U(0, 6,000)`` ft.
 * Air-data feed: 20 Hz, ``stream`` or ``datagram`` (50/50), 4 ms latency, 3 ms jitter,
-  noise 0.002 Mach, 10 ft, 0.1 deg; a dropout of ``U(2, 10)`` s in 15 % of encounters.
+  noise 0.002 Mach, 10 ft, 0.1 deg; a dropout of ``U(2, 10)`` s in 15 % of encounters;
+  the flight-guidance targets the crew has selected are sent (``source.targets``).
 * Crew (used by the run that follows the cues): reaction ``U(3, 8)`` s, deceleration
   ``U(0.008, 0.02)`` Mach/s, bank ``U(20, 30)`` deg, roll rate 5 deg/s, acts on a
   caution. The sampled ``mode`` is ``ignore``; each run sets its own.
@@ -370,7 +371,7 @@ def sample_encounter(seed: int, index: int, known: bool = False,
                    "format": "stream" if rng.random() < 0.5 else "datagram",
                    "latency_s": 0.004, "jitter_s": 0.003,
                    "noise": {"mach": 0.002, "alt_ft": 10.0, "heading_deg": 0.1},
-                   "faults": faults},
+                   "faults": faults, "targets": True},
         "crew": {"mode": "ignore", "reaction_s": _r(rng.uniform(3.0, 8.0), 2),
                  "decel_mach_per_s": _r(rng.uniform(0.008, 0.02), 4),
                  "bank_deg": _r(rng.uniform(20.0, 30.0), 1), "roll_rate_deg_s": 5.0,

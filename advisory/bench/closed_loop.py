@@ -174,7 +174,8 @@ class _Flight:
         st = sc.start
         self.sc, self.loop = sc, loop
         self.state = FlightState(world.true_atmosphere, st.lat_deg, st.lon_deg, st.alt_ft,
-                                 st.mach, st.heading_deg, st.fpa_deg, st.bank_deg)
+                                 st.mach, st.heading_deg, st.fpa_deg, st.bank_deg,
+                                 targets=sc.source.targets)
         self.pilot = Pilot(sc.schedule)
         self.crew = Crew(sc.crew)
         self.track = FlightTrack()

@@ -78,6 +78,9 @@ class FeedSettings:
     jitter_s: float = 0.003
     noise: dict[str, float] = field(default_factory=dict)
     faults: tuple[Fault, ...] = ()
+    #: Whether the source sends the flight-guidance targets the crew has selected
+    #: (``selected_alt_ft``, ``selected_heading_deg``, ``selected_mach``).
+    targets: bool = False
 
 
 class FeedEncoder:

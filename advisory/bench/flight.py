@@ -88,12 +88,16 @@ class FlightState:
     ``alt_m`` (geometric, m), ``mach``, ``heading_deg`` (air-relative), ``bank_deg``,
     ``fpa_deg``; ``pitch_load`` (samples carry the body pitch rate and the load
     factor, :meth:`_pitch_and_load`); targets ``mach_target``, ``mach_rate`` (1/s), ``bank_target``,
-    ``roll_rate`` (deg/s), ``fpa_target``, ``pitch_rate`` (deg/s).
+    ``roll_rate`` (deg/s), ``fpa_target``, ``pitch_rate`` (deg/s); the flight-guidance
+    targets the crew has selected, ``selected_alt_ft`` (pressure altitude), ``selected_heading_deg``
+    and ``selected_mach`` (None: none selected; the start values at first, then what the
+    :class:`Pilot` selects), sent in the samples when ``targets`` is set.
     """
 
     def __init__(self, atmosphere: Atmosphere, lat_deg: float, lon_deg: float, alt_ft: float,
                  mach: float, heading_deg: float, fpa_deg: float = 0.0, bank_deg: float = 0.0,
-                 roll_rate_deg_s: float = 5.0, pitch_load: bool = False) -> None:
+                 roll_rate_deg_s: float = 5.0, pitch_load: bool = False,
+                 targets: bool = False) -> None:
         self.atmosphere = atmosphere
         self.heights = HeightConverter(atmosphere)
         self.t_s = 0.0
@@ -108,6 +112,11 @@ class FlightState:
         #: Whether samples carry ``pitch_rate_dps`` and ``load_factor`` (off: the demo
         #: flights' records stay as they were synthesized).
         self.pitch_load = bool(pitch_load)
+        #: Whether samples carry the selected targets (off: as the demo flights were made).
+        self.targets = bool(targets)
+        self.selected_alt_ft: float | None = float(alt_ft)
+        self.selected_heading_deg: float | None = float(heading_deg) % 360.0
+        self.selected_mach: float | None = float(mach)
         self._air_at: tuple[float, AtmosphereSample] | None = None
 
     def height_ft(self, pressure_altitude_ft: float) -> float:
@@ -161,6 +170,12 @@ class FlightState:
         }
         if self.pitch_load:
             sample.update(self._pitch_and_load(tas, dt_s))
+        if self.targets:  # the ones selected (a cleared one is not sent)
+            for key, value in (("selected_alt_ft", self.selected_alt_ft),
+                               ("selected_heading_deg", self.selected_heading_deg),
+                               ("selected_mach", self.selected_mach)):
+                if value is not None:
+                    sample[key] = value
         self.heading_deg = (self.heading_deg + math.degrees(
             units.G0 * math.tan(math.radians(self.bank_deg)) / tas) * dt_s) % 360.0
         p = direct_deg(self.lat_deg, self.lon_deg, track, gs * dt_s)
@@ -236,6 +251,13 @@ class Pilot:
     :meth:`take_over` replaces the rest of the schedule with the crew's segment: once the
     crew acts on a cue it rolls the wings and the flight path level (ending any scheduled
     turn or climb), flies the resolution and then holds.
+
+    Each segment selects its end on the flight-guidance panel as it starts (the state's
+    ``selected_*``): a climb its target altitude, a turn its final heading, a Mach change
+    its target Mach; a climb, turn or pitch without an end clears that selection. A crew
+    taking over selects the present heading (wings level) and clears the selected
+    altitude while climbing or descending (the path is levelled by hand), then the
+    resolution's segment selects its own end.
     """
 
     def __init__(self, schedule: Iterable[Segment]) -> None:
@@ -251,6 +273,9 @@ class Pilot:
         self.queue = []
         self.crew_segment = segment
         state.bank_target, state.fpa_target = 0.0, 0.0
+        state.selected_heading_deg = state.heading_deg % 360.0
+        if state.fpa_deg != 0.0:
+            state.selected_alt_ft = None
         self._begin(replace(segment, at_s=None), state)
 
     def update(self, state: FlightState, dt_s: float) -> None:
@@ -269,13 +294,20 @@ class Pilot:
         if seg.kind == "mach":
             state.mach_target = float(seg.target_mach or state.mach)
             state.mach_rate = float(seg.mach_rate_per_s or 0.0)
+            state.selected_mach = state.mach_target
         elif seg.kind == "turn":
             state.bank_target = float(seg.bank_deg or 0.0)
             state.roll_rate = float(seg.roll_rate_deg_s)
+            change = seg.heading_change_deg
+            state.selected_heading_deg = (None if change is None
+                                          else (state.heading_deg + float(change)) % 360.0)
         elif seg.kind == "climb":
             state.fpa_target = float(seg.fpa_deg or 0.0)
             state.pitch_rate = float(seg.pitch_rate_deg_s)
+            state.selected_alt_ft = (None if seg.target_alt_ft is None
+                                     else float(seg.target_alt_ft))
         elif seg.kind == "pitch":
+            state.selected_alt_ft = None
             rate = float(seg.pitch_rate_deg_s)
             end = state.fpa_deg + rate * float(seg.duration_s or 0.0)
             state.fpa_target = max(-FPA_LIMIT_DEG, min(FPA_LIMIT_DEG, end))

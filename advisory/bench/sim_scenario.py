@@ -386,7 +386,7 @@ def _source(doc: Any, duration: float) -> FeedSettings:
         format=t.text("format", ("stream", "datagram"), "stream") or "stream",
         latency_s=t.num("latency_s", 0.0, 5.0, 0.004) or 0.0,
         jitter_s=t.num("jitter_s", 0.0, 5.0, 0.003) or 0.0,
-        noise=noise, faults=tuple(faults))
+        noise=noise, faults=tuple(faults), targets=t.flag("targets", False))
     t.done()
     return s
 

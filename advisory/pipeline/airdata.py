@@ -45,6 +45,12 @@ AIR_RANGES: dict[str, tuple[float, float]] = {
     # source; these only refuse nonsense, the trajectory bounds what it predicts)
     "pitch_rate_dps": (-30.0, 30.0),
     "load_factor": (-3.0, 9.0),
+    # the flight-guidance targets: an altitude a little beyond the field's own range
+    # (a selected altitude may lie below the field's floor or above the present one),
+    # a heading, a Mach from slow flight to the tables' top (ICD section 4)
+    "selected_alt_ft": (-2000.0, 100000.0),
+    "selected_heading_deg": (0.0, 360.0),
+    "selected_mach": (0.1, 5.0),
 }
 
 #: The state attribute of each required wire field and the factor from wire units to SI.
@@ -92,6 +98,13 @@ class AirDataState:
     load_factor : float or None
         Normal load factor (lift over weight), g units: 1 in level unaccelerated flight;
         None when not sent.
+    selected_alt_m : float or None
+        Selected altitude (the climb or descent levels off there), m, the reference of
+        ``alt_m``; None when not sent.
+    selected_heading_rad : float or None
+        Selected true heading (the turn rolls out on it), rad, in [0, 2 pi).
+    selected_mach : float or None
+        Selected Mach (the Mach change ends there).
     """
 
     lat_rad: float
@@ -111,6 +124,9 @@ class AirDataState:
     rx_monotonic: float | None = None
     pitch_rate_rad_s: float | None = None
     load_factor: float | None = None
+    selected_alt_m: float | None = None
+    selected_heading_rad: float | None = None
+    selected_mach: float | None = None
 
     @classmethod
     def from_fields(cls, fields: Mapping[str, Any], *, utc_s: float | None = None,
@@ -179,6 +195,10 @@ class AirDataState:
             "pitch_rate_dps": (None if self.pitch_rate_rad_s is None
                                else self.pitch_rate_rad_s / DEG),
             "load_factor": self.load_factor,
+            "selected_alt_ft": None if self.selected_alt_m is None else self.selected_alt_m / FT,
+            "selected_heading_deg": (None if self.selected_heading_rad is None
+                                     else self.selected_heading_rad / DEG),
+            "selected_mach": self.selected_mach,
         }
 
 
@@ -187,7 +207,7 @@ _object_new = object.__new__
 
 
 def new_state(values: tuple) -> AirDataState:
-    """An :class:`AirDataState` from its 17 values in field order, without the generated
+    """An :class:`AirDataState` from its 20 values in field order, without the generated
     ``__init__`` (half the cost on the hot path; same object, still frozen)."""
     st = _object_new(AirDataState)
     st.__dict__.update(zip(_STATE_NAMES, values))
@@ -200,6 +220,8 @@ def _build(v: Mapping[str, float], o: Mapping[str, float | None], utc_s: float |
     track = o["track_deg"]
     sat = o["sat_c"]
     pitch = o["pitch_rate_dps"]
+    sel_alt = o["selected_alt_ft"]
+    sel_hdg = o["selected_heading_deg"]
     wind_from = o["wind_from_deg"]
     wind_kt = o["wind_kt"]
     east = north = None
@@ -214,6 +236,8 @@ def _build(v: Mapping[str, float], o: Mapping[str, float | None], utc_s: float |
         None if sat is None else sat + KELVIN_OFFSET,
         east, north, utc_s, rx_monotonic,
         None if pitch is None else pitch * DEG, o["load_factor"],
+        None if sel_alt is None else sel_alt * FT,
+        None if sel_hdg is None else (sel_hdg % 360.0) * DEG, o["selected_mach"],
     )
 
 

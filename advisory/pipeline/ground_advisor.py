@@ -277,8 +277,11 @@ class GroundAdvisor:
                 f"air data stale ({now - state.rx_monotonic:.1f} s old)", state.utc_s)
         # From here on the state's altitude is the geometric height of its pressure
         # altitude in the table's atmosphere (the hypsometric equation): the tables, the
-        # trajectory and the history are in geometric height.
-        state = dataclasses.replace(state, alt_m=self._heights.height(state.alt_m))
+        # trajectory and the history are in geometric height (the selected altitude too).
+        sel = state.selected_alt_m
+        state = dataclasses.replace(
+            state, alt_m=self._heights.height(state.alt_m),
+            selected_alt_m=None if sel is None else self._heights.height(sel))
         self._learn_atmosphere(state, now)
         if state.mach <= 0.0:
             # Standing still (on the ground, or a source reporting 0): no shock at all, and
@@ -324,6 +327,8 @@ class GroundAdvisor:
             wind_east_mps=s.wind_east_mps, wind_north_mps=s.wind_north_mps,
             lookahead_s=self.config.look_ahead_s, step_s=self.config.step_s, frame=pz.frame,
             pitch_rate_rad_s=s.pitch_rate_rad_s, load_factor=s.load_factor,
+            target_alt_m=s.selected_alt_m, target_heading_rad=s.selected_heading_rad,
+            target_mach=s.selected_mach,
         )
 
     def _step(self, s: AirDataState, now: float) -> Advisory:

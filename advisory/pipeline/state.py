@@ -242,6 +242,9 @@ class StateValidator:
             wkt = get("wind_kt")
             prate = get("pitch_rate_dps")
             nload = get("load_factor")
+            salt = get("selected_alt_ft")
+            shdg = get("selected_heading_deg")
+            smach = get("selected_mach")
         except Exception:
             return self._field_problem(fields) or self._reject(
                 "internal", "required fields unreadable")
@@ -258,22 +261,26 @@ class StateValidator:
             lat, lon, alt, mach, hdg, gs, bank, fpa = (
                 float(fields[n]) for n in AIR_REQUIRED)
         # optional fields
-        (p0, p1, q0, q1, r0, r1, s0, s1, t0, t1, u0, u1, v0, v1) = self._opt_flat
+        (p0, p1, q0, q1, r0, r1, s0, s1, t0, t1, u0, u1, v0, v1, w0, w1, x0, x1, y0,
+         y1) = self._opt_flat
         if not ((track is None or (type(track) is float and p0 <= track <= p1))
                 and (mrate is None or (type(mrate) is float and q0 <= mrate <= q1))
                 and (sat is None or (type(sat) is float and r0 <= sat <= r1))
                 and (wfrom is None or (type(wfrom) is float and s0 <= wfrom <= s1))
                 and (wkt is None or (type(wkt) is float and t0 <= wkt <= t1))
                 and (prate is None or (type(prate) is float and u0 <= prate <= u1))
-                and (nload is None or (type(nload) is float and v0 <= nload <= v1))):
+                and (nload is None or (type(nload) is float and v0 <= nload <= v1))
+                and (salt is None or (type(salt) is float and w0 <= salt <= w1))
+                and (shdg is None or (type(shdg) is float and x0 <= shdg <= x1))
+                and (smach is None or (type(smach) is float and y0 <= smach <= y1))):
             opt = []
             for (name, lo, hi), x in zip(self._opt, (track, mrate, sat, wfrom, wkt, prate,
-                                                     nload)):
+                                                     nload, salt, shdg, smach)):
                 rej = self._check_value(name, x, lo, hi, required=False)
                 if rej is not None:
                     return rej
                 opt.append(None if x is None else float(x))
-            track, mrate, sat, wfrom, wkt, prate, nload = opt
+            track, mrate, sat, wfrom, wkt, prate, nload, salt, shdg, smach = opt
         if (wfrom is None) is not (wkt is None):
             return self._reject("wind_incomplete", "air-data fields 'wind_from_deg' and "
                                 "'wind_kt' must come together, got wind_from_deg="
@@ -405,6 +412,8 @@ class StateValidator:
             fpa * DEG, None if track is None else (track % 360.0) * DEG, mrate,
             None if sat is None else sat + KELVIN_OFFSET, east, north, utc_s, rx,
             None if prate is None else prate * DEG, nload,
+            None if salt is None else salt * FT,
+            None if shdg is None else (shdg % 360.0) * DEG, smach,
         ))
         self._last_state = st
         self.accepted += 1

@@ -37,6 +37,7 @@ practice govern supersonic flight.
 from __future__ import annotations
 
 import dataclasses
+import math
 import time
 from collections.abc import Callable
 from typing import Protocol
@@ -329,6 +330,7 @@ class GroundAdvisor:
             pitch_rate_rad_s=s.pitch_rate_rad_s, load_factor=s.load_factor,
             target_alt_m=s.selected_alt_m, target_heading_rad=s.selected_heading_rad,
             target_mach=s.selected_mach,
+            capture_rate_rad_s=math.radians(self.config.capture_pitch_rate_deg_s),
         )
 
     def _step(self, s: AirDataState, now: float) -> Advisory:

@@ -22,11 +22,14 @@ A climb or descent toward the altitude the crew has selected levels off there
 constant rate ``q``; with the true airspeed ``V`` held, the height gained during the
 capture is ``V (1 - cos gamma0) / q`` (the integral of ``V sin(gamma0 - q t)`` over the
 capture's ``gamma0 / q`` seconds; closed form), so the capture starts that far short of
-the selected altitude. The rate comes from the incremental load factor of the capture,
-``q = g dn / V`` (the equation above with ``n = 1 + dn``, wings level, ``gamma`` small);
-:data:`CAPTURE_LOAD_G` is 0.1 g (a gentle autopilot capture; common practice, no
-source). A pitch manoeuvre under way that takes the angle toward zero with a selected
-altitude ahead is a capture already flown by hand: it ends at zero, not after
+the selected altitude. The rate is the aircraft's (its altitude-capture law; the
+advisor's configuration ``capture_pitch_rate_deg_s``): by default
+:data:`CAPTURE_RATE_RAD_S`, 1 deg/s, the level-off the scenarios' pilots fly
+(``docs/scenarios.md``; at Mach 1.6 and 60,000 ft a normal load of about 0.16 g, a
+push-over steep enough to fold the carpet, so the level-off's focus is predicted; an
+autopilot capturing at 0.1 g would be 0.12 deg/s there; common practice, no source).
+A pitch manoeuvre under way that takes the angle toward zero with a selected altitude
+ahead is a capture already flown by hand: it ends at zero, not after
 :data:`PITCH_HOLD_S`.
 
 These helpers feed :func:`advisory.pipeline.trajectory.predict_trajectory`, whose kernel
@@ -41,7 +44,7 @@ import numpy as np
 
 from advisory.units import G0
 
-__all__ = ["PITCH_HOLD_S", "PITCH_FPA_LIMIT_RAD", "PITCH_DEADBAND_RAD_S", "CAPTURE_LOAD_G",
+__all__ = ["PITCH_HOLD_S", "PITCH_FPA_LIMIT_RAD", "PITCH_DEADBAND_RAD_S", "CAPTURE_RATE_RAD_S",
            "flight_path_rate", "pitch_end_s", "fpa_profile", "level_off"]
 
 #: How long a pitch rate is held ahead, s (module notes; engineering choice, no source).
@@ -50,9 +53,9 @@ PITCH_HOLD_S = 5.0
 PITCH_FPA_LIMIT_RAD = math.radians(10.0)
 #: Flight-path-angle rates below this are taken as zero, rad/s (module notes).
 PITCH_DEADBAND_RAD_S = math.radians(0.1)
-#: Incremental load factor of a predicted level-off at the selected altitude, g (module
-#: notes; common practice, no source).
-CAPTURE_LOAD_G = 0.1
+#: Default pitch rate of a predicted level-off at the selected altitude, rad/s (module
+#: notes).
+CAPTURE_RATE_RAD_S = math.radians(1.0)
 
 
 def flight_path_rate(fpa_rad: float, bank_rad: float, tas_mps: float,
@@ -107,7 +110,7 @@ def fpa_profile(t: np.ndarray, fpa0: float, rate_rad_s: float, end_s: float,
 
 
 def level_off(fpa_rad: float, alt_m: float, target_alt_m: float, tas_mps: float,
-              g: float = G0) -> tuple[float, float, float] | None:
+              rate_rad_s: float = CAPTURE_RATE_RAD_S) -> tuple[float, float, float] | None:
     """The capture of the selected altitude ahead (module notes), or None.
 
     Parameters
@@ -118,8 +121,8 @@ def level_off(fpa_rad: float, alt_m: float, target_alt_m: float, tas_mps: float,
         Present and selected altitude, m (the same reference).
     tas_mps : float
         True airspeed, m/s (> 0), taken as held through the capture.
-    g : float
-        Gravity, m/s^2.
+    rate_rad_s : float
+        The capture's pitch rate, rad/s (> 0).
 
     Returns
     -------
@@ -137,7 +140,7 @@ def level_off(fpa_rad: float, alt_m: float, target_alt_m: float, tas_mps: float,
         return None
     gam = abs(fpa_rad)
     rise = tas_mps * (1.0 - math.cos(gam))  # height of the capture times its rate, m rad/s
-    q = CAPTURE_LOAD_G * g / tas_mps
+    q = rate_rad_s
     start = (left - rise / q) / (tas_mps * math.sin(gam))
     if start < 0.0:
         start, q = 0.0, rise / left

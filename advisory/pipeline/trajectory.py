@@ -65,7 +65,13 @@ from functools import cached_property
 import numpy as np
 
 from advisory.geo.frame import FramePoints, LocalFrame
-from advisory.pipeline.pitch import flight_path_rate, fpa_profile, level_off, pitch_end_s
+from advisory.pipeline.pitch import (
+    CAPTURE_RATE_RAD_S,
+    flight_path_rate,
+    fpa_profile,
+    level_off,
+    pitch_end_s,
+)
 from advisory.pipeline.propagate import (
     PROPAGATE_PARAMS,
     PROPAGATE_ROWS,
@@ -296,6 +302,7 @@ def predict_trajectory(
     target_alt_m: float | None = None,
     target_heading_rad: float | None = None,
     target_mach: float | None = None,
+    capture_rate_rad_s: float = CAPTURE_RATE_RAD_S,
 ) -> Trajectory:
     """Predict the trajectory ahead from one air-data state.
 
@@ -351,6 +358,8 @@ def predict_trajectory(
         half a turn ahead in the bank's direction (``roll_out_heading_rad`` wins).
     target_mach : float, optional
         Selected Mach: a Mach change toward it stops there.
+    capture_rate_rad_s : float
+        Pitch rate of the level-off at ``target_alt_m``, rad/s (> 0).
 
     Returns
     -------
@@ -382,6 +391,7 @@ def predict_trajectory(
                                                      open_lo=True)
     hdg_sel = None if target_heading_rad is None else _check("target_heading_rad",
                                                              target_heading_rad)
+    cap_rate = _check("capture_rate_rad_s", capture_rate_rad_s, 0.0, 1.0, open_lo=True)
     if (wind_east_mps is None) != (wind_north_mps is None):
         raise ValueError("wind_east_mps and wind_north_mps must be given together, got "
                          f"{wind_east_mps!r} and {wind_north_mps!r}")
@@ -407,7 +417,7 @@ def predict_trajectory(
     g_rate = flight_path_rate(fpa, bank, m0 * a0, q, n_load)
     g_end = pitch_end_s(fpa, g_rate)
     g_start = 0.0
-    capture = None if h_sel is None else level_off(fpa, h0, h_sel, m0 * a0)
+    capture = None if h_sel is None else level_off(fpa, h0, h_sel, m0 * a0, cap_rate)
     if capture is not None and g_rate * fpa < 0.0:  # a capture flown by hand: ends level
         g_end, capture = abs(fpa / g_rate), None
     elif capture is not None and g_end == 0.0:

@@ -33,7 +33,9 @@ ahead is a capture already flown by hand: it ends at zero, not after
 :data:`PITCH_HOLD_S`.
 
 These helpers feed :func:`advisory.pipeline.trajectory.predict_trajectory`, whose kernel
-steps the angle :func:`fpa_profile` gives (its mean over each step).
+steps the angle :func:`fpa_profile` gives with its exact mean over each step
+(:func:`fpa_step_means`; the average of a step's end values would miss where the
+profile bends inside a step: about 1 m of a level-off's height at 1-s steps).
 """
 
 from __future__ import annotations
@@ -45,7 +47,7 @@ import numpy as np
 from advisory.units import G0
 
 __all__ = ["PITCH_HOLD_S", "PITCH_FPA_LIMIT_RAD", "PITCH_DEADBAND_RAD_S", "CAPTURE_RATE_RAD_S",
-           "flight_path_rate", "pitch_end_s", "fpa_profile", "level_off"]
+           "flight_path_rate", "pitch_end_s", "fpa_profile", "fpa_step_means", "level_off"]
 
 #: How long a pitch rate is held ahead, s (module notes; engineering choice, no source).
 PITCH_HOLD_S = 5.0
@@ -107,6 +109,16 @@ def fpa_profile(t: np.ndarray, fpa0: float, rate_rad_s: float, end_s: float,
     """Flight-path angle at times ``t``, rad:
     ``fpa0 + rate (min(max(t, start_s), end_s) - start_s)``."""
     return fpa0 + rate_rad_s * (np.clip(t, start_s, end_s) - start_s)
+
+
+def fpa_step_means(t: np.ndarray, fpa0: float, rate_rad_s: float, end_s: float,
+                   start_s: float = 0.0) -> np.ndarray:
+    """The mean of :func:`fpa_profile` over each step ``[t[i], t[i+1]]``, rad (exact: the
+    profile's integral ``F`` is 0, then ``(t - start)^2 / 2``, then linear)."""
+    ramp = end_s - start_s
+    u = np.clip(t, start_s, end_s) - start_s
+    f = 0.5 * u * u + ramp * np.maximum(t - end_s, 0.0)
+    return fpa0 + rate_rad_s * np.diff(f) / np.diff(t)
 
 
 def level_off(fpa_rad: float, alt_m: float, target_alt_m: float, tas_mps: float,

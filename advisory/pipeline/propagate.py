@@ -91,7 +91,7 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         the time it starts (s, default 0): the angle is then
         ``gamma0 + rate (min(max(t, start), end) - start)``
         (:func:`advisory.pipeline.pitch.fpa_profile`),
-        stepped with its mean over each step (12 entries: held constant, as before).
+        stepped with its exact mean over each step (12 entries: held constant).
 
     Returns
     -------
@@ -143,9 +143,12 @@ def propagate_kernel(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params: np.
         dt = t[i] - t[i - 1]
         sg = sin_g
         cg = cos_g
-        if pitching:
-            gm = gam0 + 0.5 * g_rate * (min(max(t[i - 1], g_start), g_end)
-                                        + min(max(t[i], g_start), g_end) - 2.0 * g_start)
+        if pitching:  # the angle's exact mean over the step (pitch.fpa_step_means)
+            u0 = min(max(t[i - 1], g_start), g_end) - g_start
+            u1 = min(max(t[i], g_start), g_end) - g_start
+            f0 = 0.5 * u0 * u0 + (g_end - g_start) * max(t[i - 1] - g_end, 0.0)
+            f1 = 0.5 * u1 * u1 + (g_end - g_start) * max(t[i] - g_end, 0.0)
+            gm = gam0 + g_rate * (f1 - f0) / dt
             sg = math.sin(gm)
             cg = math.cos(gm)
         alt[i] = alt[i - 1] + 0.5 * (tas[i] + tas[i - 1]) * sg * dt

@@ -69,6 +69,7 @@ from advisory.pipeline.pitch import (
     CAPTURE_RATE_RAD_S,
     flight_path_rate,
     fpa_profile,
+    fpa_step_means,
     level_off,
     pitch_end_s,
 )
@@ -250,8 +251,7 @@ def _altitudes(t: np.ndarray, m: np.ndarray, h0: float, a0: float, fpa: float,
         return alt, a
     dt = np.diff(t)
     if pitch is not None:
-        fpa_t = fpa_profile(t, fpa, pitch[0], pitch[2], pitch[1])
-        sin_mid = np.sin(0.5 * (fpa_t[1:] + fpa_t[:-1]))
+        sin_mid = np.sin(fpa_step_means(t, fpa, pitch[0], pitch[2], pitch[1]))
     for _ in range(PICARD_PASSES):
         if pitch is not None:
             v = m * a

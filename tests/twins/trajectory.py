@@ -27,7 +27,14 @@ def propagate_kernel_twin(t: np.ndarray, mach: np.ndarray, a: np.ndarray, params
     start = params[14] if params.size > 14 else 0.0
     gamma = math.atan2(sin_g, cos_g) + rate * (np.clip(t, start, end) - start)
     if rate != 0.0 and end > start:
-        mean = 0.5 * (gamma[1:] + gamma[:-1])  # the angle's mean over each step
+        # the angle's mean over each step: its integral over the step, by the midpoint
+        # rule on a fine sub-grid that contains the bends (exact for a linear piece)
+        mean = np.empty(t.size - 1)
+        for i in range(t.size - 1):
+            knots = np.unique(np.clip([t[i], t[i + 1], start, end], t[i], t[i + 1]))
+            mids = 0.5 * (knots[1:] + knots[:-1])
+            g_mid = math.atan2(sin_g, cos_g) + rate * (np.clip(mids, start, end) - start)
+            mean[i] = float(np.sum(g_mid * np.diff(knots)) / (t[i + 1] - t[i]))
         alt = np.concatenate(([h0], h0 + np.cumsum(
             0.5 * (tas[1:] + tas[:-1]) * np.sin(mean) * dt)))
         cos_step, cos_point = np.cos(mean), np.cos(gamma)

@@ -49,7 +49,8 @@ def trial_params(**over) -> np.ndarray:
     p = dict(h0=units.ft_to_m(ALT_FT), sin_fpa=0.0, cos_fpa=1.0, bank0=0.0, mach0=1.6,
              mach_rate0=0.0, a=C_45K, psi0=0.0, wind_e=0.0, wind_n=0.0, e0=0.0, n0=0.0,
              radius=6.371e6, g=G0, onset=5.0, target_mach=math.nan, decel=0.01,
-             target_bank=math.nan, turn_limit=math.nan, roll_rate=math.radians(5.0))
+             target_bank=math.nan, turn_limit=math.nan, roll_rate=math.radians(5.0),
+             fpa0=0.0, fpa_rate=0.0, fpa_start=0.0, fpa_end=0.0, level_rate=0.0)
     p.update(over)
     return np.array([p[k] for k in TRIAL_PARAMS], dtype=np.float64)
 
@@ -61,6 +62,17 @@ def trial_params(**over) -> np.ndarray:
     {"onset": 7.0, "target_bank": -math.radians(25.0), "turn_limit": -math.radians(90.0),
      "target_mach": 1.3, "bank0": math.radians(10.0)},
     {"bank0": math.radians(-20.0), "mach_rate0": 0.002, "wind_e": 20.0, "e0": 3e4},
+    # a climb the crew levels at 1 deg/s from the onset; a level-off ahead (a capture
+    # from 12 s to 15 s) before the onset at 20 s; a descent held (level rate 0)
+    {"fpa0": math.radians(3.0), "sin_fpa": math.sin(math.radians(3.0)),
+     "cos_fpa": math.cos(math.radians(3.0)), "level_rate": math.radians(1.0),
+     "target_mach": 1.3},
+    {"fpa0": math.radians(3.0), "sin_fpa": math.sin(math.radians(3.0)),
+     "cos_fpa": math.cos(math.radians(3.0)), "fpa_rate": -math.radians(1.0),
+     "fpa_start": 12.0, "fpa_end": 15.0, "onset": 20.0, "level_rate": math.radians(1.0),
+     "target_bank": math.radians(25.0), "turn_limit": math.radians(40.0)},
+    {"fpa0": -math.radians(2.0), "sin_fpa": math.sin(-math.radians(2.0)),
+     "cos_fpa": math.cos(math.radians(2.0))},
 ])
 def test_trial_flight_matches_its_twin(over) -> None:
     # Parity: compiled trial flight vs its readable twin (tests/twins/trial.py).
@@ -114,12 +126,12 @@ def test_trial_clears_kernel_matches_the_twin_composition(small_table) -> None:
             trials, [every, base.strips, trial_nodes(base.strips)]):
         p = base.params.copy()
         p[14], p[15], p[17], p[18] = onset, mach, bank, turn
-        fast = trial_clears_kernel(base.t_judged, base.k0, p, 0.0, 0.0, False, tb.ax_alt, tb.ax_mex,
+        fast = trial_clears_kernel(base.t_judged, base.k0, p, 0.0, False, tb.ax_alt, tb.ax_mex,
                                    tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(),
                                    nodes, pz.x, pz.y, pz.ring_start, pz.part_start, pz.zone_start,
                                    pz.zone_bbox, pz.ring_chunk, pz.chunk_edges, pz.chunk_bbox,
                                    pz.margin_m, pz.limit_pa, base.focus_cap, 1.25)
-        slow = trial_clears_twin(base.t_judged, base.k0, p, 0.0, 0.0, False, tb, nodes, pz,
+        slow = trial_clears_twin(base.t_judged, base.k0, p, 0.0, False, tb, nodes, pz,
                                  zones, base.focus_cap, 1.25)
         assert bool(fast) == slow, (onset, mach, bank, turn, nodes.size)
         outcomes.add(slow)

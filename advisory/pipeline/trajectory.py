@@ -142,6 +142,9 @@ class Trajectory:
         Wind used (velocity of the air toward east and north at the start point), m/s.
     wind_inferred : bool
         True when the wind was inferred from ground speed (and track) rather than given.
+    pitch : tuple of float
+        The flight-path angle's change ahead: rate (rad/s), start and end (s), as
+        :func:`advisory.pipeline.pitch.fpa_profile` takes them; (0, 0, 0) when held.
 
     The geodetic outputs ``lat``, ``lon`` (rad), ``heading_rad`` and ``track_rad``
     (true, rad clockwise from true north, [0, 2 pi)) are properties computed on first
@@ -164,6 +167,7 @@ class Trajectory:
     wind_east_mps: float
     wind_north_mps: float
     wind_inferred: bool
+    pitch: tuple[float, float, float] = (0.0, 0.0, 0.0)
 
     def __len__(self) -> int:
         return int(self.t_s.size)
@@ -502,6 +506,7 @@ def predict_trajectory(
         wind_east_mps=float(we),
         wind_north_mps=float(wn),
         wind_inferred=inferred,
+        pitch=(g_rate, g_start, g_end) if pitching else (0.0, 0.0, 0.0),
     )
 
 
@@ -509,7 +514,8 @@ def subset_trajectory(traj: Trajectory, idx: np.ndarray) -> Trajectory:
     """The points ``idx`` of a trajectory (same frame and wind)."""
     return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
                       frame=traj.frame, wind_east_mps=traj.wind_east_mps,
-                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred)
+                      wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred,
+                      pitch=traj.pitch)
 
 
 _TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",

@@ -12,14 +12,24 @@ search):
   has turned to within the roll-out lead of ``turn_limit`` (half the turn rate times the
   roll-out time, so the turn ends near the asked change), then rolls level.
 
+The flight-path angle follows the prediction's until the onset (held, or the pitch
+manoeuvre or level-off at the selected altitude that
+:func:`advisory.pipeline.trajectory.predict_trajectory` foresaw:
+``fpa0 + rate (min(max(t, start), end) - start)``); from the onset the crew levels the
+path at ``level_rate`` (the aircraft's capture rate; 0: the predicted angle goes on), as
+the scenarios' crew does when it takes over (``docs/scenarios.md``). The emissions are
+looked up at their own angle, so a level-off's push-over carries its focus through the
+focus factor as a deceleration's does.
+
 The coordinated turn ``psi_dot = g tan(bank) / V`` and the climb ``V sin(gamma)`` are the
 point-mass relations of :mod:`advisory.pipeline.trajectory` (any flight-mechanics
 text); the roll-out lead and the constant roll rate are common practice, no source. The
-speed of sound is held at its present value (the altitude changes little over a trial)
-and the flight-path angle is held. The integration takes sub-steps of at most
-:data:`SUBSTEP_S` between the emission times while the bank changes or a roll-out is
-awaited (one step per interval otherwise) (trapezoidal heading, position along the
-step's mid heading plus the wind, corrected for the frame's map scale as
+speed of sound is held at its present value (the altitude changes little over a trial).
+The integration takes sub-steps of at most :data:`SUBSTEP_S` between the emission times
+while the bank or the flight-path angle changes or a roll-out is awaited (one step per
+interval otherwise; the angle's mean over a sub-step is its end values' mean)
+(trapezoidal heading, position along the step's mid heading plus the wind, corrected for
+the frame's map scale as
 :func:`advisory.pipeline.propagate.propagate_kernel` does).
 
 :func:`trial_clears_kernel` flies a trial, looks the emissions after the onset up in the
@@ -56,12 +66,14 @@ SUBSTEP_S = 0.5  #: longest integration sub-step of a trial, s
 #: Order of the entries of the ``params`` argument of :func:`fly_trial_kernel`.
 TRIAL_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank0", "mach0", "mach_rate0", "a", "psi0",
                 "wind_e", "wind_n", "e0", "n0", "radius", "g", "onset", "target_mach",
-                "decel", "target_bank", "turn_limit", "roll_rate")
+                "decel", "target_bank", "turn_limit", "roll_rate", "fpa0", "fpa_rate",
+                "fpa_start", "fpa_end", "level_rate")
 #: Rows of the array returned by :func:`fly_trial_kernel`.
 TRIAL_ROWS = ("east_m", "north_m", "alt_m", "mach", "tas_mps", "heading_grid_rad",
-              "bank_rad", "track_grid_rad", "ground_speed_mps", "turn_rate_rad_s")
+              "bank_rad", "track_grid_rad", "ground_speed_mps", "turn_rate_rad_s", "fpa_rad")
 
 P_ONSET, P_TARGET_MACH, P_DECEL, P_TARGET_BANK, P_TURN_LIMIT, P_ROLL_RATE = range(14, 20)
+P_FPA0, P_FPA_RATE, P_FPA_START, P_FPA_END, P_LEVEL_RATE = range(20, 25)
 
 
 @njit(cache=True)
@@ -85,6 +97,19 @@ def _mach_at(tau, p):
 
 
 @njit(cache=True)
+def _fpa_at(tau, p):
+    """Flight-path angle (rad) at time ``tau`` (s) of the trial ``p`` (module notes)."""
+    rate, start, end = p[P_FPA_RATE], p[P_FPA_START], p[P_FPA_END]
+    ramp = rate != 0.0 and end > start
+    onset = p[P_ONSET]
+    ref = min(tau, onset) if p[P_LEVEL_RATE] > 0.0 else tau
+    g = p[P_FPA0] + rate * (min(max(ref, start), end) - start) if ramp else p[P_FPA0]
+    if tau <= onset or p[P_LEVEL_RATE] <= 0.0:
+        return g
+    return _toward(g, 0.0, p[P_LEVEL_RATE] * (tau - onset))
+
+
+@njit(cache=True)
 def fly_trial_kernel(t, p):
     """Fly a trial (module notes) and sample it at the times ``t``.
 
@@ -93,23 +118,26 @@ def fly_trial_kernel(t, p):
     t : ndarray
         float64 (N,) times from the present state, s, increasing from 0.
     p : ndarray
-        float64 (20,) in the order of :data:`TRIAL_PARAMS`: altitude (m); sine and
-        cosine of the flight-path angle; present bank (rad, positive right); present
+        float64 (25,) in the order of :data:`TRIAL_PARAMS`: altitude (m); sine and
+        cosine of the present flight-path angle; present bank (rad, positive right); present
         Mach and Mach rate (1/s); speed of sound (m/s); grid heading at t = 0 (rad);
         wind grid components east and north (m/s); start position in the frame (m, m);
         the frame's Gaussian radius (m); gravity (m/s^2); onset of the action (s);
         target Mach (NaN: the present schedule); Mach rate of the change (1/s, > 0);
         target bank (rad, NaN: wings level); signed heading change at which the turn
-        rolls out (rad, NaN: none); roll rate (rad/s).
+        rolls out (rad, NaN: none); roll rate (rad/s); the present flight-path angle
+        (rad), the rate (rad/s), start and end (s) of the predicted pitch manoeuvre (rate
+        0: none); the rate the crew levels the path at from the onset (rad/s, 0: held).
 
     Returns
     -------
     ndarray
-        float64 (10, N), rows named by :data:`TRIAL_ROWS`.
+        float64 (11, N), rows named by :data:`TRIAL_ROWS`.
     """
     n = t.shape[0]
-    out = np.empty((10, n))
-    sin_g, cos_g, a, g, radius = p[1], p[2], p[6], p[13], p[12]
+    out = np.empty((11, n))
+    a, g, radius = p[6], p[13], p[12]
+    gam0 = p[P_FPA0]
     onset, target_bank, limit, roll = p[P_ONSET], p[P_TARGET_BANK], p[P_TURN_LIMIT], p[P_ROLL_RATE]
     wings_level = math.isnan(target_bank)
     has_limit = not math.isnan(limit)
@@ -126,9 +154,10 @@ def fly_trial_kernel(t, p):
             if phase == 0 and tau >= onset - 1e-12:
                 phase = 2 if wings_level else 1
             rolling = (phase == 1) or (phase == 2 and bank != 0.0)
-            # sub-steps only while the bank changes or a roll-out is awaited; otherwise
-            # the step's arc is exact (constant bank) and the Mach is linear in time
-            h = min(SUBSTEP_S, t[i] - tau) if rolling else t[i] - tau
+            pitching = _fpa_at(tau, p) != _fpa_at(t[i], p)
+            # sub-steps only while the bank or the angle changes or a roll-out is awaited;
+            # otherwise the step's arc is exact (constant bank) and the Mach is linear
+            h = min(SUBSTEP_S, t[i] - tau) if rolling or pitching else t[i] - tau
             if phase == 0 and tau + h > onset + 1e-12:
                 h = onset - tau  # land a sub-step on the onset
             m1 = _mach_at(tau + h, p)
@@ -140,6 +169,12 @@ def fly_trial_kernel(t, p):
             elif phase == 2:
                 b1 = _toward(bank, 0.0, roll * h)
             w1 = g * math.tan(b1) / v1
+            ga = _fpa_at(tau, p)
+            gb = _fpa_at(tau + h, p)
+            if ga == gam0 and gb == gam0:  # held: the given sine and cosine
+                sin_g, cos_g = p[1], p[2]
+            else:
+                sin_g, cos_g = math.sin(0.5 * (ga + gb)), math.cos(0.5 * (ga + gb))
             dpsi = 0.5 * (w0 + w1) * h
             if phase > 0:
                 turned += dpsi
@@ -173,7 +208,9 @@ def fly_trial_kernel(t, p):
         out[4, i] = v
         out[5, i] = psi % (2.0 * math.pi)
         out[6, i] = bank
-        vh = v * cos_g
+        gam = _fpa_at(t[i], p)
+        out[10, i] = gam
+        vh = v * (p[2] if gam == gam0 else math.cos(gam))
         ge = vh * math.sin(psi) + p[8]
         gn = vh * math.cos(psi) + p[9]
         out[7, i] = math.atan2(ge, gn) % (2.0 * math.pi)
@@ -183,10 +220,10 @@ def fly_trial_kernel(t, p):
 
 
 @njit(cache=True)
-def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
+def _trial_lift(fl, k_lo, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
                 cutoff, lift, strips, rows, codes, band=lk.NEAR_CUTOFF_BAND):
-    """The trial's rows at the lift of its bank (level coordinated flight, the flight-path
-    angle held: lift ``cos(gamma) / cos(bank)`` tilted by the bank;
+    """The trial's rows at the lift of its bank (coordinated flight at each emission's
+    flight-path angle: lift ``cos(gamma) / cos(bank)`` tilted by the bank;
     :func:`advisory.pipeline.footprint.lift_and_bank`)."""
     ray_age, lift_map, params, lz, lnp = lift
     if lift_map.size == 0:
@@ -198,8 +235,9 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
     banked = False
     for kk in range(nk):
         k = k_lo + kk
-        across = fl[4, k] * fl[9, k] * p[2]
-        up = p[13] * p[2]
+        cg = p[2] if fl[10, k] == p[P_FPA0] else math.cos(fl[10, k])
+        across = fl[4, k] * fl[9, k] * cg
+        up = p[13] * cg
         lifts[kk] = math.sqrt(across * across + up * up) / p[13]
         banks[kk] = math.atan2(across, up)
         if banks[kk] != 0.0:
@@ -211,25 +249,27 @@ def _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, 
     last_alt = math.nan
     last_mach = math.nan
     last_hdg = math.nan
+    last_fpa = math.nan
     for kk in range(nk):
         k = k_lo + kk
         if codes[kk] == lk.NO_BOOM or banks[kk] == 0.0:
             continue
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
-        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
-            lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex, ax_fpa, ax_hdg,
-                             cutoff, ray_age, scratch, band)
-            last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
+        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg
+                and fl[10, k] == last_fpa):
+            lk.lookup_kernel(fl[2, k], fl[3, k], fl[10, k], hdg, ax_alt, ax_mex, ax_fpa,
+                             ax_hdg, cutoff, ray_age, scratch, band)
+            last_alt, last_mach, last_hdg, last_fpa = fl[2, k], fl[3, k], hdg, fl[10, k]
         for s in range(ns):
             ages[kk, s, 0] = scratch[strips[s], 0]
     scale = np.empty(nk)
     lift_scale_kernel(fl[2, k_lo:].copy(), fl[3, k_lo:].copy(), lz, lnp, params[5], scale)
-    lift_correction_kernel(rows, ages, codes, lifts, banks, np.full(nk, fpa), scale,
+    lift_correction_kernel(rows, ages, codes, lifts, banks, fl[10, k_lo:].copy(), scale,
                            lift_map, params)
 
 
 @njit(cache=True)
-def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
+def trial_clears_kernel(t, k0, p, hdg_offset, has_wind, ax_alt, ax_mex, ax_fpa, ax_hdg,
                         cutoff, cells, lift, strips, x, y, ring_start, part_start, zone_start,
                         zone_bbox, ring_chunk, chunk_edges, chunk_bbox, margins, limits,
                         focus_cap, focus_threshold, band=lk.NEAR_CUTOFF_BAND, stretch=None,
@@ -243,9 +283,8 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     k0 : int
         First emission judged (the earlier ones are not changed by the action).
     p : ndarray
-        The trial (:func:`fly_trial_kernel`).
-    fpa : float
-        Flight-path angle, rad (held).
+        The trial (:func:`fly_trial_kernel`; each emission is looked up at its own
+        flight-path angle).
     hdg_offset : float
         True minus grid heading at the aircraft, rad (for a table with wind).
     has_wind : bool
@@ -289,18 +328,21 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     last_alt = math.nan
     last_mach = math.nan
     last_hdg = math.nan
+    last_fpa = math.nan
     last_code = 0
     for kk in range(nk):
         k = k_lo + kk
         hdg = (fl[5, k] + hdg_offset) % (2.0 * math.pi) if has_wind else 0.0
-        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg):
-            last_code, mcut = lk.lookup_kernel(fl[2, k], fl[3, k], fpa, hdg, ax_alt, ax_mex,
-                                               ax_fpa, ax_hdg, cutoff, cells, scratch, band)
+        if not (fl[2, k] == last_alt and fl[3, k] == last_mach and hdg == last_hdg
+                and fl[10, k] == last_fpa):
+            last_code, mcut = lk.lookup_kernel(fl[2, k], fl[3, k], fl[10, k], hdg, ax_alt,
+                                               ax_mex, ax_fpa, ax_hdg, cutoff, cells, scratch,
+                                               band)
             if stretch is not None and last_code != lk.NO_BOOM:
                 lk.stretch_row(scratch, fl[3, k] - mcut, stretch,
                                strips[1] if inner_left < 0 else inner_left,
                                strips[ns - 2] if inner_right < 0 else inner_right)
-            last_alt, last_mach, last_hdg = fl[2, k], fl[3, k], hdg
+            last_alt, last_mach, last_hdg, last_fpa = fl[2, k], fl[3, k], hdg, fl[10, k]
         codes[kk] = last_code
         for s in range(ns):
             for q in range(lk.N_QUANTITIES):
@@ -316,12 +358,12 @@ def trial_clears_kernel(t, k0, p, fpa, hdg_offset, has_wind, ax_alt, ax_mex, ax_
     vg_e = np.empty(nk)
     vg_n = np.empty(nk)
     tas = np.empty(nk)
-    fpas = np.full(nk, fpa)
+    fpas = fl[10, k_lo:].copy()
     for kk in range(nk):
         vg_e[kk] = fl[8, k_lo + kk] * math.sin(fl[7, k_lo + kk])
         vg_n[kk] = fl[8, k_lo + kk] * math.cos(fl[7, k_lo + kk])
         tas[kk] = fl[3, k_lo + kk] * p[6]
-    _trial_lift(fl, k_lo, fpa, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
+    _trial_lift(fl, k_lo, p, has_wind, hdg_offset, ax_alt, ax_mex, ax_fpa, ax_hdg,
                 cutoff, lift, strips, rows, codes, band)
     te = np.empty((nk, ns))
     tn = np.empty((nk, ns))

@@ -260,7 +260,7 @@ class TrialBase:
             float(self.ahead.heading_rad[0] - self.ahead.heading_grid_rad[0])
             if has_wind else 0.0)
         return bool(trial_clears_kernel(
-            t, k0, p, self.fpa, hdg_offset, has_wind, tb.ax_alt,
+            t, k0, p, hdg_offset, has_wind, tb.ax_alt,
             tb.ax_mex, tb.ax_fpa, tb.ax_hdg, tb.cutoff, tb.cells, tb.lift_args(),
             nodes,
             pz.x, pz.y,
@@ -299,6 +299,8 @@ def _base_params(ahead: Trajectory, cfg: AdvisorConfig) -> np.ndarray:
               float(ahead.mach[0]), mdot, float(ahead.tas_mps[0] / ahead.mach[0]), psi0,
               ge - vh * math.sin(psi0), gn - vh * math.cos(psi0), float(ahead.east_m[0]),
               float(ahead.north_m[0]), ahead.frame.radius_m, units.G0)
-    p[14:] = (cfg.reaction_s, math.nan, cfg.decel_mach_per_s, math.nan, math.nan,
-              math.radians(cfg.roll_rate_deg_s))
+    p[14:20] = (cfg.reaction_s, math.nan, cfg.decel_mach_per_s, math.nan, math.nan,
+                math.radians(cfg.roll_rate_deg_s))
+    # the angle as predicted until the onset, then levelled by the crew at the capture rate
+    p[20:] = (fpa, *ahead.pitch, math.radians(cfg.capture_pitch_rate_deg_s))
     return p

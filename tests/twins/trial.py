@@ -40,6 +40,21 @@ def _mach(tau: float, p: dict) -> float:
                0.1)
 
 
+def _fpa(tau: float, p: dict) -> float:
+    """Flight-path angle at ``tau``: the predicted profile (held, or a ramp from ``start``
+    to ``end``) until the onset, then toward level at the crew's rate (0: the profile)."""
+    def profile(x: float) -> float:
+        if p["fpa_rate"] == 0.0 or p["fpa_end"] <= p["fpa_start"]:
+            return p["fpa0"]
+        return p["fpa0"] + p["fpa_rate"] * (min(max(x, p["fpa_start"]), p["fpa_end"])
+                                            - p["fpa_start"])
+    if p["level_rate"] <= 0.0 or tau <= p["onset"]:
+        return profile(tau)
+    at_onset = profile(p["onset"])
+    reach = p["level_rate"] * (tau - p["onset"])
+    return 0.0 if abs(at_onset) <= reach else at_onset - math.copysign(reach, at_onset)
+
+
 def _roll(bank: float, target: float, step: float) -> float:
     return target if abs(target - bank) <= step else bank + math.copysign(step, target - bank)
 
@@ -51,22 +66,24 @@ def fly_trial_kernel_twin(t: np.ndarray, params: np.ndarray) -> np.ndarray:
     pos = [p["e0"], p["n0"]]
     alt, psi, bank, turned, tau = p["h0"], p["psi0"], p["bank0"], 0.0, 0.0
     phase = "before"
-    out = np.empty((10, t.size))
+    out = np.empty((11, t.size))
     for i, t_i in enumerate(t):
         while tau < t_i - 1e-12:
             if phase == "before" and tau >= p["onset"] - 1e-12:
                 phase = "level" if math.isnan(p["target_bank"]) else "turn"
             rolling = phase == "turn" or (phase == "level" and bank != 0.0)
-            h = min(SUBSTEP_S, t_i - tau) if rolling else t_i - tau
+            pitching = _fpa(tau, p) != _fpa(float(t_i), p)
+            h = min(SUBSTEP_S, t_i - tau) if rolling or pitching else t_i - tau
             if phase == "before" and tau + h > p["onset"] + 1e-12:
                 h = p["onset"] - tau
             v0, v1 = _mach(tau, p) * a, _mach(tau + h, p) * a
             target = {"before": bank, "turn": p["target_bank"], "level": 0.0}[phase]
             new_bank = _roll(bank, target, p["roll_rate"] * h)
             dpsi = 0.5 * (g * math.tan(bank) / v0 + g * math.tan(new_bank) / v1) * h
+            mean_fpa = 0.5 * (_fpa(tau, p) + _fpa(tau + h, p))
             if phase != "before":
                 turned += dpsi
-            chord = 0.5 * (v0 + v1) * p["cos_fpa"] * h * (
+            chord = 0.5 * (v0 + v1) * math.cos(mean_fpa) * h * (
                 np.sinc(dpsi / (2.0 * math.pi)) if abs(dpsi) >= 2e-4 else 1.0 - dpsi ** 2 / 24.0)
             de = chord * math.sin(psi + 0.5 * dpsi) + p["wind_e"] * h
             dn = chord * math.cos(psi + 0.5 * dpsi) + p["wind_n"] * h
@@ -80,7 +97,7 @@ def fly_trial_kernel_twin(t: np.ndarray, params: np.ndarray) -> np.ndarray:
                 d = hs * radial * u + (d - radial * u) / hs
                 de, dn = float(d[0]), float(d[1])
             pos = [pos[0] + de, pos[1] + dn]
-            alt += 0.5 * (v0 + v1) * p["sin_fpa"] * h
+            alt += 0.5 * (v0 + v1) * math.sin(mean_fpa) * h
             psi += dpsi
             bank = new_bank
             tau += h
@@ -89,15 +106,16 @@ def fly_trial_kernel_twin(t: np.ndarray, params: np.ndarray) -> np.ndarray:
                 if abs(p["turn_limit"]) - abs(turned) <= lead:
                     phase = "level"
         v = _mach(float(t_i), p) * a
-        ge = v * p["cos_fpa"] * math.sin(psi) + p["wind_e"]
-        gn = v * p["cos_fpa"] * math.cos(psi) + p["wind_n"]
+        gam = _fpa(float(t_i), p)
+        ge = v * math.cos(gam) * math.sin(psi) + p["wind_e"]
+        gn = v * math.cos(gam) * math.cos(psi) + p["wind_n"]
         out[:, i] = (pos[0], pos[1], alt, v / a, v, psi % (2 * math.pi), bank,
                      math.atan2(ge, gn) % (2 * math.pi), math.hypot(ge, gn),
-                     g * math.tan(bank) / v)
+                     g * math.tan(bank) / v, gam)
     return out
 
 
-def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, pz, zones,
+def trial_clears_twin(t, k0, params, hdg_offset, has_wind, table, strips, pz, zones,
                       focus_cap, focus_threshold) -> bool:
     """Twin of :func:`advisory.pipeline.trial.trial_clears_kernel`: the trial flown by
     its twin, every emission from ``k0 - 1`` looked up on every azimuth, placed, its focus
@@ -110,29 +128,29 @@ def trial_clears_twin(t, k0, params, fpa, hdg_offset, has_wind, table, strips, p
     cut = np.zeros(len(ks))
     for i, k in enumerate(ks):
         hdg = (fl[5, k] + hdg_offset) % (2 * math.pi) if has_wind else 0.0
-        codes[i], cut[i] = lookup_twin(fl[2, k], fl[3, k], fpa, hdg, table.ax_alt,
+        codes[i], cut[i] = lookup_twin(fl[2, k], fl[3, k], fl[10, k], hdg, table.ax_alt,
                                        table.ax_mex, table.ax_fpa, table.ax_hdg, table.cutoff,
                                        table.cells, rows[i])
     if table.has_lift_map:  # level coordinated flight at the trial's bank
-        tas, rate = fl[4, lo:], fl[9, lo:]
-        across = tas * rate * math.cos(fpa)
-        up = params[13] * math.cos(fpa)
+        tas, rate, fpa = fl[4, lo:], fl[9, lo:], fl[10, lo:]
+        across = tas * rate * np.cos(fpa)
+        up = params[13] * np.cos(fpa)
         lift, bank = np.hypot(across, up) / params[13], np.arctan2(across, up)
         ages = np.zeros((len(ks), table.eta.size, 1))
         for i, k in enumerate(ks):
             hdg = (fl[5, k] + hdg_offset) % (2 * math.pi) if has_wind else 0.0
-            lookup_twin(fl[2, k], fl[3, k], fpa, hdg, table.ax_alt, table.ax_mex, table.ax_fpa,
-                        table.ax_hdg, table.cutoff, table.ray_age, ages[i])
+            lookup_twin(fl[2, k], fl[3, k], fl[10, k], hdg, table.ax_alt, table.ax_mex,
+                        table.ax_fpa, table.ax_hdg, table.cutoff, table.ray_age, ages[i])
         scale = lift_scale_twin(fl[2, lo:], fl[3, lo:], table.lift_z, table.lift_ln_p,
                                 table.lift_params[5])
-        rows = lift_correction_twin(rows, ages, codes, lift, bank, np.full(len(ks), fpa),
+        rows = lift_correction_twin(rows, ages, codes, lift, bank, fpa.copy(),
                                     scale, table.lift_map, table.lift_params)
     tk = t[lo:]
     e, n, ta, de, dn = place_kernel_twin(tk, fl[0, lo:], fl[1, lo:], fl[5, lo:], rows, codes)
     s = k0 - lo
     te, tn = steady_translation_twin(fl[8, lo:] * np.sin(fl[7, lo:]),
                                      fl[8, lo:] * np.cos(fl[7, lo:]), fl[3, lo:] * params[6],
-                                     fl[3, lo:], fl[5, lo:], np.full(tk.size, fpa), rows, codes)
+                                     fl[3, lo:], fl[5, lo:], fl[10, lo:], rows, codes)
     amp = focus_kernel_twin(tk, e, n, de, dn, te, tn, codes, fl[3, lo:], focus_cap, s)
     pred = CarpetPrediction(
         t_emit_s=tk[s:], codes=codes[s:], cutoff_mach=cut[s:], east_m=e[s:], north_m=n[s:],

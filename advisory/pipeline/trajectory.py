@@ -58,18 +58,17 @@ from a predicted one (the recent past, resolution turns) are in
 from __future__ import annotations
 
 import math
-from collections.abc import Callable
 from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
 
 from advisory.geo.frame import FramePoints, LocalFrame
+from advisory.pipeline.climb import SpeedOfSound, altitudes, capture_moved, sound_speed
 from advisory.pipeline.pitch import (
     CAPTURE_RATE_RAD_S,
     flight_path_rate,
     fpa_profile,
-    fpa_step_means,
     level_off,
     pitch_end_s,
 )
@@ -102,9 +101,7 @@ MIN_MACH = 0.1  #: floor for the extrapolated Mach (keeps the turn rate finite)
 MAX_BANK_RAD = math.radians(85.0)  #: largest accepted |bank|, rad
 MAX_FPA_RAD = math.radians(60.0)  #: largest accepted |flight-path angle|, rad
 MAX_STEPS = 100_000  #: largest accepted number of steps
-PICARD_PASSES = 8  #: most altitude passes when the speed of sound depends on altitude
 
-SpeedOfSound = float | Callable[[np.ndarray], np.ndarray]
 
 
 @dataclass(frozen=True, eq=False)
@@ -216,70 +213,12 @@ def _check(name: str, value, lo: float | None = None, hi: float | None = None,
     return v
 
 
-def _cumtrapz(y: np.ndarray, dt: np.ndarray) -> np.ndarray:
-    out = np.empty_like(y)
-    out[0] = 0.0
-    np.cumsum(0.5 * (y[1:] + y[:-1]) * dt, out=out[1:])
-    return out
-
-
 def _grid_bearing(pt: FramePoints, azimuth: float) -> float:
     """Grid bearing of a true azimuth at the single point ``pt`` (scalar path of
     :meth:`advisory.geo.frame.FramePoints.azimuth_to_grid`)."""
     th = azimuth - float(pt.radial_true_rad[0])
     q = float(pt.anisotropy[0])
     return float(pt.radial_grid_rad[0]) + math.atan2(q * math.sin(th), math.cos(th))
-
-
-def _sound_speed(speed_of_sound: SpeedOfSound, alt: np.ndarray) -> np.ndarray:
-    a = speed_of_sound(alt) if callable(speed_of_sound) else speed_of_sound
-    a = np.broadcast_to(np.asarray(a, dtype=np.float64), alt.shape)
-    bad = ~(np.isfinite(a) & (a > 0.0))
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
-        raise ValueError(f"speed_of_sound must be a positive finite speed in m/s, got "
-                         f"{a[i]!r} at altitude {alt[i]:.1f} m")
-    return np.ascontiguousarray(a)
-
-
-def _altitudes(t: np.ndarray, m: np.ndarray, h0: float, a0: float, fpa: float,
-               pitch: tuple[float, float, float] | None, speed_of_sound: Callable
-               ) -> tuple[np.ndarray, np.ndarray]:
-    """Altitudes (m) and speeds of sound (m/s) over ``t``: fixed-point passes until the
-    altitudes settle, the climb stepped as the kernel steps it (the mean angle over each
-    step when ``pitch`` = (rate, start, end) is given)."""
-    sin_g = math.sin(fpa)
-    alt = h0 + (float(m[0]) * a0 * sin_g) * t
-    a = _sound_speed(speed_of_sound, alt)
-    if sin_g == 0.0 and pitch is None:
-        return alt, a
-    dt = np.diff(t)
-    if pitch is not None:
-        sin_mid = np.sin(fpa_step_means(t, fpa, pitch[0], pitch[2], pitch[1]))
-    for _ in range(PICARD_PASSES):
-        if pitch is not None:
-            v = m * a
-            new_alt = np.concatenate(([h0], h0 + np.cumsum(
-                0.5 * (v[1:] + v[:-1]) * sin_mid * dt)))
-        else:
-            new_alt = h0 + _cumtrapz(m * a * sin_g, dt)
-        a = _sound_speed(speed_of_sound, new_alt)
-        settled = np.abs(new_alt - alt).max() < 1e-3
-        alt = new_alt
-        if settled:
-            break
-    return alt, a
-
-
-def _capture_moved(t: np.ndarray, alt: np.ndarray, h_sel: float, rate: float, start: float,
-                   end: float, v_start: float, fpa: float) -> tuple[float, float]:
-    """The capture's (start, end), s, moved so that the path levels at ``h_sel``: the
-    level reached misses it by ``err`` where the airspeed changed with height, and
-    starting ``err / (V sin gamma0)`` earlier takes that much height off."""
-    err = float(np.interp(end, t, alt)) - h_sel
-    shift = err / (v_start * math.sin(fpa))
-    shift = min(shift, start)  # never before now
-    return start - shift, end - shift
 
 
 def predict_trajectory(
@@ -416,7 +355,7 @@ def predict_trajectory(
         m = np.minimum(m, m_sel) if mdot > 0.0 else np.maximum(m, m_sel)
     sin_g = math.sin(fpa)
     cos_g = math.cos(fpa)
-    a0 = (float(_sound_speed(speed_of_sound, np.array([h0]))[0]) if callable(speed_of_sound)
+    a0 = (float(sound_speed(speed_of_sound, np.array([h0]))[0]) if callable(speed_of_sound)
           else float(speed_of_sound))
     g_rate = flight_path_rate(fpa, bank, m0 * a0, q, n_load)
     g_end = pitch_end_s(fpa, g_rate)
@@ -430,13 +369,12 @@ def predict_trajectory(
         capture = None
     pitching = g_end > g_start
     if callable(speed_of_sound):
-        alt, a = _altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end) if pitching else None,
+        alt, a = altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end) if pitching else None,
                             speed_of_sound)
         if capture is not None and h_sel is not None and g_end < t[-1]:  # level at h_sel
             v_start = float(np.interp(g_start, t, m * a))
-            g_start, g_end = _capture_moved(t, alt, h_sel, g_rate, g_start, g_end, v_start,
-                                            fpa)
-            alt, a = _altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end), speed_of_sound)
+            g_start, g_end = capture_moved(t, alt, h_sel, g_start, g_end, v_start, fpa)
+            alt, a = altitudes(t, m, h0, a0, fpa, (g_rate, g_start, g_end), speed_of_sound)
     else:
         a = np.full_like(t, float(speed_of_sound))
     fpa_t = (fpa_profile(t, fpa, g_rate, g_end, g_start) if pitching

@@ -50,7 +50,8 @@ def trial_params(**over) -> np.ndarray:
              mach_rate0=0.0, a=C_45K, psi0=0.0, wind_e=0.0, wind_n=0.0, e0=0.0, n0=0.0,
              radius=6.371e6, g=G0, onset=5.0, target_mach=math.nan, decel=0.01,
              target_bank=math.nan, turn_limit=math.nan, roll_rate=math.radians(5.0),
-             fpa0=0.0, fpa_rate=0.0, fpa_start=0.0, fpa_end=0.0, level_rate=0.0)
+             fpa0=0.0, fpa_rate=0.0, fpa_start=0.0, fpa_end=0.0, level_rate=0.0,
+             mach_hold=math.nan)
     p.update(over)
     return np.array([p[k] for k in TRIAL_PARAMS], dtype=np.float64)
 
@@ -73,6 +74,10 @@ def trial_params(**over) -> np.ndarray:
      "target_bank": math.radians(25.0), "turn_limit": math.radians(40.0)},
     {"fpa0": -math.radians(2.0), "sin_fpa": math.sin(-math.radians(2.0)),
      "cos_fpa": math.cos(math.radians(2.0))},
+    # an acceleration that stops at the selected Mach before and after the onset
+    {"mach_rate0": 0.01, "mach_hold": 1.64, "target_bank": math.radians(25.0),
+     "turn_limit": math.radians(30.0), "onset": 10.0},
+    {"mach_rate0": -0.01, "mach_hold": 1.55, "target_mach": 1.3, "onset": 8.0},
 ])
 def test_trial_flight_matches_its_twin(over) -> None:
     # Parity: compiled trial flight vs its readable twin (tests/twins/trial.py).

@@ -454,5 +454,5 @@ def join_past(window: tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.n
     tr = ahead.traj
     traj = Trajectory(**dict(zip(_TRAJ_ARRAYS, arrays)), frame=tr.frame,
                       wind_east_mps=tr.wind_east_mps, wind_north_mps=tr.wind_north_mps,
-                      wind_inferred=tr.wind_inferred, pitch=tr.pitch)
+                      wind_inferred=tr.wind_inferred, pitch=tr.pitch, mach_hold=tr.mach_hold)
     return FlownPast(traj, rows, codes, cutoffs), n_f + n_w

@@ -142,6 +142,8 @@ class Trajectory:
     pitch : tuple of float
         The flight-path angle's change ahead: rate (rad/s), start and end (s), as
         :func:`advisory.pipeline.pitch.fpa_profile` takes them; (0, 0, 0) when held.
+    mach_hold : float
+        The Mach the predicted Mach change stops at (the selected Mach), NaN when none.
 
     The geodetic outputs ``lat``, ``lon`` (rad), ``heading_rad`` and ``track_rad``
     (true, rad clockwise from true north, [0, 2 pi)) are properties computed on first
@@ -165,6 +167,7 @@ class Trajectory:
     wind_north_mps: float
     wind_inferred: bool
     pitch: tuple[float, float, float] = (0.0, 0.0, 0.0)
+    mach_hold: float = math.nan
 
     def __len__(self) -> int:
         return int(self.t_s.size)
@@ -351,8 +354,10 @@ def predict_trajectory(
     t = np.arange(n_steps + 1, dtype=np.float64) * dt_nom
     t[-1] = horizon
     m = np.maximum(m0 + mdot * t, MIN_MACH)
+    mach_hold = math.nan
     if m_sel is not None and (m_sel - m0) * mdot > 0.0:  # the change stops at the target
         m = np.minimum(m, m_sel) if mdot > 0.0 else np.maximum(m, m_sel)
+        mach_hold = m_sel
     sin_g = math.sin(fpa)
     cos_g = math.cos(fpa)
     a0 = (float(sound_speed(speed_of_sound, np.array([h0]))[0]) if callable(speed_of_sound)
@@ -445,6 +450,7 @@ def predict_trajectory(
         wind_north_mps=float(wn),
         wind_inferred=inferred,
         pitch=(g_rate, g_start, g_end) if pitching else (0.0, 0.0, 0.0),
+        mach_hold=mach_hold,
     )
 
 
@@ -453,7 +459,7 @@ def subset_trajectory(traj: Trajectory, idx: np.ndarray) -> Trajectory:
     return Trajectory(**{k: np.ascontiguousarray(getattr(traj, k)[idx]) for k in _TRAJ_KEYS},
                       frame=traj.frame, wind_east_mps=traj.wind_east_mps,
                       wind_north_mps=traj.wind_north_mps, wind_inferred=traj.wind_inferred,
-                      pitch=traj.pitch)
+                      pitch=traj.pitch, mach_hold=traj.mach_hold)
 
 
 _TRAJ_KEYS = ("t_s", "alt_m", "mach", "tas_mps", "heading_grid_rad", "track_grid_rad",

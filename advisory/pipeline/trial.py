@@ -5,7 +5,8 @@ begins at ``onset`` seconds (the configured reaction time, or later for the act-
 search):
 
 * before the onset, the present manoeuvre: the present bank (a coordinated turn) and
-  Mach rate, as :func:`advisory.pipeline.trajectory.predict_trajectory` holds them;
+  Mach rate (up to the selected Mach), as
+  :func:`advisory.pipeline.trajectory.predict_trajectory` holds them;
 * from the onset, the Mach moves toward ``target_mach`` at ``decel`` per second (NaN
   target: the present Mach rate goes on), and the bank rolls at ``roll_rate`` toward
   ``target_bank`` (NaN: wings level, the Mach-only action), holds it until the heading
@@ -67,13 +68,13 @@ SUBSTEP_S = 0.5  #: longest integration sub-step of a trial, s
 TRIAL_PARAMS = ("h0", "sin_fpa", "cos_fpa", "bank0", "mach0", "mach_rate0", "a", "psi0",
                 "wind_e", "wind_n", "e0", "n0", "radius", "g", "onset", "target_mach",
                 "decel", "target_bank", "turn_limit", "roll_rate", "fpa0", "fpa_rate",
-                "fpa_start", "fpa_end", "level_rate")
+                "fpa_start", "fpa_end", "level_rate", "mach_hold")
 #: Rows of the array returned by :func:`fly_trial_kernel`.
 TRIAL_ROWS = ("east_m", "north_m", "alt_m", "mach", "tas_mps", "heading_grid_rad",
               "bank_rad", "track_grid_rad", "ground_speed_mps", "turn_rate_rad_s", "fpa_rad")
 
 P_ONSET, P_TARGET_MACH, P_DECEL, P_TARGET_BANK, P_TURN_LIMIT, P_ROLL_RATE = range(14, 20)
-P_FPA0, P_FPA_RATE, P_FPA_START, P_FPA_END, P_LEVEL_RATE = range(20, 25)
+P_FPA0, P_FPA_RATE, P_FPA_START, P_FPA_END, P_LEVEL_RATE, P_MACH_HOLD = range(20, 26)
 
 
 @njit(cache=True)
@@ -87,13 +88,24 @@ def _toward(value, target, step):
 @njit(cache=True)
 def _mach_at(tau, p):
     """Mach at time ``tau`` (s) of the trial ``p`` (see the module notes)."""
-    m_free = max(p[4] + p[5] * tau, 0.1)
+    m_free = _mach_free(tau, p)
     onset = p[P_ONSET]
     target = p[P_TARGET_MACH]
     if tau <= onset or math.isnan(target):
         return m_free
-    m_on = max(p[4] + p[5] * onset, 0.1)
+    m_on = _mach_free(onset, p)
     return max(_toward(m_on, target, p[P_DECEL] * (tau - onset)), 0.1)
+
+
+@njit(cache=True)
+def _mach_free(tau, p):
+    """Mach at ``tau`` (s) without the action: the present rate, stopping at the selected
+    Mach when the prediction had one (``mach_hold``, NaN: none)."""
+    m = max(p[4] + p[5] * tau, 0.1)
+    hold = p[P_MACH_HOLD]
+    if math.isnan(hold):
+        return m
+    return min(m, hold) if p[5] > 0.0 else max(m, hold)
 
 
 @njit(cache=True)
@@ -118,7 +130,7 @@ def fly_trial_kernel(t, p):
     t : ndarray
         float64 (N,) times from the present state, s, increasing from 0.
     p : ndarray
-        float64 (25,) in the order of :data:`TRIAL_PARAMS`: altitude (m); sine and
+        float64 (26,) in the order of :data:`TRIAL_PARAMS`: altitude (m); sine and
         cosine of the present flight-path angle; present bank (rad, positive right); present
         Mach and Mach rate (1/s); speed of sound (m/s); grid heading at t = 0 (rad);
         wind grid components east and north (m/s); start position in the frame (m, m);
@@ -127,7 +139,8 @@ def fly_trial_kernel(t, p):
         target bank (rad, NaN: wings level); signed heading change at which the turn
         rolls out (rad, NaN: none); roll rate (rad/s); the present flight-path angle
         (rad), the rate (rad/s), start and end (s) of the predicted pitch manoeuvre (rate
-        0: none); the rate the crew levels the path at from the onset (rad/s, 0: held).
+        0: none); the rate the crew levels the path at from the onset (rad/s, 0: held);
+        the Mach the present Mach change stops at (NaN: none).
 
     Returns
     -------

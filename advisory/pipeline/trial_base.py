@@ -287,8 +287,10 @@ def _base_params(ahead: Trajectory, cfg: AdvisorConfig) -> np.ndarray:
     """The trial parameters (:data:`TRIAL_PARAMS`) of ``ahead``'s start state; the action
     entries are filled per trial."""
     mdot = 0.0
-    if ahead.t_s.size > 1:
+    if ahead.t_s.size > 1 and math.isnan(ahead.mach_hold):
         mdot = float((ahead.mach[-1] - ahead.mach[0]) / (ahead.t_s[-1] - ahead.t_s[0]))
+    elif ahead.t_s.size > 1:  # the change stops at the selected Mach: its first step's rate
+        mdot = float((ahead.mach[1] - ahead.mach[0]) / (ahead.t_s[1] - ahead.t_s[0]))
     fpa = float(ahead.fpa_rad[0])
     vh = float(ahead.tas_mps[0]) * math.cos(fpa)
     psi0 = float(ahead.heading_grid_rad[0])
@@ -302,5 +304,5 @@ def _base_params(ahead: Trajectory, cfg: AdvisorConfig) -> np.ndarray:
     p[14:20] = (cfg.reaction_s, math.nan, cfg.decel_mach_per_s, math.nan, math.nan,
                 math.radians(cfg.roll_rate_deg_s))
     # the angle as predicted until the onset, then levelled by the crew at the capture rate
-    p[20:] = (fpa, *ahead.pitch, math.radians(cfg.capture_pitch_rate_deg_s))
+    p[20:] = (fpa, *ahead.pitch, math.radians(cfg.capture_pitch_rate_deg_s), ahead.mach_hold)
     return p

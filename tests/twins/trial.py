@@ -30,10 +30,15 @@ from tests.twins.lookup import lookup_twin
 
 def _mach(tau: float, p: dict) -> float:
     """Mach at ``tau``: the present schedule, then toward the target at the set rate."""
-    free = max(p["mach0"] + p["mach_rate0"] * tau, 0.1)
+    def without_action(x: float) -> float:  # the present rate, up to the selected Mach
+        m = max(p["mach0"] + p["mach_rate0"] * x, 0.1)
+        if math.isnan(p["mach_hold"]):
+            return m
+        return min(m, p["mach_hold"]) if p["mach_rate0"] > 0 else max(m, p["mach_hold"])
+    free = without_action(tau)
     if tau <= p["onset"] or math.isnan(p["target_mach"]):
         return free
-    start = max(p["mach0"] + p["mach_rate0"] * p["onset"], 0.1)
+    start = without_action(p["onset"])
     change = p["target_mach"] - start
     reach = p["decel"] * (tau - p["onset"])
     return max(p["target_mach"] if abs(change) <= reach else start + math.copysign(reach, change),

@@ -129,7 +129,8 @@ def run_campaign(count: int, seed: int, engine: Engine, runner: Runner,
     CampaignResult
     """
     encounters = sample_campaign(count, seed, known, spread, config, near_cutoff)
-    by_index = {e.index: (done or {})[e.index] for e in encounters if e.index in (done or {})}
+    done = done or {}
+    by_index = {e.index: done[e.index] for e in encounters if e.index in done}
     resumed = len(by_index)
     todo = [e for e in encounters if e.index not in by_index]
     failed = 0

@@ -12,9 +12,10 @@ limit itself), so an offered resolution does not sit on the limit. When nothing 
 so, the whole search is flown again holding the booms to the limit itself, and what
 clears then is offered marked ``at_limit`` (a crew told of a resolution with less room
 keeps more booms off the ground than one told of none: campaign --known, seed 1, where
-the truth's best action kept 94-98 % of the limit and the advisor offered nothing). At
-the cutoff Mach it gives up the room where the prediction is least sure: two offered so
-there, within 0.01 of the cutoff, failed in truth (README, stop 34; not yet excluded).
+the truth's best action kept 94-98 % of the limit and the advisor offered nothing). Not
+while the present Mach is within :data:`AT_LIMIT_MIN_EXCESS` of the cutoff, where the
+prediction is least sure: two offered so there, within 0.01 of the cutoff, failed in
+truth.
 
 * **Mach** (``resolve_mach``): decelerate at ``decel_mach_per_s`` (wings rolled level at
   ``roll_rate_deg_s``) to a target Mach. A slower aircraft covers less ground in the

@@ -296,10 +296,11 @@ def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
 #   edge node alone (the grazing ray's landing point moving tens of kilometres per 0.03
 #   Mach), nothing was offered; while the Mach changes the edge nodes take their inner
 #   neighbours' factor since (advisory.pipeline.footprint, as the truth's edge band).
-# - level-off-3 (a climb to 46,061 ft at Mach 2.28; the level-off's push-over focus, 1.49
-#   psf on a 1.39 limit): nothing was offered before the selected altitude was sent, the
-#   level-off predicted and the trials flown with the crew levelling the path as it acts
-#   (tests/test_targets_flown.py); now a Mach, and the truth keeps the zone under it.
+# - level-off-3 and level-off-245 (climbs to 46,061 and 47,544 ft at Mach 2.28 and 2.24;
+#   the level-off's push-over focus, 1.49 psf on limits of 1.39 and 1.46): nothing was
+#   offered before the selected altitude was sent, the level-off predicted and the trials
+#   flown with the crew levelling the path as it acts (tests/test_targets_flown.py); now
+#   a Mach each, and the truth keeps the zone under the limit.
 # Now a resolution is offered and flown, and the truth keeps every boom in the zone under
 # the limit.
 @pytest.mark.parametrize("seed, index, limit_psf", [
@@ -309,7 +310,7 @@ def test_the_mach_offered_keeps_the_boom_off_the_town(late_advice) -> None:
     pytest.param(2, 79, 0.85, id="hold-margin-s2-79"),
     pytest.param(1, 63, 0.85, id="at-limit-63"), pytest.param(1, 170, 0.56, id="at-limit-170"),
     pytest.param(1, 130, 0.51, id="edge-fold-130"),
-    pytest.param(1, 3, 1.39, id="level-off-3")])
+    pytest.param(1, 3, 1.39, id="level-off-3"), pytest.param(1, 245, 1.46, id="level-off-245")])
 def test_an_avoidable_exposure_gets_a_resolution_that_holds(seed, index, limit_psf) -> None:
     doc = sample_encounter(seed, index, known=True).doc
     sc = scenario_from_dict(doc)

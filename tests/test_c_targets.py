@@ -22,18 +22,12 @@ from advisory.io.framing import datagram, frame_stream
 from advisory.io.messages import encode_air
 from tests.test_c_binding import _air_cmd, _rand_float, _same_decode, python_line, run_tool
 
+# the ICD's keys 1-18 written out (section 4) and a base frame: one copy, there
+from tests.test_wire_targets import AIR, ALL, FIRST, PAIR, TARGETS
+
 pytestmark = pytest.mark.skipif(shutil.which("make") is None or shutil.which("cc") is None,
                                 reason="needs make and a C compiler (cc)")
 
-#: ICD section 4, keys 1-18 in canonical order, written out.
-FIRST = ("lat_deg", "lon_deg", "alt_ft", "mach", "heading_deg", "gs_kt", "bank_deg",
-         "fpa_deg", "track_deg", "mach_rate_per_s", "sat_c", "wind_from_deg", "wind_kt")
-PAIR = ("pitch_rate_dps", "load_factor")
-TARGETS = ("selected_alt_ft", "selected_heading_deg", "selected_mach")
-ALL = FIRST + PAIR + TARGETS
-
-AIR = {"lat_deg": 40.0, "lon_deg": -100.0, "alt_ft": 45000.0, "mach": 1.4,
-       "heading_deg": 90.0, "gs_kt": 740.0, "bank_deg": 0.0, "fpa_deg": 0.0}
 SEQ, UTC = 300, 1893456000.25
 
 #: (name, optional fields given, keys the ICD says are written)

@@ -37,7 +37,12 @@ from typing import Any, NamedTuple
 import msgpack  # type: ignore[import-untyped]  # msgpack ships no type hints
 import numpy as np
 
-from advisory.io.air_fastpath import AIR_FULL_MASK, AIR_OPTIONAL_IDX, air_canonical_kernel
+from advisory.io.air_fastpath import (
+    AIR_FULL_MASK,
+    AIR_LAYOUT_FIELDS,
+    AIR_OPTIONAL_IDX,
+    air_canonical_kernel,
+)
 from advisory.io.frame_rules import RejectError, check_map, depth_ok
 from advisory.schema import (
     ADV_FIELDS,
@@ -48,8 +53,6 @@ from advisory.schema import (
     ADV_STATUSES,
     AIR_FIELDS,
     AIR_LATER_GROUPS,
-    AIR_LATER_OPTIONAL,
-    AIR_OPTIONAL,
     AIR_REQUIRED,
     COUNTER_MAX,
     COUNTER_NAME_MAX_BYTES,
@@ -160,11 +163,8 @@ def _pack(m: dict) -> bytes:
 
 
 #: The optional keys an encoder writes, by the number of later groups written (0: the
-#: first release's frame; ICD section 4).
-_AIR_WRITTEN = tuple(
-    AIR_OPTIONAL[:len(AIR_OPTIONAL) - len(AIR_LATER_OPTIONAL)]
-    + tuple(name for group in AIR_LATER_GROUPS[:k] for name in group)
-    for k in range(len(AIR_LATER_GROUPS) + 1))
+#: first release's frame): the canonical layouts' fields (ICD section 4).
+_AIR_WRITTEN = tuple(AIR_FIELDS[len(AIR_REQUIRED):n] for n in AIR_LAYOUT_FIELDS)
 
 
 def encode_air(fields: dict, seq: int, utc_s: float) -> bytes:

@@ -158,16 +158,19 @@ def fly_trial_kernel(t, p):
     turned = 0.0  # heading turned since the onset, rad
     phase = 0  # 0 before the onset, 1 rolling in / holding, 2 rolling level
     tau = 0.0
-    # Mach and turn rate at ``tau``: a sub-step's end values are the next one's start
-    # values (the same expressions of the same numbers), so each is computed once
+    # Mach, turn rate and flight-path angle at ``tau``: a sub-step's end values are the
+    # next one's start values (the same expressions of the same numbers), so each is
+    # computed once
     m0 = _mach_at(tau, p)
     w0 = g * math.tan(bank) / (m0 * a)
+    ga = _fpa_at(tau, p)
     for i in range(n):
+        g_i = _fpa_at(t[i], p)
         while tau < t[i] - 1e-12:
             if phase == 0 and tau >= onset - 1e-12:
                 phase = 2 if wings_level else 1
             rolling = (phase == 1) or (phase == 2 and bank != 0.0)
-            pitching = _fpa_at(tau, p) != _fpa_at(t[i], p)
+            pitching = ga != g_i
             # sub-steps only while the bank or the angle changes or a roll-out is awaited;
             # otherwise the step's arc is exact (constant bank) and the Mach is linear
             h = min(SUBSTEP_S, t[i] - tau) if rolling or pitching else t[i] - tau
@@ -182,7 +185,6 @@ def fly_trial_kernel(t, p):
             elif phase == 2:
                 b1 = _toward(bank, 0.0, roll * h)
             w1 = g * math.tan(b1) / v1
-            ga = _fpa_at(tau, p)
             gb = _fpa_at(tau + h, p)
             if ga == gam0 and gb == gam0:  # held: the given sine and cosine
                 sin_g, cos_g = p[1], p[2]
@@ -207,6 +209,7 @@ def fly_trial_kernel(t, p):
             tau += h
             m0 = m1
             w0 = w1
+            ga = gb
             if phase == 1 and has_limit:  # roll out with the lead of the roll-out
                 w = abs(w1)
                 lead = 0.5 * w * abs(bank) / max(roll, 1e-9)
@@ -221,9 +224,8 @@ def fly_trial_kernel(t, p):
         out[4, i] = v
         out[5, i] = psi % (2.0 * math.pi)
         out[6, i] = bank
-        gam = _fpa_at(t[i], p)
-        out[10, i] = gam
-        vh = v * (p[2] if gam == gam0 else math.cos(gam))
+        out[10, i] = g_i
+        vh = v * (p[2] if g_i == gam0 else math.cos(g_i))
         ge = vh * math.sin(psi) + p[8]
         gn = vh * math.cos(psi) + p[9]
         out[7, i] = math.atan2(ge, gn) % (2.0 * math.pi)

@@ -77,15 +77,16 @@ ADV_FIELDS_V1 = (
 #: Optional advisory fields added by issue 13 (after the version-1 ones; nil / false
 #: when absent): act-by time, resolution Mach, target headings of the turns, combined;
 #: by issue 14 ``near_cutoff`` (sent only when true); by issue 16 ``boom_probability``
-#: (sent only when known); by issue 13 again ``at_limit`` (sent only when true).
+#: (sent only when known); by issue 13 again ``at_limit`` and ``level_off`` (each sent
+#: only when true).
 ADV_OPTIONAL = ("act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
-                "near_cutoff", "boom_probability", "at_limit")
+                "near_cutoff", "boom_probability", "at_limit", "level_off")
 #: Optional flags sent only when true (absent: false), so other frames stay as they were.
-ADV_SENT_WHEN_TRUE = ("near_cutoff", "at_limit")
+ADV_SENT_WHEN_TRUE = ("near_cutoff", "at_limit", "level_off")
 #: Optional numbers sent only when known (absent: nil), for the same reason.
 ADV_SENT_WHEN_KNOWN = ("boom_probability",)
 #: The advisory fields that are true / false (the others are numbers, text or nil).
-ADV_FLAGS = ("focus", "tables_stale", "combined", "near_cutoff", "at_limit")
+ADV_FLAGS = ("focus", "tables_stale", "combined", "near_cutoff", "at_limit", "level_off")
 ADV_FIELDS = ADV_FIELDS_V1 + ADV_OPTIONAL  #: canonical order after the header
 ADV_NULLABLE_FLOATS = (
     "time_to_contact_s", "overpressure_psf", "max_mach_off_ground", "turn_left_deg",

@@ -88,7 +88,8 @@ def python_line(payload: bytes) -> str:
                   *(["near_cutoff=T"] if d["near_cutoff"] else []),
                   *([_fmt_num("boom_probability", d["boom_probability"])]
                     if d["boom_probability"] is not None else []),
-                  *(["at_limit=T"] if d["at_limit"] else []), f"v={f.version}"]
+                  *(["at_limit=T"] if d["at_limit"] else []),
+                  *(["level_off=T"] if d["level_off"] else []), f"v={f.version}"]
     else:
         counters = ",".join(f"{k.encode().hex()}:{v}" for k, v in d["counters"].items())
         parts += [f"state={d['state']}", _fmt_text("reason", d["reason"]),
@@ -228,7 +229,8 @@ def _random_payloads(rng: random.Random) -> list[bytes]:
             "combined": rng.random() < 0.3,
             "near_cutoff": rng.random() < 0.3,
             "boom_probability": None if prob.random() < 0.5 else prob.random(),
-            "at_limit": prob.random() < 0.3},
+            "at_limit": prob.random() < 0.3,
+            "level_off": prob.random() < 0.3},
             rng.randrange(2**32), _rand_float(rng),
             version=rng.choice((1, 2))))
     for _ in range(60):
@@ -441,7 +443,8 @@ def test_an_old_c_receiver_reads_version_1_frames_with_the_new_keys(v1_build):
     new = {"status": "unavoidable", "zone_id": "zone-7", "time_to_contact_s": 42.0,
            "overpressure_psf": 2.9, "cue": "BOOM DUE zone-7 IN 42S 2.9 PSF",
            "act_by_s": 15.5, "resolve_mach": 1.08, "turn_left_hdg": 320.0,
-           "combined": True, "near_cutoff": True, "boom_probability": 0.37, "at_limit": True}
+           "combined": True, "near_cutoff": True, "boom_probability": 0.37, "at_limit": True,
+           "level_off": True}
     v1 = encode_adv(new, 3, 1893456000.0, version=1)
     v2 = encode_adv(new, 4, 1893456000.0)
     warning_v1 = encode_adv(dict(new, status="warning"), 5, 1893456000.0, version=1)
@@ -449,6 +452,6 @@ def test_an_old_c_receiver_reads_version_1_frames_with_the_new_keys(v1_build):
     assert out[0].startswith("ok adv seq=3") and " status=warning " in out[0], out[0]
     assert "zone_id=s" + b"zone-7".hex() in out[0] and "act_by_s" not in out[0]
     assert "boom_probability" not in out[0]  # issue 16's key: ignored, as any unknown key
-    assert "at_limit" not in out[0]
+    assert "at_limit" not in out[0] and "level_off" not in out[0]
     assert out[1] == "err unsupported_version", out[1]
     assert out[2].startswith("ok adv seq=5") and " status=warning " in out[2], out[2]

@@ -319,6 +319,11 @@ def test_an_avoidable_exposure_gets_a_resolution_that_holds(seed, index, limit_p
     assert res.resolution()["followed"], "no resolution was offered and flown"
     over = [e for e in res.score.exposures if e["exceeds_limit"]]
     assert not over, f"the truth has booms over the limit: {over[0]['peak_psf']:.2f} psf"
+    # The crew flown levels the path as it acts (docs/scenarios.md, the crew model), as
+    # the trials do: a line offered in a climb says so ("LVL"), one in level flight not.
+    cue_s = res.resolution()["cue_s"]
+    cue = next(s.cue for s in res.segments if s.t_start_s <= cue_s < s.t_end_s)
+    assert ("LVL" in cue.split()) == (index in (3, 245)), cue
 
 
 # Offered at the limit within the table's near-cutoff rows (campaign --known, seed 1;

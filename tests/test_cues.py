@@ -29,7 +29,7 @@ def facts(**kw) -> SimpleNamespace:
                 max_mach_off_ground=None, turn_left_deg=None, turn_right_deg=None,
                 reaches_ground=True, cutoff_mach=1.15, tables_stale=False,
                 act_by_s=None, resolve_mach=None, turn_left_hdg_deg=None,
-                turn_right_hdg_deg=None, combined=False, near_cutoff=False)
+                turn_right_hdg_deg=None, combined=False, near_cutoff=False, level_off=False)
     base.update(kw)
     return SimpleNamespace(**base)
 
@@ -197,7 +197,8 @@ def test_every_line_fits_and_keeps_its_action_and_time() -> None:
                   turn_left_deg=_rand_num(rng, 0, 180), turn_right_deg=_rand_num(rng, 0, 180),
                   turn_left_hdg_deg=_rand_num(rng, 0, 360),
                   turn_right_hdg_deg=_rand_num(rng, 0, 360),
-                  combined=rng.random() < 0.3, focus=rng.random() < 0.3)
+                  combined=rng.random() < 0.3, focus=rng.random() < 0.3,
+                  level_off=rng.random() < 0.3)
         cue = crew_cue(f)
         where = f"case {i}: {cue!r} from {f}"
         assert len(cue) <= LIMIT, where
@@ -232,6 +233,8 @@ def test_every_line_fits_and_keeps_its_action_and_time() -> None:
             assert re.search(r"\b" + _TURN, cue), where
         else:
             assert "NOTHING CLEARS" in cue, where
+        if f.level_off and (mach or _has_turn(f)):  # "level off" right after the action
+            assert re.search(r"(M\d\.\d\d|[LR] TO \d{3}|[LR] BY \d+) LVL( |$)", cue), where
         # the zone: the whole (cleaned) name, or a start of it ending with the cut mark
         name = f.zone_name or f.zone_id or "ZONE"
         clean = " ".join("".join(c for c in name if c.isprintable() or c.isspace()).split())

@@ -228,8 +228,8 @@ def encode_adv(fields: dict, seq: int, utc_s: float,
     ----------
     fields : dict
         ``status`` (required, one of :data:`ADV_STATUSES`); ``zone_id`` (str or None);
-        ``focus``, ``tables_stale``, ``combined``, ``near_cutoff``, ``at_limit`` (bool,
-        default False; ``near_cutoff`` and ``at_limit`` are sent only when true);
+        ``focus``, ``tables_stale``, ``combined``, ``near_cutoff``, ``at_limit``,
+        ``level_off`` (bool, default False; the last three are sent only when true);
         ``boom_probability`` (number, sent only
         when not None); ``cue`` (str,
         default ``""``); the other :data:`ADV_FIELDS` are numbers or None.

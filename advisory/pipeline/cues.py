@@ -16,6 +16,12 @@ words. What the line holds, by status (issue 13, "the crew's line"):
     smaller heading change; both when neither clears alone. Without a target heading
     (an advisor that gives only the change) the turn reads ``R BY 20`` (a change,
     said as one). ``NOTHING CLEARS`` when no resolution was found.
+  - ``LVL`` after the action (``M1.12 LVL``, ``R TO 075 LVL``): level the flight path
+    while acting (``level_off``). Every trial the resolutions fly levels the path from
+    the action's start at the configured capture pitch rate (as the scenarios' crew does
+    on taking over, ``docs/scenarios.md``); when the aircraft still climbs or descends
+    at the onset by more than :data:`LEVEL_CUE_DEG`, a crew told only the Mach or the
+    turn could keep climbing and fly something no trial checked, so the line says it.
   - *time*: ``ACT 42S`` is the time left to **start** the action (``act_by_s``), cut
     down to the whole second; ``ACT NOW`` under one second. Without an act-by time (no
     action clears) the time until the boom reaches the zone follows the zone instead:
@@ -69,10 +75,16 @@ from typing import Protocol
 from advisory.pipeline.table_range import OUTSIDE_TABLE
 from advisory.schema import CUE_MAX_BYTES
 
-__all__ = ["CUE_MAX_CHARS", "CueFacts", "crew_cue", "unavailable_cue", "shorten_name",
-           "ZONE_CUT_MARK"]
+__all__ = ["CUE_MAX_CHARS", "LEVEL_CUE_DEG", "CueFacts", "crew_cue", "unavailable_cue",
+           "shorten_name", "ZONE_CUT_MARK"]
 
 CUE_MAX_CHARS = 40  #: longest crew line, characters (issue 13)
+#: Flight-path angle at the action's start (deg, either sign) from which the line says
+#: ``LVL``: the trials level the path from there (project choice, no source: 0.5 deg is
+#: about 800 ft/min at Mach 1.6, well above the air data's noise, and a level-off from
+#: it at 1 deg/s takes half a second).
+LEVEL_CUE_DEG = 0.5
+_LEVEL_OFF = "LVL"
 ZONE_CUT_MARK = "."  #: ends a zone name that was shortened
 _LEVEL_WORD = {"advisory": "ADVISORY", "caution": "CAUTION", "warning": "WARNING"}
 _NO_ACTION = "NOTHING CLEARS"
@@ -111,6 +123,8 @@ class CueFacts(Protocol):
     def combined(self) -> bool: ...
     @property
     def near_cutoff(self) -> bool: ...
+    @property
+    def level_off(self) -> bool: ...
 
 
 def crew_cue(a: CueFacts) -> str:
@@ -158,8 +172,10 @@ def action_text(a: CueFacts) -> str:
     mach_text = "" if mach is None else f"M{math.floor(mach * 100.0 + 1e-6) / 100.0:.2f}"
     turn = _turn_text(a)
     if a.combined and mach_text and turn:
-        return f"{mach_text}+{turn}"
-    return mach_text or turn
+        text = f"{mach_text}+{turn}"
+    else:
+        text = mach_text or turn
+    return f"{text} {_LEVEL_OFF}" if text and a.level_off else text
 
 
 def _turn_text(a: CueFacts) -> str:

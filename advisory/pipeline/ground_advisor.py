@@ -55,6 +55,7 @@ from advisory.pipeline.confidence import (
 )
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import soonest_per_zone, split_conflicts
+from advisory.pipeline.cues import LEVEL_CUE_DEG
 from advisory.pipeline.edge_spread import EdgeSpread, PresentSpread, with_edge_probability
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.ground_levels import masked_zones
@@ -399,6 +400,9 @@ class GroundAdvisor:
         turning = r.turn_left_deg is not None or r.turn_right_deg is not None
         # true headings cost ~0.1 ms: only for a turn
         hdg = heading_at_deg(ahead, cfg.reaction_s) if turning else 0.0
+        # the trials level the path from the action's start: say so while climbing there
+        level_off = (turning or r.resolve_mach is not None) and abs(math.degrees(float(
+            np.interp(cfg.reaction_s, ahead.t_s, ahead.fpa_rad)))) > LEVEL_CUE_DEG
         return Advisory(
             status=status,
             zone_id=named.zone_id if named else None,
@@ -416,7 +420,7 @@ class GroundAdvisor:
             turn_right_hdg_deg=None if r.turn_right_deg is None
             else (hdg + r.turn_right_deg) % 360.0, near_cutoff=near,
             cutoff_sigma=sigma, boom_probability=p_reach,
-            at_limit=r.at_limit and r.kind is not None,
+            at_limit=r.at_limit and r.kind is not None, level_off=level_off,
         )
 
     @staticmethod

@@ -102,6 +102,12 @@ class Advisory:
         The offered resolution keeps the booms under each zone's limit itself, not under
         ``limit_fraction`` of it: nothing clears with that room
         (:func:`advisory.pipeline.resolutions.search`).
+    level_off : bool
+        The offered resolution was flown with the crew levelling the flight path from the
+        action's start (at the configured capture pitch rate, as every trial is:
+        :mod:`advisory.pipeline.trial`) while the aircraft climbs or descends at the
+        onset by more than :data:`advisory.pipeline.cues.LEVEL_CUE_DEG`: the crew line
+        says so (``LVL``), so a crew that keeps climbing does not fly an unchecked action.
     """
 
     status: str
@@ -128,6 +134,7 @@ class Advisory:
     cutoff_sigma: float | None = None
     boom_probability: float | None = None
     at_limit: bool = False
+    level_off: bool = False
 
     @property
     def overpressure_psf(self) -> float | None:
@@ -164,6 +171,7 @@ class Advisory:
             "near_cutoff": bool(self.near_cutoff),  # issue 14: sent only when true
             "boom_probability": r(self.boom_probability, 2),  # issue 16: when known
             "at_limit": bool(self.at_limit),  # sent only when true
+            "level_off": bool(self.level_off),  # sent only when true
         }
 
     def to_record(self) -> dict:

@@ -233,6 +233,8 @@ static void cmd_dec(const uint8_t *p, size_t n)
             print_opt("boom_probability", true, a->boom_probability);
         if (a->at_limit)
             printf(" at_limit=T");
+        if (a->level_off)
+            printf(" level_off=T");
         printf(" v=%u", f.version);
     } else {
         const boom_status *s = &f.u.status;

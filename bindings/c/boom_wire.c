@@ -746,7 +746,7 @@ enum {
     KEY_PITCH, KEY_LOAD, KEY_SELALT, KEY_SELHDG, KEY_SELMACH,
     KEY_STATUS, KEY_ZONE, KEY_TTC, KEY_OP, KEY_FOCUS, KEY_MAXM, KEY_TL, KEY_TR,
     KEY_STALE, KEY_CUE, KEY_ACTBY, KEY_RMACH, KEY_TLH, KEY_TRH, KEY_COMB, KEY_NEAR,
-    KEY_PROB, KEY_ATLIM,
+    KEY_PROB, KEY_ATLIM, KEY_LEVEL,
     KEY_STATE, KEY_REASON, KEY_COUNTERS,
     N_KEYS
 };
@@ -760,7 +760,7 @@ static const char *const key_names[N_KEYS] = {
     "status", "zone_id", "time_to_contact_s", "overpressure_psf", "focus",
     "max_mach_off_ground", "turn_left_deg", "turn_right_deg", "tables_stale", "cue",
     "act_by_s", "resolve_mach", "turn_left_hdg", "turn_right_hdg", "combined",
-    "near_cutoff", "boom_probability", "at_limit",
+    "near_cutoff", "boom_probability", "at_limit", "level_off",
     "state", "reason", "counters",
 };
 
@@ -946,6 +946,9 @@ static int decode_adv(const keymap *km, boom_adv *a, unsigned version)
     OPT(KEY_PROB, boom_probability); /* optional (issue 16, sent only when known) */
     if (km->pos[KEY_ATLIM] != NULL /* optional (sent only when true) */
         && (r = get_bool(km, KEY_ATLIM, &a->at_limit)) != BOOM_OK)
+        return r;
+    if (km->pos[KEY_LEVEL] != NULL /* optional (sent only when true) */
+        && (r = get_bool(km, KEY_LEVEL, &a->level_off)) != BOOM_OK)
         return r;
     return BOOM_OK;
 #undef REQ

@@ -148,6 +148,8 @@ typedef struct {
                                   the ground), 0..1 (ICD key 17) */
     bool at_limit; /* the resolution keeps the booms under each zone's limit itself, not
                       under the configured fraction of it (ICD key 18; absent: false) */
+    bool level_off; /* the resolution was flown levelling the flight path from the
+                       action's start; the crew line says LVL (ICD key 19; absent: false) */
 } boom_adv;
 
 typedef enum { BOOM_STATE_OK = 0, BOOM_STATE_DEGRADED, BOOM_STATE_UNAVAILABLE } boom_state;

@@ -259,3 +259,19 @@ def test_names_are_shortened_at_whole_words_first() -> None:
               resolve_mach=1.12, act_by_s=42.0)
     cue = crew_cue(f)
     assert cue == "WARNING Larkmoor National. M1.12 ACT 42S", cue
+
+
+def test_a_climbing_resolution_says_level_off_and_still_fits() -> None:
+    # Every resolution trial levels the path from the action's start (cues module notes);
+    # in a climb the line says "LVL" after the action. The longest action (Mach and a turn
+    # together) with LVL leaves the zone 5 characters of the 40 (7 for "WARNING", 26 for
+    # "M1.08+L TO 320 LVL ACT 15S", two spaces): the documented rule cuts the first word
+    # with the mark, counted by hand.
+    f = facts(status="warning", zone_name="Upper Fenwick Valley Wildlife Refuge",
+              resolve_mach=1.08, turn_left_deg=45.0, turn_left_hdg_deg=320.0,
+              combined=True, act_by_s=15.0, level_off=True)
+    assert crew_cue(f) == "WARNING Uppe. M1.08+L TO 320 LVL ACT 15S"
+    assert crew_cue(facts(resolve_mach=1.12, act_by_s=30.0, level_off=True)) \
+        == "CAUTION Larkmoor M1.12 LVL ACT 30S"
+    # no action, nothing to level for
+    assert "LVL" not in crew_cue(facts(act_by_s=None, level_off=True))

@@ -62,6 +62,7 @@ from advisory.pipeline.ground_levels import masked_zones
 from advisory.pipeline.history import FlownHistory, FlownPast
 from advisory.pipeline.in_air import InAir, state_time
 from advisory.pipeline.levels import AlertLevels, level_status
+from advisory.pipeline.pitch import fpa_profile
 from advisory.pipeline.profile import StreamProfile
 from advisory.pipeline.resolutions import (
     OtherGround,
@@ -401,8 +402,12 @@ class GroundAdvisor:
         # true headings cost ~0.1 ms: only for a turn
         hdg = heading_at_deg(ahead, cfg.reaction_s) if turning else 0.0
         # the trials level the path from the action's start: say so while climbing there
-        level_off = (turning or r.resolve_mach is not None) and abs(math.degrees(float(
-            np.interp(cfg.reaction_s, ahead.t_s, ahead.fpa_rad)))) > LEVEL_CUE_DEG
+        # (the angle the trials start from: the predicted profile at the reaction time)
+        rate, start, end = ahead.pitch
+        fpa_on = fpa_profile(np.array([cfg.reaction_s]), float(ahead.fpa_rad[0]), rate, end,
+                             start)[0]
+        level_off = ((turning or r.resolve_mach is not None)
+                     and abs(math.degrees(float(fpa_on))) > LEVEL_CUE_DEG)
         return Advisory(
             status=status,
             zone_id=named.zone_id if named else None,

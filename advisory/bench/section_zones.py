@@ -72,7 +72,8 @@ def reprojection_figures(ctx: Context, table: BoomTable) -> None:
     t0 = time.perf_counter()
     zones.project(LocalFrame.from_deg(START_LAT_DEG, START_LON_DEG))
     one_go_ms = (time.perf_counter() - t0) * 1e3
-    advisor = Advisor(table, zones, config=AdvisorConfig(reproject_km=REPROJECT_KM))
+    advisor = Advisor(table, zones, config=AdvisorConfig(reproject_km=REPROJECT_KM,
+                                                         predict_every_s=0.0))
     gs = cruise_ground_speed_kt()
     times: list[float] = []
     origins = set()

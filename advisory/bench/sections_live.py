@@ -95,8 +95,26 @@ def section_advisor(ctx: Context) -> None:
     if not any(k in CONFLICT_STATUSES for k in statuses):
         r.note("advisor", "no conflict was seen, so the resolution search may not have run: "
                           "the step figures may be optimistic")
+    default_cadence_note(ctx, table, zones)
     reprojection_figures(ctx, table)
     two_level_figures(ctx, table)
+
+
+def default_cadence_note(ctx: Context, table: BoomTable, zones: ZoneSet) -> None:
+    """The same steps with the default configuration: most steps reuse the last
+    prediction (:mod:`advisory.pipeline.reuse`); a note, not a budget row (the budget is
+    the predicting step's)."""
+    s = ctx.sizes
+    advisor = make_advisor(table, zones, reuse=True)
+    n = s.advisor_warmup + s.advisor_steps
+    times, statuses, _, _ = _timed_steps(advisor, n, s.advisor_warmup, s.advisor_time_cap_s)
+    reused = getattr(advisor, "reused_steps", 0)
+    ctx.report.note("advisor", (
+        f"with the default configuration (a step reuses the last prediction while the "
+        f"flight goes as predicted, for up to 1 s): {reused} of {n} steps reused it; step "
+        f"median {median(times) * 1e3:.3f} ms, mean {sum(times) / len(times) * 1e3:.3f} ms, "
+        f"p99 {percentile(times, 99.0) * 1e3:.2f} ms over {len(times)} steps; statuses "
+        + ", ".join(f"{k} {v}" for k, v in statuses.most_common())))
 
 
 def _timed_steps(advisor, n: int, warmup: int, cap_s: float

@@ -90,14 +90,18 @@ def bench_zones(seed: int = 8) -> dict[str, Any]:
     return {"type": "FeatureCollection", "features": features}
 
 
-def make_advisor(table: BoomTable, zones: ZoneSet) -> Advisor:
-    """``Advisor(table, zones)``, searching resolutions on every step (the budget's case).
+def make_advisor(table: BoomTable, zones: ZoneSet, reuse: bool = False) -> Advisor:
+    """``Advisor(table, zones)``, predicting and searching resolutions on every step (the
+    budget's case); ``reuse``: the default configuration.
 
-    The default configuration searches again only after ``refresh_s`` (1 s) unless the
-    conflict changes; the budget is for a step *including* the search, so it is measured
-    with the search on every step.
+    The default configuration reuses the last prediction for up to ``predict_every_s``
+    (1 s) of steady flight (:mod:`advisory.pipeline.reuse`) and searches again only after
+    ``refresh_s`` (1 s) unless the conflict changes; the budget is for a step *including*
+    the prediction and the search, so it is measured with both on every step.
     """
-    return Advisor(table, zones, config=AdvisorConfig(refresh_s=0.0))
+    if reuse:
+        return Advisor(table, zones)
+    return Advisor(table, zones, config=AdvisorConfig(refresh_s=0.0, predict_every_s=0.0))
 
 
 def quick_grid() -> TableGrid:

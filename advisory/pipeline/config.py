@@ -19,6 +19,13 @@ operators tune them in a config file::
                             # 4 under it, for about 0.2 ms a step (issue 13)
     reproject_km = 150      # the zones are projected again into a frame at the
                             # aircraft once it is this far from the frame's origin
+    predict_every_s = 1     # a step reuses the last prediction (its times counted
+                            # down) for up to this long of the air data's own time
+                            # while the aircraft flies as predicted; it predicts again
+                            # at once when the air data depart from the prediction, the
+                            # level would change, a time runs out, or the table, the
+                            # zones' projection or the flown history's spacing call
+                            # for it (advisory.pipeline.reuse); 0: every step predicts
     capture_pitch_rate_deg_s = 1.0  # pitch rate of the level-off at the selected
                             # altitude (the aircraft's altitude-capture law; 1 deg/s is
                             # the scenarios' pilots', steep enough at Mach 1.6 to fold
@@ -125,6 +132,7 @@ class AdvisorConfig:
     stale_after_s: float = STALE_AFTER_S
     strips: int = 10
     reproject_km: float = 150.0
+    predict_every_s: float = 1.0
     capture_pitch_rate_deg_s: float = 1.0
     confidence: float = 0.95
     surface_temp_sigma_c: float = 2.0
@@ -144,7 +152,7 @@ class AdvisorConfig:
             "limit_fraction": (0.1, 1.0), "mach_hold_margin": (0.0, 0.1),
             "caution_act_s": (1.0, 1800.0), "warning_act_s": (1.0, 1800.0),
             "focus_threshold": (1.0, 10.0), "stale_after_s": (0.05, 60.0),
-            "strips": (2, 30), "reproject_km": (10.0, 400.0),
+            "strips": (2, 30), "reproject_km": (10.0, 400.0), "predict_every_s": (0.0, 10.0),
             "capture_pitch_rate_deg_s": (0.01, 10.0),
             "confidence": (0.0, 0.999), "surface_temp_sigma_c": (0.0, 20.0),
             "wind_sigma_kt": (-1.0, 100.0), "edge_confidence": (0.0, 0.99),
@@ -173,7 +181,7 @@ class AdvisorConfig:
 
 _SECTIONS = {
     "prediction": ("look_ahead_s", "step_s", "in_air_s", "strips", "reproject_km",
-                   "capture_pitch_rate_deg_s"),
+                   "predict_every_s", "capture_pitch_rate_deg_s"),
     "levels": ("caution_act_s", "warning_act_s", "caution_lead_s", "warning_lead_s"),
     "hysteresis": ("band_s", "release_s", "warning_hold_s"),
     "resolution": ("cutoff_margin_mach", "turn_bank_deg", "max_turn_deg", "turn_step_deg",

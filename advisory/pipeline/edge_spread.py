@@ -73,7 +73,12 @@ from advisory.geo.contact import boxes_overlap
 from advisory.geo.polygons import segment_zone_distance
 from advisory.jit import njit
 from advisory.physics.spread import DEFAULT_SURFACE_TEMP_SIGMA_K, default_spread
-from advisory.pipeline.confidence import boom_probability, present_sigma, spread_from_config
+from advisory.pipeline.confidence import (
+    boom_probability,
+    present_sigma,
+    spread_from_config,
+    with_probability,
+)
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.results import Conflict
 from advisory.pipeline.zones import ProjectedZones
@@ -81,7 +86,7 @@ from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
 
 __all__ = ["EdgeSpread", "PresentSpread", "present_edge", "reach_given_ground",
-           "section_nearest_kernel", "with_edge_probability"]
+           "section_nearest_kernel", "with_edge_probability", "conflict_probabilities"]
 
 #: Bounds of the probability read off the stored levels (0.01-0.99).
 _P_FLOOR = 0.01
@@ -314,3 +319,19 @@ class PresentSpread:
             self.edge = present_edge(tb, self.edge_confidence, altitude_m, heading_rad,
                                      scale, self.sigma)
         return self.sigma, self.edge
+
+
+def conflict_probabilities(part: list[Conflict], east: np.ndarray, north: np.ndarray,
+                           rows: np.ndarray, cutoffs: np.ndarray, mach: np.ndarray,
+                           sigma: float | None, edge: EdgeSpread | None, pz: ProjectedZones,
+                           strips: np.ndarray) -> list[Conflict]:
+    """Each conflict's probability (issue 16): of the boom reaching its zone with the
+    edge ratio (:func:`with_edge_probability`, the same arguments), of reaching the ground
+    without it (:func:`advisory.pipeline.confidence.with_probability`), none without a
+    spread (``sigma`` None)."""
+    if sigma is None or not part:
+        return part
+    if edge is None:
+        return with_probability(part, cutoffs, mach, sigma)
+    return with_edge_probability(part, east, north, rows, cutoffs, mach, sigma, edge, pz,
+                                 strips)

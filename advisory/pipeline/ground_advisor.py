@@ -47,16 +47,11 @@ import numpy as np
 from advisory.physics.atmosphere import Atmosphere
 from advisory.physics.pressure_altitude import HeightConverter
 from advisory.pipeline.airdata import AirDataState, state_problem
-from advisory.pipeline.confidence import (
-    boom_probability,
-    lookup_band,
-    with_probability,
-    z_one_sided,
-)
+from advisory.pipeline.confidence import boom_probability, lookup_band, z_one_sided
 from advisory.pipeline.config import AdvisorConfig
 from advisory.pipeline.conflicts import soonest_per_zone, split_conflicts
 from advisory.pipeline.cues import LEVEL_CUE_DEG
-from advisory.pipeline.edge_spread import EdgeSpread, PresentSpread, with_edge_probability
+from advisory.pipeline.edge_spread import PresentSpread, conflict_probabilities
 from advisory.pipeline.footprint import CarpetPrediction, FootprintPredictor, strip_indices
 from advisory.pipeline.ground_levels import masked_zones
 from advisory.pipeline.history import FlownHistory, FlownPast
@@ -64,17 +59,16 @@ from advisory.pipeline.in_air import InAir, state_time
 from advisory.pipeline.levels import AlertLevels, level_status
 from advisory.pipeline.pitch import fpa_profile
 from advisory.pipeline.profile import StreamProfile
+from advisory.pipeline.renewal import Renewal
 from advisory.pipeline.resolutions import (
     OtherGround,
     Resolution,
-    Search,
     TrialBase,
     max_mach_off_ground,
     roll_out,
-    run_search,
-    search,
 )
 from advisory.pipeline.results import Advisory, Conflict
+from advisory.pipeline.reuse import Prediction, counted_down, departure
 from advisory.pipeline.table_range import mach_outside_table, outside_table
 from advisory.pipeline.trajectory import (
     SpeedOfSound,
@@ -88,10 +82,6 @@ from advisory.tables import lookup as lk
 from advisory.tables.table import BoomTable
 
 __all__ = ["GroundAdvisor", "OtherGround", "TableSource"]
-
-#: Trials a refresh of the resolution search may fly per step (a new conflict is searched
-#: in full at once); about 0.1 ms each (project choice for the step budget).
-TRIALS_PER_STEP = 4
 
 
 class TableSource(Protocol):
@@ -154,15 +144,14 @@ class GroundAdvisor:
         self.last_trajectory: Trajectory | None = None
         self._ahead: Trajectory | None = None  # the last trajectory ahead (no past)
         self.steps = 0
-        #: Resolution searches started (for the benchmark).
-        self.resolution_searches = 0
-        #: The last finished search, the monotonic time and zone it was made for, and the
-        #: refresh in progress (:meth:`_resolution`).
-        self._result: Resolution | None = None
-        self._result_t0 = 0.0
-        self._result_zone: str | None = None
-        self._search: Search | None = None
-        self._search_t0 = 0.0
+        #: Steps that reused the last prediction (:mod:`.reuse`).
+        self.reused_steps = 0
+        #: The last prediction, for the steps that reuse it; and what the step predicting
+        #: it leaves for it (state time, projection, the act-by the level was set on).
+        self._last: Prediction | None = None
+        self._basis: tuple[float, ProjectedZones, float | None] | None = None
+        #: The resolution search, kept and renewed across steps (:mod:`.renewal`).
+        self._renewal = Renewal(self.config)
         #: A boom found on its way into a zone: (conflict, monotonic arrival, found at).
         self._on_way: tuple[Conflict, float, float] | None = None
         #: The zone named while a level is held with no present conflict.
@@ -207,6 +196,11 @@ class GroundAdvisor:
             return None
         return (float(a.alt_m[0]), float(a.mach[0]), float(a.heading_rad[0]),
                 float(a.fpa_rad[0]))
+
+    @property
+    def resolution_searches(self) -> int:
+        """Resolution searches started (for the benchmark)."""
+        return self._renewal.searches
 
     @property
     def tables_stale(self) -> bool:
@@ -294,11 +288,48 @@ class GroundAdvisor:
         if outside:
             return self.unavailable(outside, state.utc_s)  # never clamped silently
         try:
-            return self._step(state, now)
+            held = self._reused(state, now)
+            if held is not None:
+                return held
+            self._last = self._basis = None
+            adv = self._step(state, now)
+            if self._basis is not None and self._ahead is not None \
+                    and adv.status != "unavailable":
+                self._last = Prediction(self._basis[0], now, state, self._ahead,
+                                        self._basis[1], self._table, adv, *self._basis[2:])
+            return adv
         except Exception as exc:  # noqa: BLE001 - the loop must never die on one state
             first_line = (str(exc).strip().splitlines() or [""])[0][:80]
             return self.unavailable(f"prediction failed: {type(exc).__name__}: {first_line}",
                                     state.utc_s)
+
+    def _reused(self, s: AirDataState, now: float) -> Advisory | None:
+        """The last prediction's advisory counted down to state ``s``, when the step may
+        reuse it (:mod:`.reuse`); None when it predicts again."""
+        p = self._last
+        every = self.config.predict_every_s
+        if p is None or every <= 0.0:
+            return None
+        t_state = state_time(s, now)
+        dt = t_state - p.t_state
+        if not (0.0 <= dt < every and 0.0 <= now - p.now < every) \
+                or self._table is not p.table or self._in_air.history.due(t_state, s.fpa_rad):
+            return None
+        if self._on_way is not None:
+            _c, arrival, found = self._on_way
+            if now >= max(arrival, found + self.config.warning_hold_s):
+                return None  # the boom on its way is no longer held
+        if self._zones_for(s.lat_rad, s.lon_rad) is not p.zones or departure(p, s, dt):
+            return None
+        act = None if p.level_act_by is None else max(0.0, p.level_act_by - dt)
+        lv = self._levels
+        if lv.lower_since is not None or lv.raw(act, lv.level) != lv.level:
+            return None
+        adv = counted_down(p.advisory, dt, s.utc_s, self.tables_stale)
+        if adv is None:
+            return None
+        self.reused_steps += 1
+        return adv
 
     # ---- the booms already in the air ----------------------------------------------
     @property
@@ -362,17 +393,20 @@ class GroundAdvisor:
                                        join=now_k)
         self.last_prediction, self.last_trajectory, self._ahead = pred, traj, ahead
         fixed, later = (
-            self._probabilities(part, pred, whole.rows, traj, sigma, edge, pz, self._strips)
+            conflict_probabilities(part, pred.east_m, pred.north_m, whole.rows,
+                                   pred.cutoff_mach, traj.mach, sigma, edge, pz, self._strips)
             for part in split_conflicts(pred, pz, self.zones, self._strips,
                                         cfg.focus_threshold, cfg.reaction_s))
         conflicts = soonest_per_zone(fixed, later)
         first = later[0] if later else None
         fixed = self._hold_on_way(fixed, now)
         cut_now = float(pred.cutoff_mach[now_k])  # its table lookup, already done
-        res, act_by = self._resolution(pz, ahead, cut_now, first, now, sigma)
+        res, act_by = self._renewal.update(lambda: self._trial_base(pz, ahead, sigma),
+                                           cut_now, first, now)
         # an avoidable contact with nothing that clears is a warning (act-by 0)
-        level = self._levels.update(
-            None if first is None else (0.0 if act_by is None else act_by), now)
+        level_act_by = None if first is None else (0.0 if act_by is None else act_by)
+        level = self._levels.update(level_act_by, now)
+        self._basis = (t_state, pz, level_act_by)
         max_mach = max_mach_off_ground(cut_now, self._margin(sigma))
         p_reach = None if sigma is None else boom_probability(s.mach, cut_now, sigma)
         if sigma is not None and (named_zone := (fixed[0] if fixed else first)):
@@ -428,19 +462,6 @@ class GroundAdvisor:
             at_limit=r.at_limit and r.kind is not None, level_off=level_off,
         )
 
-    @staticmethod
-    def _probabilities(part: list[Conflict], pred: CarpetPrediction, rows: np.ndarray,
-                       traj: Trajectory, sigma: float | None, edge: EdgeSpread | None,
-                       pz: ProjectedZones, strips: np.ndarray) -> list[Conflict]:
-        """Each conflict's probability (issue 16): of the boom reaching its zone with the
-        edge ratio, of reaching the ground without it, none without a spread."""
-        if sigma is None or not part:
-            return part
-        if edge is None:
-            return with_probability(part, pred.cutoff_mach, traj.mach, sigma)
-        return with_edge_probability(part, pred.east_m, pred.north_m, rows, pred.cutoff_mach,
-                                     traj.mach, sigma, edge, pz, strips)
-
     def _margin(self, sigma: float | None) -> float:
         """Mach margin under the cutoff: ``z sigma`` at the configured confidence, else the
         configured fixed one."""
@@ -474,42 +495,6 @@ class GroundAdvisor:
         others = self.other_grounds(self._whole) if self._whole is not None else []
         return TrialBase(self.config, self._predictor, self._strips, pz, ahead, others,
                          margin_mach=self._margin(sigma))
-
-    def _resolution(self, pz: ProjectedZones, ahead: Trajectory, cut_now: float,
-                    first: Conflict | None, now: float, sigma: float | None = None
-                    ) -> tuple[Resolution | None, float | None]:
-        """The resolutions and the act-by time (counted down since their search);
-        ``sigma``: the cutoff's standard deviation (the lowest Mach tried, issue 16).
-
-        A new zone in conflict is searched at once, in full; afterwards the search is
-        renewed every ``refresh_s``, :data:`TRIALS_PER_STEP` trials per step (so no step
-        carries a whole search), and the act-by time counts down in between.
-        """
-        if first is None:
-            self._search = None
-            self._result = None
-            return None, None
-        cfg = self.config
-        if self._result is None or self._result_zone != first.zone_id:
-            self.resolution_searches += 1
-            gen = search(self._trial_base(pz, ahead, sigma), cut_now,
-                         first.time_to_contact_s)
-            self._result, self._result_t0 = run_search(gen), now
-            self._result_zone, self._search = first.zone_id, None
-        else:
-            if self._search is None and not 0.0 <= now - self._result_t0 < cfg.refresh_s:
-                self.resolution_searches += 1
-                self._search = search(self._trial_base(pz, ahead, sigma),
-                                      cut_now, first.time_to_contact_s)
-                self._search_t0 = now
-            if self._search is not None:
-                done = run_search(self._search, TRIALS_PER_STEP)
-                if done is not None:
-                    self._result, self._result_t0, self._search = done, self._search_t0, None
-        r = self._result
-        if r is None or r.act_by_s is None:
-            return r, None
-        return r, max(0.0, r.act_by_s - (now - self._result_t0))
 
 
 def _no_grounds(_whole: ProjectedZones) -> list[OtherGround]:

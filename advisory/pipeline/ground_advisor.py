@@ -308,26 +308,26 @@ class GroundAdvisor:
         reuse it (:mod:`.reuse`); None when it predicts again."""
         p = self._last
         every = self.config.predict_every_s
-        if p is None or every <= 0.0:
-            return None
         t_state = state_time(s, now)
-        dt = t_state - p.t_state
-        if not (0.0 <= dt < every and 0.0 <= now - p.now < every) \
-                or self._table is not p.table or self._in_air.history.due(t_state, s.fpa_rad):
+        dt = math.nan if p is None else t_state - p.t_state
+        if p is None or every <= 0.0 or not dt >= 0.0 or self._table is not p.table \
+                or self._zones_for(s.lat_rad, s.lon_rad) is not p.zones or departure(p, s, dt):
+            self._renewal.departed()  # the next renewal of the resolutions searches in full
+            return None
+        if not (dt < every and 0.0 <= now - p.now < every) \
+                or self._in_air.history.due(t_state, s.fpa_rad):
             return None
         if self._on_way is not None:
             _c, arrival, found = self._on_way
             if now >= max(arrival, found + self.config.warning_hold_s):
                 return None  # the boom on its way is no longer held
-        if self._zones_for(s.lat_rad, s.lon_rad) is not p.zones or departure(p, s, dt):
-            return None
         act = None if p.level_act_by is None else max(0.0, p.level_act_by - dt)
         lv = self._levels
         if lv.lower_since is not None or lv.raw(act, lv.level) != lv.level:
             return None
         adv = counted_down(p.advisory, dt, s.utc_s, self.tables_stale)
-        if adv is None:
-            return None
+        if adv is None or self._renewal.advance():
+            return None  # a time ran out, or a renewed resolution is to be offered
         self.reused_steps += 1
         return adv
 

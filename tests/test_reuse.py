@@ -20,10 +20,10 @@ import pytest
 from geographiclib.geodesic import Geodesic
 
 from advisory import units
+from advisory.bench.demo import demo_flights_dir
 from advisory.bench.expect import segments_of
 from advisory.bench.replay import replay_log
 from advisory.bench.scenario import prepare
-from advisory.bench.demo import demo_flights_dir
 from advisory.pipeline.advisor import Advisor
 from advisory.pipeline.config import AdvisorConfig, ConfigError, load_config
 from advisory.pipeline.results import Advisory, Conflict

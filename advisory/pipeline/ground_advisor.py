@@ -18,7 +18,9 @@ neither alone does, and the act-by time, the latest moment the offered action ca
 and still clear; the level is set on the act-by time with hysteresis (:mod:`.levels`).
 The air data's pressure altitude becomes the geometric height in the table's atmosphere
 first (:mod:`advisory.physics.pressure_altitude`). The advisory and its crew line are in
-:mod:`.results` and :mod:`.cues`.
+:mod:`.results` and :mod:`.cues`. A step may instead reuse the last prediction, its times
+counted down, while the flight goes as it said (:mod:`.reuse`); the resolution search is
+kept and renewed across steps (:mod:`.renewal`).
 
 Statuses (:data:`advisory.schema.ADV_STATUSES`): ``no_boom`` (the boom does not reach
 the ground over the look-ahead), ``clear`` (carpet on the ground, no conflict),

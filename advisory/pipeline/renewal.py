@@ -13,7 +13,17 @@ clears when an earlier one does not (the act-by's assumption, common practice, n
 Otherwise a renewal is a full search: after a departure, every :data:`FULL_SEARCH_S`, and
 on every renewal when every step predicts (``predict_every_s = 0``, as before). A full
 search costs 20-50 trials, a verification 1-3 (about 0.1 ms each); a verification does not
-look for better actions (a higher Mach, a smaller turn) until the next full search. A step
+look for better actions (a higher Mach, a smaller turn) until the next full search.
+
+Near the cutoff (the present Mach less than
+:data:`.resolutions.AT_LIMIT_MIN_EXCESS` above the lowest cutoff, where the booms graze
+and focus and the trials are least sure) an action is first offered only when two full
+searches in a row, from states at least ``refresh_s`` apart, find one: the first that
+finds one after a search that found none is held back, and the next renewal is a full
+search. Seed 1's encounter 279 (0.010 above the cutoff, noisy air data): full searches a
+second apart found nothing, a 5-deg left turn, nothing, a 10-deg left turn, nothing; the
+left turn offered from one of them and flown put 4.49 psf on a zone limited to 1.01
+(``tests/test_checked_resolutions.py``). A step
 that reuses the last prediction flies the renewal's trials too (:meth:`Renewal.advance`)
 and predicts when a renewal brings a new result, so it is offered at once.
 
@@ -103,6 +113,7 @@ class Renewal:
         self._search: Search | None = None
         self._search_t0 = 0.0  # the renewal in progress's start (and the last one's)
         self._as_predicted = False  # no departure since the last full search began
+        self._held_back = False  # a near-cutoff first offer waits for the next search
 
     def departed(self) -> None:
         """The flight left the prediction (or none was made): the next renewal searches in
@@ -133,10 +144,11 @@ class Renewal:
         if self._result is None or self._result_zone != first.zone_id:
             self.searches += 1
             gen = search(bases(), cut_now, first.time_to_contact_s)
-            self._result, self._result_t0 = run_search(gen), now
+            self._result, self._held_back = None, False
+            self._take(run_search(gen), now)
             self._result_zone, self._search = first.zone_id, None
             self._full_t0 = self._search_t0 = now
-            self._as_predicted = True
+            self._as_predicted = not self._held_back
         else:
             if self._search is None and not 0.0 <= now - self._search_t0 < self.config.refresh_s:
                 last = self._result
@@ -168,6 +180,21 @@ class Renewal:
         if done is self._result:
             return False
         # a full search's (a verification that failed went on to one)
-        self._result, self._result_t0 = done, self._search_t0
+        self._take(done, self._search_t0)
         self._full_t0 = self._search_t0
         return True
+
+    def _take(self, done: Resolution | None, t0: float) -> None:
+        """A full search's result ``done`` (started at ``t0``) replaces the last, except
+        a near-cutoff first offer, held back until the next full search finds one too
+        (module notes): nothing is offered meanwhile."""
+        if done is None:
+            return
+        offers = done.kind is not None
+        had = self._result is not None and self._result.kind is not None
+        if offers and done.near and not had and not self._held_back:
+            self._held_back, self._as_predicted = True, False  # the next renewal: in full
+            done = Resolution(trials=done.trials, near=True)
+        else:
+            self._held_back = False
+        self._result, self._result_t0 = done, t0

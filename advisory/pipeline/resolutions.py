@@ -99,7 +99,9 @@ class Resolution:
 
     ``kind`` is the action offered first: ``mach``, ``left``, ``right``, ``combined_left``,
     ``combined_right`` or None (nothing clears); ``act_by_s`` the latest onset of that
-    action that still clears (None when nothing clears); ``trials`` the trials flown.
+    action that still clears (None when nothing clears); ``trials`` the trials flown;
+    ``near``: the present Mach was less than :data:`AT_LIMIT_MIN_EXCESS` above the lowest
+    cutoff Mach (:mod:`advisory.pipeline.renewal` confirms a first offer there).
     """
 
     resolve_mach: float | None = None
@@ -110,6 +112,7 @@ class Resolution:
     act_by_s: float | None = None
     trials: int = 0
     at_limit: bool = False
+    near: bool = False
 
 
 Search = Generator[None, None, Resolution]
@@ -133,7 +136,7 @@ def search(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:
         if at_limit.kind is not None:
             return dataclasses.replace(at_limit, at_limit=True)
         return dataclasses.replace(found, trials=at_limit.trials)
-    return found
+    return dataclasses.replace(found, near=near)
 
 
 def _search_once(base: TrialBase, cutoff_now: float, contact_s: float) -> Search:

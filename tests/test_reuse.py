@@ -216,3 +216,36 @@ def test_replays_say_what_predicting_every_step_says(flight, tmp_path) -> None:
     assert [(s.status, s.zone_id) for s in a] == [(s.status, s.zone_id) for s in b]
     for x, y in zip(a, b):
         assert x.t_start_s == pytest.approx(y.t_start_s, abs=1.0)
+
+
+def test_a_first_offer_near_the_cutoff_waits_for_the_next_search() -> None:
+    # advisory.pipeline.renewal: near the cutoff (Resolution.near) a first offer after a
+    # search that found none is held back until the next full search finds one too; away
+    # from it, or once something is on offer, a search's result stands at once. Hand-made
+    # results (the searches themselves are flown in test_checked_resolutions, whose
+    # near-cutoff-279 is the measured case).
+    from advisory.pipeline.renewal import Renewal
+    from advisory.pipeline.resolutions import Resolution
+
+    turn = Resolution(turn_left_deg=5.0, kind="left", act_by_s=30.0, near=True)
+    nothing = Resolution(near=True)
+    r = Renewal(AdvisorConfig())
+    r._take(nothing, 0.0)
+    r._take(turn, 1.0)
+    assert r._result is not None and r._result.kind is None  # held back
+    r._take(turn, 2.0)
+    assert r._result is turn and r._result_t0 == 2.0  # confirmed by the next search
+    r._take(nothing, 3.0)
+    r._take(turn, 4.0)
+    r._take(nothing, 5.0)  # flipped back: never offered
+    assert r._result is nothing
+    far = dataclasses.replace(turn, near=False)
+    r._take(far, 6.0)
+    assert r._result is far  # away from the cutoff: at once
+    r2 = Renewal(AdvisorConfig())
+    mach = dataclasses.replace(turn, kind="mach", resolve_mach=1.12, turn_left_deg=None,
+                               near=False)
+    r2._take(mach, 0.0)
+    assert r2._result is mach
+    r2._take(turn, 1.0)
+    assert r2._result is turn  # something was on offer already: replaced at once

@@ -192,7 +192,8 @@ class GroundAdvisor:
     @property
     def present_condition(self) -> tuple[float, float, float, float] | None:
         """(geometric height m, Mach, true heading rad, flight-path angle rad) of the last
-        state stepped on; None before one."""
+        state predicted from (a reused step's state lies within :mod:`.reuse`'s tolerances
+        of it); None before one."""
         a = self._ahead
         if a is None:
             return None

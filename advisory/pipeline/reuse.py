@@ -29,7 +29,14 @@ of these hold; otherwise it predicts again:
 A manoeuvre shows at once (a roll-in changes the bank by ``roll_rate`` / step rate each
 step), so during one nearly every step predicts, as before; in steady, level, straight
 flight one step in ``predict_every_s`` times the step rate does. The replay runs
-the same code (``boom-advisory replay``), so a replay reproduces the live advice.
+the same code (``boom-advisory replay``), so a replay reproduces the live advice. What a
+reused step cannot see is what only the passing time changes within the prediction's own
+spacing: a boom whose emission crosses the reaction time and becomes unavoidable is named
+up to ``predict_every_s`` later than predicting every step would (0.1 s in the bundled
+crosswind flight; the emissions themselves are ``step_s`` apart, so either way the moment
+is known to about that), and a contact time counts down smoothly where predicting every
+step jumps with the emissions' phase (up to 2.5 s apart in that flight;
+``tests/test_replay_golden.py`` lists every field that moved).
 
 The tolerances are project choices (common practice, no source), each sized so that the
 carpet it would move stays well inside the prediction's own spacing (3 s of flight, about

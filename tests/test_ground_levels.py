@@ -19,6 +19,7 @@ References (outside the code under test):
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import socket
@@ -109,6 +110,18 @@ def fl500(mach: float):
     return state(mach=mach, alt_ft=ALT_FT, gs_kt=mach * c / units.KT)
 
 
+def settled(adv, st, seconds: float = 3.0):
+    """The advisory after stepping ``adv`` on state ``st`` at 10 Hz for ``seconds`` (its
+    receive time kept fresh): near the cutoff a first offer waits for the next full search
+    to find one too (advisory.pipeline.renewal), so a resolution is read once a renewal
+    has come."""
+    a = None
+    for i in range(int(round(seconds * 10)) + 1):
+        now = i / 10.0
+        a = adv.step(dataclasses.replace(st, rx_monotonic=now), now)
+    return a
+
+
 def mesa(zone_id: str, distance_km: float, half_km: float = 10.0, elevation_ft=MESA_FT,
          azimuth_deg: float = 90.0, limit_psf: float = 0.0) -> dict:
     f = square(zone_id, *point_along(distance_km * 1e3, azimuth_deg), half_km=half_km,
@@ -164,7 +177,7 @@ def test_a_zone_on_a_plateau_is_in_conflict_where_sea_level_has_no_boom(
     before = GroundAdvisor(sea_table, zs, FIXED).step(fl500(1.14), 0.0)
     assert before.status == "no_boom"  # what every zone got before
     adv = Advisor(sea_table, zs, FIXED, level_tables=level_maker(sea_table, mesa_table))
-    a = adv.step(fl500(1.14), 0.0)
+    a = settled(adv, fl500(1.14))  # 0.011 above the mesa's cutoff: a renewal confirms
     assert a.status not in ("clear", "no_boom", "unavailable"), a
     assert a.zone_id == "highmesa"
     cut = closed_form_cutoff(units.ft_to_m(MESA_FT), flown_height_m())
@@ -197,12 +210,12 @@ def test_a_resolution_for_a_sea_level_zone_keeps_the_plateau_clear(sea_table,
     # and the mesa lies ahead within the look-ahead.
     zs = zoneset(mesa("coast", 70, half_km=5.0, elevation_ft=None), mesa("highmesa", 120))
     cut_mesa = closed_form_cutoff(units.ft_to_m(MESA_FT), flown_height_m())
-    alone = GroundAdvisor(sea_table, zoneset(mesa("coast", 70, half_km=5.0,
-                                                  elevation_ft=None))).step(fl500(1.2), 0.0)
+    alone = settled(GroundAdvisor(sea_table, zoneset(mesa("coast", 70, half_km=5.0,
+                                                          elevation_ft=None))), fl500(1.2))
     assert alone.zone_id == "coast" and alone.resolve_mach is not None
     assert alone.resolve_mach > cut_mesa  # what was offered before: it booms the mesa
-    a = Advisor(sea_table, zs, level_tables=level_maker(sea_table, mesa_table)).step(
-        fl500(1.2), 0.0)
+    a = settled(Advisor(sea_table, zs, level_tables=level_maker(sea_table, mesa_table)),
+                fl500(1.2))
     assert a.zone_id == "coast"
     assert a.resolve_mach is None or a.resolve_mach < cut_mesa - lk.NEAR_CUTOFF_BAND, a
 
